@@ -1,0 +1,181 @@
+/* History reader: the only module (with label/ for its own tracing needs and
+ * cli/ for hooks) that talks to libgit2. Streams one omen_change per commit:
+ * the commit's facts, every changed file, every -U0 hunk and every added and
+ * deleted line. Memory is bounded by the largest commit, not the history. */
+#ifndef OMEN_HISTORY_H
+#define OMEN_HISTORY_H
+
+#include <stddef.h>
+#include <stdint.h>
+#include <git2.h>
+#include "omen/util.h"
+
+#define OMEN_OID_HEX 40 /* libgit2 1.5 reads SHA-1 repositories */
+
+typedef struct omen_repo omen_repo;
+
+/* Opens the repository the way git does: GIT_DIR and friends from the
+ * environment (GIT_REPOSITORY_OPEN_FROM_ENV), path may be a subdirectory;
+ * path NULL means the current directory. Turns off strict hash
+ * verification and enlarges the object cache for bulk reading. */
+int omen_repo_open(omen_repo **out, const char *path);
+void omen_repo_free(omen_repo *r);
+git_repository *omen_repo_git(omen_repo *r);
+const char *omen_repo_gitdir(const omen_repo *r);   /* with trailing '/' */
+const char *omen_repo_workdir(const omen_repo *r);  /* NULL when bare */
+int omen_repo_is_shallow(omen_repo *r);
+/* $GIT_DIR/omen/<name>, directory created. Caller frees. */
+int omen_repo_omen_path(char **out, omen_repo *r, const char *name);
+
+/* ---- configuration (git config section "omen") --------------------------
+ * Looks in GIT_CONFIG_PARAMETERS first (what `git -c k=v` sets; libgit2
+ * does not read it), then the repository's config stack. Key names are
+ * case-insensitive as in git ("omen.maxFixFiles"). Missing key: returns 0
+ * and leaves *out at the caller's default. Bad value: OMEN_EINVAL with
+ * "bad config value 'omen.x': 'y' is not an integer". */
+int omen_config_string(char **out, omen_repo *r, const char *key); /* malloc'd or untouched */
+int omen_config_int(int64_t *out, omen_repo *r, const char *key);  /* accepts k/m/g suffixes */
+int omen_config_bool(int *out, omen_repo *r, const char *key);
+int omen_config_double(double *out, omen_repo *r, const char *key);
+/* Parses GIT_CONFIG_PARAMETERS text (exposed for the fuzz target):
+ * calls cb for every key=value pair; returns OMEN_EINVAL on bad quoting. */
+int omen_config_parse_params(const char *text,
+	int (*cb)(const char *key, const char *val, void *payload), void *payload);
+
+/* ---- records ------------------------------------------------------------- */
+typedef enum {
+	OMEN_FILE_ADDED = 'A',
+	OMEN_FILE_DELETED = 'D',
+	OMEN_FILE_MODIFIED = 'M',
+	OMEN_FILE_RENAMED = 'R',
+	OMEN_FILE_TYPECHANGE = 'T'
+} omen_file_status;
+
+enum {
+	OMEN_FILE_BINARY = 1 << 0,
+	OMEN_FILE_SUBMODULE = 1 << 1,
+	OMEN_FILE_TOO_LARGE = 1 << 2, /* over max_blob_bytes: no hunks read */
+	OMEN_FILE_SYMLINK = 1 << 3,
+	OMEN_FILE_MODE_ONLY = 1 << 4
+};
+
+typedef struct {
+	const char *old_path;  /* NULL for added files */
+	const char *new_path;  /* NULL for deleted files */
+	git_oid old_blob, new_blob;
+	char status;           /* omen_file_status */
+	unsigned flags;        /* OMEN_FILE_* */
+	uint32_t hunk_off;     /* first hunk in omen_change.hunks */
+	uint32_t nhunks;
+	uint32_t added, deleted;  /* equal git log --numstat (0 0 for binary) */
+	int64_t old_nlines;    /* lines in the old blob (0 when added/binary) */
+} omen_file;
+
+typedef struct {
+	int32_t old_start, old_lines;  /* as in "@@ -a,b +c,d @@" of -U0 */
+	int32_t new_start, new_lines;
+	uint32_t line_off;   /* first line in omen_change.lines */
+	uint32_t nlines;     /* deleted lines first, then added lines */
+	uint32_t file;       /* index into omen_change.files */
+} omen_hunk;
+
+typedef struct {
+	char origin;         /* '-' deleted, '+' added */
+	int32_t old_lineno;  /* 1-based, -1 for added lines */
+	int32_t new_lineno;  /* 1-based, -1 for deleted lines */
+	uint32_t text_off;   /* into omen_change.text; no trailing newline */
+	uint32_t text_len;
+} omen_line;
+
+typedef struct {
+	git_oid id;
+	char hex[OMEN_OID_HEX + 1];
+	uint32_t nparents;
+	const git_oid *parents;   /* nparents ids; a missing parent (shallow) is kept */
+	int64_t author_time;      /* seconds since the epoch, UTC */
+	int32_t author_tz;        /* minutes east of UTC */
+	int64_t commit_time;
+	int32_t commit_tz;
+	const char *author_name;
+	const char *author_email; /* lowercased, surrounding <> and spaces removed */
+	const char *message;      /* raw bytes, may be invalid UTF-8 */
+	int boundary;             /* 1 when a parent is missing (shallow edge) */
+} omen_commit;
+
+typedef struct {
+	omen_commit commit;
+	omen_file *files;  size_t nfiles;
+	omen_hunk *hunks;  size_t nhunks;
+	omen_line *lines;  size_t nlines;
+	const char *text;  /* line text storage */
+	/* private */
+	omen_arena arena;
+	size_t files_cap, hunks_cap, lines_cap;
+	omen_buf textbuf;
+} omen_change;
+
+void omen_change_init(omen_change *c);
+void omen_change_clear(omen_change *c);   /* keeps capacity */
+void omen_change_free(omen_change *c);
+static inline const char *omen_line_text(const omen_change *c, const omen_line *l)
+{
+	return c->text + l->text_off;
+}
+
+/* ---- walking ------------------------------------------------------------- */
+typedef struct {
+	const char *const *revs;  /* "A..B", "A...B", "^A", "B", NULL-terminated; NULL = HEAD */
+	int all;                  /* every ref (as --all) */
+	int64_t since, until;     /* commit-time bounds, 0 = none */
+	int include_merges;       /* default 0; a merge is diffed against its first parent */
+	int newest_first;         /* default 0: oldest first (topological, parents first) */
+	int first_parent;         /* follow first parents only */
+	int64_t max_blob_bytes;   /* larger blobs are skipped (OMEN_FILE_TOO_LARGE); 0 = 50 MiB */
+	int detect_renames;       /* exact blob-id renames; default on (set -1 to turn off) */
+	int threads;              /* diff workers; 0 = online cores (max 2) */
+	int with_lines;           /* 0 = hunks and counts only, no line text */
+} omen_walk_opts;
+
+#define OMEN_WALK_OPTS_INIT {NULL, 0, 0, 0, 0, 0, 0, 0, 0, 0, 1}
+
+/* Called once per commit in walk order; returning non-zero stops the walk
+ * and that value is returned. The change is only valid during the call. */
+typedef int (*omen_change_cb)(const omen_change *c, void *payload);
+
+/* Walks revs and streams each commit's change. A shallow clone is walked to
+ * its boundary (commits there get boundary=1 and a diff against nothing is
+ * NOT produced: their files are listed as added). */
+int omen_history_walk(omen_repo *r, const omen_walk_opts *o, omen_change_cb cb, void *payload);
+
+/* Commit ids only, in walk order (cheap: no diffs). *out malloc'd. */
+int omen_history_list(git_oid **out, size_t *n, omen_repo *r, const omen_walk_opts *o);
+
+/* Reads one commit's change (against its first parent). */
+int omen_history_change(omen_change *out, omen_repo *r, const git_oid *id, const omen_walk_opts *o);
+/* The staged changes (index against HEAD, or against nothing when unborn),
+ * as a change whose commit has a zero id, the configured identity and now. */
+int omen_history_staged(omen_change *out, omen_repo *r, const omen_walk_opts *o);
+
+/* Resolves a revision string (anything git_revparse_single takes). */
+int omen_history_resolve(git_oid *out, omen_repo *r, const char *spec);
+
+/* ---- tokenizers (language-agnostic) -------------------------------------
+ * Code: identifiers (also split into parts on camelCase and '_': the whole
+ * identifier and, when it has several parts, each lowercased part),
+ * keywords and identifiers alike, operators (longest match of common
+ * multi-char operators), numbers bucketed ("<num0>", "<num1>", "<num2-9>",
+ * "<num10-99>", "<numbig>", "<float>", "<hex>"), string and char literals
+ * collapsed to "<str>", comments to "<comment>". The callback gets each token
+ * (not NUL-terminated). Invalid UTF-8 bytes are skipped, never crash. */
+typedef void (*omen_token_cb)(const char *tok, size_t len, void *payload);
+void omen_tokenize_code(const char *s, size_t n, omen_token_cb cb, void *payload);
+/* Message: lowercased words, numbers bucketed, "#123" -> "<issue>",
+ * 7-40 hex digit words -> "<sha>", URLs -> "<url>". */
+void omen_tokenize_message(const char *s, size_t n, omen_token_cb cb, void *payload);
+
+/* Whether a line is blank/whitespace-only, or a comment only line in the
+ * common syntaxes (//, #, /ASTERISK, ASTERISK, --, ;, %). Used by the labeller. */
+int omen_line_is_blank(const char *s, size_t n);
+int omen_line_is_comment(const char *s, size_t n);
+
+#endif

@@ -1,0 +1,94 @@
+/* Labeller: fix-commit identification, one oldest-first line-origin pass
+ * (SZZ, Sliwerski, Zimmermann & Zeller, MSR 2005, with the refinements of
+ * DESIGN.md "Labels"), label file I/O. */
+#ifndef OMEN_LABEL_H
+#define OMEN_LABEL_H
+
+#include <stdint.h>
+#include "omen/history.h"
+
+typedef enum {
+	OMEN_LABEL_UNKNOWN = -1,
+	OMEN_LABEL_CLEAN = 0,
+	OMEN_LABEL_INDUCING = 1
+} omen_label_value;
+
+/* How a commit was identified as a fix (bit set). */
+enum {
+	OMEN_FIXBY_PATTERN = 1 << 0,   /* message matched omen.fixPattern */
+	OMEN_FIXBY_LIST = 1 << 1,      /* listed in the user's fix file */
+	OMEN_FIXBY_ISSUE = 1 << 2,     /* references an issue id from the fix file */
+	OMEN_FIXBY_NAMED = 1 << 3      /* names the commit it repairs (Fixes:, revert) */
+};
+
+/* Fix identification rules. */
+typedef struct omen_fixrules omen_fixrules;
+/* pattern NULL = default; a bad regex is OMEN_EINVAL
+ * "bad fix pattern 'x': <regerror text>". */
+int omen_fixrules_new(omen_fixrules **out, const char *pattern);
+/* One id per line: a commit id (hex, >= 7) or an issue id ("#123", "PROJ-9"),
+ * optionally followed by whitespace and an ISO date (the issue's open date). */
+int omen_fixrules_load_list(omen_fixrules *fr, const char *path);
+void omen_fixrules_free(omen_fixrules *fr);
+/* Returns OMEN_FIXBY_* bits (0 = not a fix). Named commits (hex prefixes
+ * found in "Fixes:"/revert lines) are appended to named[] up to max_named. */
+unsigned omen_fix_classify(const omen_fixrules *fr, const omen_commit *c,
+	char named[][OMEN_OID_HEX + 1], int max_named, int *n_named);
+
+typedef struct {
+	char id[OMEN_OID_HEX + 1];
+	int64_t time;            /* author time */
+	int label;               /* omen_label_value */
+	int is_fix;
+	unsigned fix_by;         /* OMEN_FIXBY_* when is_fix */
+	uint32_t traced_lines;   /* lines traced to this commit */
+	uint32_t nfixes;         /* fixes that traced to it */
+	const char *const *fixes;/* their ids */
+} omen_label_rec;
+
+/* In-memory label set, looked up by commit id. */
+typedef struct omen_labels omen_labels;
+int omen_labels_load(omen_labels **out, const char *path);  /* JSON Lines */
+/* Parses label file bytes (exposed for the fuzz target). A broken line is
+ * OMEN_ECORRUPT "bad label file 'p': line N: <why>". */
+int omen_labels_parse(omen_labels **out, const char *name, const char *data, size_t n);
+void omen_labels_free(omen_labels *l);
+const omen_label_rec *omen_labels_get(const omen_labels *l, const char *hex);
+size_t omen_labels_count(const omen_labels *l);
+const omen_label_rec *omen_labels_at(const omen_labels *l, size_t i); /* file order */
+/* The history the labels cover (newest commit id), for cache keys. */
+const char *omen_labels_head(const omen_labels *l);
+
+typedef struct {
+	const char *const *revs;   /* NULL = HEAD */
+	const char *fix_pattern;   /* NULL = omen.fixPattern or default */
+	const char *fix_list;      /* NULL = none */
+	int64_t window_days;       /* default 90 */
+	int max_fix_files;         /* default 50 */
+	int skip_blank;            /* refinements: 1 on (default), 0 off */
+	int skip_comments;
+	int ws_keeps_origin;
+	int follow_renames;
+	int use_issue_dates;
+	int incremental;           /* reuse the previous pass's state */
+	int64_t max_bytes;         /* memory ceiling, 0 = none */
+} omen_label_opts;
+void omen_label_opts_init(omen_label_opts *o);
+
+typedef struct {
+	size_t commits, fixes, inducing, clean, unknown;
+	size_t fixes_by_pattern, fixes_by_list, fixes_by_issue, fixes_by_named;
+	size_t fixes_add_only;     /* fixes that only add lines: untraceable */
+	size_t fixes_skipped_large;
+	size_t traced_lines;
+	double latency_days_q[3];  /* fix latency quartiles */
+	int shallow;
+	double seconds;
+} omen_label_summary;
+
+/* Runs the pass and writes the label file atomically to out_path
+ * (NULL = $GIT_DIR/omen/labels.jsonl). */
+int omen_label_run(omen_label_summary *sum, omen_repo *r, const omen_label_opts *o,
+	const char *out_path);
+
+#endif

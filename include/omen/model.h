@@ -1,0 +1,104 @@
+/* The hierarchical commit model (DESIGN.md "Model"), its training loop,
+ * Platt calibration, the two baselines and the model file format. Never
+ * prints: progress goes through a callback. */
+#ifndef OMEN_MODEL_H
+#define OMEN_MODEL_H
+
+#include <stddef.h>
+#include <stdint.h>
+#include <cjson/cJSON.h>
+#include "omen/features.h"
+
+typedef struct omen_model omen_model;
+
+typedef struct {
+	int epochs;              /* maximum; early stopping may stop sooner (default 30) */
+	int patience;            /* epochs without validation AUC gain (default 5) */
+	int batch;               /* commits per step (default 32) */
+	float lr, weight_decay, clip;
+	float dropout;
+	int threads;             /* 0 = online cores, max 2 */
+	uint64_t seed;
+	double valid_frac, test_frac;   /* time-ordered split shares (0.15, 0.15) */
+	int refit;               /* refit on train+valid for the shipped model (default 1) */
+	int dim;                 /* D token embedding width (default 32) */
+	int channels;            /* C hidden width (default 64) */
+	void (*progress)(void *payload, int epoch, int epochs, float loss, float valid_auc, double eta_s);
+	void *payload;
+} omen_train_opts;
+void omen_train_opts_init(omen_train_opts *o);
+
+/* Scores of one model on the test slice (also used for baselines). */
+typedef struct {
+	size_t n, positives;
+	double auc, ap, brier, recall20;
+} omen_slice_scores;
+
+typedef struct {
+	size_t n_train, n_valid, n_test, pos_train, pos_valid, pos_test;
+	size_t capped_commits;
+	int epochs_run, best_epoch;
+	double seconds;
+	omen_slice_scores model, lr_metrics, lines_added;
+	float threshold;         /* chosen on validation (max F1) */
+} omen_train_report;
+
+/* Trains on the labelled samples of ds (label >= 0), time ordered.
+ * Too few labelled commits or no positives: OMEN_EINVAL with a message that
+ * says how many there are and how many are needed. */
+int omen_model_train(omen_model **out, omen_train_report *rep, const omen_dataset *ds,
+	const omen_train_opts *o);
+/* Trains on an explicit subset (indices into ds, oldest first) with explicit
+ * train/valid split: the building block of walk-forward evaluation. */
+int omen_model_train_subset(omen_model **out, const omen_dataset *ds,
+	const size_t *train_idx, size_t n_train, const size_t *valid_idx, size_t n_valid,
+	const omen_train_opts *o);
+
+/* Per-sample explanation filled by omen_model_predict when asked. */
+typedef struct {
+	int32_t nfiles, nhunks, ntok;
+	float *file_attn;     /* [nfiles] attention over files */
+	float *hunk_attn;     /* [nhunks] attention inside each file */
+	float *hunk_contrib;  /* [nhunks] gradient x input of the hunk vector */
+	float *tok_contrib;   /* [ntok] gradient x input of token embeddings */
+	float metric_contrib[OMEN_NMETRICS];  /* gradient x standardized input */
+	float message_contrib;
+	int32_t cap;          /* allocated sizes */
+} omen_explain;
+void omen_explain_free(omen_explain *e);
+
+/* Calibrated probability and raw logit of one sample; ex may be NULL. */
+int omen_model_predict(float *out_prob, float *out_logit, const omen_model *m,
+	const omen_sample *s, omen_explain *ex);
+/* Baseline probability from the logistic regression on metrics. */
+float omen_model_predict_lr(const omen_model *m, const omen_sample *s);
+
+/* Model file: magic, version, length-prefixed JSON metadata, 64-byte
+ * aligned float32 tensors, CRC32 over all of it; written atomically. */
+int omen_model_save(const omen_model *m, const char *path);
+int omen_model_load(omen_model **out, const char *path);
+/* Parses model bytes without trusting any length (fuzz target entry). */
+int omen_model_parse(omen_model **out, const char *name, const void *data, size_t n);
+void omen_model_free(omen_model *m);
+/* Metadata (owned by the model): dims, training range and date,
+ * calibration, threshold, test-slice metrics. */
+const cJSON *omen_model_meta(const omen_model *m);
+float omen_model_threshold(const omen_model *m);
+/* Metrics state saved with the model (history up to the training head). */
+const omen_metrics *omen_model_metrics_state(const omen_model *m);
+const char *omen_model_head(const omen_model *m);   /* newest trained commit id */
+
+/* Logistic regression (L2, Newton/IRLS) on standardized features: the
+ * metrics baseline, exposed for tests and eval. X [N,P] row-major. */
+typedef struct {
+	int p;
+	double *w;     /* [p] */
+	double b;
+	double *mean, *scale;   /* standardization */
+} omen_logreg;
+int omen_logreg_fit(omen_logreg *out, const double *X, const double *y, int n, int p,
+	double l2);
+double omen_logreg_predict(const omen_logreg *lr, const double *x);
+void omen_logreg_free(omen_logreg *lr);
+
+#endif

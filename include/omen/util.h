@@ -1,0 +1,132 @@
+/* Small shared helpers: growable buffers, arenas, hashing, a seeded RNG,
+ * atomic file writes, bounded cursors, progress output. No git, no models. */
+#ifndef OMEN_UTIL_H
+#define OMEN_UTIL_H
+
+#include <stddef.h>
+#include <stdint.h>
+#include <stdio.h>
+
+/* ---- growable byte buffer ------------------------------------------------ */
+typedef struct {
+	char *ptr;   /* always NUL-terminated when non-NULL */
+	size_t len;
+	size_t cap;
+} omen_buf;
+
+#define OMEN_BUF_INIT {NULL, 0, 0}
+int omen_buf_grow(omen_buf *b, size_t extra);
+int omen_buf_put(omen_buf *b, const void *data, size_t n);
+int omen_buf_puts(omen_buf *b, const char *s);
+int omen_buf_printf(omen_buf *b, const char *fmt, ...)
+#if defined(__GNUC__)
+	__attribute__((format(printf, 2, 3)))
+#endif
+	;
+/* Appends s as a JSON string literal (quotes included). Invalid UTF-8 bytes
+ * become U+FFFD so the output is always valid JSON. */
+int omen_buf_put_json_string(omen_buf *b, const char *s, size_t n);
+void omen_buf_clear(omen_buf *b);
+void omen_buf_free(omen_buf *b);
+/* Detaches the memory; caller frees. */
+char *omen_buf_detach(omen_buf *b);
+
+/* ---- growable typed arrays ---------------------------------------------- */
+/* Grows *ptr (elements of size elem) so that at least need elements fit. */
+int omen_array_reserve(void **ptr, size_t *cap, size_t need, size_t elem);
+#define OMEN_ARRAY_RESERVE(p, cap, need) \
+	omen_array_reserve((void **)&(p), &(cap), (need), sizeof(*(p)))
+
+/* ---- arena: bump allocator, freed at once ------------------------------- */
+typedef struct omen_arena_block omen_arena_block;
+typedef struct {
+	omen_arena_block *head;
+	size_t block_size;
+	size_t total; /* bytes handed out */
+} omen_arena;
+void omen_arena_init(omen_arena *a, size_t block_size);
+void *omen_arena_alloc(omen_arena *a, size_t n);  /* 16-byte aligned, NULL on OOM */
+char *omen_arena_strndup(omen_arena *a, const char *s, size_t n);
+void omen_arena_reset(omen_arena *a);  /* keeps the first block */
+void omen_arena_free(omen_arena *a);
+
+/* ---- hashing ------------------------------------------------------------- */
+/* 64-bit FNV-1a then a murmur finaliser: stable across platforms and runs,
+ * used for token hashing (model inputs depend on it: never change it). */
+uint64_t omen_hash64(const void *data, size_t n, uint64_t seed);
+uint32_t omen_crc32(uint32_t crc, const void *data, size_t n);
+
+/* ---- string -> pointer hash map (open addressing) ----------------------- */
+typedef struct {
+	char **keys;
+	void **vals;
+	size_t cap, len;
+} omen_strmap;
+int omen_strmap_put(omen_strmap *m, const char *key, void *val); /* copies key */
+void *omen_strmap_get(const omen_strmap *m, const char *key);
+void **omen_strmap_slot(omen_strmap *m, const char *key, int *created); /* NULL on OOM */
+void omen_strmap_free(omen_strmap *m, void (*free_val)(void *));
+
+/* ---- RNG: xoshiro256** (Blackman & Vigna 2018), explicit state ---------- */
+typedef struct {
+	uint64_t s[4];
+} omen_rng;
+void omen_rng_seed(omen_rng *r, uint64_t seed);  /* splitmix64 expansion */
+uint64_t omen_rng_next(omen_rng *r);
+double omen_rng_uniform(omen_rng *r);            /* [0,1) with 53 bits */
+float omen_rng_normal(omen_rng *r);              /* Box-Muller, N(0,1) */
+
+/* ---- files --------------------------------------------------------------- */
+/* Writes data to path atomically: path.tmp.<pid> in the same directory,
+ * fsync, rename. On failure the old file is untouched. */
+int omen_file_write_atomic(const char *path, const void *data, size_t n);
+/* Open a temp file beside path for streaming writes; commit renames it. */
+typedef struct {
+	FILE *fp;
+	char *path;
+	char *tmp;
+} omen_atomic_file;
+int omen_atomic_open(omen_atomic_file *f, const char *path);
+int omen_atomic_commit(omen_atomic_file *f);  /* fflush, fsync, close, rename */
+void omen_atomic_abort(omen_atomic_file *f);  /* close and unlink temp */
+/* Reads a whole file (max bytes limit, 0 = none). */
+int omen_file_read(omen_buf *out, const char *path, size_t max);
+/* mkdir -p for the directory part of path (or path itself when is_dir). */
+int omen_mkdirs(const char *path, int is_dir);
+
+/* Advisory exclusive lock on path (created if missing) with flock().
+ * wait_ms < 0 waits forever, 0 fails at once with OMEN_ELOCKED. */
+int omen_lock_acquire(int *out_fd, const char *path, int wait_ms);
+void omen_lock_release(int fd);
+
+/* ---- bounded cursor for parsers of outside bytes ------------------------ */
+typedef struct {
+	const unsigned char *p;
+	size_t n;   /* bytes left */
+	int err;    /* set once a read ran past the end */
+} omen_cursor;
+void omen_cursor_init(omen_cursor *c, const void *data, size_t n);
+int omen_cursor_u8(omen_cursor *c, uint8_t *out);
+int omen_cursor_u32le(omen_cursor *c, uint32_t *out);
+int omen_cursor_u64le(omen_cursor *c, uint64_t *out);
+int omen_cursor_bytes(omen_cursor *c, const void **out, size_t n);
+/* Next line without its '\n' (and '\r' before it); 0 at end of input. */
+int omen_cursor_line(omen_cursor *c, const char **out, size_t *len);
+
+/* ---- time and progress --------------------------------------------------- */
+double omen_now(void);  /* monotonic seconds */
+/* Progress to stderr when it is a terminal: "label: 1234/5678 commits". */
+typedef struct {
+	const char *what;
+	uint64_t total;
+	double last;
+	int enabled;
+} omen_progress;
+void omen_progress_start(omen_progress *p, const char *what, uint64_t total);
+void omen_progress_update(omen_progress *p, uint64_t done, const char *extra);
+void omen_progress_end(omen_progress *p);
+
+/* UTF-8 validity of n bytes. */
+int omen_utf8_valid(const char *s, size_t n);
+
+#endif

@@ -1,0 +1,217 @@
+/* Growable buffers, typed arrays and arenas. */
+#include <stdarg.h>
+#include <stdlib.h>
+#include <string.h>
+#include "omen/error.h"
+#include "omen/util.h"
+
+int omen_buf_grow(omen_buf *b, size_t extra)
+{
+	size_t need = b->len + extra + 1, cap;
+	char *p;
+	if (need < b->len)
+		return omen_error_set(OMEN_ENOMEM, "out of memory");
+	if (need <= b->cap)
+		return 0;
+	cap = b->cap ? b->cap : 64;
+	while (cap < need)
+		cap = cap * 2 > cap ? cap * 2 : need;
+	p = realloc(b->ptr, cap);
+	if (!p)
+		return omen_error_set(OMEN_ENOMEM, "out of memory (%zu bytes)", cap);
+	b->ptr = p;
+	b->cap = cap;
+	return 0;
+}
+
+int omen_buf_put(omen_buf *b, const void *data, size_t n)
+{
+	int e = omen_buf_grow(b, n);
+	if (e)
+		return e;
+	if (n)
+		memcpy(b->ptr + b->len, data, n);
+	b->len += n;
+	b->ptr[b->len] = '\0';
+	return 0;
+}
+
+int omen_buf_puts(omen_buf *b, const char *s) { return omen_buf_put(b, s, strlen(s)); }
+
+int omen_buf_printf(omen_buf *b, const char *fmt, ...)
+{
+	va_list ap;
+	int n, e;
+	va_start(ap, fmt);
+	n = vsnprintf(NULL, 0, fmt, ap);
+	va_end(ap);
+	if (n < 0)
+		return omen_error_set(OMEN_EINVAL, "bad format");
+	if ((e = omen_buf_grow(b, (size_t)n)))
+		return e;
+	va_start(ap, fmt);
+	vsnprintf(b->ptr + b->len, (size_t)n + 1, fmt, ap);
+	va_end(ap);
+	b->len += (size_t)n;
+	return 0;
+}
+
+/* Length of the valid UTF-8 sequence at s (n bytes left), 0 if invalid. */
+static size_t utf8_seq(const unsigned char *s, size_t n)
+{
+	unsigned c = s[0];
+	size_t len, i;
+	unsigned cp;
+	if (c < 0x80) return 1;
+	if (c >= 0xc2 && c <= 0xdf) { len = 2; cp = c & 0x1f; }
+	else if (c >= 0xe0 && c <= 0xef) { len = 3; cp = c & 0x0f; }
+	else if (c >= 0xf0 && c <= 0xf4) { len = 4; cp = c & 0x07; }
+	else return 0;
+	if (n < len) return 0;
+	for (i = 1; i < len; i++) {
+		if ((s[i] & 0xc0) != 0x80) return 0;
+		cp = (cp << 6) | (s[i] & 0x3f);
+	}
+	if ((len == 3 && cp < 0x800) || (len == 4 && (cp < 0x10000 || cp > 0x10ffff)) ||
+	    (cp >= 0xd800 && cp <= 0xdfff))
+		return 0;
+	return len;
+}
+
+int omen_utf8_valid(const char *s, size_t n)
+{
+	const unsigned char *p = (const unsigned char *)s;
+	size_t i = 0, k;
+	while (i < n) {
+		if (!(k = utf8_seq(p + i, n - i)))
+			return 0;
+		i += k;
+	}
+	return 1;
+}
+
+int omen_buf_put_json_string(omen_buf *b, const char *s, size_t n)
+{
+	const unsigned char *p = (const unsigned char *)s;
+	size_t i = 0, k;
+	int e = omen_buf_put(b, "\"", 1);
+	while (!e && i < n) {
+		unsigned c = p[i];
+		if (c == '"' || c == '\\') {
+			char esc[2] = {'\\', (char)c};
+			e = omen_buf_put(b, esc, 2); i++;
+		} else if (c < 0x20) {
+			switch (c) {
+			case '\n': e = omen_buf_put(b, "\\n", 2); break;
+			case '\t': e = omen_buf_put(b, "\\t", 2); break;
+			case '\r': e = omen_buf_put(b, "\\r", 2); break;
+			default: e = omen_buf_printf(b, "\\u%04x", c);
+			}
+			i++;
+		} else if ((k = utf8_seq(p + i, n - i))) {
+			e = omen_buf_put(b, p + i, k); i += k;
+		} else {
+			e = omen_buf_put(b, "\xef\xbf\xbd", 3); i++;
+		}
+	}
+	return e ? e : omen_buf_put(b, "\"", 1);
+}
+
+void omen_buf_clear(omen_buf *b) { b->len = 0; if (b->ptr) b->ptr[0] = '\0'; }
+void omen_buf_free(omen_buf *b) { free(b->ptr); b->ptr = NULL; b->len = b->cap = 0; }
+char *omen_buf_detach(omen_buf *b)
+{
+	char *p = b->ptr;
+	if (!p) p = calloc(1, 1);
+	b->ptr = NULL; b->len = b->cap = 0;
+	return p;
+}
+
+int omen_array_reserve(void **ptr, size_t *cap, size_t need, size_t elem)
+{
+	size_t c = *cap ? *cap : 16;
+	void *p;
+	if (need <= *cap)
+		return 0;
+	while (c < need)
+		c *= 2;
+	if (c > SIZE_MAX / elem)
+		return omen_error_set(OMEN_ENOMEM, "out of memory");
+	p = realloc(*ptr, c * elem);
+	if (!p)
+		return omen_error_set(OMEN_ENOMEM, "out of memory (%zu bytes)", c * elem);
+	*ptr = p;
+	*cap = c;
+	return 0;
+}
+
+/* ---- arena --------------------------------------------------------------- */
+struct omen_arena_block {
+	omen_arena_block *next;
+	size_t size, used;
+	_Alignas(16) unsigned char data[];
+};
+
+void omen_arena_init(omen_arena *a, size_t block_size)
+{
+	a->head = NULL;
+	a->block_size = block_size ? block_size : 64 * 1024;
+	a->total = 0;
+}
+
+void *omen_arena_alloc(omen_arena *a, size_t n)
+{
+	omen_arena_block *b = a->head;
+	size_t need = (n + 15) & ~(size_t)15;
+	if (!b || b->size - b->used < need) {
+		size_t sz = need > a->block_size ? need : a->block_size;
+		b = malloc(sizeof(*b) + sz);
+		if (!b) {
+			omen_error_set(OMEN_ENOMEM, "out of memory (%zu bytes)", sz);
+			return NULL;
+		}
+		b->size = sz;
+		b->used = 0;
+		b->next = a->head;
+		a->head = b;
+	}
+	void *p = b->data + b->used;
+	b->used += need;
+	a->total += need;
+	return p;
+}
+
+char *omen_arena_strndup(omen_arena *a, const char *s, size_t n)
+{
+	char *p = omen_arena_alloc(a, n + 1);
+	if (p) {
+		memcpy(p, s, n);
+		p[n] = '\0';
+	}
+	return p;
+}
+
+void omen_arena_reset(omen_arena *a)
+{
+	omen_arena_block *b = a->head, *keep = NULL;
+	while (b) {
+		omen_arena_block *next = b->next;
+		if (!next) keep = b; else free(b);
+		b = next;
+	}
+	if (keep) keep->used = 0, keep->next = NULL;
+	a->head = keep;
+	a->total = 0;
+}
+
+void omen_arena_free(omen_arena *a)
+{
+	omen_arena_block *b = a->head;
+	while (b) {
+		omen_arena_block *next = b->next;
+		free(b);
+		b = next;
+	}
+	a->head = NULL;
+	a->total = 0;
+}
