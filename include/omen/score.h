@@ -1,0 +1,236 @@
+/* Scoring: commits, ranges and staged changes scored with a saved model,
+ * using the same sample code as training (features.h omen_sample_build);
+ * reasons and explanations; the pre-push protocol and the hook installer;
+ * JSON Lines and SARIF 2.1.0 writers. Never prints: writers fill buffers.
+ * Scores are advisory. */
+#ifndef OMEN_SCORE_H
+#define OMEN_SCORE_H
+
+#include <stddef.h>
+#include <stdint.h>
+#include "omen/history.h"
+#include "omen/features.h"
+#include "omen/model.h"
+
+/* ---- pre-push protocol ----------------------------------------------------
+ * git feeds a pre-push hook one line per ref to update (githooks(5)):
+ *   <local ref> SP <local object name> SP <remote ref> SP <remote object name> LF
+ * A deletion has local ref "(delete)" and an all-zero local id; a new remote
+ * ref has an all-zero remote id. Object names are 40 (SHA-1) or 64 (SHA-256)
+ * hex digits. */
+#define OMEN_PREPUSH_MAX_LINES 65536
+#define OMEN_PREPUSH_MAX_REF 4096
+#define OMEN_HEX_MAX 64
+
+typedef struct {
+	const char *local_ref;          /* owned by the list */
+	const char *remote_ref;
+	char local_id[OMEN_HEX_MAX + 1];
+	char remote_id[OMEN_HEX_MAX + 1];
+	int id_len;                     /* 40 or 64 */
+	int is_delete;                  /* local id all zeros */
+	int is_new;                     /* remote id all zeros */
+} omen_push_update;
+
+typedef struct {
+	omen_push_update *v;
+	size_t n, cap;
+	omen_arena arena;
+} omen_push_list;
+
+/* Parses the whole of git's pre-push input through a bounded cursor. Bad
+ * input is OMEN_EINVAL "bad pre-push input: line N: <why>"; *out is then
+ * empty (and still to be freed). */
+int omen_prepush_parse(omen_push_list *out, const void *data, size_t n);
+void omen_prepush_free(omen_push_list *l);
+
+/* Commits new to the remote, oldest first: for each update that is not a
+ * deletion, its local id, hiding the remote id when that object exists
+ * locally, else hiding every refs/remotes/<remote>/ ref. Deletions add
+ * nothing. Merges are left out (they are not scored). *out malloc'd. */
+int omen_push_select(git_oid **out, size_t *n, omen_repo *r, const char *remote,
+	const omen_push_list *l);
+
+/* ---- revision arguments -------------------------------------------------- */
+/* The commits named by the score/explain arguments, oldest first. An
+ * argument with "..", or starting with '^', makes all arguments one range
+ * (as git rev-list); otherwise each argument names one commit. No
+ * arguments: "@{upstream}..HEAD" when HEAD has an upstream, else "HEAD".
+ * *out_desc (malloc'd) says what was resolved, for messages. A name that
+ * does not resolve is OMEN_ENOTFOUND "unknown revision 'x'". */
+int omen_score_resolve(git_oid **out, size_t *n, char **out_desc, omen_repo *r,
+	const char *const *args, size_t nargs);
+
+/* ---- scoring ------------------------------------------------------------- */
+typedef enum { OMEN_BAND_LOW, OMEN_BAND_MEDIUM, OMEN_BAND_HIGH } omen_band;
+extern const char *const omen_band_names[3];   /* "low", "medium", "high" */
+
+typedef enum {
+	OMEN_REASON_HUNK,        /* file and hunk with most attention */
+	OMEN_REASON_LARGE,       /* many lines changed against the typical commit */
+	OMEN_REASON_DIFFUSE,     /* many files/directories, or spread thinly */
+	OMEN_REASON_FIX_HISTORY, /* a file that needed fixes before */
+	OMEN_REASON_METRIC       /* another change metric far above typical */
+} omen_reason_kind;
+extern const char *const omen_reason_names[5];  /* "hunk", "large", ... */
+
+typedef struct {
+	int kind;           /* omen_reason_kind */
+	double strength;    /* for ordering; larger = stronger */
+	char text[192];     /* "src/a.c:120-134 (41% of attention)" */
+} omen_reason;
+
+typedef struct {
+	const char *path;   /* owned by the set */
+	int32_t new_start, new_lines, old_start, old_lines;
+	float weight;       /* file attention x hunk attention, sums to ~1 per commit */
+	float contrib;      /* gradient x input of the hunk vector */
+} omen_hunk_score;
+
+typedef struct {
+	char id[OMEN_OID_HEX + 1];   /* all zeros for staged changes */
+	const char *summary;         /* first message line, owned by the set */
+	int64_t time;
+	float prob, logit;           /* calibrated probability, raw logit */
+	float lr_prob;               /* metrics-only baseline probability */
+	int band;                    /* omen_band */
+	int is_fix;
+	int capped;
+	int32_t la, ld, nfiles, nhunks;
+	float metrics[OMEN_NMETRICS];
+	int nreasons;
+	omen_reason reasons[2];
+	size_t hunk_off, nhunk_scores;   /* into omen_score_set.hunks, by weight */
+} omen_score_result;
+
+typedef struct {
+	omen_score_result *v;
+	size_t n, cap;
+	omen_hunk_score *hunks;
+	size_t nhunks, hunks_cap;
+	omen_arena arena;
+	float threshold;      /* probability at or above which a commit is risky */
+	int stopped;          /* the deadline stopped scoring early */
+} omen_score_set;
+
+void omen_score_set_init(omen_score_set *s);
+void omen_score_set_free(omen_score_set *s);
+
+typedef struct omen_scorer omen_scorer;
+typedef struct {
+	const char *model_path;  /* NULL: omen.model, else $GIT_DIR/omen/model.omen */
+	double threshold;        /* < 0: omen.threshold, else the model's */
+	double deadline;         /* omen_now() after which work stops with OMEN_ELIMIT; 0 none */
+	int detail;              /* keep every hunk (explain, sarif); else the top 3 */
+} omen_score_opts;
+#define OMEN_SCORE_OPTS_INIT {NULL, -1.0, 0.0, 0}
+
+/* The model path the scorer would use (never creates directories). */
+int omen_score_model_path(char **out, omen_repo *r, const char *override);
+/* Loads the model, the fix rules (omen.fixPattern, omen.fixList) and the
+ * metrics state saved with the model. A missing model file is
+ * OMEN_ENOTFOUND "no model at 'p': run 'git omen train' first". */
+int omen_scorer_open(omen_scorer **out, omen_repo *r, const omen_score_opts *o);
+void omen_scorer_free(omen_scorer *s);
+const omen_model *omen_scorer_model(const omen_scorer *s);
+float omen_scorer_threshold(const omen_scorer *s);
+/* Scores ids (any order; results come oldest first). The metrics state is
+ * the model's, then fed every commit between the model's head and each
+ * scored commit, oldest first, so each commit's metrics use only commits
+ * before it, exactly as in training. */
+int omen_scorer_commits(omen_score_set *out, omen_scorer *s, const git_oid *ids, size_t n);
+/* Scores the staged changes (index against HEAD) as a commit with message
+ * msg (NULL = empty), state fed up to HEAD. */
+int omen_scorer_staged(omen_score_set *out, omen_scorer *s, const char *msg);
+/* Per-commit explanation of the last sample scored by the calls above is
+ * not kept; explain uses omen_score_explain below. */
+
+/* ---- explanation --------------------------------------------------------- */
+typedef struct {
+	const char *path;
+	int32_t line;        /* new line number for '+', old for '-' */
+	char origin;         /* '+' or '-' */
+	float contrib;       /* summed token gradient x input */
+	const char *text;    /* owned by the explanation */
+} omen_line_score;
+
+typedef struct {
+	const char *path;
+	float weight;        /* file attention */
+	float contrib;       /* sum of its hunks' gradient x input */
+	int32_t added, deleted;
+} omen_file_score;
+
+typedef struct {
+	int metric;          /* OMEN_M_* */
+	float value, typical;/* this commit's raw value, the repository's median */
+	float contrib;       /* gradient x standardized input: > 0 pushed up */
+} omen_metric_score;
+
+typedef struct {
+	char id[OMEN_OID_HEX + 1];
+	const char *summary;
+	float distance;      /* in standardized log-metric space */
+	int nfixes;          /* fixes that traced to it */
+} omen_neighbour;
+
+typedef struct {
+	omen_score_result result;     /* its hunks are in hunks[] below */
+	omen_file_score *files;    size_t nfiles;   /* by |contrib| + weight, strongest first */
+	omen_hunk_score *hunks;    size_t nhunks;   /* by weight */
+	omen_line_score *lines;    size_t nlines;   /* by |contrib| */
+	omen_metric_score metrics[OMEN_NMETRICS];   /* by |contrib| */
+	float message_contrib;
+	omen_neighbour *neighbours; size_t nneighbours;
+	int have_typical;          /* typical values came from labelled history */
+	omen_arena arena;
+	omen_score_set set;        /* private */
+} omen_explanation;
+
+/* Explains one commit: attention and gradient x input from the model,
+ * metrics against the median of the labelled history, and the top_n
+ * labelled inducing commits nearest in standardized log-metric space.
+ * Neighbours and typical values need the dataset (labels file and cache);
+ * without labels they are left empty. */
+int omen_score_explain(omen_explanation *out, omen_scorer *s, omen_repo *r,
+	const git_oid *id, int top_n);
+void omen_explanation_free(omen_explanation *e);
+
+/* ---- writers (append to out) ---------------------------------------------- */
+/* One JSON object per commit, one per line (see git-omen-score(1)). */
+int omen_score_write_json(omen_buf *out, const omen_score_set *s, const char *model_path);
+/* SARIF 2.1.0 log: one result per hunk of each risky commit that carries a
+ * noticeable share of the attention (at least 1/(2*hunks) and among the top
+ * 5), with file and line region. */
+int omen_score_write_sarif(omen_buf *out, const omen_score_set *s, const char *tool_version);
+
+/* ---- hook installer ------------------------------------------------------ */
+/* The shim installed as pre-push (identical to hooks/pre-push). */
+extern const char omen_hook_shim[];
+/* The line that marks a hook file as ours. */
+#define OMEN_HOOK_MARK "# git-omen pre-push shim"
+/* Name an existing user hook is kept under, beside it, while ours is installed. */
+#define OMEN_HOOK_CHAINED_NAME "pre-push.omen-chained"
+
+typedef enum {
+	OMEN_HOOK_ABSENT,    /* no pre-push hook */
+	OMEN_HOOK_OURS,      /* our shim, nothing chained */
+	OMEN_HOOK_CHAINED,   /* our shim, the user's hook chained after it */
+	OMEN_HOOK_FOREIGN    /* someone else's hook, ours not installed */
+} omen_hook_state;
+extern const char *const omen_hook_state_names[4];
+
+/* The hooks directory git uses: core.hooksPath (relative paths are taken
+ * from the top of the working tree, or GIT_DIR when bare; "~/" expanded),
+ * else $GIT_DIR/hooks. Caller frees. */
+int omen_hook_dir(char **out, omen_repo *r);
+int omen_hook_status(int *out, const char *dir);
+/* Installs the shim in dir; an existing foreign pre-push is renamed to
+ * OMEN_HOOK_CHAINED_NAME (bytes and mode kept). Installing over our own shim
+ * refreshes it. *out is the state after. */
+int omen_hook_install(int *out, const char *dir);
+/* Removes our shim and renames a chained hook back, byte for byte. A
+ * foreign hook is left alone (OMEN_EUSAGE). */
+int omen_hook_uninstall(int *out, const char *dir);
+
+#endif
