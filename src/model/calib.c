@@ -1,0 +1,129 @@
+/* Platt scaling (Platt, "Probabilistic outputs for support vector
+ * machines", 1999) with the smoothed targets and the stable Newton
+ * iteration of Lin, Lin & Weng (Machine Learning 68, 2007), and the
+ * threshold of maximal F1 on the validation slice. */
+#include <math.h>
+#include <stdlib.h>
+#include "omen/error.h"
+#include "omen/model.h"
+
+static double log1pexp(double z)
+{
+	return z > 0 ? z + log1p(exp(-z)) : log1p(exp(z));
+}
+
+double omen_platt_apply(double a, double b, double f)
+{
+	double z = a * f + b;
+	if (z >= 0)
+		return 1.0 / (1.0 + exp(-z));
+	return exp(z) / (1.0 + exp(z));
+}
+
+/* Minimises the cross-entropy of p = sigmoid(a f + b) against the smoothed
+ * targets t+ = (N+ + 1)/(N+ + 2), t- = 1/(N- + 2). */
+int omen_platt_fit(double *out_a, double *out_b, const double *f, const int *y, size_t n)
+{
+	double np = 0, nn = 0, tp, tn, a = 1, b, fval = 0;
+	size_t i;
+	int it;
+	for (i = 0; i < n; i++) {
+		if (y[i]) np++;
+		else nn++;
+	}
+	*out_a = 1;
+	*out_b = 0;
+	if (np == 0 || nn == 0)
+		return omen_error_set(OMEN_EINVAL, "cannot calibrate: %zu validation commits with %.0f positives",
+			n, np);
+	tp = (np + 1) / (np + 2);
+	tn = 1 / (nn + 2);
+	b = log((np + 1) / (nn + 1));
+	for (i = 0; i < n; i++) {
+		double t = y[i] ? tp : tn, z = a * f[i] + b;
+		fval += log1pexp(z) - t * z;
+	}
+	for (it = 0; it < 100; it++) {
+		double h11 = 1e-12, h22 = 1e-12, h21 = 0, g1 = 0, g2 = 0, det, da, db, step = 1;
+		for (i = 0; i < n; i++) {
+			double t = y[i] ? tp : tn, z = a * f[i] + b;
+			double p = z >= 0 ? 1 / (1 + exp(-z)) : exp(z) / (1 + exp(z));
+			double w = p * (1 - p), d = p - t;
+			h11 += f[i] * f[i] * w;
+			h22 += w;
+			h21 += f[i] * w;
+			g1 += f[i] * d;
+			g2 += d;
+		}
+		if (fabs(g1) < 1e-9 && fabs(g2) < 1e-9)
+			break;
+		det = h11 * h22 - h21 * h21;
+		if (!(det > 0))
+			break;
+		da = -(h22 * g1 - h21 * g2) / det;
+		db = -(-h21 * g1 + h11 * g2) / det;
+		while (step >= 1e-10) {
+			double na = a + step * da, nb = b + step * db, nf = 0;
+			for (i = 0; i < n; i++) {
+				double t = y[i] ? tp : tn, z = na * f[i] + nb;
+				nf += log1pexp(z) - t * z;
+			}
+			if (nf < fval + 1e-4 * step * (g1 * da + g2 * db)) {
+				a = na; b = nb; fval = nf;
+				break;
+			}
+			step /= 2;
+		}
+		if (step < 1e-10)
+			break;
+	}
+	if (!isfinite(a) || !isfinite(b))
+		return omen_error_set(OMEN_ERROR, "cannot calibrate: diverged");
+	*out_a = a;
+	*out_b = b;
+	return 0;
+}
+
+typedef struct { double p; int y; } scored;
+
+static int cmp_desc(const void *x, const void *y)
+{
+	double a = ((const scored *)x)->p, b = ((const scored *)y)->p;
+	return a < b ? 1 : a > b ? -1 : 0;
+}
+
+/* Threshold t (predict positive when prob >= t) with the highest F1 over the
+ * distinct predicted values (one sweep in descending order); 0.5 when there
+ * are no positives. */
+double omen_threshold_max_f1(const double *prob, const int *y, size_t n)
+{
+	scored *s;
+	double best_t = 0.5, best_f1 = -1;
+	size_t i, pos = 0, tp = 0, fp = 0;
+	if (!n || !(s = malloc(n * sizeof(*s))))
+		return 0.5;
+	for (i = 0; i < n; i++) {
+		s[i].p = prob[i];
+		s[i].y = y[i] != 0;
+		pos += s[i].y;
+	}
+	if (!pos) {
+		free(s);
+		return 0.5;
+	}
+	qsort(s, n, sizeof(*s), cmp_desc);
+	for (i = 0; i < n; i++) {
+		double f1;
+		tp += s[i].y;
+		fp += !s[i].y;
+		if (i + 1 < n && s[i + 1].p == s[i].p)
+			continue;
+		f1 = 2.0 * tp / (double)(2 * tp + fp + (pos - tp));
+		if (f1 > best_f1) {
+			best_f1 = f1;
+			best_t = s[i].p;
+		}
+	}
+	free(s);
+	return best_t;
+}
