@@ -35,6 +35,17 @@ void omen_linear_forward(float *out, const float *in, const float *W, const floa
 	int N, int Ci, int Co);
 void omen_linear_backward(float *din, float *dW, float *db, const float *dout,
 	const float *in, const float *W, int N, int Ci, int Co);
+/* Same results, bit for bit, as the one-thread kernels above, computed on
+ * nthreads threads (rows split for out/din, weight rows split for dW). */
+void omen_linear_forward_mt(float *out, const float *in, const float *W, const float *b,
+	int N, int Ci, int Co, int nthreads);
+void omen_linear_backward_mt(float *din, float *dW, float *db, const float *dout,
+	const float *in, const float *W, int N, int Ci, int Co, int nthreads);
+void omen_conv1d_forward_mt(float *out, const float *in, const float *W, const float *b,
+	const int32_t *off, int S, int Ci, int Co, int K, int nthreads);
+void omen_conv1d_backward_mt(float *din, float *dW, float *db, const float *dout,
+	const float *in, const float *W, const int32_t *off, int S, int Ci, int Co, int K,
+	int nthreads);
 
 void omen_relu_forward(float *out, const float *in, int N);
 void omen_relu_backward(float *din, const float *dout, const float *in, int N);
@@ -107,7 +118,19 @@ int omen_all_finite(const float *x, size_t n);
  * Per-thread gradient buffers are summed by omen_reduce_fixed in index
  * order, so results do not depend on scheduling. */
 int omen_parallel_run(int n, void (*fn)(int tid, void *payload), void *payload);
-/* dst[i] = src[0][i] + src[1][i] + ... (fixed order). */
+/* Runs fn(task, payload) for every task in [0, ntasks) on nthreads threads
+ * (thread i takes tasks i, i+nthreads, ...). Cut a batch into a fixed number
+ * of tasks with one gradient buffer each, reduce them with
+ * omen_reduce_fixed, and the sum is the same for any thread count. */
+int omen_parallel_tasks(int ntasks, int nthreads, void (*fn)(int task, void *payload),
+	void *payload);
+/* dst[i] = src[0][i] + src[1][i] + ... (fixed order). dst may be src[0]. */
 void omen_reduce_fixed(float *dst, float *const *src, int nsrc, size_t n);
+
+/* Vector path of the dense kernels: AVX2+FMA when the CPU has it (checked at
+ * run time; OMEN_NN_PORTABLE=1 in the environment forces the portable C
+ * path). enable 0/1 switches it off/on (not thread-safe; tests and
+ * benchmarks), -1 only asks. Returns 1 when the AVX2 path is in use. */
+int omen_nn_simd(int enable);
 
 #endif
