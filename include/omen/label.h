@@ -34,6 +34,15 @@ void omen_fixrules_free(omen_fixrules *fr);
  * found in "Fixes:"/revert lines) are appended to named[] up to max_named. */
 unsigned omen_fix_classify(const omen_fixrules *fr, const omen_commit *c,
 	char named[][OMEN_OID_HEX + 1], int max_named, int *n_named);
+/* Earliest issue date (seconds, UTC) the fix list gives for this commit:
+ * its own listed date or that of a listed issue its message references;
+ * 0 when none is known. */
+int64_t omen_fix_issue_date(const omen_fixrules *fr, const omen_commit *c);
+/* Entries of the loaded fix list that matched no commit (after a run). */
+size_t omen_fixrules_unmatched(const omen_fixrules *fr);
+size_t omen_fixrules_list_size(const omen_fixrules *fr);
+/* The default fix pattern (POSIX extended regex, matched case-insensitively). */
+extern const char omen_fix_default_pattern[];
 
 typedef struct {
 	char id[OMEN_OID_HEX + 1];
@@ -44,6 +53,9 @@ typedef struct {
 	uint32_t traced_lines;   /* lines traced to this commit */
 	uint32_t nfixes;         /* fixes that traced to it */
 	const char *const *fixes;/* their ids */
+	int merge;               /* merge commit: never a candidate, label unknown */
+	int boundary;            /* shallow boundary: label unknown */
+	uint32_t named;          /* fixes that name it (Fixes:, revert): strong links */
 } omen_label_rec;
 
 /* In-memory label set, looked up by commit id. */
@@ -72,6 +84,7 @@ typedef struct {
 	int use_issue_dates;
 	int incremental;           /* reuse the previous pass's state */
 	int64_t max_bytes;         /* memory ceiling, 0 = none */
+	const char *dump_origins;  /* testing: write every traced fix line's origin here */
 } omen_label_opts;
 void omen_label_opts_init(omen_label_opts *o);
 
@@ -84,7 +97,23 @@ typedef struct {
 	double latency_days_q[3];  /* fix latency quartiles */
 	int shallow;
 	double seconds;
+	size_t merges, boundary;
+	size_t named_links;        /* fix -> named commit links resolved in the history */
+	size_t list_entries, list_unmatched; /* fix list ids, and those that matched nothing */
+	size_t untraced_missing;   /* deleted lines with no origin state (should be 0) */
+	size_t fixes_traced;       /* fixes with >= 1 traced line */
+	int mode;                  /* OMEN_LABEL_MODE_* */
+	size_t new_commits;        /* commits added since the previous run (mode GREW) */
+	char head[OMEN_OID_HEX + 1];
+	int64_t newest_time, window_cut; /* newest author time, clean cut-off */
 } omen_label_summary;
+
+enum {
+	OMEN_LABEL_MODE_FULL = 0,      /* no previous labels (or --full) */
+	OMEN_LABEL_MODE_GREW = 1,      /* the history only grew since the previous run */
+	OMEN_LABEL_MODE_REWRITTEN = 2, /* previous head is not an ancestor: relabelled */
+	OMEN_LABEL_MODE_UPTODATE = 3   /* same head and options: previous file kept */
+};
 
 /* Runs the pass and writes the label file atomically to out_path
  * (NULL = $GIT_DIR/omen/labels.jsonl). */
