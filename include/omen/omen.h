@@ -12,5 +12,6 @@
 #include "omen/nn.h"
 #include "omen/model.h"
 #include "omen/eval.h"
+#include "omen/score.h"
 
 #endif

@@ -1,0 +1,252 @@
+/* Hook installer: puts the shim of hooks/pre-push into the hooks directory
+ * git uses (core.hooksPath honoured), keeping an existing user hook beside it
+ * under OMEN_HOOK_CHAINED_NAME so the shim runs it after ours; uninstall
+ * renames it back, so its bytes and mode come back unchanged. */
+#include <errno.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/stat.h>
+#include <unistd.h>
+#include "omen/error.h"
+#include "omen/score.h"
+
+/* Keep identical to hooks/pre-push (tests/t/hook_install.sh compares them). */
+const char omen_hook_shim[] =
+	"#!/bin/sh\n"
+	"# git-omen pre-push shim\n"
+	"# Installed by 'git omen hook install'. It scores the commits this push would\n"
+	"# send (the scores are advisory) and then runs the pre-push hook that was here\n"
+	"# before, if any: ours first, theirs always. It only stops a push when asked\n"
+	"# to (omen.onRisk=block, omen.onError=block). 'git push --no-verify' skips\n"
+	"# every pre-push hook, this one included.\n"
+	"chained=\"$(dirname \"$0\")/pre-push.omen-chained\"\n"
+	"input=$(mktemp \"${TMPDIR:-/tmp}/omen-push.XXXXXX\" 2>/dev/null) || input=\n"
+	"if [ -z \"$input\" ]; then\n"
+	"	echo \"git omen: cannot make a temporary file; push not checked (advisory)\" >&2\n"
+	"	if [ -x \"$chained\" ]; then exec \"$chained\" \"$@\"; fi\n"
+	"	exit 0\n"
+	"fi\n"
+	"trap 'rm -f \"$input\"' 0\n"
+	"cat >\"$input\"\n"
+	"ours=0\n"
+	"if command -v git-omen >/dev/null 2>&1 || [ -x \"$(git --exec-path 2>/dev/null)/git-omen\" ]; then\n"
+	"	git omen hook run \"$@\" <\"$input\"\n"
+	"	ours=$?\n"
+	"else\n"
+	"	ours=127\n"
+	"fi\n"
+	"case $ours in\n"
+	"0|1) ;;\n"
+	"*)\n"
+	"	if [ \"$ours\" -eq 127 ]; then why=\"git-omen is not on PATH\"; else why=\"the hook failed (exit $ours)\"; fi\n"
+	"	if [ \"$(git config --get omen.onError 2>/dev/null)\" = block ]; then\n"
+	"		echo \"git omen: $why and omen.onError=block: push stopped\" >&2\n"
+	"		ours=1\n"
+	"	else\n"
+	"		echo \"git omen: $why; push not checked (scores are advisory)\" >&2\n"
+	"		ours=0\n"
+	"	fi\n"
+	"	;;\n"
+	"esac\n"
+	"theirs=0\n"
+	"if [ -f \"$chained\" ] && [ -x \"$chained\" ]; then\n"
+	"	\"$chained\" \"$@\" <\"$input\"\n"
+	"	theirs=$?\n"
+	"fi\n"
+	"if [ \"$theirs\" -ne 0 ]; then exit \"$theirs\"; fi\n"
+	"exit \"$ours\"\n"
+;
+
+const char *const omen_hook_state_names[4] = {"absent", "installed", "installed, chained", "foreign"};
+
+static int join(char **out, const char *dir, const char *name)
+{
+	omen_buf b = OMEN_BUF_INIT;
+	size_t n = strlen(dir);
+	int e = omen_buf_printf(&b, "%s%s%s", dir, n && dir[n - 1] == '/' ? "" : "/", name);
+	*out = e ? NULL : omen_buf_detach(&b);
+	omen_buf_free(&b);
+	return e;
+}
+
+int omen_hook_dir(char **out, omen_repo *r)
+{
+	char *hp = NULL;
+	omen_buf b = OMEN_BUF_INIT;
+	int e;
+	*out = NULL;
+	if ((e = omen_config_string(&hp, r, "core.hooksPath")))
+		goto out;
+	if (!hp || !*hp) {
+		e = omen_buf_printf(&b, "%shooks", omen_repo_gitdir(r));
+	} else if (hp[0] == '~' && (hp[1] == '/' || hp[1] == '\0')) {
+		const char *home = getenv("HOME");
+		if (!home) {
+			e = omen_error_set(OMEN_EINVAL, "bad config value 'core.hooksPath': '%s': HOME is not set", hp);
+			goto out;
+		}
+		e = omen_buf_printf(&b, "%s%s", home, hp + 1);
+	} else if (hp[0] == '/') {
+		e = omen_buf_puts(&b, hp);
+	} else {
+		/* githooks(5): hooks run in the top of the working tree, or in
+		 * GIT_DIR when bare; a relative hooksPath is taken from there. */
+		const char *base = omen_repo_workdir(r);
+		if (!base)
+			base = omen_repo_gitdir(r);
+		e = omen_buf_printf(&b, "%s%s%s", base,
+			base[0] && base[strlen(base) - 1] == '/' ? "" : "/", hp);
+	}
+	if (!e)
+		*out = omen_buf_detach(&b);
+out:
+	free(hp);
+	omen_buf_free(&b);
+	return e;
+}
+
+/* 1 when the file at path exists (lstat), 0 when not, <0 on error. */
+static int exists(const char *path)
+{
+	struct stat st;
+	if (lstat(path, &st) == 0)
+		return 1;
+	if (errno == ENOENT || errno == ENOTDIR)
+		return 0;
+	return omen_error_set(OMEN_EIO, "cannot read '%s': %s", path, strerror(errno));
+}
+
+static int is_ours(int *out, const char *path)
+{
+	omen_buf b = OMEN_BUF_INIT;
+	int e;
+	*out = 0;
+	if ((e = omen_file_read(&b, path, 1 << 20)))
+		return e;
+	*out = b.ptr && strstr(b.ptr, "\n" OMEN_HOOK_MARK "\n") != NULL;
+	omen_buf_free(&b);
+	return 0;
+}
+
+static int state_of(int *out, const char *hook, const char *chained)
+{
+	int e, ours;
+	if ((e = exists(hook)) < 0)
+		return e;
+	if (!e) {
+		*out = OMEN_HOOK_ABSENT;
+		return 0;
+	}
+	if ((e = is_ours(&ours, hook)))
+		return e;
+	if (!ours) {
+		*out = OMEN_HOOK_FOREIGN;
+		return 0;
+	}
+	if ((e = exists(chained)) < 0)
+		return e;
+	*out = e ? OMEN_HOOK_CHAINED : OMEN_HOOK_OURS;
+	return 0;
+}
+
+int omen_hook_status(int *out, const char *dir)
+{
+	char *hook = NULL, *chained = NULL;
+	int e;
+	*out = OMEN_HOOK_ABSENT;
+	if ((e = join(&hook, dir, "pre-push")) || (e = join(&chained, dir, OMEN_HOOK_CHAINED_NAME)))
+		goto out;
+	e = state_of(out, hook, chained);
+out:
+	free(hook);
+	free(chained);
+	return e;
+}
+
+static int write_shim(const char *hook)
+{
+	omen_atomic_file f;
+	int e;
+	if ((e = omen_atomic_open(&f, hook)))
+		return e;
+	if (fputs(omen_hook_shim, f.fp) == EOF || fchmod(fileno(f.fp), 0755)) {
+		e = omen_error_set(OMEN_EIO, "cannot write hook '%s': %s", hook, strerror(errno));
+		omen_atomic_abort(&f);
+		return e;
+	}
+	return omen_atomic_commit(&f);
+}
+
+int omen_hook_install(int *out, const char *dir)
+{
+	char *hook = NULL, *chained = NULL;
+	int e, st, moved = 0;
+	*out = OMEN_HOOK_ABSENT;
+	if ((e = join(&hook, dir, "pre-push")) || (e = join(&chained, dir, OMEN_HOOK_CHAINED_NAME)))
+		goto out;
+	if ((e = omen_mkdirs(dir, 1)) || (e = state_of(&st, hook, chained)))
+		goto out;
+	if (st == OMEN_HOOK_FOREIGN) {
+		if ((e = exists(chained)) != 0) {
+			if (e > 0)
+				e = omen_error_set(OMEN_EUSAGE,
+					"cannot keep the existing hook '%s': '%s' is in the way", hook, chained);
+			goto out;
+		}
+		if (rename(hook, chained)) {
+			e = omen_error_set(OMEN_EIO, "cannot move hook '%s' to '%s': %s", hook, chained,
+				strerror(errno));
+			goto out;
+		}
+		moved = 1;
+	}
+	if ((e = write_shim(hook))) {
+		if (moved && rename(chained, hook) == 0)
+			moved = 0;
+		goto out;
+	}
+	e = state_of(out, hook, chained);
+out:
+	free(hook);
+	free(chained);
+	return e;
+}
+
+int omen_hook_uninstall(int *out, const char *dir)
+{
+	char *hook = NULL, *chained = NULL;
+	int e, st;
+	*out = OMEN_HOOK_ABSENT;
+	if ((e = join(&hook, dir, "pre-push")) || (e = join(&chained, dir, OMEN_HOOK_CHAINED_NAME)))
+		goto out;
+	if ((e = state_of(&st, hook, chained)))
+		goto out;
+	switch (st) {
+	case OMEN_HOOK_ABSENT:
+		break;
+	case OMEN_HOOK_FOREIGN:
+		*out = st;
+		e = omen_error_set(OMEN_EUSAGE, "pre-push hook '%s' is not omen's: left alone", hook);
+		goto out;
+	case OMEN_HOOK_OURS:
+		if (unlink(hook)) {
+			e = omen_error_set(OMEN_EIO, "cannot remove hook '%s': %s", hook, strerror(errno));
+			goto out;
+		}
+		break;
+	case OMEN_HOOK_CHAINED:
+		/* rename() replaces our shim in one step and keeps the user's
+		 * file itself: same bytes, mode and owner. */
+		if (rename(chained, hook)) {
+			e = omen_error_set(OMEN_EIO, "cannot restore hook '%s' from '%s': %s", hook, chained,
+				strerror(errno));
+			goto out;
+		}
+		*out = OMEN_HOOK_FOREIGN;
+		break;
+	}
+out:
+	free(hook);
+	free(chained);
+	return e;
+}

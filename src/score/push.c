@@ -1,0 +1,190 @@
+/* Which commits to score: the score/explain arguments, and the commits a
+ * push sends that the remote does not have yet. */
+#include <stdlib.h>
+#include <string.h>
+#include "omen/error.h"
+#include "omen/score.h"
+
+typedef struct {
+	char **v;
+	size_t n, cap;
+} strvec;
+
+static int strvec_push(strvec *s, const char *a, const char *b)
+{
+	size_t la = strlen(a), lb = b ? strlen(b) : 0;
+	char *p;
+	if (OMEN_ARRAY_RESERVE(s->v, s->cap, s->n + 2))
+		return omen_error_set(OMEN_ENOMEM, "out of memory");
+	if (!(p = malloc(la + lb + 1)))
+		return omen_error_set(OMEN_ENOMEM, "out of memory");
+	memcpy(p, a, la);
+	if (b)
+		memcpy(p + la, b, lb);
+	p[la + lb] = '\0';
+	s->v[s->n++] = p;
+	s->v[s->n] = NULL;
+	return 0;
+}
+
+static void strvec_free(strvec *s)
+{
+	size_t i;
+	for (i = 0; i < s->n; i++)
+		free(s->v[i]);
+	free(s->v);
+	s->v = NULL;
+	s->n = s->cap = 0;
+}
+
+typedef struct {
+	strvec *hide;
+	git_repository *repo;
+	int err;
+} glob_ctx;
+
+static int hide_ref(const char *name, void *payload)
+{
+	glob_ctx *g = payload;
+	git_object *o = NULL;
+	char hex[GIT_OID_HEXSZ + 1];
+	if (git_revparse_single(&o, g->repo, name) == 0) {
+		git_object *c = NULL;
+		if (git_object_peel(&c, o, GIT_OBJECT_COMMIT) == 0) {
+			git_oid_tostr(hex, sizeof(hex), git_object_id(c));
+			if (strvec_push(g->hide, "^", hex))
+				g->err = OMEN_ENOMEM;
+			git_object_free(c);
+		}
+		git_object_free(o);
+	}
+	git_error_clear();
+	return g->err ? -1 : 0;
+}
+
+int omen_push_select(git_oid **out, size_t *n, omen_repo *r, const char *remote,
+	const omen_push_list *l)
+{
+	strvec revs = {0}, hide = {0};
+	omen_walk_opts wo = OMEN_WALK_OPTS_INIT;
+	int e = 0, need_glob = 0;
+	size_t i;
+	git_oid tmp;
+
+	*out = NULL;
+	*n = 0;
+	for (i = 0; i < l->n; i++) {
+		const omen_push_update *u = &l->v[i];
+		if (u->is_delete)
+			continue;  /* a deletion sends no commits */
+		/* a tag of a tree or blob sends no commits either */
+		if (omen_history_resolve(&tmp, r, u->local_id) < 0) {
+			omen_error_clear();
+			continue;
+		}
+		if ((e = strvec_push(&revs, u->local_id, NULL)))
+			goto out;
+		if (!u->is_new && omen_history_resolve(&tmp, r, u->remote_id) == 0) {
+			if ((e = strvec_push(&hide, "^", u->remote_id)))
+				goto out;
+		} else {
+			omen_error_clear();
+			need_glob = 1;
+		}
+	}
+	if (!revs.n)
+		goto out;
+	if (need_glob && remote && *remote) {
+		/* the remote id is unknown here (new ref, or someone else pushed):
+		 * hide what we know the remote has, its remote-tracking refs */
+		omen_buf glob = OMEN_BUF_INIT;
+		glob_ctx g = {&hide, omen_repo_git(r), 0};
+		if ((e = omen_buf_printf(&glob, "refs/remotes/%s/*", remote)))
+			goto out;
+		git_reference_foreach_glob(omen_repo_git(r), glob.ptr, hide_ref, &g);
+		git_error_clear();
+		omen_buf_free(&glob);
+		if (g.err) {
+			e = omen_error_set(OMEN_ENOMEM, "out of memory");
+			goto out;
+		}
+	}
+	for (i = 0; i < hide.n; i++)
+		if ((e = strvec_push(&revs, hide.v[i], NULL)))
+			goto out;
+	wo.revs = (const char *const *)revs.v;
+	e = omen_history_list(out, n, r, &wo);
+out:
+	strvec_free(&revs);
+	strvec_free(&hide);
+	return e;
+}
+
+int omen_score_resolve(git_oid **out, size_t *n, char **out_desc, omen_repo *r,
+	const char *const *args, size_t nargs)
+{
+	omen_walk_opts wo = OMEN_WALK_OPTS_INIT;
+	omen_buf desc = OMEN_BUF_INIT;
+	strvec revs = {0};
+	git_oid *ids = NULL;
+	size_t i, k = 0;
+	int e = 0, range = 0;
+
+	*out = NULL;
+	*n = 0;
+	if (out_desc)
+		*out_desc = NULL;
+	if (nargs == 0) {
+		git_oid up;
+		if (omen_history_resolve(&up, r, "@{upstream}") == 0) {
+			if ((e = strvec_push(&revs, "@{upstream}..HEAD", NULL)))
+				goto out;
+			range = 1;
+		} else {
+			omen_error_clear();
+			if ((e = strvec_push(&revs, "HEAD", NULL)))
+				goto out;
+		}
+	} else {
+		for (i = 0; i < nargs; i++) {
+			if (strstr(args[i], "..") || args[i][0] == '^')
+				range = 1;
+			if ((e = strvec_push(&revs, args[i], NULL)))
+				goto out;
+		}
+	}
+	for (i = 0; i < revs.n; i++)
+		if ((e = omen_buf_printf(&desc, "%s%s", i ? " " : "", revs.v[i])))
+			goto out;
+	if (range) {
+		wo.revs = (const char *const *)revs.v;
+		if ((e = omen_history_list(&ids, &k, r, &wo)))
+			goto out;
+	} else {
+		if (!(ids = calloc(revs.n ? revs.n : 1, sizeof(*ids)))) {
+			e = omen_error_set(OMEN_ENOMEM, "out of memory");
+			goto out;
+		}
+		for (i = 0; i < revs.n; i++) {
+			size_t j;
+			git_oid id;
+			if ((e = omen_history_resolve(&id, r, revs.v[i])))
+				goto out;
+			for (j = 0; j < k; j++)
+				if (git_oid_equal(&ids[j], &id))
+					break;
+			if (j == k)
+				ids[k++] = id;
+		}
+	}
+	*out = ids;
+	*n = k;
+	ids = NULL;
+	if (out_desc)
+		*out_desc = omen_buf_detach(&desc);
+out:
+	free(ids);
+	omen_buf_free(&desc);
+	strvec_free(&revs);
+	return e;
+}
