@@ -96,16 +96,22 @@ fuzz-replay: $(FUZZ_REPLAY)
 manlint:
 	@sh tests/run-manlint.sh $(MANS)
 
+# AddressSanitizer + UBSan build of everything in its own directory
+# ($(BUILD)-asan), then the unit tests, fuzz replays and shell tests on it.
+# Leaks fail (LeakSanitizer); any UB report aborts (-fno-sanitize-recover).
+ASAN_BUILD ?= $(BUILD)-asan
+ASAN_FLAGS := -fsanitize=address,undefined -fno-omit-frame-pointer -fno-sanitize-recover=all
 asan:
-	$(MAKE) BUILD=build-asan OPT=-O1 \
-		CFLAGS="-fsanitize=address,undefined -fno-omit-frame-pointer -fno-sanitize-recover=all" \
-		LDLIBS="-fsanitize=address,undefined" build-asan/git-omen unit-asan
+	$(MAKE) BUILD=$(ASAN_BUILD) OPT=-O1 CFLAGS="$(ASAN_FLAGS) $(CFLAGS)" \
+		LDLIBS="$(ASAN_FLAGS) $(LDLIBS)" $(ASAN_BUILD)/git-omen unit-asan
 
+ASAN_ENV := ASAN_OPTIONS=detect_leaks=1:abort_on_error=1:detect_stack_use_after_return=1 \
+	UBSAN_OPTIONS=print_stacktrace=1:halt_on_error=1 LSAN_OPTIONS=suppressions=$(CURDIR)/tests/lsan.supp
 unit-asan: $(UNIT_BIN) $(FUZZ_REPLAY)
-	@ASAN_OPTIONS=detect_leaks=1 UBSAN_OPTIONS=print_stacktrace=1 sh tests/run-unit.sh $(UNIT_BIN)
+	@$(ASAN_ENV) sh tests/run-unit.sh $(UNIT_BIN)
 	@for f in $(FUZZ_REPLAY); do n=$$(basename $$f -replay); \
-		$$f fixtures/corpora/$${n#fuzz_} || exit 1; done
-	@OMEN="$(CURDIR)/$(OMEN)" sh tests/run-shell.sh
+		$(ASAN_ENV) $$f fixtures/corpora/$${n#fuzz_} || exit 1; done
+	@$(ASAN_ENV) OMEN="$(CURDIR)/$(OMEN)" sh tests/run-shell.sh
 
 valgrind: $(UNIT_BIN)
 	@VALGRIND=1 sh tests/run-unit.sh $(UNIT_BIN)
@@ -113,16 +119,52 @@ valgrind: $(UNIT_BIN)
 bench: $(OMEN) $(BENCH_BIN)
 	@OMEN="$(CURDIR)/$(OMEN)" BUILD="$(CURDIR)/$(BUILD)" sh tests/bench/run.sh $(BENCH_BIN)
 
-$(BUILD)/fuzz/%-libfuzzer: tests/fuzz/%.c $(LIB_SRC)
+# libFuzzer builds: the library is compiled once more with clang, coverage
+# instrumentation and ASan+UBSan into $(BUILD)/fuzz/lib/ (incremental), each
+# target links it with -fsanitize=fuzzer. `make fuzz` runs every target for
+# FUZZ_SECONDS on a work corpus in $(BUILD)/fuzz/corpus/<x> seeded from
+# fixtures/corpora/<x>; crashes go to $(BUILD)/fuzz/artifacts/<x>/. New inputs
+# of at most FUZZ_KEEP_BYTES that add coverage are merged back into
+# fixtures/corpora/<x> (FUZZ_KEEP_BYTES=0 keeps the fixtures untouched).
+FUZZ_CC     ?= clang
+FUZZ_CFLAGS := -std=c11 -g -O1 -D_POSIX_C_SOURCE=200809L -D_DEFAULT_SOURCE -Iinclude -Isrc \
+	-pthread -fno-strict-aliasing -fno-omit-frame-pointer -fno-sanitize-recover=undefined
+FUZZ_LIB_OBJ := $(LIB_SRC:%.c=$(BUILD)/fuzz/lib/%.o)
+
+$(BUILD)/fuzz/lib/%.o: %.c
 	@mkdir -p $(dir $@)
-	clang -std=c11 -g -O1 -D_POSIX_C_SOURCE=200809L -D_DEFAULT_SOURCE -Iinclude -Isrc \
-		$(PKG_CFLAGS) -fsanitize=fuzzer,address,undefined -o $@ $< $(LIB_SRC) $(PKG_LIBS) -lm -pthread
+	$(FUZZ_CC) $(FUZZ_CFLAGS) -fsanitize=fuzzer-no-link,address,undefined $(PKG_CFLAGS) \
+		-MMD -MP -c $< -o $@
+
+$(BUILD)/fuzz/libomen-fuzz.a: $(FUZZ_LIB_OBJ)
+	@rm -f $@
+	ar rcs $@ $^
+
+$(BUILD)/fuzz/%-libfuzzer: tests/fuzz/%.c $(BUILD)/fuzz/libomen-fuzz.a
+	@mkdir -p $(dir $@)
+	$(FUZZ_CC) $(FUZZ_CFLAGS) -fsanitize=fuzzer,address,undefined $(PKG_CFLAGS) -o $@ $< \
+		$(BUILD)/fuzz/libomen-fuzz.a $(PKG_LIBS) -lm -pthread
 
 FUZZ_SECONDS ?= 60
+FUZZ_MAX_LEN ?= 4096
+FUZZ_KEEP_BYTES ?= 256
 fuzz: $(FUZZ_LF)
-	@for f in $(FUZZ_LF); do n=$$(basename $$f -libfuzzer); d=fixtures/corpora/$${n#fuzz_}; \
-		mkdir -p $$d; echo "fuzz: $$n for $(FUZZ_SECONDS)s"; \
-		$$f -max_total_time=$(FUZZ_SECONDS) -max_len=65536 $$d || exit 1; done
+	@for f in $(FUZZ_LF); do n=$$(basename $$f -libfuzzer); x=$${n#fuzz_}; \
+		d=fixtures/corpora/$$x; w=$(BUILD)/fuzz/corpus/$$x; a=$(BUILD)/fuzz/artifacts/$$x; \
+		mkdir -p $$d $$w $$a; echo "fuzz: $$x for $(FUZZ_SECONDS)s"; \
+		$$f -max_total_time=$(FUZZ_SECONDS) -max_len=$(FUZZ_MAX_LEN) -timeout=10 \
+			-rss_limit_mb=2048 -print_final_stats=1 -artifact_prefix=$$a/ $$w $$d \
+			2>$(BUILD)/fuzz/$$x.log; r=$$?; \
+		grep -E '^(stat::number_of_executed_units|stat::peak_rss_mb|#[0-9]+ +DONE)' \
+			$(BUILD)/fuzz/$$x.log | sed "s/^/  $$x: /"; \
+		if [ $$r -ne 0 ]; then tail -40 $(BUILD)/fuzz/$$x.log; \
+			echo "fuzz: $$x FAILED, reproducer in $$a/"; exit 1; fi; \
+		if [ "$(FUZZ_KEEP_BYTES)" -gt 0 ]; then s=$(BUILD)/fuzz/small/$$x; rm -rf $$s; \
+			mkdir -p $$s; find $$w -type f -size -$$(($(FUZZ_KEEP_BYTES) + 1))c \
+				-exec cp {} $$s/ \; ; \
+			$$f -merge=1 -max_len=$(FUZZ_KEEP_BYTES) $$d $$s 2>>$(BUILD)/fuzz/$$x.log; \
+			echo "  $$x: corpus now $$(ls $$d | wc -l) files"; fi; \
+	done
 
 demo: all
 	@OMEN="$(CURDIR)/$(OMEN)" sh fixtures/demo/run-demo.sh
@@ -145,4 +187,4 @@ uninstall:
 clean:
 	rm -rf build build-asan build-*
 
--include $(LIB_OBJ:.o=.d) $(CLI_OBJ:.o=.d)
+-include $(LIB_OBJ:.o=.d) $(CLI_OBJ:.o=.d) $(FUZZ_LIB_OBJ:.o=.d)
