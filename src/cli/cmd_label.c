@@ -1,9 +1,207 @@
-/* git omen label: placeholder until the command lands; replace this file. */
+/* git omen label: find fix commits, trace the lines they repair to the
+ * commits that introduced them (SZZ), write the label file, print a summary. */
+#include <stdlib.h>
+#include <string.h>
 #include "cli/cli.h"
+#include "omen/label.h"
+
+static const char usage_text[] =
+	"usage: git omen label [<rev>...] [<options>]\n"
+	"\n"
+	"  -o <file>              write labels here (default $GIT_DIR/omen/labels.jsonl)\n"
+	"  --fix-pattern <re>     fix message pattern, POSIX extended regex, case-insensitive\n"
+	"  --fix-list <file>      extra fixes: commit ids or issue ids, optional YYYY-MM-DD date\n"
+	"  --window <days>        commits newer than this before the newest stay unknown (90)\n"
+	"  --max-fix-files <n>    skip fixes touching more files than this (50)\n"
+	"  --no-skip-blank        also trace blank and whitespace-only lines\n"
+	"  --no-skip-comments     also trace comment-only lines\n"
+	"  --no-ws-origin         a whitespace-only rewrite takes a new origin\n"
+	"  --no-renames           a renamed file starts with new origins\n"
+	"  --no-issue-dates       keep candidates newer than the fix's issue date\n"
+	"  --full                 relabel even when the previous labels are up to date\n"
+	"  --format <fmt>         summary as text (default) or json\n"
+	"  --dump-origins <file>  testing: write the origin of every line a fix deletes\n"
+	"  -h, --help             show this help\n";
+
+static const char *mode_name(int m)
+{
+	switch (m) {
+	case OMEN_LABEL_MODE_GREW: return "grew";
+	case OMEN_LABEL_MODE_REWRITTEN: return "rewritten";
+	case OMEN_LABEL_MODE_UPTODATE: return "up-to-date";
+	default: return "full";
+	}
+}
+
+static double share(size_t a, size_t b) { return b ? (double)a / (double)b : 0.0; }
+
+static void print_text(const omen_label_summary *s, const char *path)
+{
+	switch (s->mode) {
+	case OMEN_LABEL_MODE_UPTODATE:
+		printf("labels are up to date with %.12s (use --full to relabel)\n", s->head);
+		break;
+	case OMEN_LABEL_MODE_GREW:
+		printf("history grew by %zu commit%s since the previous labels; relabelled\n",
+			s->new_commits, s->new_commits == 1 ? "" : "s");
+		break;
+	case OMEN_LABEL_MODE_REWRITTEN:
+		printf("history was rewritten since the previous labels (old head is not an ancestor); relabelled\n");
+		break;
+	default:
+		break;
+	}
+	printf("commits     %zu (%zu merges, never candidates)\n", s->commits, s->merges);
+	printf("inducing    %zu\n", s->inducing);
+	printf("clean       %zu\n", s->clean);
+	printf("unknown     %zu (newer than the window, merges, shallow boundary)\n", s->unknown);
+	if (!s->fixes) {
+		printf("no fix commits found: nothing is inducing; every commit is clean or unknown\n");
+	} else {
+		printf("fixes       %zu (pattern %zu, list %zu, issue %zu, named %zu)\n", s->fixes,
+			s->fixes_by_pattern, s->fixes_by_list, s->fixes_by_issue, s->fixes_by_named);
+		printf("traced      %zu fixes, %zu lines\n", s->fixes_traced, s->traced_lines);
+		printf("add-only    %zu fixes (%.1f%%, untraceable)\n", s->fixes_add_only,
+			100.0 * share(s->fixes_add_only, s->fixes));
+		if (s->fixes_skipped_large)
+			printf("skipped     %zu fixes touching too many files\n", s->fixes_skipped_large);
+		printf("latency     %.1f / %.1f / %.1f days (quartiles, inducing to fix)\n",
+			s->latency_days_q[0], s->latency_days_q[1], s->latency_days_q[2]);
+	}
+	if (s->shallow)
+		printf("shallow history: %zu boundary commits are unknown\n", s->boundary);
+	if (path)
+		printf("wrote %s\n", path);
+}
+
+static void print_json(const omen_label_summary *s)
+{
+	printf("{\"mode\":\"%s\",\"head\":\"%s\",\"commits\":%zu,\"merges\":%zu,\"inducing\":%zu,"
+		"\"clean\":%zu,\"unknown\":%zu,\"fixes\":%zu,\"fixes_by\":{\"pattern\":%zu,\"list\":%zu,"
+		"\"issue\":%zu,\"named\":%zu},\"fixes_traced\":%zu,\"traced_lines\":%zu,"
+		"\"fixes_add_only\":%zu,\"add_only_share\":%.4f,\"fixes_skipped_large\":%zu,"
+		"\"named_links\":%zu,\"latency_days\":[%.3f,%.3f,%.3f],\"shallow\":%s,\"boundary\":%zu,"
+		"\"list_entries\":%zu,\"list_unmatched\":%zu,\"new_commits\":%zu,\"seconds\":%.3f}\n",
+		mode_name(s->mode), s->head, s->commits, s->merges, s->inducing, s->clean, s->unknown,
+		s->fixes, s->fixes_by_pattern, s->fixes_by_list, s->fixes_by_issue, s->fixes_by_named,
+		s->fixes_traced, s->traced_lines, s->fixes_add_only, share(s->fixes_add_only, s->fixes),
+		s->fixes_skipped_large, s->named_links, s->latency_days_q[0], s->latency_days_q[1],
+		s->latency_days_q[2], s->shallow ? "true" : "false", s->boundary, s->list_entries,
+		s->list_unmatched, s->new_commits, s->seconds);
+}
+
+static int parse_count(const char *v, int64_t *out)
+{
+	char *end;
+	long long x = strtoll(v, &end, 10);
+	if (!*v || *end || x < 0)
+		return -1;
+	*out = x;
+	return 0;
+}
 
 int cmd_label(int argc, char **argv)
 {
-	(void)argc; (void)argv;
-	fprintf(stderr, "git omen: 'label' is not built yet\n");
-	return EXIT_FATAL;
+	omen_label_opts o;
+	omen_label_summary s;
+	omen_repo *repo = NULL;
+	const char *out = NULL, *format = "text", *val;
+	const char **revs = NULL;
+	int nrevs = 0, i, r, rc = EXIT_OK, e;
+	int64_t n;
+
+	omen_label_opts_init(&o);
+	if (!(revs = calloc((size_t)argc + 1, sizeof(*revs))))
+		return cli_fatal("out of memory");
+	for (i = 1; i < argc; i++) {
+		const char *a = argv[i];
+		if (!strcmp(a, "-h") || !strcmp(a, "--help")) {
+			fputs(usage_text, stdout);
+			goto done;
+		} else if ((r = cli_opt_value(argc, argv, &i, "-o", &val))) {
+			if (r < 0)
+				goto missing;
+			out = val;
+		} else if ((r = cli_opt_value(argc, argv, &i, "--fix-pattern", &val))) {
+			if (r < 0)
+				goto missing;
+			o.fix_pattern = val;
+		} else if ((r = cli_opt_value(argc, argv, &i, "--fix-list", &val))) {
+			if (r < 0)
+				goto missing;
+			o.fix_list = val;
+		} else if ((r = cli_opt_value(argc, argv, &i, "--window", &val))) {
+			if (r < 0)
+				goto missing;
+			if (parse_count(val, &n)) {
+				rc = cli_usage("label", "--window: '%s' is not a number of days", val);
+				goto done;
+			}
+			o.window_days = n;
+		} else if ((r = cli_opt_value(argc, argv, &i, "--max-fix-files", &val))) {
+			if (r < 0)
+				goto missing;
+			if (parse_count(val, &n) || n > 1000000000) {
+				rc = cli_usage("label", "--max-fix-files: '%s' is not a count", val);
+				goto done;
+			}
+			o.max_fix_files = (int)n;
+		} else if ((r = cli_opt_value(argc, argv, &i, "--format", &val))) {
+			if (r < 0)
+				goto missing;
+			if (strcmp(val, "text") && strcmp(val, "json")) {
+				rc = cli_usage("label", "--format: '%s' is not text or json", val);
+				goto done;
+			}
+			format = val;
+		} else if ((r = cli_opt_value(argc, argv, &i, "--dump-origins", &val))) {
+			if (r < 0)
+				goto missing;
+			o.dump_origins = val;
+		} else if (!strcmp(a, "--no-skip-blank")) {
+			o.skip_blank = 0;
+		} else if (!strcmp(a, "--no-skip-comments")) {
+			o.skip_comments = 0;
+		} else if (!strcmp(a, "--no-ws-origin")) {
+			o.ws_keeps_origin = 0;
+		} else if (!strcmp(a, "--no-renames")) {
+			o.follow_renames = 0;
+		} else if (!strcmp(a, "--no-issue-dates")) {
+			o.use_issue_dates = 0;
+		} else if (!strcmp(a, "--full")) {
+			o.incremental = 0;
+		} else if (a[0] == '-' && a[1]) {
+			rc = cli_usage("label", "unknown option '%s'; see 'git omen label --help'", a);
+			goto done;
+		} else {
+			revs[nrevs++] = a;
+		}
+	}
+	if (o.dump_origins)
+		o.incremental = 0;
+	o.revs = nrevs ? revs : NULL;
+	if ((e = omen_repo_open(&repo, NULL))) {
+		rc = cli_fatal(NULL);
+		goto done;
+	}
+	if ((e = omen_label_run(&s, repo, &o, out))) {
+		rc = cli_fatal(NULL);
+		goto done;
+	}
+	if (s.list_unmatched)
+		fprintf(stderr, "git omen: warning: %zu of %zu fix list entries matched no commit\n",
+			s.list_unmatched, s.list_entries);
+	if (s.untraced_missing)
+		fprintf(stderr, "git omen: warning: %zu deleted lines had no origin state\n", s.untraced_missing);
+	if (!strcmp(format, "json"))
+		print_json(&s);
+	else
+		print_text(&s, s.mode == OMEN_LABEL_MODE_UPTODATE ? NULL : out);
+	goto done;
+missing:
+	rc = cli_usage("label", "option '%s' needs a value", argv[i]);
+done:
+	omen_repo_free(repo);
+	free(revs);
+	return rc;
 }

@@ -1,0 +1,692 @@
+/* omen_label_run: one oldest-first pass over the history (merges included so
+ * that line-origin state flows through them), tracing every fix's deleted
+ * lines to the commits that introduced them (SZZ, Sliwerski, Zimmermann &
+ * Zeller, MSR 2005; refinements of Kim et al., ASE 2006 and da Costa et al.,
+ * TSE 2017), then labelling and writing the label file atomically.
+ *
+ * Reference counting of file versions: a version is held while a "live"
+ * commit (one whose children are not all walked yet) has it in its tree. In a
+ * straight line the parent dies as its only child is born, so only the
+ * changed files move references (+1 new, -1 old). At a fork (parent stays
+ * live) the child's whole tree gains a reference, and when a merge retires a
+ * side parent that parent's whole tree loses one: both read the tree from
+ * git, which happens once per fork or merge, not per commit. */
+#include <ctype.h>
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+#include <cJSON.h>
+#include "omen/error.h"
+#include "omen/label.h"
+#include "label/internal.h"
+#include "label/trace.h"
+
+#define MAX_NAMED 8
+
+typedef struct {
+	int64_t time;
+	int64_t issue_date;
+	uint32_t traced, named;
+	uint32_t pending;      /* children not walked yet */
+	int32_t parent1;       /* walk index of the first parent, -1 none */
+	unsigned fix_by;
+	uint8_t is_fix, merge, boundary, skipped, walked;
+} lbl_commit;
+
+typedef struct {
+	uint32_t ind, fix, lines;
+} lbl_pair;
+
+typedef struct {
+	omen_repo *repo;
+	const omen_label_opts *o;
+	omen_fixrules *fr;
+	lbl_tracer *tr;
+	git_oid *ids;
+	size_t n, done;
+	lbl_commit *cs;
+	omen_strmap index;      /* hex -> walk index + 1 */
+	lbl_pair *pairs;
+	size_t npairs, pairs_cap;
+	/* per fix scratch: candidate -> lines */
+	uint32_t *cand, *cand_lines;
+	size_t ncand, cand_cap, cand_lines_cap;
+	uint32_t cur_fix;
+	size_t fix_lines_total;
+	size_t dropped_issue_date, dropped_noncand;
+	FILE *dump;
+	omen_label_summary *sum;
+	omen_progress prog;
+	omen_buf path;          /* scratch for tree walks */
+	int tree_delta;
+} lbl_run;
+
+void omen_label_opts_init(omen_label_opts *o)
+{
+	memset(o, 0, sizeof(*o));
+	o->window_days = -1;   /* -1: omen.window, else 90 */
+	o->max_fix_files = -1; /* -1: omen.maxFixFiles, else 50 */
+	o->skip_blank = 1;
+	o->skip_comments = 1;
+	o->ws_keeps_origin = 1;
+	o->follow_renames = 1;
+	o->use_issue_dates = 1;
+	o->incremental = 1;
+}
+
+static long lookup(const lbl_run *R, const char *hex)
+{
+	uintptr_t v = (uintptr_t)omen_strmap_get(&R->index, hex);
+	return v ? (long)v - 1 : -1;
+}
+
+static long lookup_oid(const lbl_run *R, const git_oid *id)
+{
+	char hex[OMEN_OID_HEX + 1];
+	git_oid_tostr(hex, sizeof(hex), id);
+	return lookup(R, hex);
+}
+
+/* ---- tree references ----------------------------------------------------- */
+typedef struct {
+	lbl_run *R;
+	int delta;
+} tree_ref_ctx;
+
+static int tree_ref_cb(const char *root, const git_tree_entry *e, void *p)
+{
+	tree_ref_ctx *x = p;
+	if (git_tree_entry_type(e) != GIT_OBJECT_BLOB)
+		return 0;
+	omen_buf_clear(&x->R->path);
+	omen_buf_puts(&x->R->path, root);
+	omen_buf_puts(&x->R->path, git_tree_entry_name(e));
+	lbl_tracer_ref(x->R->tr, x->R->path.ptr, git_tree_entry_id(e), x->delta);
+	return 0;
+}
+
+static int tree_ref(lbl_run *R, uint32_t ci, int delta)
+{
+	git_commit *cm = NULL;
+	git_tree *tree = NULL;
+	tree_ref_ctx x = {R, delta};
+	int e = 0;
+	if (git_commit_lookup(&cm, omen_repo_git(R->repo), &R->ids[ci]) ||
+	    git_commit_tree(&tree, cm) ||
+	    git_tree_walk(tree, GIT_TREEWALK_PRE, tree_ref_cb, &x)) {
+		const git_error *ge = git_error_last();
+		char hex[OMEN_OID_HEX + 1];
+		git_oid_tostr(hex, sizeof(hex), &R->ids[ci]);
+		e = omen_error_set(OMEN_EGIT, "cannot read tree of '%s': %s", hex,
+			ge && ge->message ? ge->message : "libgit2 error");
+	}
+	git_tree_free(tree);
+	git_commit_free(cm);
+	return e;
+}
+
+/* ---- tracing callback ------------------------------------------------------ */
+static int add_cand(lbl_run *R, uint32_t origin)
+{
+	size_t i;
+	for (i = 0; i < R->ncand; i++) {
+		if (R->cand[i] == origin) {
+			R->cand_lines[i]++;
+			return 0;
+		}
+	}
+	if (OMEN_ARRAY_RESERVE(R->cand, R->cand_cap, R->ncand + 1) ||
+	    OMEN_ARRAY_RESERVE(R->cand_lines, R->cand_lines_cap, R->ncand + 1))
+		return omen_error_set(OMEN_ENOMEM, "out of memory");
+	R->cand[R->ncand] = origin;
+	R->cand_lines[R->ncand++] = 1;
+	return 0;
+}
+
+static int line_cb(const omen_change *c, const omen_file *f, const omen_line *l,
+	uint32_t origin, int skip, void *payload)
+{
+	lbl_run *R = payload;
+	lbl_commit *fx = &R->cs[R->cur_fix];
+	if (R->dump) {
+		char hex[OMEN_OID_HEX + 1] = "-";
+		if (origin != LBL_NONE)
+			git_oid_tostr(hex, sizeof(hex), &R->ids[origin]);
+		fprintf(R->dump, "%s %d %s %d %s\n", c->commit.hex, (int)l->old_lineno, hex, skip, f->old_path);
+	}
+	if (fx->skipped)
+		return 0;
+	if (skip == LBL_SKIP_NOSTATE)
+		R->sum->untraced_missing++;
+	if (skip != LBL_TRACED)
+		return 0;
+	R->fix_lines_total++;
+	if (origin >= R->n || R->cs[origin].merge || R->cs[origin].boundary) {
+		R->dropped_noncand++;
+		return 0;
+	}
+	if (R->o->use_issue_dates && fx->issue_date && R->cs[origin].time > fx->issue_date) {
+		R->dropped_issue_date++;
+		return 0;
+	}
+	return add_cand(R, origin);
+}
+
+/* Resolves an abbreviated id named by a fix to an earlier walked commit. */
+static long resolve_named(lbl_run *R, const char *hex)
+{
+	git_object *obj = NULL;
+	git_oid id;
+	long i = -1;
+	size_t n = strlen(hex);
+	if (n == OMEN_OID_HEX)
+		return lookup(R, hex);
+	if (git_oid_fromstrn(&id, hex, n) == 0 &&
+	    git_object_lookup_prefix(&obj, omen_repo_git(R->repo), &id, n, GIT_OBJECT_COMMIT) == 0)
+		i = lookup_oid(R, git_object_id(obj));
+	git_object_free(obj);
+	return i;
+}
+
+static int walk_cb(const omen_change *c, void *payload)
+{
+	lbl_run *R = payload;
+	long ci = lookup(R, c->commit.hex);
+	lbl_commit *cm;
+	char named[MAX_NAMED][OMEN_OID_HEX + 1];
+	int nnamed = 0, e, i, live;
+	unsigned by;
+	long p1;
+	if (ci < 0)
+		return omen_error_set(OMEN_ERROR, "walk gave commit '%s' that the listing did not", c->commit.hex);
+	cm = &R->cs[ci];
+	cm->time = c->commit.author_time;
+	cm->merge = c->commit.nparents > 1;
+	cm->boundary = c->commit.boundary != 0;
+	cm->walked = 1;
+	if (cm->boundary)
+		R->sum->shallow = 1;
+	by = cm->merge ? 0 : omen_fix_classify(R->fr, &c->commit, named, MAX_NAMED, &nnamed);
+	if (by & OMEN_FIXBY_NAMED) {
+		int resolved = 0;
+		for (i = 0; i < nnamed; i++) {
+			long t = resolve_named(R, named[i]);
+			if (t >= 0 && t != ci && R->cs[t].walked && !R->cs[t].merge) {
+				R->cs[t].named++;
+				R->sum->named_links++;
+				resolved = 1;
+				if (OMEN_ARRAY_RESERVE(R->pairs, R->pairs_cap, R->npairs + 1))
+					return omen_error_set(OMEN_ENOMEM, "out of memory");
+				R->pairs[R->npairs++] = (lbl_pair){(uint32_t)t, (uint32_t)ci, 0};
+			}
+		}
+		if (!resolved)
+			by &= ~(unsigned)OMEN_FIXBY_NAMED;
+	}
+	if (by) {
+		size_t k, before = R->fix_lines_total;
+		cm->is_fix = 1;
+		cm->fix_by = by;
+		cm->issue_date = R->o->use_issue_dates ? omen_fix_issue_date(R->fr, &c->commit) : 0;
+		cm->skipped = R->o->max_fix_files > 0 && c->nfiles > (size_t)R->o->max_fix_files;
+		R->cur_fix = (uint32_t)ci;
+		R->ncand = 0;
+		if (!cm->skipped || R->dump)
+			if ((e = lbl_tracer_trace(R->tr, c, line_cb, R)))
+				return e;
+		if (cm->skipped)
+			R->sum->fixes_skipped_large++;
+		else if (R->fix_lines_total == before)
+			R->sum->fixes_add_only += !R->ncand;
+		if (R->ncand)
+			R->sum->fixes_traced++;
+		for (k = 0; k < R->ncand; k++) {
+			uint32_t t = R->cand[k];
+			R->cs[t].traced += R->cand_lines[k];
+			R->sum->traced_lines += R->cand_lines[k];
+			if (OMEN_ARRAY_RESERVE(R->pairs, R->pairs_cap, R->npairs + 1))
+				return omen_error_set(OMEN_ENOMEM, "out of memory");
+			R->pairs[R->npairs++] = (lbl_pair){t, (uint32_t)ci, R->cand_lines[k]};
+		}
+	}
+	if ((e = lbl_tracer_apply(R->tr, c, (uint32_t)ci)))
+		return e;
+	/* references: see the top of this file */
+	live = cm->pending > 0;
+	p1 = cm->parent1;
+	if (p1 >= 0) {
+		int p1_dies = --R->cs[p1].pending == 0;
+		if (live && p1_dies) {
+			lbl_tracer_step(R->tr, c);
+		} else if (live) {
+			if ((e = tree_ref(R, (uint32_t)ci, +1)))
+				return e;
+		} else if (p1_dies) {
+			if ((e = tree_ref(R, (uint32_t)p1, -1)))
+				return e;
+		}
+	} else if (live) {
+		size_t fi;
+		for (fi = 0; fi < c->nfiles; fi++)
+			if (c->files[fi].new_path && c->files[fi].status != OMEN_FILE_DELETED)
+				lbl_tracer_ref(R->tr, c->files[fi].new_path, &c->files[fi].new_blob, +1);
+	}
+	for (i = 1; i < (int)c->commit.nparents; i++) {
+		long pk = lookup_oid(R, &c->commit.parents[i]);
+		if (pk >= 0 && pk != p1 && R->cs[pk].pending && --R->cs[pk].pending == 0)
+			if ((e = tree_ref(R, (uint32_t)pk, -1)))
+				return e;
+	}
+	lbl_tracer_sweep(R->tr);
+	R->done++;
+	if (R->o->max_bytes > 0 && (int64_t)lbl_tracer_bytes(R->tr) > R->o->max_bytes)
+		return omen_error_set(OMEN_ELIMIT, "label state over the memory limit (%lld bytes)",
+			(long long)R->o->max_bytes);
+	omen_progress_update(&R->prog, R->done, NULL);
+	return 0;
+}
+
+/* ---- graph pre-pass ---------------------------------------------------------- */
+static int load_graph(lbl_run *R)
+{
+	size_t i;
+	int e = 0;
+	if (!(R->cs = calloc(R->n ? R->n : 1, sizeof(*R->cs))))
+		return omen_error_set(OMEN_ENOMEM, "out of memory");
+	for (i = 0; i < R->n; i++) {
+		char hex[OMEN_OID_HEX + 1];
+		git_oid_tostr(hex, sizeof(hex), &R->ids[i]);
+		if ((e = omen_strmap_put(&R->index, hex, (void *)(uintptr_t)(i + 1))))
+			return e;
+		R->cs[i].parent1 = -1;
+	}
+	for (i = 0; i < R->n; i++) {
+		git_commit *cm = NULL;
+		unsigned k, np;
+		if (git_commit_lookup(&cm, omen_repo_git(R->repo), &R->ids[i])) {
+			const git_error *ge = git_error_last();
+			return omen_error_set(OMEN_EGIT, "cannot read commit: %s", ge ? ge->message : "");
+		}
+		np = git_commit_parentcount(cm);
+		for (k = 0; k < np; k++) {
+			long p = lookup_oid(R, git_commit_parent_id(cm, k));
+			if (p < 0)
+				continue;
+			if (k == 0)
+				R->cs[i].parent1 = (int32_t)p;
+			R->cs[p].pending++;
+		}
+		git_commit_free(cm);
+	}
+	return 0;
+}
+
+static int pair_cmp(const void *a, const void *b)
+{
+	const lbl_pair *x = a, *y = b;
+	if (x->ind != y->ind)
+		return x->ind < y->ind ? -1 : 1;
+	return x->fix < y->fix ? -1 : x->fix > y->fix;
+}
+
+static int dbl_cmp(const void *a, const void *b)
+{
+	double x = *(const double *)a, y = *(const double *)b;
+	return x < y ? -1 : x > y;
+}
+
+static double quantile(const double *v, size_t n, double q)
+{
+	double pos, fl;
+	size_t i;
+	if (!n)
+		return 0;
+	pos = q * (double)(n - 1);
+	fl = floor(pos);
+	i = (size_t)fl;
+	return i + 1 < n ? v[i] + (pos - fl) * (v[i + 1] - v[i]) : v[i];
+}
+
+/* ---- options and the previous run ---------------------------------------- */
+static int opts_json(omen_buf *b, const omen_label_opts *o, const char *pattern, const char *list)
+{
+	omen_buf_printf(b, "{\"fix_pattern\":");
+	if (pattern)
+		omen_buf_put_json_string(b, pattern, strlen(pattern));
+	else
+		omen_buf_puts(b, "null");
+	omen_buf_puts(b, ",\"fix_list\":");
+	if (list)
+		omen_buf_put_json_string(b, list, strlen(list));
+	else
+		omen_buf_puts(b, "null");
+	return omen_buf_printf(b, ",\"window_days\":%lld,\"max_fix_files\":%d,\"skip_blank\":%d,"
+		"\"skip_comments\":%d,\"ws_keeps_origin\":%d,\"follow_renames\":%d,\"use_issue_dates\":%d}",
+		(long long)o->window_days, o->max_fix_files, o->skip_blank, o->skip_comments,
+		o->ws_keeps_origin, o->follow_renames, o->use_issue_dates);
+}
+
+static void summary_from_header(omen_label_summary *s, const char *json)
+{
+	cJSON *j = cJSON_Parse(json), *m, *v;
+	if (!j)
+		return;
+	m = cJSON_GetObjectItemCaseSensitive(j, "summary");
+#define GETN(k, f) if ((v = cJSON_GetObjectItemCaseSensitive(m, k)) && cJSON_IsNumber(v)) s->f = (size_t)v->valuedouble
+	GETN("commits", commits); GETN("fixes", fixes); GETN("inducing", inducing);
+	GETN("clean", clean); GETN("unknown", unknown); GETN("fixes_by_pattern", fixes_by_pattern);
+	GETN("fixes_by_list", fixes_by_list); GETN("fixes_by_issue", fixes_by_issue);
+	GETN("fixes_by_named", fixes_by_named); GETN("fixes_add_only", fixes_add_only);
+	GETN("fixes_skipped_large", fixes_skipped_large); GETN("traced_lines", traced_lines);
+	GETN("merges", merges); GETN("boundary", boundary); GETN("named_links", named_links);
+	GETN("fixes_traced", fixes_traced);
+#undef GETN
+	if ((v = cJSON_GetObjectItemCaseSensitive(m, "latency_days")) && cJSON_GetArraySize(v) == 3) {
+		int k;
+		for (k = 0; k < 3; k++)
+			s->latency_days_q[k] = cJSON_GetArrayItem(v, k)->valuedouble;
+	}
+	if ((v = cJSON_GetObjectItemCaseSensitive(m, "shallow")))
+		s->shallow = cJSON_IsTrue(v);
+	cJSON_Delete(j);
+}
+
+/* Previous labels: 1 when they cover the same head with the same options. */
+static int previous_run(omen_label_summary *sum, lbl_run *R, const char *path, const char *opts,
+	const char *head)
+{
+	omen_labels *old = NULL;
+	cJSON *j = NULL, *v;
+	int same = 0;
+	git_oid oh, nh;
+	if (omen_labels_load(&old, path)) {
+		omen_error_clear();
+		return 0;
+	}
+	j = cJSON_Parse(lbl_labels_header(old));
+	v = j ? cJSON_GetObjectItemCaseSensitive(j, "options") : NULL;
+	if (*omen_labels_head(old) && !git_oid_fromstr(&oh, omen_labels_head(old)) &&
+	    !git_oid_fromstr(&nh, head)) {
+		char *prev_opts = v ? cJSON_PrintUnformatted(v) : NULL;
+		cJSON *mine = cJSON_Parse(opts);
+		char *my_opts = mine ? cJSON_PrintUnformatted(mine) : NULL;
+		int same_opts = prev_opts && my_opts && !strcmp(prev_opts, my_opts);
+		free(prev_opts);
+		free(my_opts);
+		cJSON_Delete(mine);
+		if (git_oid_equal(&oh, &nh)) {
+			sum->mode = same_opts ? OMEN_LABEL_MODE_UPTODATE : OMEN_LABEL_MODE_FULL;
+			same = same_opts;
+			if (same)
+				summary_from_header(sum, lbl_labels_header(old));
+		} else if (git_graph_descendant_of(omen_repo_git(R->repo), &nh, &oh) == 1) {
+			size_t i, known = 0;
+			sum->mode = OMEN_LABEL_MODE_GREW;
+			for (i = 0; i < omen_labels_count(old); i++)
+				known += lookup(R, omen_labels_at(old, i)->id) >= 0;
+			sum->new_commits = R->n > known ? R->n - known : 0;
+		} else {
+			sum->mode = OMEN_LABEL_MODE_REWRITTEN;
+		}
+	}
+	cJSON_Delete(j);
+	omen_labels_free(old);
+	return same;
+}
+
+/* ---- writing ---------------------------------------------------------------- */
+static int write_labels(lbl_run *R, const char *path, const char *opts, const char *head)
+{
+	omen_atomic_file af;
+	omen_buf b = OMEN_BUF_INIT;
+	omen_label_summary *s = R->sum;
+	const char **fixids = NULL;
+	size_t i, pi = 0, nfixids = 0, fcap = 0;
+	int e;
+	if ((e = omen_atomic_open(&af, path)))
+		return e;
+	omen_buf_printf(&b, "{\"omen_labels\":1,\"head\":\"%s\",\"commits\":%zu,\"newest_time\":%lld,"
+		"\"window_cut\":%lld,\"options\":%s,\"summary\":{\"commits\":%zu,\"fixes\":%zu,"
+		"\"inducing\":%zu,\"clean\":%zu,\"unknown\":%zu,\"merges\":%zu,\"boundary\":%zu,"
+		"\"fixes_by_pattern\":%zu,\"fixes_by_list\":%zu,\"fixes_by_issue\":%zu,"
+		"\"fixes_by_named\":%zu,\"fixes_traced\":%zu,\"fixes_add_only\":%zu,"
+		"\"fixes_skipped_large\":%zu,\"traced_lines\":%zu,\"named_links\":%zu,"
+		"\"latency_days\":[%.3f,%.3f,%.3f],\"shallow\":%s}}\n",
+		head, R->n, (long long)s->newest_time, (long long)s->window_cut, opts, s->commits, s->fixes,
+		s->inducing, s->clean, s->unknown, s->merges, s->boundary, s->fixes_by_pattern,
+		s->fixes_by_list, s->fixes_by_issue, s->fixes_by_named, s->fixes_traced, s->fixes_add_only,
+		s->fixes_skipped_large, s->traced_lines, s->named_links, s->latency_days_q[0],
+		s->latency_days_q[1], s->latency_days_q[2], s->shallow ? "true" : "false");
+	if (fwrite(b.ptr, 1, b.len, af.fp) != b.len) {
+		e = omen_error_set(OMEN_EIO, "cannot write '%s'", path);
+		goto out;
+	}
+	for (i = 0; i < R->n; i++) {
+		omen_label_rec rec;
+		lbl_commit *c = &R->cs[i];
+		char hexes[64][OMEN_OID_HEX + 1];
+		memset(&rec, 0, sizeof(rec));
+		git_oid_tostr(rec.id, sizeof(rec.id), &R->ids[i]);
+		rec.time = c->time;
+		rec.is_fix = c->is_fix;
+		rec.fix_by = c->fix_by;
+		rec.traced_lines = c->traced;
+		rec.named = c->named;
+		rec.merge = c->merge;
+		rec.boundary = c->boundary;
+		rec.label = c->merge || c->boundary ? OMEN_LABEL_UNKNOWN :
+			(c->traced || c->named) ? OMEN_LABEL_INDUCING :
+			c->time < s->window_cut ? OMEN_LABEL_CLEAN : OMEN_LABEL_UNKNOWN;
+		nfixids = 0;
+		while (pi < R->npairs && R->pairs[pi].ind < i)
+			pi++;
+		for (; pi < R->npairs && R->pairs[pi].ind == i; pi++) {
+			if (nfixids && R->pairs[pi].fix == R->pairs[pi - 1].fix)
+				continue; /* traced and named by the same fix */
+			if (nfixids >= 64)
+				continue; /* the record lists at most 64 fixes */
+			if (OMEN_ARRAY_RESERVE(fixids, fcap, nfixids + 1)) {
+				e = omen_error_set(OMEN_ENOMEM, "out of memory");
+				goto out;
+			}
+			git_oid_tostr(hexes[nfixids], OMEN_OID_HEX + 1, &R->ids[R->pairs[pi].fix]);
+			fixids[nfixids] = hexes[nfixids];
+			nfixids++;
+		}
+		rec.fixes = (const char *const *)fixids;
+		rec.nfixes = (uint32_t)nfixids;
+		omen_buf_clear(&b);
+		if ((e = lbl_write_record(&b, &rec)))
+			goto out;
+		if (fwrite(b.ptr, 1, b.len, af.fp) != b.len) {
+			e = omen_error_set(OMEN_EIO, "cannot write '%s'", path);
+			goto out;
+		}
+	}
+	e = omen_atomic_commit(&af);
+	free(fixids);
+	omen_buf_free(&b);
+	return e;
+out:
+	free(fixids);
+	omen_buf_free(&b);
+	omen_atomic_abort(&af);
+	return e;
+}
+
+static void count_labels(lbl_run *R)
+{
+	omen_label_summary *s = R->sum;
+	size_t i;
+	int64_t newest = 0;
+	for (i = 0; i < R->n; i++)
+		if (R->cs[i].time > newest)
+			newest = R->cs[i].time;
+	s->newest_time = newest;
+	s->window_cut = newest - R->o->window_days * 86400;
+	for (i = 0; i < R->n; i++) {
+		lbl_commit *c = &R->cs[i];
+		s->commits++;
+		s->merges += c->merge;
+		s->boundary += c->boundary;
+		if (c->is_fix) {
+			s->fixes++;
+			s->fixes_by_pattern += (c->fix_by & OMEN_FIXBY_PATTERN) != 0;
+			s->fixes_by_list += (c->fix_by & OMEN_FIXBY_LIST) != 0;
+			s->fixes_by_issue += (c->fix_by & OMEN_FIXBY_ISSUE) != 0;
+			s->fixes_by_named += (c->fix_by & OMEN_FIXBY_NAMED) != 0;
+		}
+		if (c->merge || c->boundary)
+			s->unknown++;
+		else if (c->traced || c->named)
+			s->inducing++;
+		else if (c->time < s->window_cut)
+			s->clean++;
+		else
+			s->unknown++;
+	}
+}
+
+static int latency(lbl_run *R)
+{
+	double *d;
+	size_t i, k = 0;
+	if (!R->npairs)
+		return 0;
+	if (!(d = malloc(R->npairs * sizeof(*d))))
+		return omen_error_set(OMEN_ENOMEM, "out of memory");
+	for (i = 0; i < R->npairs; i++)
+		d[k++] = (double)(R->cs[R->pairs[i].fix].time - R->cs[R->pairs[i].ind].time) / 86400.0;
+	qsort(d, k, sizeof(*d), dbl_cmp);
+	R->sum->latency_days_q[0] = quantile(d, k, 0.25);
+	R->sum->latency_days_q[1] = quantile(d, k, 0.5);
+	R->sum->latency_days_q[2] = quantile(d, k, 0.75);
+	free(d);
+	return 0;
+}
+
+int omen_label_run(omen_label_summary *sum, omen_repo *r, const omen_label_opts *opts,
+	const char *out_path)
+{
+	omen_label_opts o = *opts;
+	omen_walk_opts wo = OMEN_WALK_OPTS_INIT;
+	lbl_run R;
+	lbl_trace_opts to;
+	char *cfg_pattern = NULL, *cfg_list = NULL, *cfg_labels = NULL, *path = NULL;
+	const char *pattern, *list;
+	omen_buf ob = OMEN_BUF_INIT;
+	char head[OMEN_OID_HEX + 1] = "";
+	double t0 = omen_now();
+	int e;
+	int64_t v;
+
+	memset(sum, 0, sizeof(*sum));
+	memset(&R, 0, sizeof(R));
+	R.repo = r;
+	R.o = &o;
+	R.sum = sum;
+	if (!o.fix_pattern && (e = omen_config_string(&cfg_pattern, r, "omen.fixPattern")))
+		goto out;
+	if (!o.fix_list && (e = omen_config_string(&cfg_list, r, "omen.fixList")))
+		goto out;
+	if (o.window_days < 0) {
+		v = 90;
+		if ((e = omen_config_int(&v, r, "omen.window")))
+			goto out;
+		o.window_days = v;
+	}
+	if (o.max_fix_files < 0) {
+		v = 50;
+		if ((e = omen_config_int(&v, r, "omen.maxFixFiles")))
+			goto out;
+		o.max_fix_files = (int)v;
+	}
+	if (!o.max_bytes) {
+		v = 0;
+		if ((e = omen_config_int(&v, r, "omen.memoryLimit")))
+			goto out;
+		o.max_bytes = v;
+	}
+	pattern = o.fix_pattern ? o.fix_pattern : cfg_pattern;
+	list = o.fix_list ? o.fix_list : cfg_list;
+	if ((e = omen_fixrules_new(&R.fr, pattern)))
+		goto out;
+	if (list && (e = omen_fixrules_load_list(R.fr, list)))
+		goto out;
+	sum->list_entries = omen_fixrules_list_size(R.fr);
+	if (out_path) {
+		if (!(path = strdup(out_path))) {
+			e = omen_error_set(OMEN_ENOMEM, "out of memory");
+			goto out;
+		}
+	} else {
+		if ((e = omen_config_string(&cfg_labels, r, "omen.labels")))
+			goto out;
+		if (cfg_labels) {
+			path = cfg_labels;
+			cfg_labels = NULL;
+		} else if ((e = omen_repo_omen_path(&path, r, "labels.jsonl"))) {
+			goto out;
+		}
+	}
+	wo.revs = o.revs;
+	wo.include_merges = 1;
+	wo.detect_renames = o.follow_renames ? 1 : -1;
+	wo.with_lines = 1;
+	if ((e = omen_history_list(&R.ids, &R.n, r, &wo)))
+		goto out;
+	if (R.n == 0) {
+		e = omen_error_set(OMEN_ENOTFOUND, "no commits to label");
+		goto out;
+	}
+	git_oid_tostr(head, sizeof(head), &R.ids[R.n - 1]);
+	strcpy(sum->head, head);
+	if ((e = load_graph(&R)))
+		goto out;
+	if ((e = opts_json(&ob, &o, pattern, list)))
+		goto out;
+	if (o.incremental && previous_run(sum, &R, path, ob.ptr, head)) {
+		e = 0;
+		goto out;
+	}
+	to.skip_blank = o.skip_blank;
+	to.skip_comments = o.skip_comments;
+	to.ws_keeps_origin = o.ws_keeps_origin;
+	if ((e = lbl_tracer_new(&R.tr, &to)))
+		goto out;
+	if (o.dump_origins && !(R.dump = fopen(o.dump_origins, "w"))) {
+		e = omen_error_set(OMEN_EIO, "cannot write '%s'", o.dump_origins);
+		goto out;
+	}
+	omen_progress_start(&R.prog, "label", R.n);
+	e = omen_history_walk(r, &wo, walk_cb, &R);
+	omen_progress_end(&R.prog);
+	if (e)
+		goto out;
+	sum->list_unmatched = omen_fixrules_unmatched(R.fr);
+	qsort(R.pairs, R.npairs, sizeof(*R.pairs), pair_cmp);
+	count_labels(&R);
+	if ((e = latency(&R)))
+		goto out;
+	if ((e = write_labels(&R, path, ob.ptr, head)))
+		goto out;
+out:
+	if (R.dump && fclose(R.dump) && !e)
+		e = omen_error_set(OMEN_EIO, "cannot write '%s'", o.dump_origins);
+	sum->seconds = omen_now() - t0;
+	omen_fixrules_free(R.fr);
+	lbl_tracer_free(R.tr);
+	omen_strmap_free(&R.index, NULL);
+	free(R.ids);
+	free(R.cs);
+	free(R.pairs);
+	free(R.cand);
+	free(R.cand_lines);
+	omen_buf_free(&R.path);
+	omen_buf_free(&ob);
+	free(cfg_pattern);
+	free(cfg_list);
+	free(cfg_labels);
+	free(path);
+	return e;
+}
