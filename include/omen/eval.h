@@ -5,6 +5,8 @@
 #include <stddef.h>
 #include <stdint.h>
 #include "omen/util.h"
+#include "omen/features.h"
+#include "omen/model.h"
 
 /* ---- metrics on (score, label[, effort]) arrays ------------------------- */
 /* ROC AUC with ties counted as 1/2 (Mann-Whitney). NaN when a class is empty. */
@@ -185,5 +187,31 @@ int omen_eval_write_json(omen_buf *out, const omen_eval_result *r);
 int omen_eval_write_text(omen_buf *out, const omen_eval_result *r);
 /* One self-contained HTML page, inline SVG, no scripts. */
 int omen_eval_write_html(omen_buf *out, const omen_eval_result *r, const char *title);
+
+/* ---- walk-forward evaluation of the model (src/eval/walkforward.c) ------- */
+typedef struct {
+	omen_fold_opts folds;
+	omen_train_opts train;        /* per-fold training settings */
+	int bootstrap;                /* AUC resamples (default 1000) */
+	uint64_t seed;                /* bootstrap seed (default 1) */
+	const char *const *effort_exclude;   /* NULL = omen_effort_exclude_default */
+	size_t n_effort_exclude;
+	int top_risky;                /* riskiest test commits kept (default 10) */
+	/* called before (done 0) and after (done 1) each fold's training */
+	void (*progress)(void *payload, size_t fold, size_t nfolds, int done, double seconds);
+	void *payload;
+} omen_eval_opts;
+void omen_eval_opts_init(omen_eval_opts *o);
+
+/* Effort of one sample: la + ld less the lines of files whose path is
+ * excluded (counted from the sample's -U0 hunks). *out_partial is set when
+ * an excluded file's hunks were capped, so the figure is an upper bound. */
+double omen_sample_effort(const omen_sample *s, const char *const *patterns, size_t npat,
+	int *out_partial, int *out_excluded);
+
+/* Builds the folds over ds, trains the model (and its baselines) per fold
+ * with omen_model_train_subset, scores each test window and fills out (free
+ * with omen_eval_result_free, also on error). */
+int omen_eval_run(omen_eval_result *out, const omen_dataset *ds, const omen_eval_opts *o);
 
 #endif

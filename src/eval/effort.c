@@ -70,6 +70,34 @@ int omen_path_excluded(const char *path, const char *const *patterns, size_t npa
 	return 0;
 }
 
+double omen_sample_effort(const omen_sample *s, const char *const *patterns, size_t npat,
+	int *out_partial, int *out_excluded)
+{
+	double e = (double)s->la + (double)s->ld, cut = 0;
+	int32_t f, h;
+	if (out_partial)
+		*out_partial = 0;
+	if (out_excluded)
+		*out_excluded = 0;
+	if (!s->file_path || !npat)
+		return e;
+	for (f = 0; f < s->nfiles; f++) {
+		if (!s->file_path[f] || !omen_path_excluded(s->file_path[f], patterns, npat))
+			continue;
+		if (out_excluded)
+			*out_excluded = 1;
+		if (s->capped && out_partial)
+			*out_partial = 1;   /* dropped hunks of this file are not counted */
+		if (!s->file_off || !s->hunk_new_lines || !s->hunk_old_lines)
+			continue;
+		/* -U0 hunks: old_lines are the deleted lines, new_lines the added ones */
+		for (h = s->file_off[f]; h < s->file_off[f + 1]; h++)
+			cut += (double)s->hunk_new_lines[h] + (double)s->hunk_old_lines[h];
+	}
+	e -= cut;
+	return e > 0 ? e : 0;
+}
+
 /* ---- inspection orders ---------------------------------------------------- */
 typedef struct {
 	double k1, k2;   /* sort keys, ascending */

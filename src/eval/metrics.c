@@ -121,8 +121,12 @@ static double percentile_sorted(const double *v, size_t n, double q)
 int omen_auc_bootstrap(double *out_lo, double *out_hi, const double *score,
 	const int *y, size_t n, int resamples, uint64_t seed)
 {
-	size_t *ord = NULL, i, got = 0;
-	double *w = NULL, *aucs = NULL;
+	/* Cases are put in score order once, with the end of each group of tied
+	 * scores, so that every resample is one sequential pass over counts. */
+	size_t *ord = NULL, *gend = NULL, i, got = 0, ng = 0;
+	uint32_t *cnt = NULL;
+	unsigned char *ys = NULL;
+	double *aucs = NULL;
 	omen_rng rng;
 	int k, rc = 0;
 	*out_lo = *out_hi = NAN;
@@ -132,24 +136,44 @@ int omen_auc_bootstrap(double *out_lo, double *out_hi, const double *score,
 		goto out;
 	if (isnan(omen_auc_weighted(score, y, NULL, ord, n)))
 		goto out;
-	w = malloc(n * sizeof(*w));
+	cnt = malloc(n * sizeof(*cnt));
+	ys = malloc(n);
+	gend = malloc(n * sizeof(*gend));
 	aucs = malloc((size_t)resamples * sizeof(*aucs));
-	if (!w || !aucs) {
+	if (!cnt || !ys || !gend || !aucs) {
 		rc = omen_error_set(OMEN_ENOMEM, "cannot bootstrap the auc of %zu cases: out of memory", n);
 		goto out;
 	}
+	for (i = 0; i < n; i++) {
+		ys[i] = y[ord[i]] != 0;
+		if (i + 1 == n || score[ord[i + 1]] != score[ord[i]])
+			gend[ng++] = i + 1;
+	}
 	omen_rng_seed(&rng, seed);
 	for (k = 0; k < resamples; k++) {
-		double a;
-		memset(w, 0, n * sizeof(*w));
+		double neg_below = 0, pt = 0, nt = 0, sum = 0;
+		size_t g, a = 0;
+		memset(cnt, 0, n * sizeof(*cnt));
 		/* n draws with replacement, kept as multiplicities (Efron 1979) */
 		for (i = 0; i < n; i++) {
 			size_t j = (size_t)(omen_rng_uniform(&rng) * (double)n);
-			w[j < n ? j : n - 1] += 1.0;
+			cnt[j < n ? j : n - 1]++;
 		}
-		a = omen_auc_weighted(score, y, w, ord, n);
-		if (!isnan(a))
-			aucs[got++] = a;
+		for (g = 0; g < ng; g++) {
+			double gp = 0, gn = 0;
+			for (; a < gend[g]; a++) {
+				if (ys[a])
+					gp += cnt[a];
+				else
+					gn += cnt[a];
+			}
+			sum += gp * (neg_below + 0.5 * gn);
+			neg_below += gn;
+			pt += gp;
+			nt += gn;
+		}
+		if (pt > 0 && nt > 0)
+			aucs[got++] = sum / (pt * nt);
 	}
 	if (got > 0) {
 		qsort(aucs, got, sizeof(*aucs), cmp_double);
@@ -158,7 +182,9 @@ int omen_auc_bootstrap(double *out_lo, double *out_hi, const double *score,
 	}
 out:
 	free(ord);
-	free(w);
+	free(cnt);
+	free(ys);
+	free(gend);
 	free(aucs);
 	return rc;
 }

@@ -270,6 +270,40 @@ static void test_path_excluded(void **state)
 	}
 }
 
+/* Effort leaves out vendored and generated paths: lines of an excluded file
+ * are counted from its -U0 hunks (old_lines deleted, new_lines added, as in
+ * git's "@@ -a,b +c,d @@"). */
+static void test_sample_effort(void **state)
+{
+	const char *paths[3] = {"src/a.c", "vendor/x.c", "web/b.min.js"};
+	int32_t file_off[4] = {0, 1, 3, 4};
+	int32_t old_l[4] = {2, 0, 10, 1}, new_l[4] = {3, 50, 0, 1};
+	omen_sample s;
+	const char *const *d = omen_effort_exclude_default;
+	size_t n = 0;
+	int partial, excl;
+	(void)state;
+	while (d[n])
+		n++;
+	memset(&s, 0, sizeof(s));
+	s.la = 54;
+	s.ld = 13;
+	s.nfiles = 3;
+	s.nhunks = 4;
+	s.file_off = file_off;
+	s.hunk_old_lines = old_l;
+	s.hunk_new_lines = new_l;
+	s.file_path = paths;
+	/* 67 lines in all, 60 in vendor/, 2 in a minified file: 5 remain */
+	assert_true(omen_sample_effort(&s, d, n, &partial, &excl) == 5.0);
+	assert_int_equal(partial, 0);
+	assert_int_equal(excl, 1);
+	assert_true(omen_sample_effort(&s, d, 0, &partial, &excl) == 67.0);
+	s.capped = 1;
+	omen_sample_effort(&s, d, n, &partial, &excl);
+	assert_int_equal(partial, 1);
+}
+
 /* ---- folds --------------------------------------------------------------------- */
 #define DAY 86400
 static void synth_history(int64_t *t, int8_t *y, size_t n, int64_t t0, int64_t step,
@@ -472,6 +506,7 @@ int main(void)
 		cmocka_unit_test(test_classify),
 		cmocka_unit_test(test_roc_curve),
 		cmocka_unit_test(test_path_excluded),
+		cmocka_unit_test(test_sample_effort),
 		cmocka_unit_test(test_folds_basic),
 		cmocka_unit_test(test_folds_too_short),
 		cmocka_unit_test(test_folds_no_positive_fold),

@@ -1,0 +1,266 @@
+/* Walk-forward evaluation: for every fold, train the model (and with it the
+ * logistic-regression baseline) on the commits before the fold's cut, pick
+ * each method's threshold on the fold's validation slice, score the test
+ * window, and keep the riskiest test commits with their explanations.
+ * Scoring of the predictions is in results.c, so it is testable without a
+ * model. */
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+#include "omen/eval.h"
+#include "omen/error.h"
+
+void omen_eval_opts_init(omen_eval_opts *o)
+{
+	memset(o, 0, sizeof(*o));
+	omen_fold_opts_init(&o->folds);
+	omen_train_opts_init(&o->train);
+	o->bootstrap = 1000;
+	o->seed = 1;
+	o->top_risky = 10;
+}
+
+/* Short explanation: the files with most attention and the metrics with
+ * the largest gradient x input. */
+static void explain_text(char *out, size_t cap, const omen_sample *s, const omen_explain *ex)
+{
+	size_t len = 0;
+	int used[3] = {-1, -1, -1}, k, f, j;
+	out[0] = '\0';
+	for (k = 0; k < 3 && k < ex->nfiles && k < s->nfiles; k++) {
+		int best = -1;
+		for (f = 0; f < ex->nfiles && f < s->nfiles; f++) {
+			if (f == used[0] || f == used[1])
+				continue;
+			if (best < 0 || ex->file_attn[f] > ex->file_attn[best])
+				best = f;
+		}
+		if (best < 0)
+			break;
+		used[k] = best;
+		len += (size_t)snprintf(out + len, len < cap ? cap - len : 0, "%s%s %.0f%%",
+			k ? ", " : "files: ", s->file_path && s->file_path[best] ? s->file_path[best] : "?",
+			100.0 * ex->file_attn[best]);
+	}
+	{
+		int mu[2] = {-1, -1};
+		for (k = 0; k < 2; k++) {
+			int best = -1;
+			for (j = 0; j < OMEN_NMETRICS; j++) {
+				if (j == mu[0])
+					continue;
+				if (best < 0 || fabsf(ex->metric_contrib[j]) > fabsf(ex->metric_contrib[best]))
+					best = j;
+			}
+			mu[k] = best;
+			if (best >= 0 && len < cap)
+				len += (size_t)snprintf(out + len, cap - len, "%s%s %+.2f",
+					k ? ", " : (len ? "; metrics: " : "metrics: "),
+					omen_metric_names[best], ex->metric_contrib[best]);
+		}
+	}
+	if (len < cap)
+		snprintf(out + len, cap - len, "; message %+.2f", ex->message_contrib);
+}
+
+static int cmp_risky(const void *a, const void *b)
+{
+	const omen_risky *x = a, *y = b;
+	if (x->prob != y->prob)
+		return x->prob > y->prob ? -1 : 1;
+	return strcmp(x->id, y->id);
+}
+
+typedef struct {
+	double p;
+	size_t i;
+} pidx;
+
+static int cmp_pidx_desc(const void *a, const void *b)
+{
+	const pidx *x = a, *y = b;
+	if (x->p != y->p)
+		return x->p > y->p ? -1 : 1;
+	return (x->i > y->i) - (x->i < y->i);
+}
+
+static int run_fold(omen_eval_result *r, size_t k, const omen_dataset *ds,
+	const omen_eval_opts *o, const char *const *pat, size_t npat, size_t *risky_cap)
+{
+	omen_fold_result *f = &r->folds[k];
+	omen_model *m = NULL;
+	omen_explain ex;
+	double *vs = NULL, t0 = omen_now(), base;
+	int *vy = NULL, rc = 0;
+	size_t i, nv = f->fold.n_valid, nt = f->fold.n_test, partial = 0;
+	pidx *top = NULL;
+	memset(&ex, 0, sizeof(ex));
+	if (o->progress)
+		o->progress(o->payload, k, r->nfolds, 0, 0);
+	if ((rc = omen_model_train_subset(&m, ds, f->fold.train_idx, f->fold.n_train,
+		f->fold.valid_idx, f->fold.n_valid, &o->train)) < 0) {
+		rc = omen_error_wrap(rc, "fold %zu (training on %zu commits)", k + 1, f->fold.n_train);
+		goto out;
+	}
+	base = f->fold.n_train + nv ? (double)(f->fold.pos_train + f->fold.pos_valid) /
+		(double)(f->fold.n_train + nv) : 0;
+	f->base_rate = base;
+	/* thresholds: the model's own; for the baselines max F1 on validation */
+	f->m[OMEN_EV_MODEL].threshold = omen_model_threshold(m);
+	f->m[OMEN_EV_MODEL].has_cls = 1;
+	vs = malloc((nv ? nv : 1) * sizeof(*vs));
+	vy = malloc((nv ? nv : 1) * sizeof(*vy));
+	if (!vs || !vy) {
+		rc = omen_error_set(OMEN_ENOMEM, "cannot evaluate fold %zu: out of memory", k + 1);
+		goto out;
+	}
+	for (i = 0; i < nv; i++) {
+		const omen_sample *s = omen_dataset_get(ds, f->fold.valid_idx[i]);
+		vy[i] = s->label > 0;
+		vs[i] = omen_model_predict_lr(m, s);
+		if (isnan(vs[i]))
+			vs[i] = base;
+	}
+	f->m[OMEN_EV_LR].threshold = omen_best_f1_threshold(vs, vy, nv);
+	f->m[OMEN_EV_LR].has_cls = 1;
+	for (i = 0; i < nv; i++)
+		vs[i] = (double)omen_dataset_get(ds, f->fold.valid_idx[i])->la;
+	f->m[OMEN_EV_LA].threshold = omen_best_f1_threshold(vs, vy, nv);
+	f->m[OMEN_EV_LA].has_cls = 1;
+	f->m[OMEN_EV_BASE].threshold = base;   /* flags every commit: the "inspect all" reference */
+	f->m[OMEN_EV_BASE].has_cls = 1;
+	f->m[OMEN_EV_SMALL].has_cls = 0;
+
+	if ((rc = omen_eval_fold_alloc(f, nt)) < 0)
+		goto out;
+	for (i = 0; i < nt; i++) {
+		const omen_sample *s = omen_dataset_get(ds, f->fold.test_idx[i]);
+		float prob = 0, logit = 0, lr;
+		int part = 0, excl = 0;
+		if ((rc = omen_model_predict(&prob, &logit, m, s, NULL)) < 0) {
+			rc = omen_error_wrap(rc, "fold %zu: cannot score commit '%.12s'", k + 1, s->id);
+			goto out;
+		}
+		lr = omen_model_predict_lr(m, s);
+		f->y[i] = s->label > 0;
+		f->effort[i] = omen_sample_effort(s, pat, npat, &part, &excl);
+		f->time[i] = s->time;
+		memcpy(f->ids[i], s->id, sizeof(f->ids[i]));
+		f->ids[i][40] = '\0';
+		f->score[OMEN_EV_MODEL][i] = prob;
+		f->score[OMEN_EV_LR][i] = isnan(lr) ? base : lr;
+		f->score[OMEN_EV_LA][i] = (double)s->la;
+		f->score[OMEN_EV_SMALL][i] = -f->effort[i];
+		f->score[OMEN_EV_BASE][i] = base;
+		f->n_excluded_effort += excl != 0;
+		partial += part != 0;
+	}
+	if (partial)
+		omen_buf_printf(&r->notes, "fold %zu: %zu test commits were capped and touch excluded "
+			"paths, so their effort may include some excluded lines\n", k + 1, partial);
+	/* the fold's riskiest commits, explained while its model is at hand */
+	if (o->top_risky > 0 && nt > 0) {
+		size_t want = (size_t)o->top_risky < nt ? (size_t)o->top_risky : nt;
+		top = malloc(nt * sizeof(*top));
+		if (!top || OMEN_ARRAY_RESERVE(r->risky, *risky_cap, r->nrisky + want) < 0) {
+			rc = omen_error_set(OMEN_ENOMEM, "cannot evaluate fold %zu: out of memory", k + 1);
+			goto out;
+		}
+		for (i = 0; i < nt; i++) {
+			top[i].p = f->score[OMEN_EV_MODEL][i];
+			top[i].i = i;
+		}
+		qsort(top, nt, sizeof(*top), cmp_pidx_desc);
+		for (i = 0; i < want; i++) {
+			size_t j = top[i].i;
+			const omen_sample *s = omen_dataset_get(ds, f->fold.test_idx[j]);
+			omen_risky *x = &r->risky[r->nrisky++];
+			float prob;
+			memset(x, 0, sizeof(*x));
+			memcpy(x->id, f->ids[j], sizeof(x->id));
+			x->time = f->time[j];
+			x->prob = top[i].p;
+			x->label = f->y[j];
+			x->effort = f->effort[j];
+			if (omen_model_predict(&prob, NULL, m, s, &ex) == 0)
+				explain_text(x->why, sizeof(x->why), s, &ex);
+			else
+				snprintf(x->why, sizeof(x->why), "no explanation: %s", omen_error_last());
+		}
+	}
+	f->seconds = omen_now() - t0;
+	if (o->progress)
+		o->progress(o->payload, k, r->nfolds, 1, f->seconds);
+out:
+	omen_explain_free(&ex);
+	omen_model_free(m);
+	free(vs);
+	free(vy);
+	free(top);
+	return rc;
+}
+
+int omen_eval_run(omen_eval_result *out, const omen_dataset *ds, const omen_eval_opts *o)
+{
+	omen_eval_opts def;
+	omen_fold *folds = NULL;
+	size_t nf = 0, n = omen_dataset_size(ds), i, k, npat = 0, risky_cap = 0;
+	int64_t *t = NULL;
+	int8_t *y = NULL;
+	const char *const *pat;
+	double t0 = omen_now();
+	int rc = 0;
+	memset(out, 0, sizeof(*out));
+	if (!o) {
+		omen_eval_opts_init(&def);
+		o = &def;
+	}
+	pat = o->effort_exclude ? o->effort_exclude : omen_effort_exclude_default;
+	if (o->effort_exclude)
+		npat = o->n_effort_exclude;
+	else
+		while (pat[npat])
+			npat++;
+	t = malloc((n ? n : 1) * sizeof(*t));
+	y = malloc(n ? n : 1);
+	if (!t || !y) {
+		rc = omen_error_set(OMEN_ENOMEM, "cannot evaluate %zu commits: out of memory", n);
+		goto out;
+	}
+	for (i = 0; i < n; i++) {
+		const omen_sample *s = omen_dataset_get(ds, i);
+		t[i] = s->time;
+		y[i] = s->label;
+	}
+	if ((rc = omen_folds_build(&folds, &nf, t, y, n, &o->folds)) < 0)
+		goto out;
+	if ((rc = omen_eval_result_init(out, nf)) < 0)
+		goto out;
+	out->bootstrap = o->bootstrap;
+	out->seed = o->seed;
+	out->gap_days = o->folds.gap_days;
+	out->fold_days = nf ? (folds[0].test_end - folds[0].test_start) / 86400 : 0;
+	out->n_commits = n;
+	for (i = 0; i < n; i++)
+		out->n_labelled += y[i] >= 0;
+	for (k = 0; k < nf; k++) {
+		out->folds[k].fold = folds[k];   /* the result owns the index arrays now */
+		memset(&folds[k], 0, sizeof(folds[k]));
+	}
+	for (k = 0; k < nf; k++)
+		if ((rc = run_fold(out, k, ds, o, pat, npat, &risky_cap)) < 0)
+			goto out;
+	if ((rc = omen_eval_finish(out)) < 0)
+		goto out;
+	if (out->nrisky) {
+		qsort(out->risky, out->nrisky, sizeof(*out->risky), cmp_risky);
+		if (out->nrisky > (size_t)o->top_risky)
+			out->nrisky = (size_t)o->top_risky;
+	}
+	out->seconds = omen_now() - t0;
+out:
+	omen_folds_free(folds, nf);
+	free(t);
+	free(y);
+	return rc;
+}
