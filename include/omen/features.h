@@ -115,5 +115,10 @@ size_t omen_dataset_size(const omen_dataset *d);
 const omen_sample *omen_dataset_get(const omen_dataset *d, size_t i);
 /* Metrics state after the last commit (for scoring new commits). */
 const omen_metrics *omen_dataset_metrics(const omen_dataset *d);
+/* Commits whose sample was capped. */
+size_t omen_dataset_capped(const omen_dataset *d);
+/* An in-memory dataset copied from n samples (tests, synthetic data); it
+ * has no metrics state. */
+int omen_dataset_from_samples(omen_dataset **out, const omen_sample *s, size_t n);
 
 #endif

@@ -23,6 +23,7 @@ typedef struct {
 	int refit;               /* refit on train+valid for the shipped model (default 1) */
 	int dim;                 /* D token embedding width (default 32) */
 	int channels;            /* C hidden width (default 64) */
+	omen_caps caps;          /* the caps the dataset was built with (stored in the model) */
 	void (*progress)(void *payload, int epoch, int epochs, float loss, float valid_auc, double eta_s);
 	void *payload;
 } omen_train_opts;
@@ -100,5 +101,31 @@ int omen_logreg_fit(omen_logreg *out, const double *X, const double *y, int n, i
 	double l2);
 double omen_logreg_predict(const omen_logreg *lr, const double *x);
 void omen_logreg_free(omen_logreg *lr);
+
+/* ---- calibration (src/model/calib.c) ------------------------------------ */
+/* Platt scaling fit by Newton (Lin, Lin & Weng 2007): p = sigmoid(a f + b). */
+int omen_platt_fit(double *out_a, double *out_b, const double *f, const int *y, size_t n);
+double omen_platt_apply(double a, double b, double f);
+/* Threshold of maximal F1 (prob >= t is positive); 0.5 without positives. */
+double omen_threshold_max_f1(const double *prob, const int *y, size_t n);
+
+/* Raw logits of the samples idx[0..n) of ds, batched over threads. */
+int omen_model_logits(float *out, const omen_model *m, const omen_dataset *ds, const size_t *idx,
+	size_t n, int threads);
+
+/* ---- low-level access (tests, references, benchmarks) ------------------- */
+/* A fresh model with seeded initial weights (no training, identity
+ * standardization and calibration). */
+int omen_model_new(omen_model **out, int dim, int channels, uint64_t seed);
+size_t omen_model_nparams(const omen_model *m);
+float *omen_model_params(omen_model *m);
+/* Tensor i of the parameter table: name, offset into the parameter block
+ * and shape (up to 3 dims, unused = 1). Returns NULL past the end. */
+const char *omen_model_tensor(const omen_model *m, int i, size_t *off, size_t *n, int shape[3]);
+/* Mean weighted BCE (pos_weight pw) of n samples with labels y, its
+ * gradient written to grad [nparams] (overwritten, may be NULL) and the raw
+ * logits to logits [n] (may be NULL). No dropout. */
+int omen_model_loss_grad(float *out_loss, float *grad, float *logits, const omen_model *m,
+	const omen_sample *const *s, const float *y, int n, float pw);
 
 #endif

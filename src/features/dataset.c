@@ -1,0 +1,471 @@
+/* Every sample of a history in contiguous arrays, oldest first, joined with
+ * the labels; and its cache in $GIT_DIR/omen/dataset.cache, keyed by the
+ * history it covers (the walked commit ids, the label file's bytes, the
+ * caps and the format version), so a second `train` need not re-read
+ * history. The cache is a local file of this machine: records are written
+ * raw and the key holds their sizes; loading still checks every count and
+ * offset through a bounded cursor and a CRC-32. */
+#include <stdlib.h>
+#include <string.h>
+#include "omen/error.h"
+#include "omen/features.h"
+#include "omen/label.h"
+#include "features/sample_int.h"
+
+#define DS_MAGIC "OMENDSET"
+#define DS_VERSION 1u
+
+typedef struct {
+	char id[48];
+	int64_t time;
+	int32_t la, ld, nfiles, nhunks, ntok, nmsg;
+	int8_t label, is_fix, capped, pad;
+	float metrics[OMEN_NMETRICS];
+} ds_rec;
+
+/* A growable column. */
+typedef struct {
+	unsigned char *p;
+	size_t len, cap;   /* in elements */
+	size_t elem;
+} col;
+
+enum { C_FILE_OFF, C_HUNK_OFF, C_TOK, C_TOK_LINE, C_MSG, C_FACTS, C_HNS, C_HNL, C_HOS, C_HOL,
+	C_PATHOFF, C_NAMES, C_NCOLS };
+static const size_t col_elem[C_NCOLS] = {4, 4, 4, 4, 4, 4, 4, 4, 4, 4, 8, 1};
+
+struct omen_dataset {
+	size_t n, cap;
+	ds_rec *rec;
+	omen_sample *s;
+	col c[C_NCOLS];
+	const char **paths;
+	omen_metrics *metrics;
+	size_t capped;
+};
+
+static int col_put(col *c, const void *data, size_t n)
+{
+	if (!n)
+		return 0;
+	if (c->len + n > c->cap) {
+		size_t nc = c->cap ? c->cap : 1024;
+		unsigned char *np;
+		while (nc < c->len + n)
+			nc *= 2;
+		np = realloc(c->p, nc * c->elem);
+		if (!np)
+			return omen_error_set(OMEN_ENOMEM, "out of memory");
+		c->p = np;
+		c->cap = nc;
+	}
+	memcpy(c->p + c->len * c->elem, data, n * c->elem);
+	c->len += n;
+	return 0;
+}
+
+static int ds_new(omen_dataset **out)
+{
+	omen_dataset *d = calloc(1, sizeof(*d));
+	int i;
+	*out = d;
+	if (!d)
+		return omen_error_set(OMEN_ENOMEM, "out of memory");
+	for (i = 0; i < C_NCOLS; i++)
+		d->c[i].elem = col_elem[i];
+	return 0;
+}
+
+void omen_dataset_free(omen_dataset *d)
+{
+	int i;
+	if (!d)
+		return;
+	for (i = 0; i < C_NCOLS; i++)
+		free(d->c[i].p);
+	free(d->rec);
+	free(d->s);
+	free(d->paths);
+	omen_metrics_free(d->metrics);
+	free(d);
+}
+
+size_t omen_dataset_size(const omen_dataset *d) { return d ? d->n : 0; }
+const omen_sample *omen_dataset_get(const omen_dataset *d, size_t i)
+{
+	return d && i < d->n ? &d->s[i] : NULL;
+}
+const omen_metrics *omen_dataset_metrics(const omen_dataset *d) { return d ? d->metrics : NULL; }
+size_t omen_dataset_capped(const omen_dataset *d) { return d ? d->capped : 0; }
+
+static int ds_append(omen_dataset *d, const omen_sample *s)
+{
+	ds_rec r;
+	int e = 0, i;
+	if (OMEN_ARRAY_RESERVE(d->rec, d->cap, d->n + 1))
+		return omen_error_set(OMEN_ENOMEM, "out of memory");
+	memset(&r, 0, sizeof(r));
+	memcpy(r.id, s->id, OMEN_OID_HEX + 1);
+	r.time = s->time;
+	r.la = s->la; r.ld = s->ld;
+	r.nfiles = s->nfiles; r.nhunks = s->nhunks; r.ntok = s->ntok; r.nmsg = s->nmsg;
+	r.label = s->label; r.is_fix = s->is_fix; r.capped = s->capped;
+	memcpy(r.metrics, s->metrics, sizeof(r.metrics));
+	if ((e = col_put(&d->c[C_FILE_OFF], s->file_off, (size_t)s->nfiles + 1)) ||
+		(e = col_put(&d->c[C_HUNK_OFF], s->hunk_off, (size_t)s->nhunks + 1)) ||
+		(e = col_put(&d->c[C_TOK], s->tok, (size_t)s->ntok)) ||
+		(e = col_put(&d->c[C_TOK_LINE], s->tok_line, (size_t)s->ntok)) ||
+		(e = col_put(&d->c[C_MSG], s->msg, (size_t)s->nmsg)) ||
+		(e = col_put(&d->c[C_FACTS], s->file_facts, (size_t)s->nfiles * OMEN_NFACTS)) ||
+		(e = col_put(&d->c[C_HNS], s->hunk_new_start, (size_t)s->nhunks)) ||
+		(e = col_put(&d->c[C_HNL], s->hunk_new_lines, (size_t)s->nhunks)) ||
+		(e = col_put(&d->c[C_HOS], s->hunk_old_start, (size_t)s->nhunks)) ||
+		(e = col_put(&d->c[C_HOL], s->hunk_old_lines, (size_t)s->nhunks)))
+		return e;
+	for (i = 0; i < s->nfiles; i++) {
+		uint64_t off = d->c[C_NAMES].len;
+		const char *p = s->file_path ? s->file_path[i] : "";
+		if ((e = col_put(&d->c[C_PATHOFF], &off, 1)) ||
+			(e = col_put(&d->c[C_NAMES], p, strlen(p) + 1)))
+			return e;
+	}
+	d->rec[d->n++] = r;
+	d->capped += s->capped != 0;
+	return 0;
+}
+
+/* Points every sample view into the columns. */
+static int ds_finish(omen_dataset *d)
+{
+	size_t i, fo = 0, ho = 0, tk = 0, ms = 0, fi = 0, hu = 0, k, nfiles = d->c[C_PATHOFF].len;
+	free(d->s);
+	free(d->paths);
+	d->s = calloc(d->n ? d->n : 1, sizeof(*d->s));
+	d->paths = malloc((nfiles ? nfiles : 1) * sizeof(*d->paths));
+	if (!d->s || !d->paths)
+		return omen_error_set(OMEN_ENOMEM, "out of memory");
+	for (k = 0; k < nfiles; k++)
+		d->paths[k] = (const char *)d->c[C_NAMES].p + ((uint64_t *)d->c[C_PATHOFF].p)[k];
+	for (i = 0; i < d->n; i++) {
+		const ds_rec *r = &d->rec[i];
+		omen_sample *s = &d->s[i];
+		memcpy(s->id, r->id, OMEN_OID_HEX);
+		s->id[OMEN_OID_HEX] = '\0';
+		s->time = r->time;
+		s->label = r->label; s->is_fix = r->is_fix; s->capped = (uint8_t)r->capped;
+		s->la = r->la; s->ld = r->ld;
+		memcpy(s->metrics, r->metrics, sizeof(s->metrics));
+		s->nfiles = r->nfiles; s->nhunks = r->nhunks; s->ntok = r->ntok; s->nmsg = r->nmsg;
+		s->file_off = (const int32_t *)d->c[C_FILE_OFF].p + fo;
+		s->hunk_off = (const int32_t *)d->c[C_HUNK_OFF].p + ho;
+		s->tok = (const uint32_t *)d->c[C_TOK].p + tk;
+		s->tok_line = (const int32_t *)d->c[C_TOK_LINE].p + tk;
+		s->msg = (const uint32_t *)d->c[C_MSG].p + ms;
+		s->file_facts = (const float *)d->c[C_FACTS].p + fi * OMEN_NFACTS;
+		s->hunk_new_start = (const int32_t *)d->c[C_HNS].p + hu;
+		s->hunk_new_lines = (const int32_t *)d->c[C_HNL].p + hu;
+		s->hunk_old_start = (const int32_t *)d->c[C_HOS].p + hu;
+		s->hunk_old_lines = (const int32_t *)d->c[C_HOL].p + hu;
+		s->file_path = d->paths + fi;
+		fo += (size_t)r->nfiles + 1;
+		ho += (size_t)r->nhunks + 1;
+		tk += (size_t)r->ntok;
+		ms += (size_t)r->nmsg;
+		fi += (size_t)r->nfiles;
+		hu += (size_t)r->nhunks;
+	}
+	return 0;
+}
+
+int omen_dataset_from_samples(omen_dataset **out, const omen_sample *s, size_t n)
+{
+	omen_dataset *d;
+	size_t i;
+	int e = ds_new(&d);
+	*out = NULL;
+	for (i = 0; !e && i < n; i++)
+		e = ds_append(d, &s[i]);
+	if (!e)
+		e = ds_finish(d);
+	if (e) {
+		omen_dataset_free(d);
+		return e;
+	}
+	*out = d;
+	return 0;
+}
+
+/* ---- cache --------------------------------------------------------------- */
+static int cache_key(omen_buf *key, omen_repo *r, const omen_dataset_opts *o,
+	const omen_buf *labels_bytes)
+{
+	omen_walk_opts wo = OMEN_WALK_OPTS_INIT;
+	git_oid *ids = NULL;
+	size_t n = 0;
+	int e;
+	wo.revs = o->revs;
+	wo.with_lines = 0;
+	if ((e = omen_history_list(&ids, &n, r, &wo)))
+		return e;
+	e = omen_buf_printf(key, "omen dataset v%u rec%zu commits=%zu ids=%08x labels=%zu:%08x "
+		"caps=%d,%d,%d,%d vocab=%u,%u", DS_VERSION, sizeof(ds_rec), n,
+		omen_crc32(0, ids, n * sizeof(*ids)), labels_bytes->len,
+		omen_crc32(0, labels_bytes->ptr, labels_bytes->len), o->caps.max_files,
+		o->caps.max_hunks_per_file, o->caps.max_tokens_per_hunk, o->caps.max_msg_tokens,
+		OMEN_VOCAB, OMEN_MSG_VOCAB);
+	free(ids);
+	return e;
+}
+
+static void put_u64(omen_buf *b, uint64_t v, int *e)
+{
+	unsigned char w[8];
+	int i;
+	for (i = 0; i < 8; i++)
+		w[i] = (unsigned char)(v >> (8 * i));
+	if (!*e)
+		*e = omen_buf_put(b, w, 8);
+}
+
+static int cache_write(const omen_dataset *d, const char *path, const omen_buf *key)
+{
+	omen_buf b = OMEN_BUF_INIT, ms = OMEN_BUF_INIT;
+	unsigned char w4[4];
+	uint32_t crc;
+	int e = 0, i;
+	if (d->metrics && (e = omen_metrics_save(d->metrics, &ms)))
+		goto out;
+	e = omen_buf_put(&b, DS_MAGIC, 8);
+	put_u64(&b, DS_VERSION, &e);
+	put_u64(&b, key->len, &e);
+	if (!e) e = omen_buf_put(&b, key->ptr, key->len);
+	put_u64(&b, d->n, &e);
+	if (!e && d->n) e = omen_buf_put(&b, d->rec, d->n * sizeof(ds_rec));
+	for (i = 0; i < C_NCOLS; i++) {
+		put_u64(&b, d->c[i].len, &e);
+		if (!e && d->c[i].len) e = omen_buf_put(&b, d->c[i].p, d->c[i].len * d->c[i].elem);
+	}
+	put_u64(&b, ms.len, &e);
+	if (!e && ms.len) e = omen_buf_put(&b, ms.ptr, ms.len);
+	if (e)
+		goto out;
+	crc = omen_crc32(0, b.ptr, b.len);
+	for (i = 0; i < 4; i++)
+		w4[i] = (unsigned char)(crc >> (8 * i));
+	if ((e = omen_buf_put(&b, w4, 4)))
+		goto out;
+	e = omen_file_write_atomic(path, b.ptr, b.len);
+out:
+	omen_buf_free(&b);
+	omen_buf_free(&ms);
+	return e;
+}
+
+/* Returns 1 when the cache matched and *out was loaded, 0 when it did not
+ * match or is unreadable (then it is simply rebuilt), negative on OOM. */
+static int cache_read(omen_dataset **out, const char *path, const omen_buf *key)
+{
+	omen_buf b = OMEN_BUF_INIT;
+	omen_cursor c;
+	omen_dataset *d = NULL;
+	const void *p;
+	uint64_t v, n, k;
+	uint32_t crc;
+	int ok = 0, i;
+	size_t j, fo = 0, ho = 0, tk = 0, ms = 0, fi = 0, hu = 0;
+	*out = NULL;
+	if (omen_file_read(&b, path, 0) || b.len < 12)
+		goto out;
+	p = b.ptr + b.len - 4;
+	crc = (uint32_t)((const unsigned char *)p)[0] | (uint32_t)((const unsigned char *)p)[1] << 8 |
+		(uint32_t)((const unsigned char *)p)[2] << 16 | (uint32_t)((const unsigned char *)p)[3] << 24;
+	if (omen_crc32(0, b.ptr, b.len - 4) != crc)
+		goto out;
+	omen_cursor_init(&c, b.ptr, b.len - 4);
+	if (omen_cursor_bytes(&c, &p, 8) || memcmp(p, DS_MAGIC, 8) || omen_cursor_u64le(&c, &v) ||
+		v != DS_VERSION || omen_cursor_u64le(&c, &k) || k != key->len ||
+		omen_cursor_bytes(&c, &p, key->len) || memcmp(p, key->ptr, key->len))
+		goto out;
+	if (ds_new(&d))
+		goto out;
+	if (omen_cursor_u64le(&c, &n) || n > c.n / sizeof(ds_rec) ||
+		omen_cursor_bytes(&c, &p, (size_t)n * sizeof(ds_rec)))
+		goto out;
+	if (n) {
+		d->rec = malloc((size_t)n * sizeof(ds_rec));
+		if (!d->rec)
+			goto out;
+		memcpy(d->rec, p, (size_t)n * sizeof(ds_rec));
+	}
+	d->n = d->cap = (size_t)n;
+	for (i = 0; i < C_NCOLS; i++) {
+		if (omen_cursor_u64le(&c, &v) || v > c.n / d->c[i].elem ||
+			omen_cursor_bytes(&c, &p, (size_t)v * d->c[i].elem))
+			goto out;
+		if (col_put(&d->c[i], p, (size_t)v))
+			goto out;
+	}
+	/* every count and offset must agree with the columns */
+	for (j = 0; j < d->n; j++) {
+		const ds_rec *r = &d->rec[j];
+		const int32_t *fof, *hof;
+		int32_t q;
+		if (r->nfiles < 0 || r->nhunks < 0 || r->ntok < 0 || r->nmsg < 0)
+			goto out;
+		if (fo + r->nfiles + 1 > d->c[C_FILE_OFF].len || ho + r->nhunks + 1 > d->c[C_HUNK_OFF].len ||
+			tk + r->ntok > d->c[C_TOK].len || ms + r->nmsg > d->c[C_MSG].len ||
+			fi + r->nfiles > d->c[C_PATHOFF].len || hu + r->nhunks > d->c[C_HNS].len)
+			goto out;
+		fof = (const int32_t *)d->c[C_FILE_OFF].p + fo;
+		hof = (const int32_t *)d->c[C_HUNK_OFF].p + ho;
+		if (fof[0] != 0 || fof[r->nfiles] != r->nhunks || hof[0] != 0 || hof[r->nhunks] != r->ntok)
+			goto out;
+		for (q = 0; q < r->nfiles; q++)
+			if (fof[q + 1] < fof[q])
+				goto out;
+		for (q = 0; q < r->nhunks; q++)
+			if (hof[q + 1] < hof[q])
+				goto out;
+		fo += (size_t)r->nfiles + 1; ho += (size_t)r->nhunks + 1; tk += (size_t)r->ntok;
+		ms += (size_t)r->nmsg; fi += (size_t)r->nfiles; hu += (size_t)r->nhunks;
+		d->capped += r->capped != 0;
+	}
+	if (fo != d->c[C_FILE_OFF].len || ho != d->c[C_HUNK_OFF].len || tk != d->c[C_TOK].len ||
+		tk != d->c[C_TOK_LINE].len || ms != d->c[C_MSG].len || fi * OMEN_NFACTS != d->c[C_FACTS].len ||
+		fi != d->c[C_PATHOFF].len || hu != d->c[C_HNS].len || hu != d->c[C_HNL].len ||
+		hu != d->c[C_HOS].len || hu != d->c[C_HOL].len)
+		goto out;
+	for (j = 0; j < fi; j++)
+		if (((const uint64_t *)d->c[C_PATHOFF].p)[j] >= d->c[C_NAMES].len)
+			goto out;
+	if (d->c[C_NAMES].len && d->c[C_NAMES].p[d->c[C_NAMES].len - 1] != '\0')
+		goto out;
+	if (omen_cursor_u64le(&c, &v) || v != c.n || omen_cursor_bytes(&c, &p, (size_t)v))
+		goto out;
+	if (v && omen_metrics_load(&d->metrics, p, (size_t)v))
+		goto out;
+	if (ds_finish(d))
+		goto out;
+	*out = d;
+	d = NULL;
+	ok = 1;
+out:
+	omen_dataset_free(d);
+	omen_buf_free(&b);
+	omen_error_clear();
+	return ok;
+}
+
+/* ---- building from history ----------------------------------------------- */
+typedef struct {
+	omen_dataset *d;
+	omen_labels *labels;
+	omen_metrics *m;
+	omen_sample_buf *sb;
+	const omen_caps *caps;
+	int64_t max_bytes;
+	size_t bytes;
+	omen_progress prog;
+	size_t done;
+	int err;
+} build_ctx;
+
+static int on_change(const omen_change *c, void *payload)
+{
+	build_ctx *x = payload;
+	const omen_label_rec *lr = x->labels ? omen_labels_get(x->labels, c->commit.hex) : NULL;
+	int is_fix = lr ? lr->is_fix != 0 : 0, e;
+	omen_sample s;
+	if ((e = omen_sample_build(&s, x->sb, c, x->m, is_fix, x->caps)))
+		goto fail;
+	s.label = (int8_t)(lr ? lr->label : -1);
+	if ((e = ds_append(x->d, &s)))
+		goto fail;
+	if ((e = omen_metrics_update(x->m, c, is_fix)))
+		goto fail;
+	x->bytes += sizeof(ds_rec) + (size_t)s.ntok * 8 + (size_t)s.nmsg * 4 +
+		(size_t)s.nfiles * (OMEN_NFACTS * 4 + 64) + (size_t)s.nhunks * 20;
+	if (x->max_bytes > 0 && x->bytes > (size_t)x->max_bytes) {
+		e = omen_error_set(OMEN_ELIMIT, "cannot build dataset: over the memory limit of %lld bytes "
+			"after %zu commits (omen.memoryLimit)", (long long)x->max_bytes, x->d->n);
+		goto fail;
+	}
+	x->done++;
+	omen_progress_update(&x->prog, x->done, NULL);
+	return 0;
+fail:
+	x->err = e;
+	return 1;
+}
+
+int omen_dataset_build(omen_dataset **out, omen_repo *r, const omen_dataset_opts *o)
+{
+	omen_buf lb = OMEN_BUF_INIT, key = OMEN_BUF_INIT;
+	char *labels_path = NULL, *cache_path = NULL;
+	omen_walk_opts wo = OMEN_WALK_OPTS_INIT;
+	build_ctx x;
+	int e;
+
+	*out = NULL;
+	memset(&x, 0, sizeof(x));
+	if (o->labels_path) {
+		if (!(labels_path = strdup(o->labels_path))) {
+			e = omen_error_set(OMEN_ENOMEM, "out of memory");
+			goto out;
+		}
+	} else if ((e = omen_repo_omen_path(&labels_path, r, "labels.jsonl"))) {
+		goto out;
+	}
+	if ((e = omen_file_read(&lb, labels_path, 0))) {
+		if (e == OMEN_ENOTFOUND)
+			e = omen_error_set(e, "cannot read labels '%s': no such file (run 'git omen label')",
+				labels_path);
+		goto out;
+	}
+	if (o->use_cache) {
+		if ((e = omen_repo_omen_path(&cache_path, r, "dataset.cache")) ||
+			(e = cache_key(&key, r, o, &lb)))
+			goto out;
+		if (cache_read(out, cache_path, &key)) {
+			e = 0;
+			goto out;
+		}
+	}
+	if ((e = omen_labels_parse(&x.labels, labels_path, lb.ptr, lb.len)))
+		goto out;
+	omen_buf_free(&lb);
+	if ((e = ds_new(&x.d)) || (e = omen_metrics_new(&x.m)) || (e = omen_sample_buf_new(&x.sb)))
+		goto out;
+	x.caps = &o->caps;
+	x.max_bytes = o->max_bytes;
+	omen_progress_start(&x.prog, "features", omen_labels_count(x.labels));
+	wo.revs = o->revs;
+	wo.with_lines = 1;
+	e = omen_history_walk(r, &wo, on_change, &x);
+	omen_progress_end(&x.prog);
+	if (x.err)
+		e = x.err;
+	if (e)
+		goto out;
+	x.d->metrics = x.m;
+	x.m = NULL;
+	if ((e = ds_finish(x.d)))
+		goto out;
+	if (o->use_cache && cache_path) {
+		/* a cache that cannot be written is not an error for the caller */
+		if (cache_write(x.d, cache_path, &key))
+			omen_error_clear();
+	}
+	*out = x.d;
+	x.d = NULL;
+out:
+	omen_dataset_free(x.d);
+	omen_metrics_free(x.m);
+	omen_sample_buf_free(x.sb);
+	omen_labels_free(x.labels);
+	omen_buf_free(&lb);
+	omen_buf_free(&key);
+	free(labels_path);
+	free(cache_path);
+	return e;
+}

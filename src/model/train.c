@@ -1,0 +1,643 @@
+/* Training loop: weighted BCE, AdamW, gradient clipping, early stopping on
+ * a time-later validation slice, Platt calibration, the two baselines and
+ * the refit of the shipped model (DESIGN.md "Model", issue "Train").
+ *
+ * Determinism: each batch is split into OMEN_TRAIN_CHUNKS fixed chunks
+ * whatever the thread count; every chunk has its own gradient buffer and
+ * dropout stream (seeded by seed, step and chunk), and the buffers are
+ * summed in chunk order (omen_reduce_fixed). So 1 and 2 threads give
+ * bit-identical weights. */
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+#include <time.h>
+#include "omen/error.h"
+#include "omen/eval.h"
+#include "model/model_int.h"
+
+#define OMEN_TRAIN_CHUNKS 2
+#define MIN_LABELLED 50
+#define MIN_POSITIVES 10
+
+void omen_train_opts_init(omen_train_opts *o)
+{
+	memset(o, 0, sizeof(*o));
+	o->epochs = 30;
+	o->patience = 5;
+	o->batch = 32;
+	o->lr = 2e-3f;
+	o->weight_decay = 1e-2f;
+	o->clip = 1.0f;
+	o->dropout = 0.1f;
+	o->threads = 0;
+	o->seed = 42;
+	o->valid_frac = 0.15;
+	o->test_frac = 0.15;
+	o->refit = 1;
+	o->dim = 32;
+	o->channels = 64;
+	{
+		omen_caps c = OMEN_CAPS_DEFAULT;
+		o->caps = c;
+	}
+}
+
+/* ---- one step over a batch ----------------------------------------------- */
+typedef struct {
+	const omen_model *m;
+	const omen_dataset *ds;
+	const size_t *idx;
+	int nb, nthreads, train;
+	float p, pw;
+	uint64_t seed, step;
+	omen_ws ws[OMEN_TRAIN_CHUNKS];
+	float *grad[OMEN_TRAIN_CHUNKS];
+	float loss[OMEN_TRAIN_CHUNKS];
+	float *logits;          /* eval: out [nb] */
+	int err[OMEN_TRAIN_CHUNKS];
+	const omen_sample **sp[OMEN_TRAIN_CHUNKS];
+} step_ctx;
+
+static void chunk_run(step_ctx *x, int c)
+{
+	int lo = (int)((long)x->nb * c / OMEN_TRAIN_CHUNKS);
+	int hi = (int)((long)x->nb * (c + 1) / OMEN_TRAIN_CHUNKS), n = hi - lo, i;
+	omen_ws *w = &x->ws[c];
+	omen_rng rng;
+	x->loss[c] = 0;
+	if (n <= 0) {
+		if (x->train)
+			memset(x->grad[c], 0, x->m->nparams * sizeof(float));
+		return;
+	}
+	for (i = 0; i < n; i++)
+		x->sp[c][i] = omen_dataset_get(x->ds, x->idx[lo + i]);
+	if (omen_ws_load(w, x->m, x->sp[c], NULL, n)) {
+		x->err[c] = 1;
+		return;
+	}
+	omen_rng_seed(&rng, x->seed ^ (x->step * 0x9e3779b97f4a7c15ull) ^ ((uint64_t)c << 56));
+	omen_model_forward(x->m, w, x->train ? x->p : 0, x->train ? &rng : NULL);
+	if (!x->train) {
+		memcpy(x->logits + lo, w->z, (size_t)n * sizeof(float));
+		return;
+	}
+	/* mean over the whole batch = sum over chunks of (n/nb) * chunk mean */
+	x->loss[c] = omen_bce_forward(w->z, w->y, NULL, x->pw, n) * n / x->nb;
+	memset(x->grad[c], 0, x->m->nparams * sizeof(float));
+	omen_bce_backward(w->g_z, w->z, w->y, NULL, x->pw, n, (float)n / x->nb);
+	omen_model_backward(x->m, w, x->grad[c], x->train ? x->p : 0);
+}
+
+static void step_worker(int tid, void *payload)
+{
+	step_ctx *x = payload;
+	int c;
+	for (c = tid; c < OMEN_TRAIN_CHUNKS; c += x->nthreads)
+		chunk_run(x, c);
+}
+
+static int ctx_init(step_ctx *x, const omen_model *m, const omen_dataset *ds, int batch,
+	int threads, int need_grad)
+{
+	int c;
+	memset(x, 0, sizeof(*x));
+	x->m = m;
+	x->ds = ds;
+	x->nthreads = threads < 1 ? 1 : threads > OMEN_TRAIN_CHUNKS ? OMEN_TRAIN_CHUNKS : threads;
+	for (c = 0; c < OMEN_TRAIN_CHUNKS; c++) {
+		x->sp[c] = malloc((size_t)(batch + 1) * sizeof(*x->sp[c]));
+		if (!x->sp[c])
+			return omen_error_set(OMEN_ENOMEM, "out of memory");
+		if (need_grad) {
+			x->grad[c] = aligned_alloc(64, (m->nparams * sizeof(float) + 63) / 64 * 64);
+			if (!x->grad[c])
+				return omen_error_set(OMEN_ENOMEM, "out of memory");
+		}
+	}
+	return 0;
+}
+
+static void ctx_free(step_ctx *x)
+{
+	int c;
+	for (c = 0; c < OMEN_TRAIN_CHUNKS; c++) {
+		omen_ws_free(&x->ws[c]);
+		free(x->grad[c]);
+		free(x->sp[c]);
+	}
+}
+
+static int run_chunks(step_ctx *x)
+{
+	int c;
+	if (x->nthreads > 1)
+		omen_parallel_run(x->nthreads, step_worker, x);
+	else
+		step_worker(0, x);
+	for (c = 0; c < OMEN_TRAIN_CHUNKS; c++)
+		if (x->err[c])
+			return omen_error_set(OMEN_ENOMEM, "out of memory");
+	return 0;
+}
+
+/* Raw logits of samples idx[0..n). */
+static int eval_logits(float *out, const omen_model *m, const omen_dataset *ds, const size_t *idx,
+	size_t n, int threads)
+{
+	step_ctx x;
+	size_t i;
+	int e, bs = 64;
+	if ((e = ctx_init(&x, m, ds, bs, threads, 0)))
+		goto out;
+	for (i = 0; i < n; i += (size_t)bs) {
+		x.idx = idx + i;
+		x.nb = (int)(n - i < (size_t)bs ? n - i : (size_t)bs);
+		x.logits = out + i;
+		if ((e = run_chunks(&x)))
+			goto out;
+	}
+out:
+	ctx_free(&x);
+	return e;
+}
+
+int omen_model_logits(float *out, const omen_model *m, const omen_dataset *ds, const size_t *idx,
+	size_t n, int threads)
+{
+	return eval_logits(out, m, ds, idx, n, threads);
+}
+
+static double auc_of(const float *z, const omen_dataset *ds, const size_t *idx, size_t n)
+{
+	double *s = malloc((n + 1) * sizeof(double)), a;
+	int *y = malloc((n + 1) * sizeof(int));
+	size_t i;
+	if (!s || !y) {
+		free(s); free(y);
+		return NAN;
+	}
+	for (i = 0; i < n; i++) {
+		s[i] = z[i];
+		y[i] = omen_dataset_get(ds, idx[i])->label > 0;
+	}
+	a = omen_auc(s, y, n);
+	free(s); free(y);
+	return a;
+}
+
+/* ---- standardization ----------------------------------------------------- */
+static void fit_standardization(omen_model *m, const omen_dataset *ds, const size_t *idx, size_t n)
+{
+	double sm[OMEN_NMETRICS] = {0}, sq[OMEN_NMETRICS] = {0};
+	double fm[OMEN_MODEL_NFN] = {0}, fq[OMEN_MODEL_NFN] = {0};
+	size_t i, nf = 0;
+	int j, f;
+	for (i = 0; i < n; i++) {
+		const omen_sample *s = omen_dataset_get(ds, idx[i]);
+		double t[OMEN_NMETRICS];
+		omen_metrics_transform(t, s->metrics);
+		for (j = 0; j < OMEN_NMETRICS; j++) {
+			sm[j] += t[j];
+			sq[j] += t[j] * t[j];
+		}
+		for (f = 0; f < s->nfiles; f++) {
+			const float *ff = s->file_facts + (size_t)f * OMEN_NFACTS;
+			int k = 0;
+			for (j = 0; j < OMEN_NFACTS; j++) {
+				double v;
+				if (j == OMEN_FF_EXT_HASH)
+					continue;
+				v = isfinite(ff[j]) ? ff[j] : 0;
+				fm[k] += v;
+				fq[k] += v * v;
+				k++;
+			}
+			nf++;
+		}
+	}
+	for (j = 0; j < OMEN_NMETRICS; j++) {
+		double mu = n ? sm[j] / n : 0, var = n ? sq[j] / n - mu * mu : 0;
+		m->metric_mean[j] = (float)mu;
+		m->metric_scale[j] = var > 1e-12 ? (float)sqrt(var) : 1.0f;
+	}
+	for (j = 0; j < OMEN_MODEL_NFN; j++) {
+		double mu = nf ? fm[j] / nf : 0, var = nf ? fq[j] / nf - mu * mu : 0;
+		m->fact_mean[j] = (float)mu;
+		m->fact_scale[j] = var > 1e-12 ? (float)sqrt(var) : 1.0f;
+	}
+}
+
+static int fit_lr(omen_logreg *out, const omen_dataset *ds, const size_t *idx, size_t n)
+{
+	double *X = malloc((n + 1) * OMEN_NMETRICS * sizeof(double)), *y = malloc((n + 1) * sizeof(double));
+	size_t i;
+	int e;
+	if (!X || !y) {
+		free(X); free(y);
+		return omen_error_set(OMEN_ENOMEM, "out of memory");
+	}
+	for (i = 0; i < n; i++) {
+		const omen_sample *s = omen_dataset_get(ds, idx[i]);
+		omen_metrics_transform(X + i * OMEN_NMETRICS, s->metrics);
+		y[i] = s->label > 0;
+	}
+	e = omen_logreg_fit(out, X, y, (int)n, OMEN_NMETRICS, 1.0);
+	free(X); free(y);
+	return e;
+}
+
+/* ---- the loop ------------------------------------------------------------ */
+typedef struct {
+	int epochs_run, best_epoch;
+	double best_auc;
+} fit_info;
+
+/* Trains m (already standardized and initialised) on train_idx; with a
+ * validation slice, early-stops on its AUC and restores the best epoch;
+ * without one, runs exactly o->epochs epochs. */
+static int fit(omen_model *m, fit_info *fi, const omen_dataset *ds, const size_t *train_idx,
+	size_t n_train, const size_t *valid_idx, size_t n_valid, const omen_train_opts *o,
+	int epochs, int report)
+{
+	step_ctx x;
+	omen_adamw aw = OMEN_ADAMW_DEFAULT;
+	float *g = NULL, *mom = NULL, *vel = NULL, *best = NULL, *vz = NULL;
+	uint8_t *decay = NULL;
+	size_t *order = NULL, i, npos = 0, step = 0;
+	int e, ep, threads = o->threads > 0 ? o->threads : 2, since_best = 0, t;
+	double t0 = omen_now();
+	omen_rng rng;
+	float pw;
+	int use_valid = 0;
+
+	memset(fi, 0, sizeof(*fi));
+	fi->best_auc = -1;
+	if ((e = ctx_init(&x, m, ds, o->batch, threads, 1)))
+		goto out;
+	g = aligned_alloc(64, (m->nparams * sizeof(float) + 63) / 64 * 64);
+	mom = calloc(m->nparams, sizeof(float));
+	vel = calloc(m->nparams, sizeof(float));
+	best = malloc(m->nparams * sizeof(float));
+	decay = calloc(m->nparams, 1);
+	order = malloc((n_train + 1) * sizeof(size_t));
+	vz = malloc((n_valid + 1) * sizeof(float));
+	if (!g || !mom || !vel || !best || !decay || !order || !vz) {
+		e = omen_error_set(OMEN_ENOMEM, "out of memory");
+		goto out;
+	}
+	for (t = 0; t < P_COUNT; t++)
+		if (m->t[t].decay)
+			memset(decay + m->t[t].off, 1, m->t[t].n);
+	for (i = 0; i < n_train; i++) {
+		order[i] = train_idx[i];
+		npos += omen_dataset_get(ds, train_idx[i])->label > 0;
+	}
+	if (n_valid) {
+		size_t vp = 0;
+		for (i = 0; i < n_valid; i++)
+			vp += omen_dataset_get(ds, valid_idx[i])->label > 0;
+		use_valid = vp > 0 && vp < n_valid;
+	}
+	pw = npos ? (float)(n_train - npos) / (float)npos : 1.0f;
+	x.pw = pw;
+	x.p = o->dropout;
+	x.train = 1;
+	x.seed = o->seed;
+	aw.lr = o->lr;
+	aw.weight_decay = o->weight_decay;
+	memcpy(best, m->params, m->nparams * sizeof(float));
+	omen_rng_seed(&rng, o->seed ^ 0x5eedull);
+	for (ep = 1; ep <= epochs; ep++) {
+		double loss_sum = 0;
+		size_t nb = 0;
+		/* Fisher-Yates shuffle of the training order */
+		for (i = n_train; i > 1; i--) {
+			size_t j = (size_t)(omen_rng_next(&rng) % i), tmp = order[i - 1];
+			order[i - 1] = order[j];
+			order[j] = tmp;
+		}
+		for (i = 0; i < n_train; i += (size_t)o->batch) {
+			float loss = 0, norm;
+			int c;
+			x.idx = order + i;
+			x.nb = (int)(n_train - i < (size_t)o->batch ? n_train - i : (size_t)o->batch);
+			x.step = ++step;
+			if ((e = run_chunks(&x)))
+				goto out;
+			for (c = 0; c < OMEN_TRAIN_CHUNKS; c++)
+				loss += x.loss[c];
+			omen_reduce_fixed(g, x.grad, OMEN_TRAIN_CHUNKS, m->nparams);
+			norm = omen_clip_grad_norm(g, m->nparams, o->clip);
+			if (!isfinite(loss) || !isfinite(norm)) {
+				e = omen_error_set(OMEN_ERROR, "training diverged at step %zu (epoch %d): "
+					"non-finite %s; nothing saved", step, ep, isfinite(loss) ? "gradient" : "loss");
+				goto out;
+			}
+			omen_adamw_step(m->params, g, mom, vel, m->nparams, &aw, (int)step, decay);
+			loss_sum += loss;
+			nb++;
+		}
+		fi->epochs_run = ep;
+		if (use_valid) {
+			double auc;
+			if ((e = eval_logits(vz, m, ds, valid_idx, n_valid, threads)))
+				goto out;
+			auc = auc_of(vz, ds, valid_idx, n_valid);
+			if (auc > fi->best_auc + 1e-4) {
+				fi->best_auc = auc;
+				fi->best_epoch = ep;
+				since_best = 0;
+				memcpy(best, m->params, m->nparams * sizeof(float));
+			} else {
+				since_best++;
+			}
+		} else {
+			fi->best_epoch = ep;
+			memcpy(best, m->params, m->nparams * sizeof(float));
+		}
+		if (report && o->progress) {
+			double el = omen_now() - t0;
+			int left = use_valid && epochs - ep > o->patience - since_best
+				? o->patience - since_best : epochs - ep;
+			o->progress(o->payload, ep, epochs, nb ? (float)(loss_sum / nb) : 0,
+				use_valid ? (float)fi->best_auc : NAN, el / ep * left);
+		}
+		if (use_valid && since_best >= o->patience)
+			break;
+	}
+	memcpy(m->params, best, m->nparams * sizeof(float));
+	if (!fi->best_epoch)
+		fi->best_epoch = fi->epochs_run;
+out:
+	ctx_free(&x);
+	free(g); free(mom); free(vel); free(best); free(decay); free(order); free(vz);
+	return e;
+}
+
+/* Platt scaling and the max-F1 threshold of m on idx. */
+static int calibrate(omen_model *m, const omen_dataset *ds, const size_t *idx, size_t n, int threads)
+{
+	float *z = malloc((n + 1) * sizeof(float));
+	double *f = malloc((n + 1) * sizeof(double)), *p = malloc((n + 1) * sizeof(double));
+	int *y = malloc((n + 1) * sizeof(int)), e = 0;
+	size_t i, pos = 0;
+	if (!z || !f || !p || !y) {
+		e = omen_error_set(OMEN_ENOMEM, "out of memory");
+		goto out;
+	}
+	m->platt_a = 1;
+	m->platt_b = 0;
+	m->threshold = 0.5f;
+	if ((e = eval_logits(z, m, ds, idx, n, threads)))
+		goto out;
+	for (i = 0; i < n; i++) {
+		f[i] = z[i];
+		y[i] = omen_dataset_get(ds, idx[i])->label > 0;
+		pos += (size_t)y[i];
+	}
+	if (pos == 0 || pos == n)
+		goto out;   /* nothing to calibrate against: identity */
+	if (omen_platt_fit(&m->platt_a, &m->platt_b, f, y, n)) {
+		omen_error_clear();
+		m->platt_a = 1;
+		m->platt_b = 0;
+	}
+	for (i = 0; i < n; i++)
+		p[i] = omen_platt_apply(m->platt_a, m->platt_b, f[i]);
+	m->threshold = (float)omen_threshold_max_f1(p, y, n);
+out:
+	free(z); free(f); free(p); free(y);
+	return e;
+}
+
+static int train_core(omen_model **out, fit_info *fi, const omen_dataset *ds,
+	const size_t *train_idx, size_t n_train, const size_t *valid_idx, size_t n_valid,
+	const omen_train_opts *o, int epochs, int report)
+{
+	omen_model *m = NULL;
+	int e;
+	*out = NULL;
+	if ((e = omen_model_new(&m, o->dim, o->channels, o->seed)))
+		return e;
+	m->caps = o->caps;
+	fit_standardization(m, ds, train_idx, n_train);
+	if ((e = fit(m, fi, ds, train_idx, n_train, valid_idx, n_valid, o, epochs, report)))
+		goto out;
+	if ((e = fit_lr(&m->lr, ds, train_idx, n_train)))
+		goto out;
+	if (n_valid && (e = calibrate(m, ds, valid_idx, n_valid, o->threads > 0 ? o->threads : 2)))
+		goto out;
+	*out = m;
+	m = NULL;
+out:
+	omen_model_free(m);
+	return e;
+}
+
+int omen_model_train_subset(omen_model **out, const omen_dataset *ds,
+	const size_t *train_idx, size_t n_train, const size_t *valid_idx, size_t n_valid,
+	const omen_train_opts *o)
+{
+	fit_info fi;
+	if (!n_train)
+		return omen_error_set(OMEN_EINVAL, "cannot train: no training commits");
+	return train_core(out, &fi, ds, train_idx, n_train, valid_idx, n_valid, o, o->epochs, 1);
+}
+
+/* ---- whole run ----------------------------------------------------------- */
+static void slice_scores(omen_slice_scores *out, const double *score, const double *prob,
+	const int *y, const double *effort, size_t n)
+{
+	size_t i;
+	omen_effort_scores ef;
+	memset(out, 0, sizeof(*out));
+	out->n = n;
+	for (i = 0; i < n; i++)
+		out->positives += (size_t)y[i];
+	out->auc = omen_auc(score, y, n);
+	out->ap = omen_average_precision(score, y, n);
+	out->brier = prob ? omen_brier(prob, y, n) : NAN;
+	ef = omen_effort(score, y, effort, n);
+	out->recall20 = ef.recall_at_20;
+}
+
+static cJSON *scores_json(const omen_slice_scores *s)
+{
+	cJSON *o = cJSON_CreateObject();
+	cJSON_AddNumberToObject(o, "n", (double)s->n);
+	cJSON_AddNumberToObject(o, "positives", (double)s->positives);
+	if (isfinite(s->auc)) cJSON_AddNumberToObject(o, "auc", s->auc);
+	if (isfinite(s->ap)) cJSON_AddNumberToObject(o, "ap", s->ap);
+	if (isfinite(s->brier)) cJSON_AddNumberToObject(o, "brier", s->brier);
+	if (isfinite(s->recall20)) cJSON_AddNumberToObject(o, "recall_at_20_effort", s->recall20);
+	return o;
+}
+
+static void iso_time(char *buf, size_t n, int64_t t)
+{
+	time_t tt = (time_t)t;
+	struct tm tm;
+	gmtime_r(&tt, &tm);
+	strftime(buf, n, "%Y-%m-%dT%H:%M:%SZ", &tm);
+}
+
+int omen_model_train(omen_model **out, omen_train_report *rep, const omen_dataset *ds,
+	const omen_train_opts *o)
+{
+	size_t n = omen_dataset_size(ds), nl = 0, pos = 0, i, n_test, n_valid, n_train;
+	size_t *idx = NULL;
+	omen_model *eval_m = NULL, *m = NULL;
+	float *z = NULL;
+	double *sc = NULL, *pr = NULL, *ef = NULL, *lrp = NULL, *la = NULL, t0 = omen_now();
+	int *y = NULL, e = 0, threads = o->threads > 0 ? o->threads : 2;
+	fit_info fi, fi2;
+	cJSON *meta = NULL, *tr, *te;
+	char date[32];
+
+	*out = NULL;
+	memset(rep, 0, sizeof(*rep));
+	idx = malloc((n + 1) * sizeof(size_t));
+	if (!idx)
+		return omen_error_set(OMEN_ENOMEM, "out of memory");
+	for (i = 0; i < n; i++) {
+		const omen_sample *s = omen_dataset_get(ds, i);
+		if (s->label < 0)
+			continue;
+		idx[nl++] = i;
+		pos += s->label > 0;
+	}
+	if (nl < MIN_LABELLED || pos < MIN_POSITIVES || nl - pos < MIN_POSITIVES) {
+		e = omen_error_set(OMEN_EINVAL, "too few labelled commits to train: %zu labelled "
+			"(%zu inducing, %zu clean), need at least %d labelled with %d inducing and %d clean",
+			nl, pos, nl - pos, MIN_LABELLED, MIN_POSITIVES, MIN_POSITIVES);
+		goto out;
+	}
+	n_test = (size_t)(nl * o->test_frac + 0.5);
+	n_valid = (size_t)(nl * o->valid_frac + 0.5);
+	if (n_test < 1) n_test = 1;
+	if (n_valid < 1) n_valid = 1;
+	n_train = nl - n_test - n_valid;
+	rep->n_train = n_train; rep->n_valid = n_valid; rep->n_test = n_test;
+	for (i = 0; i < nl; i++) {
+		int p = omen_dataset_get(ds, idx[i])->label > 0;
+		if (i < n_train) rep->pos_train += (size_t)p;
+		else if (i < n_train + n_valid) rep->pos_valid += (size_t)p;
+		else rep->pos_test += (size_t)p;
+	}
+	for (i = 0; i < n; i++)
+		rep->capped_commits += omen_dataset_get(ds, i)->capped != 0;
+	if (rep->pos_train < 5 || rep->pos_valid < 1 || rep->pos_test < 1) {
+		e = omen_error_set(OMEN_EINVAL, "too few inducing commits in the time-ordered split: "
+			"train %zu, validation %zu, test %zu; need at least 5, 1 and 1",
+			rep->pos_train, rep->pos_valid, rep->pos_test);
+		goto out;
+	}
+	/* 1. evaluation model: train on the oldest, early-stop on the next slice */
+	if ((e = train_core(&eval_m, &fi, ds, idx, n_train, idx + n_train, n_valid, o, o->epochs, 1)))
+		goto out;
+	rep->epochs_run = fi.epochs_run;
+	rep->best_epoch = fi.best_epoch;
+	/* 2. the three scorers on the newest slice */
+	z = malloc((n_test + 1) * sizeof(float));
+	sc = malloc((n_test + 1) * sizeof(double));
+	pr = malloc((n_test + 1) * sizeof(double));
+	ef = malloc((n_test + 1) * sizeof(double));
+	lrp = malloc((n_test + 1) * sizeof(double));
+	la = malloc((n_test + 1) * sizeof(double));
+	y = malloc((n_test + 1) * sizeof(int));
+	if (!z || !sc || !pr || !ef || !lrp || !la || !y) {
+		e = omen_error_set(OMEN_ENOMEM, "out of memory");
+		goto out;
+	}
+	if ((e = eval_logits(z, eval_m, ds, idx + n_train + n_valid, n_test, threads)))
+		goto out;
+	for (i = 0; i < n_test; i++) {
+		const omen_sample *s = omen_dataset_get(ds, idx[n_train + n_valid + i]);
+		sc[i] = z[i];
+		pr[i] = omen_platt_apply(eval_m->platt_a, eval_m->platt_b, z[i]);
+		y[i] = s->label > 0;
+		ef[i] = (double)s->la + s->ld;
+		lrp[i] = omen_model_predict_lr(eval_m, s);
+		la[i] = s->la;
+	}
+	slice_scores(&rep->model, sc, pr, y, ef, n_test);
+	slice_scores(&rep->lr_metrics, lrp, lrp, y, ef, n_test);
+	slice_scores(&rep->lines_added, la, NULL, y, ef, n_test);
+	rep->threshold = eval_m->threshold;
+	/* 3. shipped model: refit on train+valid for the chosen epoch count,
+	 * calibrated on the test slice it has not seen */
+	if (o->refit) {
+		if ((e = train_core(&m, &fi2, ds, idx, n_train + n_valid, NULL, 0, o,
+				fi.best_epoch > 0 ? fi.best_epoch : 1, 0)))
+			goto out;
+		if ((e = calibrate(m, ds, idx + n_train + n_valid, n_test, threads)))
+			goto out;
+		omen_model_free(eval_m);
+		eval_m = NULL;
+	} else {
+		m = eval_m;
+		eval_m = NULL;
+	}
+	/* metrics state and head: the whole dataset */
+	if (n) {
+		const omen_sample *last = omen_dataset_get(ds, n - 1);
+		memcpy(m->head, last->id, sizeof(m->head));
+	}
+	if (omen_dataset_metrics(ds)) {
+		if ((e = omen_metrics_save(omen_dataset_metrics(ds), &m->mstate_blob)) ||
+			(e = omen_metrics_load(&m->mstate, m->mstate_blob.ptr, m->mstate_blob.len)))
+			goto out;
+	}
+	rep->seconds = omen_now() - t0;
+	/* metadata */
+	meta = cJSON_CreateObject();
+	tr = cJSON_CreateObject();
+	{
+		const omen_sample *first = omen_dataset_get(ds, idx[0]);
+		const omen_sample *lastl = omen_dataset_get(ds, idx[nl - 1]);
+		time_t now = time(NULL);
+		iso_time(date, sizeof(date), (int64_t)now);
+		cJSON_AddStringToObject(tr, "date", date);
+		cJSON_AddStringToObject(tr, "first", first->id);
+		iso_time(date, sizeof(date), first->time);
+		cJSON_AddStringToObject(tr, "first_time", date);
+		cJSON_AddStringToObject(tr, "last_labelled", lastl->id);
+		iso_time(date, sizeof(date), lastl->time);
+		cJSON_AddStringToObject(tr, "last_labelled_time", date);
+	}
+	cJSON_AddNumberToObject(tr, "commits", (double)n);
+	cJSON_AddNumberToObject(tr, "n_train", (double)n_train);
+	cJSON_AddNumberToObject(tr, "n_valid", (double)n_valid);
+	cJSON_AddNumberToObject(tr, "n_test", (double)n_test);
+	cJSON_AddNumberToObject(tr, "pos_train", (double)rep->pos_train);
+	cJSON_AddNumberToObject(tr, "pos_valid", (double)rep->pos_valid);
+	cJSON_AddNumberToObject(tr, "pos_test", (double)rep->pos_test);
+	cJSON_AddNumberToObject(tr, "capped_commits", (double)rep->capped_commits);
+	cJSON_AddNumberToObject(tr, "epochs_run", fi.epochs_run);
+	cJSON_AddNumberToObject(tr, "best_epoch", fi.best_epoch);
+	cJSON_AddNumberToObject(tr, "valid_auc", fi.best_auc);
+	cJSON_AddNumberToObject(tr, "seed", (double)o->seed);
+	cJSON_AddNumberToObject(tr, "lr", o->lr);
+	cJSON_AddNumberToObject(tr, "batch", o->batch);
+	cJSON_AddNumberToObject(tr, "seconds", rep->seconds);
+	cJSON_AddBoolToObject(tr, "refit", o->refit != 0);
+	cJSON_AddStringToObject(tr, "calibrated_on", o->refit ? "test" : "validation");
+	cJSON_AddItemToObject(meta, "training", tr);
+	te = cJSON_CreateObject();
+	cJSON_AddItemToObject(te, "model", scores_json(&rep->model));
+	cJSON_AddItemToObject(te, "lr_metrics", scores_json(&rep->lr_metrics));
+	cJSON_AddItemToObject(te, "lines_added", scores_json(&rep->lines_added));
+	cJSON_AddNumberToObject(te, "threshold", rep->threshold);
+	cJSON_AddItemToObject(meta, "test", te);
+	m->meta = meta;
+	meta = NULL;
+	*out = m;
+	m = NULL;
+out:
+	cJSON_Delete(meta);
+	omen_model_free(eval_m);
+	omen_model_free(m);
+	free(idx); free(z); free(sc); free(pr); free(ef); free(lrp); free(la); free(y);
+	return e;
+}
