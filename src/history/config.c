@@ -3,6 +3,7 @@
  * first, then the repository's config stack (local, global, system). */
 #include <ctype.h>
 #include <errno.h>
+#include <limits.h>
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
@@ -29,7 +30,8 @@ static const char *sq_word(omen_buf *w, const char *p, int stop_eq, int *hit_eq)
 			p += 2;
 		} else if (*p == '=' && stop_eq) {
 			*hit_eq = 1;
-			return p + 1;
+			p++;
+			break;  /* an empty key ("=x") still yields "" below, never NULL */
 		} else {
 			if (omen_buf_put(w, p, 1))
 				return NULL;
@@ -54,7 +56,11 @@ int omen_config_parse_params(const char *text,
 			break;
 		if (!(p = sq_word(&k, p, 1, &eq)))
 			break;
-		if (eq) {  /* 'key'='value' (git 2.31 and later) */
+		if (eq && (!*p || isspace((unsigned char)*p))) {
+			/* 'key'= alone is how git 2.31+ writes `git -c key` (no
+			 * value: boolean true), unlike 'key'='' (empty string) */
+			e = cb(k.ptr, NULL, payload);
+		} else if (eq) {  /* 'key'='value' (git 2.31 and later) */
 			if (!(p = sq_word(&v, p, 0, &eq)))
 				break;
 			e = cb(k.ptr, v.ptr, payload);
@@ -149,7 +155,7 @@ static int bad_value(const char *key, const char *val, const char *what)
 int omen_config_int(int64_t *out, omen_repo *r, const char *key)
 {
 	char *v, *end;
-	long long n;
+	long long n, mul = 1;
 	int e = config_raw(&v, r, key);
 	if (e <= 0)
 		return e;
@@ -160,15 +166,15 @@ int omen_config_int(int64_t *out, omen_repo *r, const char *key)
 		goto out;
 	}
 	switch (tolower((unsigned char)*end)) {
-	case 'k': n *= 1024; end++; break;
-	case 'm': n *= 1024 * 1024; end++; break;
-	case 'g': n *= 1024LL * 1024 * 1024; end++; break;
+	case 'k': mul = 1024; end++; break;
+	case 'm': mul = 1024 * 1024; end++; break;
+	case 'g': mul = 1024LL * 1024 * 1024; end++; break;
 	}
-	if (*end) {
+	if (*end || n > LLONG_MAX / mul || n < LLONG_MIN / mul) {
 		e = bad_value(key, v, "an integer");
 		goto out;
 	}
-	*out = n;
+	*out = n * mul;
 	e = 0;
 out:
 	free(v);

@@ -19,6 +19,7 @@ int omen_buf_grow(omen_buf *b, size_t extra)
 	p = realloc(b->ptr, cap);
 	if (!p)
 		return omen_error_set(OMEN_ENOMEM, "out of memory (%zu bytes)", cap);
+	p[b->len] = '\0';  /* keeps "always NUL-terminated" true for a fresh buffer */
 	b->ptr = p;
 	b->cap = cap;
 	return 0;
@@ -134,7 +135,7 @@ int omen_array_reserve(void **ptr, size_t *cap, size_t need, size_t elem)
 	if (need <= *cap)
 		return 0;
 	while (c < need)
-		c *= 2;
+		c = c <= SIZE_MAX / 2 ? c * 2 : need;  /* never wraps to 0 */
 	if (c > SIZE_MAX / elem)
 		return omen_error_set(OMEN_ENOMEM, "out of memory");
 	p = realloc(*ptr, c * elem);
@@ -163,6 +164,10 @@ void *omen_arena_alloc(omen_arena *a, size_t n)
 {
 	omen_arena_block *b = a->head;
 	size_t need = (n + 15) & ~(size_t)15;
+	if (n > SIZE_MAX / 2) {  /* (n + 15) and the block header would wrap */
+		omen_error_set(OMEN_ENOMEM, "out of memory (%zu bytes)", n);
+		return NULL;
+	}
 	if (!b || b->size - b->used < need) {
 		size_t sz = need > a->block_size ? need : a->block_size;
 		b = malloc(sizeof(*b) + sz);
