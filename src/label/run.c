@@ -249,6 +249,8 @@ static int walk_cb(const omen_change *c, void *payload)
 			R->pairs[R->npairs++] = (lbl_pair){t, (uint32_t)ci, R->cand_lines[k]};
 		}
 	}
+	if (R->o->follow_renames && (e = lbl_rename_pairs(R->tr, omen_repo_git(R->repo), c, (uint32_t)ci)))
+		return e;
 	if ((e = lbl_tracer_apply(R->tr, c, (uint32_t)ci)))
 		return e;
 	/* references: see the top of this file */

@@ -53,6 +53,11 @@ int lbl_tracer_trace(lbl_tracer *t, const omen_change *c, lbl_line_cb cb, void *
  * ci. New versions start with refcount 0 (the caller adds references). A
  * version already held is kept as is. */
 int lbl_tracer_apply(lbl_tracer *t, const omen_change *c, uint32_t ci);
+/* Renames with edits (rename.c): pairs added files without state with
+ * deleted files of c at >= 50% line similarity and gives the new versions
+ * the old origins through a -U0 diff of the two blobs. Before apply. */
+int lbl_rename_pairs(lbl_tracer *t, git_repository *repo, const omen_change *c, uint32_t ci);
+
 /* The linear step: +1 on every new version, -1 on every old one. */
 void lbl_tracer_step(lbl_tracer *t, const omen_change *c);
 
