@@ -35,6 +35,8 @@ static int run_workers(int nthreads, int ntasks, void (*fn)(int, void *), void *
 
 	if (nthreads > MAX_THREADS)
 		nthreads = MAX_THREADS;
+	if (nthreads < 1)
+		nthreads = 1;
 	for (i = 0; i < nthreads; i++) {
 		w[i].fn = fn;
 		w[i].payload = payload;
