@@ -352,6 +352,7 @@ static int plot_roc(omen_buf *b, const pooled_arrays *p)
 	}
 	svg_begin(&sp, b, "roc", "ROC curves (pooled test commits)", "false-positive rate",
 		"true-positive rate", 520, 420, 0, 1, 0, 1);
+	sp.legend_br = 1;
 	svg_axes(&sp, 5, 5, 0);
 	{
 		double dx[2] = {0, 1}, dy[2] = {0, 1};
@@ -420,6 +421,7 @@ static int plot_effort(omen_buf *b, const pooled_arrays *p)
 	svg_begin(&sp, b, "effort", "Cumulative effort and recall (pooled)",
 		"share of effort (lines added + deleted)", "share of inducing commits found",
 		520, 420, 0, 1, 0, 1);
+	sp.legend_br = 1;
 	svg_axes(&sp, 5, 5, 0);
 	k = omen_effort_curve(x, y, p->score[0], p->y, p->effort, p->n, 1);
 	svg_line(&sp, x, y, k, "#000", "2 2", 1.2, "optimal");
@@ -458,6 +460,7 @@ static int plot_folds(omen_buf *b, const omen_eval_result *r)
 	}
 	svg_begin(&sp, b, "folds", "AUC per fold over time (95% bootstrap interval)",
 		"test window", "AUC", 520, 420, xmin, xmax, 0, 1);
+	sp.legend_br = 1;
 	svg_axes(&sp, n > 1 ? 4 : 1, 5, 1);
 	{
 		double dx[2] = {xmin, xmax}, dy[2] = {0.5, 0.5};

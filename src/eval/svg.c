@@ -95,8 +95,9 @@ void svg_axes(svg_plot *p, int xticks, int yticks, int xfmt_date)
 		} else {
 			snprintf(lab, sizeof(lab), "%g", round(x * 100) / 100);
 		}
-		omen_buf_printf(b, "<text x=\"%.1f\" y=\"%.1f\" text-anchor=\"middle\">%s</text>\n",
-			px(p, x), p->h - p->bt + 14, lab);
+		omen_buf_printf(b, "<text x=\"%.1f\" y=\"%.1f\" text-anchor=\"%s\">%s</text>\n",
+			px(p, x), p->h - p->bt + 14,
+			i == 0 && xfmt_date ? "start" : i == xticks && xfmt_date ? "end" : "middle", lab);
 	}
 	for (i = 0; i <= yticks; i++) {
 		double y = p->ymin + (p->ymax - p->ymin) * i / yticks;
@@ -112,8 +113,8 @@ void svg_line(svg_plot *p, const double *x, const double *y, size_t n,
 	omen_buf *b = p->b;
 	size_t i, step = n > 1500 ? n / 1500 : 1;
 	int pen_up = 1;
-	omen_buf_printf(b, "<path class=\"series\" fill=\"none\" stroke=\"%s\" stroke-width=\"%.1f\"%s%s%s d=\"",
-		color, width, dash ? " stroke-dasharray=\"" : "", dash ? dash : "", dash ? "\"" : "");
+	omen_buf_printf(b, "<path class=\"%s\" fill=\"none\" stroke=\"%s\" stroke-width=\"%.1f\"%s%s%s d=\"",
+		dash ? "guide" : "series", color, width, dash ? " stroke-dasharray=\"" : "", dash ? dash : "", dash ? "\"" : "");
 	for (i = 0; i < n; i++) {
 		if (step > 1 && i % step && i != n - 1)
 			continue;
@@ -127,7 +128,11 @@ void svg_line(svg_plot *p, const double *x, const double *y, size_t n,
 	omen_buf_puts(b, "\"/>\n");
 	if (label) {
 		double lx = p->l + 10, ly = p->t + 14 + 15 * p->nlegend;
-		omen_buf_printf(b, "<g class=\"legend\"><rect x=\"%.1f\" y=\"%.1f\" width=\"150\" "
+		if (p->legend_br) {
+			lx = p->w - p->r - 190;
+			ly = p->h - p->bt - 6 - 15 * p->nlegend;
+		}
+		omen_buf_printf(b, "<g class=\"legend\"><rect x=\"%.1f\" y=\"%.1f\" width=\"185\" "
 			"height=\"15\" fill=\"#fff\" fill-opacity=\"0.8\"/><line x1=\"%.1f\" y1=\"%.1f\" "
 			"x2=\"%.1f\" y2=\"%.1f\" stroke=\"%s\" stroke-width=\"2.5\"%s%s%s/>"
 			"<text x=\"%.1f\" y=\"%.1f\">", lx - 4, ly - 11, lx, ly - 4, lx + 20, ly - 4,

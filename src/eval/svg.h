@@ -12,6 +12,7 @@ typedef struct {
 	double l, r, t, bt;         /* margins */
 	double xmin, xmax, ymin, ymax;
 	int nlegend;
+	int legend_br;              /* 1: legend in the bottom-right corner, growing up */
 } svg_plot;
 
 /* Appends XML-escaped text. */
@@ -22,7 +23,8 @@ void svg_begin(svg_plot *p, omen_buf *b, const char *id, const char *title,
 	double xmin, double xmax, double ymin, double ymax);
 /* Grid lines and tick labels; xfmt_date: x values are epoch seconds. */
 void svg_axes(svg_plot *p, int xticks, int yticks, int xfmt_date);
-/* A series as one <path class="series"> (NaN points break the line);
+/* A series as one <path class="series"> ("guide" when dashed: reference
+ * lines such as chance); NaN points break the line;
  * thinned to at most about 1500 points. Also adds a legend entry. */
 void svg_line(svg_plot *p, const double *x, const double *y, size_t n,
 	const char *color, const char *dash, double width, const char *label);
