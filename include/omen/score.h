@@ -134,6 +134,7 @@ int omen_scorer_open(omen_scorer **out, omen_repo *r, const omen_score_opts *o);
 void omen_scorer_free(omen_scorer *s);
 const omen_model *omen_scorer_model(const omen_scorer *s);
 float omen_scorer_threshold(const omen_scorer *s);
+const char *omen_scorer_model_path(const omen_scorer *s);
 /* Scores ids (any order; results come oldest first). The metrics state is
  * the model's, then fed every commit between the model's head and each
  * scored commit, oldest first, so each commit's metrics use only commits
@@ -163,7 +164,8 @@ typedef struct {
 
 typedef struct {
 	int metric;          /* OMEN_M_* */
-	float value, typical;/* this commit's raw value, the repository's median */
+	float value, typical;/* this commit's raw value; the training history's typical
+	                        value (back-transformed mean of log1p values), NAN if unknown */
 	float contrib;       /* gradient x standardized input: > 0 pushed up */
 } omen_metric_score;
 
@@ -188,10 +190,10 @@ typedef struct {
 } omen_explanation;
 
 /* Explains one commit: attention and gradient x input from the model,
- * metrics against the median of the labelled history, and the top_n
- * labelled inducing commits nearest in standardized log-metric space.
- * Neighbours and typical values need the dataset (labels file and cache);
- * without labels they are left empty. */
+ * metrics against the training history's typical values (the model's
+ * standardization), and the top_n labelled inducing commits no newer than
+ * it, nearest in the model's standardized log-metric space. Neighbours need
+ * the labels file and the dataset (cache); without them they are empty. */
 int omen_score_explain(omen_explanation *out, omen_scorer *s, omen_repo *r,
 	const git_oid *id, int top_n);
 void omen_explanation_free(omen_explanation *e);
