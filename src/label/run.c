@@ -558,7 +558,8 @@ static int latency(lbl_run *R)
 	if (!(d = malloc(R->npairs * sizeof(*d))))
 		return omen_error_set(OMEN_ENOMEM, "out of memory");
 	for (i = 0; i < R->npairs; i++)
-		d[k++] = (double)(R->cs[R->pairs[i].fix].time - R->cs[R->pairs[i].ind].time) / 86400.0;
+		if (!i || R->pairs[i].ind != R->pairs[i - 1].ind || R->pairs[i].fix != R->pairs[i - 1].fix)
+			d[k++] = (double)(R->cs[R->pairs[i].fix].time - R->cs[R->pairs[i].ind].time) / 86400.0;
 	qsort(d, k, sizeof(*d), dbl_cmp);
 	R->sum->latency_days_q[0] = quantile(d, k, 0.25);
 	R->sum->latency_days_q[1] = quantile(d, k, 0.5);
