@@ -5,6 +5,8 @@
  * Prints "fuzz replay <name>: N inputs ok"; a crash or abort in the target
  * fails the run, which is how `make fuzz-replay` and `make asan` use it. */
 #include <dirent.h>
+#include <signal.h>
+#include <unistd.h>
 #include <stdint.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -12,6 +14,22 @@
 #include <sys/stat.h>
 
 int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size);
+
+/* The input being run, named on a crash (async-signal-safe write only). */
+static const char *current;
+
+static void on_crash(int sig)
+{
+	static const char msg[] = "fuzz replay: crashed on input ";
+	if (current) {
+		ssize_t k = write(2, msg, sizeof(msg) - 1);
+		k = write(2, current, strlen(current));
+		k = write(2, "\n", 1);
+		(void)k;
+	}
+	signal(sig, SIG_DFL);
+	raise(sig);
+}
 
 static int cmp_str(const void *a, const void *b)
 {
@@ -58,7 +76,9 @@ static int run_file(const char *path, size_t *count)
 		free(data);
 		if (getenv("FUZZ_REPLAY_VERBOSE"))
 			fprintf(stderr, "fuzz replay: %s (%zu bytes)\n", path, n);
+		current = path;
 		LLVMFuzzerTestOneInput(exact, n);
+		current = NULL;
 		free(exact);
 	}
 	(*count)++;
@@ -123,6 +143,14 @@ int main(int argc, char **argv)
 		fprintf(stderr, "usage: %s <corpus-dir|file>...\n", argv[0]);
 		return 129;
 	}
+	signal(SIGABRT, on_crash);  /* oracle failures, sanitizer reports */
+	signal(SIGTRAP, on_crash);
+	signal(SIGILL, on_crash);
+#if !defined(__SANITIZE_ADDRESS__)  /* AddressSanitizer reports these itself */
+	signal(SIGSEGV, on_crash);
+	signal(SIGBUS, on_crash);
+	signal(SIGFPE, on_crash);
+#endif
 	for (i = 1; i < argc; i++)
 		if (run_path(argv[i], &count))
 			return 1;
