@@ -59,7 +59,10 @@ static int col_put(col *c, const void *data, size_t n)
 		c->p = np;
 		c->cap = nc;
 	}
-	memcpy(c->p + c->len * c->elem, data, n * c->elem);
+	if (data)
+		memcpy(c->p + c->len * c->elem, data, n * c->elem);
+	else   /* an absent optional array reads as zeros */
+		memset(c->p + c->len * c->elem, 0, n * c->elem);
 	c->len += n;
 	return 0;
 }

@@ -2,7 +2,7 @@
  * the kernels of src/nn/ (DESIGN.md "Model"; DEVELOPERS.md "Model" has the
  * dimension table and the derivations).
  *
- *   tokens [T] -> embed [T,D] -> conv1d k=3 per hunk [T,C] -> GELU
+ *   tokens [T] -> embed [T,D] -> conv1d k=3 per hunk [T,C] -> ReLU
  *     -> attnpool per hunk [H,C] -> attnpool per file [F,C]
  *     + facts [F,NFN] W_f + b_f + ext_emb[ext] -> attnpool per commit [B,C]
  *   message tokens -> embedding bag (mean) [B,D]
@@ -293,7 +293,7 @@ void omen_model_forward(const omen_model *m, omen_ws *w, float p, omen_rng *rng)
 		omen_embed_forward(w->emb, PP(m, P_TOK_EMB), w->tok, T, D);
 		omen_conv1d_forward(w->conv, w->emb, PP(m, P_CONV_W), PP(m, P_CONV_B), w->tok_off, H,
 			D, C, m->K);
-		omen_gelu_forward(w->act, w->conv, T * C);
+		omen_relu_forward(w->act, w->conv, T * C);
 	}
 	if (H)
 		omen_attnpool_forward(w->hvec, w->tattn, w->act, PP(m, P_Q_TOK), w->tok_off, H, C);
@@ -350,7 +350,7 @@ void omen_model_backward(const omen_model *m, omen_ws *w, float *g, float p)
 		return;
 	omen_attnpool_backward(w->g_act, GG(m, g, P_Q_TOK), w->g_hvec, w->act, PP(m, P_Q_TOK),
 		w->tattn, w->tok_off, H, C);
-	omen_gelu_backward(w->g_conv, w->g_act, w->conv, T * C);
+	omen_relu_backward(w->g_conv, w->g_act, w->conv, T * C);
 	omen_conv1d_backward(w->g_emb, GG(m, g, P_CONV_W), GG(m, g, P_CONV_B), w->g_conv, w->emb,
 		PP(m, P_CONV_W), w->tok_off, H, D, C, m->K);
 	omen_embed_backward(GG(m, g, P_TOK_EMB), w->g_emb, w->tok, T, D);

@@ -65,11 +65,8 @@ static void chunk_run(step_ctx *x, int c)
 	omen_ws *w = &x->ws[c];
 	omen_rng rng;
 	x->loss[c] = 0;
-	if (n <= 0) {
-		if (x->train)
-			memset(x->grad[c], 0, x->m->nparams * sizeof(float));
+	if (n <= 0)
 		return;
-	}
 	for (i = 0; i < n; i++)
 		x->sp[c][i] = omen_dataset_get(x->ds, x->idx[lo + i]);
 	if (omen_ws_load(w, x->m, x->sp[c], NULL, n)) {
@@ -84,7 +81,6 @@ static void chunk_run(step_ctx *x, int c)
 	}
 	/* mean over the whole batch = sum over chunks of (n/nb) * chunk mean */
 	x->loss[c] = omen_bce_forward(w->z, w->y, NULL, x->pw, n) * n / x->nb;
-	memset(x->grad[c], 0, x->m->nparams * sizeof(float));
 	omen_bce_backward(w->g_z, w->z, w->y, NULL, x->pw, n, (float)n / x->nb);
 	omen_model_backward(x->m, w, x->grad[c], x->train ? x->p : 0);
 }
@@ -113,6 +109,8 @@ static int ctx_init(step_ctx *x, const omen_model *m, const omen_dataset *ds, in
 			x->grad[c] = aligned_alloc(64, (m->nparams * sizeof(float) + 63) / 64 * 64);
 			if (!x->grad[c])
 				return omen_error_set(OMEN_ENOMEM, "out of memory");
+			/* kept zero between steps: only touched segments are cleared */
+			memset(x->grad[c], 0, m->nparams * sizeof(float));
 		}
 	}
 	return 0;
@@ -247,6 +245,91 @@ static int fit_lr(omen_logreg *out, const omen_dataset *ds, const size_t *idx, s
 	return e;
 }
 
+/* ---- sparse steps ----------------------------------------------------------
+ * A batch touches few rows of the two embedding tables (V x D, VM x D), so
+ * the reduce, the clipping norm, the optimiser step and the clearing of the
+ * chunk buffers run over segments: every dense tensor, plus each embedding
+ * row the batch uses. Rows a batch does not use keep their moments as they
+ * are (the "lazy" Adam of TensorFlow Addons and torch.optim.SparseAdam);
+ * embeddings carry no weight decay, so nothing else differs from AdamW. */
+typedef struct { size_t off, n; } seg;
+
+typedef struct {
+	seg *s;
+	size_t n, cap;
+	uint32_t *stamp_tok, *stamp_msg;   /* step that last listed the row */
+} seglist;
+
+static int seg_push(seglist *l, size_t off, size_t n)
+{
+	if (OMEN_ARRAY_RESERVE(l->s, l->cap, l->n + 1))
+		return omen_error_set(OMEN_ENOMEM, "out of memory");
+	l->s[l->n].off = off;
+	l->s[l->n].n = n;
+	l->n++;
+	return 0;
+}
+
+static int seg_build(seglist *l, const omen_model *m, const omen_dataset *ds, const size_t *idx,
+	int nb, uint32_t step)
+{
+	int t, i, j, e;
+	l->n = 0;
+	for (t = 0; t < P_COUNT; t++)
+		if (t != P_TOK_EMB && t != P_MSG_EMB && (e = seg_push(l, m->t[t].off, m->t[t].n)))
+			return e;
+	for (i = 0; i < nb; i++) {
+		const omen_sample *s = omen_dataset_get(ds, idx[i]);
+		for (j = 0; j < s->ntok; j++) {
+			uint32_t r = s->tok[j] < (uint32_t)m->V ? s->tok[j] : s->tok[j] % (uint32_t)m->V;
+			if (l->stamp_tok[r] == step)
+				continue;
+			l->stamp_tok[r] = step;
+			if ((e = seg_push(l, m->t[P_TOK_EMB].off + (size_t)r * m->D, (size_t)m->D)))
+				return e;
+		}
+		for (j = 0; j < s->nmsg; j++) {
+			uint32_t r = s->msg[j] < (uint32_t)m->VM ? s->msg[j] : s->msg[j] % (uint32_t)m->VM;
+			if (l->stamp_msg[r] == step)
+				continue;
+			l->stamp_msg[r] = step;
+			if ((e = seg_push(l, m->t[P_MSG_EMB].off + (size_t)r * m->D, (size_t)m->D)))
+				return e;
+		}
+	}
+	return 0;
+}
+
+/* Sums the chunk gradients into g over the segments, clears the chunk
+ * buffers there, clips g to max_norm (as torch.nn.utils.clip_grad_norm_)
+ * and returns the norm before clipping. */
+static float seg_reduce_clip(float *g, float *const *src, const seglist *l, float max_norm)
+{
+	float *p[OMEN_TRAIN_CHUNKS];
+	double ss = 0;
+	float norm;
+	size_t i, k;
+	int c;
+	for (i = 0; i < l->n; i++) {
+		const seg *q = &l->s[i];
+		for (c = 0; c < OMEN_TRAIN_CHUNKS; c++)
+			p[c] = src[c] + q->off;
+		omen_reduce_fixed(g + q->off, p, OMEN_TRAIN_CHUNKS, q->n);
+		for (c = 0; c < OMEN_TRAIN_CHUNKS; c++)
+			memset(p[c], 0, q->n * sizeof(float));
+		for (k = 0; k < q->n; k++)
+			ss += (double)g[q->off + k] * g[q->off + k];
+	}
+	norm = (float)sqrt(ss);
+	if (max_norm > 0 && norm > max_norm && isfinite(norm)) {
+		float sc = max_norm / (norm + 1e-6f);
+		for (i = 0; i < l->n; i++)
+			for (k = 0; k < l->s[i].n; k++)
+				g[l->s[i].off + k] *= sc;
+	}
+	return norm;
+}
+
 /* ---- the loop ------------------------------------------------------------ */
 typedef struct {
 	int epochs_run, best_epoch;
@@ -261,6 +344,7 @@ static int fit(omen_model *m, fit_info *fi, const omen_dataset *ds, const size_t
 	int epochs, int report)
 {
 	step_ctx x;
+	seglist sl;
 	omen_adamw aw = OMEN_ADAMW_DEFAULT;
 	float *g = NULL, *mom = NULL, *vel = NULL, *best = NULL, *vz = NULL;
 	uint8_t *decay = NULL;
@@ -272,9 +356,16 @@ static int fit(omen_model *m, fit_info *fi, const omen_dataset *ds, const size_t
 	int use_valid = 0;
 
 	memset(fi, 0, sizeof(*fi));
+	memset(&sl, 0, sizeof(sl));
 	fi->best_auc = -1;
 	if ((e = ctx_init(&x, m, ds, o->batch, threads, 1)))
 		goto out;
+	sl.stamp_tok = calloc((size_t)m->V, sizeof(uint32_t));
+	sl.stamp_msg = calloc((size_t)m->VM, sizeof(uint32_t));
+	if (!sl.stamp_tok || !sl.stamp_msg) {
+		e = omen_error_set(OMEN_ENOMEM, "out of memory");
+		goto out;
+	}
 	g = aligned_alloc(64, (m->nparams * sizeof(float) + 63) / 64 * 64);
 	mom = calloc(m->nparams, sizeof(float));
 	vel = calloc(m->nparams, sizeof(float));
@@ -327,14 +418,19 @@ static int fit(omen_model *m, fit_info *fi, const omen_dataset *ds, const size_t
 				goto out;
 			for (c = 0; c < OMEN_TRAIN_CHUNKS; c++)
 				loss += x.loss[c];
-			omen_reduce_fixed(g, x.grad, OMEN_TRAIN_CHUNKS, m->nparams);
-			norm = omen_clip_grad_norm(g, m->nparams, o->clip);
+			if ((e = seg_build(&sl, m, ds, x.idx, x.nb, (uint32_t)step)))
+				goto out;
+			norm = seg_reduce_clip(g, x.grad, &sl, o->clip);
 			if (!isfinite(loss) || !isfinite(norm)) {
 				e = omen_error_set(OMEN_ERROR, "training diverged at step %zu (epoch %d): "
 					"non-finite %s; nothing saved", step, ep, isfinite(loss) ? "gradient" : "loss");
 				goto out;
 			}
-			omen_adamw_step(m->params, g, mom, vel, m->nparams, &aw, (int)step, decay);
+			for (c = 0; c < (int)sl.n; c++) {
+				const seg *q = &sl.s[c];
+				omen_adamw_step(m->params + q->off, g + q->off, mom + q->off, vel + q->off, q->n,
+					&aw, (int)step, decay + q->off);
+			}
 			loss_sum += loss;
 			nb++;
 		}
@@ -371,6 +467,7 @@ static int fit(omen_model *m, fit_info *fi, const omen_dataset *ds, const size_t
 		fi->best_epoch = fi->epochs_run;
 out:
 	ctx_free(&x);
+	free(sl.s); free(sl.stamp_tok); free(sl.stamp_msg);
 	free(g); free(mom); free(vel); free(best); free(decay); free(order); free(vz);
 	return e;
 }

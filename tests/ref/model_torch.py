@@ -2,7 +2,7 @@
 # (src/model/model.c) against the same model written in PyTorch with the
 # same weights and inputs: the loss, the logits and the gradient of every
 # parameter tensor must agree (relative 1e-4 of the tensor's largest
-# gradient, absolute 1e-6). PyTorch: conv1d, gelu (exact erf), softmax,
+# gradient, absolute 1e-6). PyTorch: conv1d, relu, gelu (exact erf), softmax,
 # BCEWithLogitsLoss(pos_weight) and autograd.
 import json
 import math
@@ -48,14 +48,14 @@ def commit_vector(s):
     nf = len(fo) - 1
     if nf == 0:
         return torch.zeros(C)
-    # hunks: embedding, width-3 conv with zero padding inside each hunk, GELU
+    # hunks: embedding, width-3 conv with zero padding inside each hunk, ReLU
     W = P["conv_w"].reshape(3, D, C).permute(2, 1, 0)   # [C, D, K]
     hv = []
     for h in range(len(ho) - 1):
         ids = torch.tensor(tok[ho[h]:ho[h + 1]], dtype=torch.long)
         e = P["tok_emb"].reshape(-1, D)[ids]            # [L, D]
         y = F.conv1d(e.t()[None], W, P["conv_b"].reshape(-1), padding=1)[0].t()
-        y = F.gelu(y)
+        y = F.relu(y)
         hv.append(attnpool(y, P["q_tok"], [0, y.shape[0]])[0])
     hv = torch.stack(hv) if hv else torch.zeros(0, C)
     fpool = attnpool(hv, P["q_hunk"], fo)
