@@ -3,7 +3,7 @@
 with the outside reference `git blame -w --porcelain --first-parent <fix>^ --
 <path>` (git CLI), one blame per (fix, file).
 
-usage: blame_compare.py REPO DUMP [--sample N] [--seed S] [--min-agree F]
+usage: blame_compare.py REPO DUMP [--sample N] [--seed S] [--min-agree F] [--strict]
 Prints REF lines: agreement over all deleted lines, over traced lines, and
 the disagreements by cause (blank lines, merge attribution, other = diff
 alignment ties). Exits 1 when agreement on traced lines < --min-agree."""
@@ -36,6 +36,7 @@ def main():
     sample = int(args[args.index("--sample") + 1]) if "--sample" in args else 0
     seed = int(args[args.index("--seed") + 1]) if "--seed" in args else 1
     min_agree = float(args[args.index("--min-agree") + 1]) if "--min-agree" in args else 0.0
+    strict = "--strict" in args  # every disagreement must be a by-design merge attribution
     by = collections.OrderedDict()
     for ln in open(dump, encoding="utf-8", errors="replace"):
         f = ln.rstrip("\n").split(" ", 4)
@@ -94,6 +95,9 @@ def main():
         print("REF   disagreement: %s: %d" % (c, k))
     if n == 0:
         print("no deleted lines to compare")
+        return 1
+    if strict and any("merge" not in c for c in causes):
+        print("disagreements other than merge attribution")
         return 1
     if n_tr and agree_tr / n_tr < min_agree:
         print("agreement below %.3f" % min_agree)
