@@ -1,9 +1,236 @@
-/* git omen explain: placeholder until the command lands; replace this file. */
+/* git omen explain: which files, hunks, lines and metrics drove a commit's
+ * score, and the closest past commits that later needed fixes (advisory). */
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
 #include "cli/cli.h"
+
+static const char explain_usage[] =
+	"usage: git omen explain <commit> [<options>]\n"
+	"\n"
+	"Shows the files, hunks and lines that drove a commit's score (attention\n"
+	"and gradient x input), the change metrics that pushed it up or down against\n"
+	"the typical values, and the closest past commits that later needed fixes.\n"
+	"Scores are advisory.\n"
+	"\n"
+	"  --model <file>      model file (default: omen.model, else $GIT_DIR/omen/model.omen)\n"
+	"  --format <fmt>      text (default) or json\n"
+	"  --top <n>           how many files, hunks and neighbours to show (default 5)\n"
+	"  -h, --help          show this help\n";
+
+static void put_num(omen_buf *b, double v)
+{
+	if (isfinite(v))
+		omen_buf_printf(b, "%.6g", v);
+	else
+		omen_buf_puts(b, "null");
+}
+
+static void put_str(omen_buf *b, const char *s)
+{
+	omen_buf_put_json_string(b, s ? s : "", s ? strlen(s) : 0);
+}
+
+static void write_json(omen_buf *b, const omen_explanation *x, float thr, size_t top)
+{
+	const omen_score_result *r = &x->result;
+	size_t i;
+	omen_buf_puts(b, "{\"id\":");
+	put_str(b, r->id);
+	omen_buf_puts(b, ",\"summary\":");
+	put_str(b, r->summary);
+	omen_buf_puts(b, ",\"probability\":");
+	put_num(b, r->prob);
+	omen_buf_puts(b, ",\"logit\":");
+	put_num(b, r->logit);
+	omen_buf_puts(b, ",\"threshold\":");
+	put_num(b, thr);
+	omen_buf_printf(b, ",\"band\":\"%s\",\"reasons\":[", omen_band_names[r->band]);
+	for (i = 0; i < (size_t)r->nreasons; i++) {
+		omen_buf_printf(b, "%s{\"kind\":\"%s\",\"text\":", i ? "," : "", omen_reason_names[r->reasons[i].kind]);
+		put_str(b, r->reasons[i].text);
+		omen_buf_puts(b, "}");
+	}
+	omen_buf_puts(b, "],\"files\":[");
+	for (i = 0; i < x->nfiles && i < top; i++) {
+		omen_buf_puts(b, i ? ",{\"path\":" : "{\"path\":");
+		put_str(b, x->files[i].path);
+		omen_buf_puts(b, ",\"attention\":");
+		put_num(b, x->files[i].weight);
+		omen_buf_puts(b, ",\"contribution\":");
+		put_num(b, x->files[i].contrib);
+		omen_buf_printf(b, ",\"added\":%d,\"deleted\":%d}", (int)x->files[i].added, (int)x->files[i].deleted);
+	}
+	omen_buf_puts(b, "],\"hunks\":[");
+	for (i = 0; i < x->nhunks && i < top; i++) {
+		const omen_hunk_score *h = &x->hunks[i];
+		omen_buf_puts(b, i ? ",{\"path\":" : "{\"path\":");
+		put_str(b, h->path);
+		omen_buf_printf(b, ",\"new_start\":%d,\"new_lines\":%d,\"old_start\":%d,\"old_lines\":%d,\"weight\":",
+			(int)h->new_start, (int)h->new_lines, (int)h->old_start, (int)h->old_lines);
+		put_num(b, h->weight);
+		omen_buf_puts(b, ",\"contribution\":");
+		put_num(b, h->contrib);
+		omen_buf_puts(b, "}");
+	}
+	omen_buf_puts(b, "],\"lines\":[");
+	for (i = 0; i < x->nlines; i++) {
+		const omen_line_score *l = &x->lines[i];
+		omen_buf_puts(b, i ? ",{\"path\":" : "{\"path\":");
+		put_str(b, l->path);
+		omen_buf_printf(b, ",\"line\":%d,\"origin\":\"%c\",\"contribution\":", (int)l->line, l->origin);
+		put_num(b, l->contrib);
+		omen_buf_puts(b, ",\"text\":");
+		put_str(b, l->text);
+		omen_buf_puts(b, "}");
+	}
+	omen_buf_puts(b, "],\"metrics\":[");
+	for (i = 0; i < OMEN_NMETRICS; i++) {
+		const omen_metric_score *m = &x->metrics[i];
+		omen_buf_printf(b, "%s{\"name\":\"%s\",\"value\":", i ? "," : "", omen_metric_names[m->metric]);
+		put_num(b, m->value);
+		omen_buf_puts(b, ",\"typical\":");
+		put_num(b, m->typical);
+		omen_buf_puts(b, ",\"contribution\":");
+		put_num(b, m->contrib);
+		omen_buf_puts(b, "}");
+	}
+	omen_buf_puts(b, "],\"message_contribution\":");
+	put_num(b, x->message_contrib);
+	omen_buf_puts(b, ",\"neighbours\":[");
+	for (i = 0; i < x->nneighbours; i++) {
+		const omen_neighbour *n = &x->neighbours[i];
+		omen_buf_puts(b, i ? ",{\"id\":" : "{\"id\":");
+		put_str(b, n->id);
+		omen_buf_puts(b, ",\"summary\":");
+		put_str(b, n->summary);
+		omen_buf_puts(b, ",\"distance\":");
+		put_num(b, n->distance);
+		omen_buf_printf(b, ",\"fixes\":%d}", n->nfixes);
+	}
+	omen_buf_puts(b, "]}\n");
+}
+
+static void hunk_range(omen_buf *b, const omen_hunk_score *h)
+{
+	if (h->new_lines > 1)
+		omen_buf_printf(b, "%s:%d-%d", h->path, (int)h->new_start, (int)(h->new_start + h->new_lines - 1));
+	else if (h->new_lines == 1)
+		omen_buf_printf(b, "%s:%d", h->path, (int)h->new_start);
+	else
+		omen_buf_printf(b, "%s:-%d,%d (deleted)", h->path, (int)h->old_start, (int)h->old_lines);
+}
+
+static void write_text(omen_buf *b, const omen_explanation *x, float thr, size_t top)
+{
+	const omen_score_result *r = &x->result;
+	size_t i;
+	omen_buf_printf(b, "commit %s\n  %s\nrisk %.2f (%s; risky at %.2f or more); scores are advisory\n",
+		r->id, r->summary ? r->summary : "", (double)r->prob, omen_band_names[r->band], (double)thr);
+	for (i = 0; i < (size_t)r->nreasons; i++)
+		omen_buf_printf(b, "  reason: %s\n", r->reasons[i].text);
+	if (r->capped)
+		omen_buf_puts(b, "  (large commit: the model saw its largest files and hunks only)\n");
+	omen_buf_puts(b, "\nfiles (attention, gradient x input):\n");
+	for (i = 0; i < x->nfiles && i < top; i++)
+		omen_buf_printf(b, "  %4.0f%%  %+8.4f  %s (+%d -%d)\n", 100.0 * x->files[i].weight,
+			(double)x->files[i].contrib, x->files[i].path, (int)x->files[i].added, (int)x->files[i].deleted);
+	omen_buf_puts(b, "\nhunks:\n");
+	for (i = 0; i < x->nhunks && i < top; i++) {
+		omen_buf_printf(b, "  %4.0f%%  %+8.4f  ", 100.0 * x->hunks[i].weight, (double)x->hunks[i].contrib);
+		hunk_range(b, &x->hunks[i]);
+		omen_buf_puts(b, "\n");
+	}
+	omen_buf_puts(b, "\nlines (gradient x input):\n");
+	for (i = 0; i < x->nlines; i++)
+		omen_buf_printf(b, "  %+8.4f  %s:%c%d  %.80s\n", (double)x->lines[i].contrib, x->lines[i].path,
+			x->lines[i].origin, (int)x->lines[i].line, x->lines[i].text ? x->lines[i].text : "");
+	omen_buf_puts(b, "\nmetrics (gradient x standardized input; typical of the training history):\n");
+	for (i = 0; i < OMEN_NMETRICS; i++) {
+		const omen_metric_score *m = &x->metrics[i];
+		omen_buf_printf(b, "  %-8s %10.4g  typical %10.4g  %+8.4f %s\n", omen_metric_names[m->metric],
+			(double)m->value, (double)m->typical, (double)m->contrib,
+			m->contrib > 0 ? "pushed up" : m->contrib < 0 ? "pushed down" : "");
+	}
+	omen_buf_printf(b, "  message           %+8.4f\n", (double)x->message_contrib);
+	omen_buf_puts(b, "\nclosest past commits that later needed fixes:\n");
+	if (!x->nneighbours)
+		omen_buf_puts(b, "  (none: no labelled inducing commits; run 'git omen label')\n");
+	for (i = 0; i < x->nneighbours; i++)
+		omen_buf_printf(b, "  %.10s  distance %5.2f  %d fix%s  %.60s\n", x->neighbours[i].id,
+			(double)x->neighbours[i].distance, x->neighbours[i].nfixes,
+			x->neighbours[i].nfixes == 1 ? "" : "es", x->neighbours[i].summary);
+}
 
 int cmd_explain(int argc, char **argv)
 {
-	(void)argc; (void)argv;
-	fprintf(stderr, "git omen: 'explain' is not built yet\n");
-	return EXIT_FATAL;
+	const char *model = NULL, *format = "text", *top_s = NULL, *rev = NULL;
+	omen_repo *repo = NULL;
+	omen_scorer *sc = NULL;
+	omen_score_opts so = OMEN_SCORE_OPTS_INIT;
+	omen_explanation x;
+	omen_buf out = OMEN_BUF_INIT;
+	git_oid id;
+	long top = 5;
+	int rc = EXIT_OK, k, have_x = 0;
+
+	for (k = 1; k < argc; k++) {
+		const char *a = argv[k];
+		int m;
+		if (!strcmp(a, "-h") || !strcmp(a, "--help")) {
+			fputs(explain_usage, stdout);
+			return EXIT_OK;
+		}
+		if ((m = cli_opt_value(argc, argv, &k, "--model", &model)) ||
+		    (m = cli_opt_value(argc, argv, &k, "--format", &format)) ||
+		    (m = cli_opt_value(argc, argv, &k, "--top", &top_s))) {
+			if (m < 0)
+				return cli_usage("explain", "option '%s' needs a value", a);
+			continue;
+		}
+		if (a[0] == '-')
+			return cli_usage("explain", "unknown option '%s'; see 'git omen explain --help'", a);
+		if (rev)
+			return cli_usage("explain", "explain takes one commit");
+		rev = a;
+	}
+	if (!rev)
+		return cli_usage("explain", "which commit? usage: git omen explain <commit>");
+	if (strcmp(format, "text") && strcmp(format, "json"))
+		return cli_usage("explain", "bad --format '%s': use text or json", format);
+	if (top_s) {
+		char *end;
+		top = strtol(top_s, &end, 10);
+		if (end == top_s || *end || top < 1 || top > 1000)
+			return cli_usage("explain", "bad --top '%s': give a number from 1 to 1000", top_s);
+	}
+	if (omen_repo_open(&repo, NULL) || omen_history_resolve(&id, repo, rev)) {
+		rc = cli_fatal(NULL);
+		goto done;
+	}
+	so.model_path = model;
+	so.detail = 1;
+	if (omen_scorer_open(&sc, repo, &so)) {
+		rc = cli_fatal(NULL);
+		goto done;
+	}
+	if (omen_score_explain(&x, sc, repo, &id, (int)top)) {
+		rc = cli_fatal(NULL);
+		omen_explanation_free(&x);
+		goto done;
+	}
+	have_x = 1;
+	if (!strcmp(format, "json"))
+		write_json(&out, &x, omen_scorer_threshold(sc), (size_t)top);
+	else
+		write_text(&out, &x, omen_scorer_threshold(sc), (size_t)top);
+	if (out.len && fwrite(out.ptr, 1, out.len, stdout) != out.len)
+		rc = cli_fatal("cannot write standard output");
+done:
+	if (have_x)
+		omen_explanation_free(&x);
+	omen_buf_free(&out);
+	omen_scorer_free(sc);
+	omen_repo_free(repo);
+	return rc;
 }

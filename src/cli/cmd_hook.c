@@ -1,9 +1,262 @@
-/* git omen hook: placeholder until the command lands; replace this file. */
+/* git omen hook: install, remove or report the pre-push hook, and run it
+ * (what hooks/pre-push calls with git's pre-push lines on standard input).
+ * The hook never stops a push unless the user asked for blocking. */
+#include <signal.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/time.h>
+#include <unistd.h>
 #include "cli/cli.h"
+
+static const char hook_usage[] =
+	"usage: git omen hook install | uninstall | status\n"
+	"   or: git omen hook run <remote-name> <remote-url>\n"
+	"\n"
+	"install     put the pre-push shim in the hooks directory (core.hooksPath honoured);\n"
+	"            an existing pre-push hook is kept and runs after ours\n"
+	"uninstall   remove the shim and restore the kept hook byte for byte\n"
+	"status      say whether the hook is installed\n"
+	"run         score the commits a push sends (git's pre-push lines on standard input)\n"
+	"\n"
+	"The hook warns about risky commits and lets the push through unless\n"
+	"omen.onRisk=block. Scores are advisory; 'git push --no-verify' skips it.\n"
+	"\n"
+	"  -h, --help          show this help\n";
+
+#define HOOK_MAX_INPUT (8u << 20)
+#define HOOK_MAX_COMMITS 200
+
+/* ---- time limit: a hard stop that lets the push through ----------------- */
+static char alarm_msg[256];
+static size_t alarm_len;
+static volatile int alarm_exit;
+
+static void on_alarm(int sig)
+{
+	ssize_t w;
+	(void)sig;
+	w = write(2, alarm_msg, alarm_len);
+	(void)w;
+	_exit(alarm_exit);
+}
+
+static void arm_alarm(long ms, int block)
+{
+	struct itimerval it;
+	struct sigaction sa;
+	int n = snprintf(alarm_msg, sizeof(alarm_msg),
+		block ? "git omen: scoring ran past omen.hookTimeout (%ld ms) and omen.onError=block: push stopped\n"
+		      : "git omen: scoring ran past omen.hookTimeout (%ld ms); push not checked (scores are advisory)\n",
+		ms);
+	alarm_len = n > 0 && (size_t)n < sizeof(alarm_msg) ? (size_t)n : 0;
+	alarm_exit = block ? 1 : 0;
+	memset(&sa, 0, sizeof(sa));
+	sa.sa_handler = on_alarm;
+	sigemptyset(&sa.sa_mask);
+	sigaction(SIGALRM, &sa, NULL);
+	memset(&it, 0, sizeof(it));
+	it.it_value.tv_sec = ms / 1000;
+	it.it_value.tv_usec = (ms % 1000) * 1000;
+	setitimer(ITIMER_REAL, &it, NULL);
+}
+
+static void disarm_alarm(void)
+{
+	struct itimerval it;
+	memset(&it, 0, sizeof(it));
+	setitimer(ITIMER_REAL, &it, NULL);
+}
+
+/* One-line notice for anything that stops the check; exit status by
+ * omen.onError (allow: 0, block: 1). */
+static int hook_error(int block, const char *what)
+{
+	const char *msg = what ? what : omen_error_last();
+	if (block)
+		fprintf(stderr, "git omen: %s; push stopped (omen.onError=block)\n", *msg ? msg : "unknown error");
+	else
+		fprintf(stderr, "git omen: %s; push not checked (scores are advisory)\n", *msg ? msg : "unknown error");
+	return block ? EXIT_RISK : EXIT_OK;
+}
+
+static int read_stdin(omen_buf *b)
+{
+	char tmp[65536];
+	size_t n;
+	while ((n = fread(tmp, 1, sizeof(tmp), stdin)) > 0) {
+		if (b->len + n > HOOK_MAX_INPUT)
+			return omen_error_set(OMEN_ELIMIT, "bad pre-push input: more than %u bytes", HOOK_MAX_INPUT);
+		if (omen_buf_put(b, tmp, n))
+			return omen_error_code();
+	}
+	if (ferror(stdin))
+		return omen_error_set(OMEN_EIO, "cannot read the pre-push input");
+	return 0;
+}
+
+static int hook_run(int argc, char **argv)
+{
+	omen_repo *repo = NULL;
+	omen_scorer *sc = NULL;
+	omen_score_opts so = OMEN_SCORE_OPTS_INIT;
+	omen_score_set set;
+	omen_push_list pl;
+	omen_buf in = OMEN_BUF_INIT;
+	git_oid *ids = NULL;
+	size_t nids = 0, i, risky = 0, skip = 0;
+	char *on_risk = NULL, *on_error = NULL;
+	int64_t timeout_ms = 3000;
+	int block_risk = 0, block_error = 0, rc = EXIT_OK;
+	const char *remote = argc > 2 ? argv[2] : "";
+	double t0 = omen_now();
+
+	omen_score_set_init(&set);
+	memset(&pl, 0, sizeof(pl));
+	if (omen_repo_open(&repo, NULL)) {
+		rc = hook_error(0, NULL);
+		goto done;
+	}
+	if (omen_config_string(&on_error, repo, "omen.onError")) {
+		rc = hook_error(0, NULL);
+		goto done;
+	}
+	block_error = on_error && !strcmp(on_error, "block");
+	if (on_error && strcmp(on_error, "block") && strcmp(on_error, "allow")) {
+		rc = hook_error(0, "bad config value 'omen.onError': use allow or block");
+		goto done;
+	}
+	if (omen_config_string(&on_risk, repo, "omen.onRisk") ||
+	    omen_config_int(&timeout_ms, repo, "omen.hookTimeout")) {
+		rc = hook_error(block_error, NULL);
+		goto done;
+	}
+	if (on_risk && strcmp(on_risk, "warn") && strcmp(on_risk, "block")) {
+		rc = hook_error(block_error, "bad config value 'omen.onRisk': use warn or block");
+		goto done;
+	}
+	block_risk = on_risk && !strcmp(on_risk, "block");
+	if (timeout_ms <= 0)
+		timeout_ms = 3000;
+	arm_alarm((long)timeout_ms, block_error);
+	so.deadline = t0 + (double)timeout_ms / 1000.0;
+
+	if (read_stdin(&in) || omen_prepush_parse(&pl, in.ptr, in.len)) {
+		rc = hook_error(block_error, NULL);
+		goto done;
+	}
+	if (pl.n == 0)
+		goto done;
+	if (omen_scorer_open(&sc, repo, &so)) {
+		rc = hook_error(block_error, NULL);
+		goto done;
+	}
+	if (omen_push_select(&ids, &nids, repo, remote, &pl)) {
+		rc = hook_error(block_error, NULL);
+		goto done;
+	}
+	if (nids == 0)
+		goto done;
+	if (nids > HOOK_MAX_COMMITS) {
+		skip = nids - HOOK_MAX_COMMITS;
+		fprintf(stderr, "git omen: scoring the newest %d of %zu new commits\n", HOOK_MAX_COMMITS, nids);
+	}
+	if (omen_scorer_commits(&set, sc, ids + skip, nids - skip)) {
+		rc = hook_error(block_error, NULL);
+		goto done;
+	}
+	disarm_alarm();
+	for (i = 0; i < set.n; i++) {
+		const omen_score_result *r = &set.v[i];
+		if (r->prob < set.threshold)
+			continue;
+		risky++;
+		fprintf(stderr, "git omen: risky commit %.10s: %.2f (threshold %.2f)%s%s%s%s - %.60s\n",
+			r->id, (double)r->prob, (double)set.threshold,
+			r->nreasons ? ": " : "", r->nreasons ? r->reasons[0].text : "",
+			r->nreasons > 1 ? "; " : "", r->nreasons > 1 ? r->reasons[1].text : "",
+			r->summary ? r->summary : "");
+	}
+	if (risky && block_risk) {
+		fprintf(stderr, "git omen: push blocked: %zu of %zu commits at or over %.2f (omen.onRisk=block); "
+			"scores are advisory, 'git push --no-verify' skips this check\n",
+			risky, set.n, (double)set.threshold);
+		rc = EXIT_RISK;
+	} else if (risky) {
+		fprintf(stderr, "git omen: %zu of %zu commits look risky; scores are advisory, the push goes on\n",
+			risky, set.n);
+	}
+done:
+	disarm_alarm();
+	omen_score_set_free(&set);
+	omen_prepush_free(&pl);
+	omen_buf_free(&in);
+	omen_scorer_free(sc);
+	omen_repo_free(repo);
+	free(ids);
+	free(on_risk);
+	free(on_error);
+	return rc;
+}
 
 int cmd_hook(int argc, char **argv)
 {
-	(void)argc; (void)argv;
-	fprintf(stderr, "git omen: 'hook' is not built yet\n");
-	return EXIT_FATAL;
+	omen_repo *repo = NULL;
+	char *dir = NULL;
+	const char *sub = argc > 1 ? argv[1] : NULL;
+	int rc = EXIT_OK, st = 0;
+
+	if (!sub || !strcmp(sub, "-h") || !strcmp(sub, "--help")) {
+		fputs(hook_usage, sub ? stdout : stderr);
+		return sub ? EXIT_OK : EXIT_USAGE;
+	}
+	if (argc > 2 && (!strcmp(argv[2], "-h") || !strcmp(argv[2], "--help"))) {
+		fputs(hook_usage, stdout);
+		return EXIT_OK;
+	}
+	if (!strcmp(sub, "run"))
+		return hook_run(argc, argv);
+	if (strcmp(sub, "install") && strcmp(sub, "uninstall") && strcmp(sub, "status"))
+		return cli_usage("hook", "unknown subcommand '%s'; use install, uninstall, status or run", sub);
+	if (argc > 2)
+		return cli_usage("hook", "'%s' takes no arguments", sub);
+	if (omen_repo_open(&repo, NULL) || omen_hook_dir(&dir, repo)) {
+		rc = cli_fatal(NULL);
+		goto done;
+	}
+	if (!strcmp(sub, "install")) {
+		if (omen_hook_install(&st, dir)) {
+			rc = cli_fatal(NULL);
+			goto done;
+		}
+		printf("installed the pre-push hook in '%s'%s\n", dir,
+			st == OMEN_HOOK_CHAINED ? "; the existing hook is kept and runs after it" : "");
+	} else if (!strcmp(sub, "uninstall")) {
+		if (omen_hook_status(&st, dir)) {
+			rc = cli_fatal(NULL);
+			goto done;
+		}
+		if (st == OMEN_HOOK_ABSENT) {
+			printf("no pre-push hook in '%s'\n", dir);
+		} else if (omen_hook_uninstall(&st, dir)) {
+			rc = cli_fatal(NULL);
+			goto done;
+		} else {
+			printf("removed the pre-push hook from '%s'%s\n", dir,
+				st == OMEN_HOOK_FOREIGN ? "; the previous hook is back" : "");
+		}
+	} else {
+		if (omen_hook_status(&st, dir)) {
+			rc = cli_fatal(NULL);
+			goto done;
+		}
+		printf("pre-push hook: %s (%s/pre-push)\n",
+			st == OMEN_HOOK_ABSENT ? "not installed" :
+			st == OMEN_HOOK_OURS ? "installed" :
+			st == OMEN_HOOK_CHAINED ? "installed, the previous hook runs after it" :
+			"not installed; another pre-push hook is there", dir);
+	}
+done:
+	free(dir);
+	omen_repo_free(repo);
+	return rc;
 }

@@ -1,0 +1,666 @@
+/* The scorer: a saved model, the fix rules, and the change-metrics state
+ * saved with the model, advanced over the commits after the model's head so
+ * that each scored commit sees exactly the history before it, as in training
+ * (same omen_sample_build, same omen_metrics_compute inside it). */
+#include <math.h>
+#include <stdarg.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/stat.h>
+#include <cjson/cJSON.h>
+#include "omen/error.h"
+#include "omen/label.h"
+#include "omen/score.h"
+#include "score/score_int.h"
+
+struct omen_scorer {
+	omen_repo *repo;
+	omen_model *model;
+	omen_fixrules *rules;
+	omen_buf state;          /* serialised metrics state at the model's head */
+	git_oid head;
+	int head_known;          /* the model's head exists in this repository */
+	float threshold;
+	omen_caps caps;
+	double mean[OMEN_NMETRICS], scale[OMEN_NMETRICS];
+	int have_std;
+	double deadline;
+	int detail;
+	char *model_path;
+};
+
+const omen_model *omen_scorer_model(const omen_scorer *s) { return s->model; }
+float omen_scorer_threshold(const omen_scorer *s) { return s->threshold; }
+const char *omen_scorer_model_path(const omen_scorer *s) { return s->model_path; }
+omen_repo *score_repo(const omen_scorer *s) { return s->repo; }
+void score_set_detail(omen_scorer *s, int detail) { s->detail = detail; }
+
+int omen_score_model_path(char **out, omen_repo *r, const char *override)
+{
+	omen_buf b = OMEN_BUF_INIT;
+	char *cfg = NULL;
+	int e;
+	*out = NULL;
+	if (override && *override) {
+		e = omen_buf_puts(&b, override);
+	} else {
+		if ((e = omen_config_string(&cfg, r, "omen.model")))
+			return e;
+		if (cfg && *cfg)
+			e = omen_buf_puts(&b, cfg);
+		else
+			e = omen_buf_printf(&b, "%somen/model.omen", omen_repo_gitdir(r));
+		free(cfg);
+	}
+	if (!e)
+		*out = omen_buf_detach(&b);
+	omen_buf_free(&b);
+	return e;
+}
+
+/* The model's metric transform (log1p of counts; entropy and the fix flag
+ * as they are), so z-scores are in the model's own standardized space. */
+void score_metric_transform(double out[OMEN_NMETRICS], const float raw[OMEN_NMETRICS])
+{
+	int j;
+	for (j = 0; j < OMEN_NMETRICS; j++) {
+		double v = raw[j];
+		if (!isfinite(v))
+			v = 0;
+		if (j != OMEN_M_ENTROPY && j != OMEN_M_FIX)
+			v = log1p(v > 0 ? v : 0);
+		out[j] = v;
+	}
+}
+
+int score_standardize(double z[OMEN_NMETRICS], const omen_scorer *s, const float raw[OMEN_NMETRICS])
+{
+	int j;
+	score_metric_transform(z, raw);
+	if (!s->have_std)
+		return 0;
+	for (j = 0; j < OMEN_NMETRICS; j++)
+		z[j] = (z[j] - s->mean[j]) / s->scale[j];
+	return 1;
+}
+
+float score_typical(const omen_scorer *s, int j)
+{
+	if (!s->have_std)
+		return NAN;
+	if (j == OMEN_M_ENTROPY || j == OMEN_M_FIX)
+		return (float)s->mean[j];
+	return (float)expm1(s->mean[j]);
+}
+
+static void read_meta(omen_scorer *s)
+{
+	const cJSON *meta = omen_model_meta(s->model), *st, *mm, *ms, *caps, *v;
+	omen_caps def = OMEN_CAPS_DEFAULT;
+	int j;
+	s->caps = def;
+	if (!meta)
+		return;
+	st = cJSON_GetObjectItemCaseSensitive(meta, "standardize");
+	mm = st ? cJSON_GetObjectItemCaseSensitive(st, "metric_mean") : NULL;
+	ms = st ? cJSON_GetObjectItemCaseSensitive(st, "metric_scale") : NULL;
+	if (cJSON_IsArray(mm) && cJSON_IsArray(ms) && cJSON_GetArraySize(mm) == OMEN_NMETRICS &&
+	    cJSON_GetArraySize(ms) == OMEN_NMETRICS) {
+		s->have_std = 1;
+		for (j = 0; j < OMEN_NMETRICS; j++) {
+			s->mean[j] = cJSON_GetArrayItem(mm, j)->valuedouble;
+			s->scale[j] = cJSON_GetArrayItem(ms, j)->valuedouble;
+			if (!(s->scale[j] > 0) || !isfinite(s->mean[j]))
+				s->have_std = 0;
+		}
+	}
+	caps = cJSON_GetObjectItemCaseSensitive(meta, "caps");
+	if (cJSON_IsObject(caps)) {
+#define CAP(field) \
+		v = cJSON_GetObjectItemCaseSensitive(caps, #field); \
+		if (cJSON_IsNumber(v) && v->valuedouble >= 1 && v->valuedouble < 1e7) \
+			s->caps.field = (int32_t)v->valuedouble;
+		CAP(max_files)
+		CAP(max_hunks_per_file)
+		CAP(max_tokens_per_hunk)
+		CAP(max_msg_tokens)
+#undef CAP
+	}
+}
+
+int omen_scorer_open(omen_scorer **out, omen_repo *r, const omen_score_opts *o)
+{
+	static const omen_score_opts defaults = OMEN_SCORE_OPTS_INIT;
+	omen_scorer *s;
+	char *pat = NULL, *list = NULL;
+	struct stat stt;
+	double thr = -1;
+	int e;
+
+	*out = NULL;
+	if (!o)
+		o = &defaults;
+	if (!(s = calloc(1, sizeof(*s))))
+		return omen_error_set(OMEN_ENOMEM, "out of memory");
+	s->repo = r;
+	s->deadline = o->deadline;
+	s->detail = o->detail;
+	if ((e = omen_score_model_path(&s->model_path, r, o->model_path)))
+		goto out;
+	if (stat(s->model_path, &stt) != 0) {
+		e = omen_error_set(OMEN_ENOTFOUND, "no model at '%s': run 'git omen train' first",
+			s->model_path);
+		goto out;
+	}
+	if ((e = omen_model_load(&s->model, s->model_path)))
+		goto out;
+	read_meta(s);
+	if ((e = omen_config_string(&pat, r, "omen.fixPattern")) ||
+	    (e = omen_fixrules_new(&s->rules, pat && *pat ? pat : NULL)))
+		goto out;
+	if ((e = omen_config_string(&list, r, "omen.fixList")))
+		goto out;
+	if (list && *list && (e = omen_fixrules_load_list(s->rules, list)))
+		goto out;
+	if (omen_model_metrics_state(s->model)) {
+		if ((e = omen_metrics_save(omen_model_metrics_state(s->model), &s->state)))
+			goto out;
+	}
+	if (omen_model_head(s->model) && *omen_model_head(s->model)) {
+		if (omen_history_resolve(&s->head, r, omen_model_head(s->model)) == 0)
+			s->head_known = 1;
+		else
+			omen_error_clear();
+	}
+	s->threshold = omen_model_threshold(s->model);
+	if (o->threshold >= 0) {
+		s->threshold = (float)o->threshold;
+	} else {
+		if ((e = omen_config_double(&thr, r, "omen.threshold")))
+			goto out;
+		if (thr >= 0)
+			s->threshold = (float)thr;
+	}
+	if (!(s->threshold >= 0 && s->threshold <= 1)) {
+		e = omen_error_set(OMEN_EINVAL, "bad config value 'omen.threshold': '%g' is not a probability",
+			(double)s->threshold);
+		goto out;
+	}
+	*out = s;
+	s = NULL;
+out:
+	free(pat);
+	free(list);
+	omen_scorer_free(s);
+	return e;
+}
+
+void omen_scorer_free(omen_scorer *s)
+{
+	if (!s)
+		return;
+	omen_model_free(s->model);
+	omen_fixrules_free(s->rules);
+	omen_buf_free(&s->state);
+	free(s->model_path);
+	free(s);
+}
+
+/* A fresh copy of the metrics state at the model's head. */
+static int state_clone(omen_metrics **out, const omen_scorer *s)
+{
+	if (!s->state.len)
+		return omen_metrics_new(out);
+	return omen_metrics_load(out, s->state.ptr, s->state.len);
+}
+
+int score_is_fix(const omen_scorer *s, const omen_commit *c)
+{
+	char named[8][OMEN_OID_HEX + 1];
+	int nn = 0;
+	return omen_fix_classify(s->rules, c, named, 8, &nn) != 0;
+}
+
+/* ---- reasons ------------------------------------------------------------- */
+static void add_reason(omen_score_result *r, omen_reason *cand, int *nc, int kind,
+	double strength, const char *fmt, ...) OMEN_PRINTF(6, 7);
+
+static void add_reason(omen_score_result *r, omen_reason *cand, int *nc, int kind,
+	double strength, const char *fmt, ...)
+{
+	va_list ap;
+	omen_reason *x;
+	(void)r;
+	if (*nc >= 8)
+		return;
+	x = &cand[(*nc)++];
+	x->kind = kind;
+	x->strength = strength;
+	va_start(ap, fmt);
+	vsnprintf(x->text, sizeof(x->text), fmt, ap);
+	va_end(ap);
+}
+
+static void range_text(char *buf, size_t n, const omen_hunk_score *h)
+{
+	if (h->new_lines > 1)
+		snprintf(buf, n, "%s:%d-%d", h->path, (int)h->new_start, (int)(h->new_start + h->new_lines - 1));
+	else if (h->new_lines == 1)
+		snprintf(buf, n, "%s:%d", h->path, (int)h->new_start);
+	else
+		snprintf(buf, n, "%s:%d (deleted lines)", h->path, (int)(h->new_start > 0 ? h->new_start : 1));
+}
+
+static const char *metric_phrase(int j)
+{
+	switch (j) {
+	case OMEN_M_NS: return "subsystems touched";
+	case OMEN_M_ND: return "directories touched";
+	case OMEN_M_NF: return "files touched";
+	case OMEN_M_ENTROPY: return "spread of the change across files";
+	case OMEN_M_LA: return "lines added";
+	case OMEN_M_LD: return "lines deleted";
+	case OMEN_M_LT: return "size of the touched files";
+	case OMEN_M_FIX: return "fix commit";
+	case OMEN_M_NDEV: return "developers who changed these files";
+	case OMEN_M_AGE: return "days since these files last changed";
+	case OMEN_M_NUC: return "unique prior changes of these files";
+	case OMEN_M_EXP: return "author's prior commits";
+	case OMEN_M_REXP: return "author's recent experience";
+	case OMEN_M_SEXP: return "author's commits in this subsystem";
+	}
+	return "metric";
+}
+
+void score_reasons(omen_score_result *r, const omen_scorer *s, const omen_sample *sm,
+	const omen_explain *ex, const omen_hunk_score *top)
+{
+	omen_reason cand[8];
+	int nc = 0, i, j, best_fix = -1;
+	double z[OMEN_NMETRICS], best_ratio = 0, fixes_best = 0, changes_best = 0;
+	char where[160];
+
+	if (top) {
+		range_text(where, sizeof(where), top);
+		add_reason(r, cand, &nc, OMEN_REASON_HUNK, 1.0 + 2.0 * top->weight,
+			"most attention: %s (%.0f%%)", where, 100.0 * top->weight);
+	}
+	if (score_standardize(z, s, r->metrics)) {
+		double zl = z[OMEN_M_LA] > z[OMEN_M_LD] ? z[OMEN_M_LA] : z[OMEN_M_LD];
+		double typ = (double)score_typical(s, OMEN_M_LA) + score_typical(s, OMEN_M_LD);
+		double zd = z[OMEN_M_NF];
+		int dj = OMEN_M_NF;
+		if (zl >= 1.5) {
+			if (typ >= 1)
+				add_reason(r, cand, &nc, OMEN_REASON_LARGE, zl,
+					"large change: +%d -%d lines, %.1fx the typical %.0f", (int)r->la, (int)r->ld,
+					(r->la + r->ld) / typ, typ);
+			else
+				add_reason(r, cand, &nc, OMEN_REASON_LARGE, zl, "large change: +%d -%d lines",
+					(int)r->la, (int)r->ld);
+		}
+		if (z[OMEN_M_ND] > zd) { zd = z[OMEN_M_ND]; dj = OMEN_M_ND; }
+		if (z[OMEN_M_NS] > zd) { zd = z[OMEN_M_NS]; dj = OMEN_M_NS; }
+		if (z[OMEN_M_ENTROPY] > zd && r->metrics[OMEN_M_NF] > 2) { zd = z[OMEN_M_ENTROPY]; dj = OMEN_M_ENTROPY; }
+		if (zd >= 1.5) {
+			if (dj == OMEN_M_ENTROPY)
+				add_reason(r, cand, &nc, OMEN_REASON_DIFFUSE, zd,
+					"diffuse change: spread evenly over %d files (entropy %.2f, typical %.2f)",
+					(int)r->metrics[OMEN_M_NF], (double)r->metrics[OMEN_M_ENTROPY],
+					(double)score_typical(s, OMEN_M_ENTROPY));
+			else
+				add_reason(r, cand, &nc, OMEN_REASON_DIFFUSE, zd,
+					"diffuse change: %.0f %s, typical %.1f", (double)r->metrics[dj], metric_phrase(dj),
+					(double)score_typical(s, dj));
+		}
+		/* the metric (other than size and spread) with the largest push up */
+		{
+			int bj = -1;
+			double bz = 0;
+			for (j = 0; j < OMEN_NMETRICS; j++) {
+				double push = ex ? ex->metric_contrib[j] : 0;
+				if (j == OMEN_M_LA || j == OMEN_M_LD || j == OMEN_M_NF || j == OMEN_M_ND ||
+				    j == OMEN_M_NS || j == OMEN_M_ENTROPY || j == OMEN_M_FIX)
+					continue;
+				if (fabs(z[j]) >= 2.0 && push > 0 && fabs(z[j]) > bz) {
+					bz = fabs(z[j]);
+					bj = j;
+				}
+			}
+			if (bj >= 0)
+				add_reason(r, cand, &nc, OMEN_REASON_METRIC, bz * 0.9,
+					"unusual %s: %.0f, typical %.1f", metric_phrase(bj), (double)r->metrics[bj],
+					(double)score_typical(s, bj));
+		}
+	}
+	for (i = 0; sm && i < sm->nfiles; i++) {
+		const float *ff = sm->file_facts + (size_t)i * OMEN_NFACTS;
+		double fixes = expm1(ff[OMEN_FF_LOG_FIXES]), changes = expm1(ff[OMEN_FF_LOG_CHANGES]);
+		double ratio = ff[OMEN_FF_FIX_RATIO];
+		if (fixes >= 1.5 && ratio >= 0.25 && ratio * log1p(fixes) > best_ratio) {
+			best_ratio = ratio * log1p(fixes);
+			best_fix = i;
+			fixes_best = fixes;
+			changes_best = changes;
+		}
+	}
+	if (best_fix >= 0)
+		add_reason(r, cand, &nc, OMEN_REASON_FIX_HISTORY, 1.0 + best_ratio,
+			"history of fixes: %s needed %.0f fixes in %.0f prior changes",
+			sm->file_path[best_fix], fixes_best, changes_best);
+	/* the two strongest, strongest first */
+	r->nreasons = 0;
+	for (i = 0; i < 2; i++) {
+		int b = -1;
+		for (j = 0; j < nc; j++)
+			if (cand[j].strength >= 1.0 && (b < 0 || cand[j].strength > cand[b].strength))
+				b = j;
+		if (b < 0)
+			break;
+		r->reasons[r->nreasons++] = cand[b];
+		cand[b].strength = -1;
+	}
+}
+
+/* ---- one commit ---------------------------------------------------------- */
+static int cmp_hunk_weight(const void *a, const void *b)
+{
+	const omen_hunk_score *x = a, *y = b;
+	return x->weight < y->weight ? 1 : x->weight > y->weight ? -1 : 0;
+}
+
+static const char *summary_of(omen_arena *a, const char *msg)
+{
+	size_t n = 0, i;
+	char *p;
+	if (!msg)
+		msg = "";
+	while (msg[n] && msg[n] != '\n' && n < 200)
+		n++;
+	if (!(p = omen_arena_strndup(a, msg, n)))
+		return "";
+	for (i = 0; i < n; i++)
+		if ((unsigned char)p[i] < 0x20 || p[i] == 0x7f)
+			p[i] = ' ';
+	return p;
+}
+
+int score_one(omen_score_set *set, const omen_scorer *s, const omen_change *c,
+	const omen_metrics *state, int is_fix, omen_sample_buf *sb, omen_explain *ex,
+	omen_sample *out_sample)
+{
+	omen_sample sm;
+	omen_score_result *r;
+	size_t first, k, keep;
+	int e, f, h;
+
+	if ((e = omen_sample_build(&sm, sb, c, state, is_fix, &s->caps)))
+		return omen_error_wrap(e, "cannot build the sample of '%.12s'", c->commit.hex);
+	if (OMEN_ARRAY_RESERVE(set->v, set->cap, set->n + 1) ||
+	    OMEN_ARRAY_RESERVE(set->hunks, set->hunks_cap, set->nhunks + (size_t)sm.nhunks + 1))
+		return omen_error_set(OMEN_ENOMEM, "out of memory");
+	r = &set->v[set->n];
+	memset(r, 0, sizeof(*r));
+	if ((e = omen_model_predict(&r->prob, &r->logit, s->model, &sm, ex)))
+		return omen_error_wrap(e, "cannot score '%.12s'", c->commit.hex);
+	r->lr_prob = omen_model_predict_lr(s->model, &sm);
+	memcpy(r->id, c->commit.hex, sizeof(r->id));
+	r->summary = summary_of(&set->arena, c->commit.message);
+	r->time = c->commit.author_time;
+	r->is_fix = is_fix;
+	r->capped = sm.capped;
+	r->la = sm.la;
+	r->ld = sm.ld;
+	r->nfiles = (int32_t)c->nfiles;
+	r->nhunks = (int32_t)c->nhunks;
+	memcpy(r->metrics, sm.metrics, sizeof(r->metrics));
+	r->band = r->prob >= s->threshold ? OMEN_BAND_HIGH :
+		r->prob >= s->threshold / 2 ? OMEN_BAND_MEDIUM : OMEN_BAND_LOW;
+	first = set->nhunks;
+	for (f = 0; f < sm.nfiles; f++) {
+		const char *path = omen_arena_strndup(&set->arena, sm.file_path[f], strlen(sm.file_path[f]));
+		if (!path)
+			return omen_error_set(OMEN_ENOMEM, "out of memory");
+		for (h = sm.file_off[f]; h < sm.file_off[f + 1]; h++) {
+			omen_hunk_score *hs = &set->hunks[set->nhunks++];
+			float fa = ex && f < ex->nfiles ? ex->file_attn[f] : 1.0f / (float)sm.nfiles;
+			float ha = ex && h < ex->nhunks ? ex->hunk_attn[h] :
+				1.0f / (float)(sm.file_off[f + 1] - sm.file_off[f]);
+			hs->path = path;
+			hs->new_start = sm.hunk_new_start[h];
+			hs->new_lines = sm.hunk_new_lines[h];
+			hs->old_start = sm.hunk_old_start[h];
+			hs->old_lines = sm.hunk_old_lines[h];
+			hs->weight = fa * ha;
+			hs->contrib = ex && h < ex->nhunks ? ex->hunk_contrib[h] : 0;
+		}
+	}
+	k = set->nhunks - first;
+	qsort(set->hunks + first, k, sizeof(*set->hunks), cmp_hunk_weight);
+	keep = s->detail ? k : (k < 3 ? k : 3);
+	set->nhunks = first + keep;
+	r->hunk_off = first;
+	r->nhunk_scores = keep;
+	score_reasons(r, s, &sm, ex, keep ? &set->hunks[first] : NULL);
+	set->n++;
+	if (out_sample)
+		*out_sample = sm;
+	return 0;
+}
+
+/* ---- walking ------------------------------------------------------------- */
+typedef struct {
+	omen_scorer *s;
+	omen_score_set *set;
+	omen_metrics *state;
+	const git_oid *ids;
+	size_t n;
+	unsigned char *done;
+	omen_sample_buf *sb;
+	omen_explain ex;
+	omen_labels *labels;     /* replay: is_fix as training saw it */
+	score_visit_fn visit;
+	void *payload;
+} walk_ctx;
+
+static int find_id(const git_oid *ids, size_t n, const git_oid *id)
+{
+	size_t i;
+	for (i = 0; i < n; i++)
+		if (git_oid_equal(&ids[i], id))
+			return (int)i;
+	return -1;
+}
+
+static int past_deadline(walk_ctx *w)
+{
+	if (w->s->deadline > 0 && omen_now() > w->s->deadline) {
+		w->set->stopped = 1;
+		return omen_error_set(OMEN_ELIMIT, "scoring stopped at the time limit");
+	}
+	return 0;
+}
+
+static int on_change(const omen_change *c, void *payload)
+{
+	walk_ctx *w = payload;
+	const omen_label_rec *lr;
+	int is_fix, k, e;
+	if ((e = past_deadline(w)))
+		return e;
+	lr = w->labels ? omen_labels_get(w->labels, c->commit.hex) : NULL;
+	is_fix = lr ? lr->is_fix != 0 : score_is_fix(w->s, &c->commit);
+	k = find_id(w->ids, w->n, &c->commit.id);
+	if (k >= 0 && !w->done[k]) {
+		omen_sample sm;
+		w->done[k] = 1;
+		if ((e = score_one(w->set, w->s, c, w->state, is_fix, w->sb, &w->ex, &sm)))
+			return e;
+		if (w->visit && (e = w->visit(w->payload, c, &sm, &w->ex, &w->set->v[w->set->n - 1])))
+			return e;
+	}
+	return omen_metrics_update(w->state, c, is_fix);
+}
+
+static int push_hex(char **revs, size_t *nr, const char *prefix, const git_oid *id)
+{
+	char hex[GIT_OID_HEXSZ + 2];
+	size_t k = strlen(prefix);
+	memcpy(hex, prefix, k);
+	git_oid_tostr(hex + k, sizeof(hex) - k, id);
+	if (!(revs[(*nr)++] = strdup(hex)))
+		return omen_error_set(OMEN_ENOMEM, "out of memory");
+	return 0;
+}
+
+static void load_labels(omen_labels **out, omen_repo *r)
+{
+	char *path = NULL;
+	omen_buf b = OMEN_BUF_INIT;
+	*out = NULL;
+	if (omen_config_string(&path, r, "omen.labels") == 0 && path && *path)
+		omen_buf_puts(&b, path);
+	else
+		omen_buf_printf(&b, "%somen/labels.jsonl", omen_repo_gitdir(r));
+	if (b.ptr && omen_labels_load(out, b.ptr))
+		*out = NULL;
+	omen_error_clear();
+	free(path);
+	omen_buf_free(&b);
+}
+
+int score_walk(omen_score_set *set, omen_scorer *s, const git_oid *ids, size_t n,
+	score_visit_fn visit, void *payload)
+{
+	walk_ctx w;
+	omen_walk_opts wo = OMEN_WALK_OPTS_INIT;
+	char **revs = NULL;
+	size_t i, nr = 0, left = 0;
+	int e = 0;
+
+	memset(&w, 0, sizeof(w));
+	set->threshold = s->threshold;
+	w.s = s;
+	w.set = set;
+	w.ids = ids;
+	w.n = n;
+	w.visit = visit;
+	w.payload = payload;
+	if (n == 0)
+		return 0;
+	if (!(w.done = calloc(n, 1)) || !(revs = calloc(n + 2, sizeof(*revs)))) {
+		e = omen_error_set(OMEN_ENOMEM, "out of memory");
+		goto out;
+	}
+	if ((e = omen_sample_buf_new(&w.sb)))
+		goto out;
+	if (s->head_known) {
+		/* 1. every commit after the model's head up to the scored ones,
+		 * oldest first, from the state saved at the head: each feeds the
+		 * state, the scored ones are scored first */
+		if ((e = state_clone(&w.state, s)))
+			goto out;
+		for (i = 0; i < n && !e; i++)
+			e = push_hex(revs, &nr, "", &ids[i]);
+		if (e || (e = push_hex(revs, &nr, "^", &s->head)))
+			goto out;
+		wo.revs = (const char *const *)revs;
+		if ((e = omen_history_walk(s->repo, &wo, on_change, &w)))
+			goto out;
+		omen_metrics_free(w.state);
+		w.state = NULL;
+	}
+	for (i = 0; i < n; i++)
+		left += !w.done[i];
+	if (left) {
+		/* 2. commits at or before the model's head (or a head this
+		 * repository lacks): the saved state already holds them and what
+		 * came after, so replay the history from its start as training
+		 * did, with the labels' fix flags, and score them on the way */
+		for (i = 0; i < nr; i++) {
+			free(revs[i]);
+			revs[i] = NULL;
+		}
+		nr = 0;
+		if (s->head_known) {
+			e = push_hex(revs, &nr, "", &s->head);
+		} else {
+			for (i = 0; i < n && !e; i++)
+				if (!w.done[i])
+					e = push_hex(revs, &nr, "", &ids[i]);
+		}
+		if (e || (e = omen_metrics_new(&w.state)))
+			goto out;
+		load_labels(&w.labels, s->repo);
+		wo.revs = (const char *const *)revs;
+		if ((e = omen_history_walk(s->repo, &wo, on_change, &w)))
+			goto out;
+	}
+	/* what is still not done is a merge (not scored) */
+out:
+	for (i = 0; i < nr; i++)
+		free(revs[i]);
+	free(revs);
+	free(w.done);
+	omen_sample_buf_free(w.sb);
+	omen_metrics_free(w.state);
+	omen_labels_free(w.labels);
+	omen_explain_free(&w.ex);
+	return e;
+}
+
+int omen_scorer_commits(omen_score_set *out, omen_scorer *s, const git_oid *ids, size_t n)
+{
+	return score_walk(out, s, ids, n, NULL, NULL);
+}
+
+static int feed_only(const omen_change *c, void *payload)
+{
+	walk_ctx *w = payload;
+	int e;
+	if ((e = past_deadline(w)))
+		return e;
+	return omen_metrics_update(w->state, c, score_is_fix(w->s, &c->commit));
+}
+
+int omen_scorer_staged(omen_score_set *out, omen_scorer *s, const char *msg)
+{
+	walk_ctx w;
+	omen_walk_opts wo = OMEN_WALK_OPTS_INIT;
+	omen_change c;
+	git_oid headid;
+	char hex[GIT_OID_HEXSZ + 2], *revs[3] = {NULL, NULL, NULL};
+	int e, is_fix, have_head;
+
+	memset(&w, 0, sizeof(w));
+	omen_change_init(&c);
+	out->threshold = s->threshold;
+	w.s = s;
+	w.set = out;
+	if ((e = omen_sample_buf_new(&w.sb)) || (e = state_clone(&w.state, s)))
+		goto out;
+	have_head = omen_history_resolve(&headid, s->repo, "HEAD") == 0;
+	if (!have_head)
+		omen_error_clear();
+	if (have_head && s->head_known && !git_oid_equal(&headid, &s->head)) {
+		revs[0] = "HEAD";
+		hex[0] = '^';
+		git_oid_tostr(hex + 1, sizeof(hex) - 1, &s->head);
+		revs[1] = hex;
+		wo.revs = (const char *const *)revs;
+		if ((e = omen_history_walk(s->repo, &wo, feed_only, &w)))
+			goto out;
+	}
+	if ((e = omen_history_staged(&c, s->repo, &wo)))
+		goto out;
+	c.commit.message = msg ? msg : "";
+	is_fix = score_is_fix(s, &c.commit);
+	e = score_one(out, s, &c, w.state, is_fix, w.sb, &w.ex, NULL);
+out:
+	omen_change_free(&c);
+	omen_sample_buf_free(w.sb);
+	omen_metrics_free(w.state);
+	omen_explain_free(&w.ex);
+	return e;
+}
