@@ -589,7 +589,11 @@ int omen_history_staged(omen_change *out, omen_repo *r, const omen_walk_opts *o)
 	omen_commit *k = &out->commit;
 	git_oid *ps;
 
+	omen_walk_opts ro;
 	omen_change_clear(out);
+	if ((rc = hist_resolve_opts(&ro, r, o)) < 0)
+		return rc;
+	o = &ro;
 	if (git_repository_is_bare(repo)) {
 		rc = omen_error_set(OMEN_EUSAGE, "cannot read staged changes of '%s': bare repository",
 			omen_repo_gitdir(r));

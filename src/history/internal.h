@@ -43,6 +43,9 @@ int hist_add_entry(hist_differ *d, omen_change *out, const char *old_path, const
 /* Pairs renames and diffs every entry in d->ents into out's files. */
 int hist_diff_entries(hist_differ *d, omen_change *out);
 
+/* o with omen.maxBlobBytes / omen.threads filled in where 0. */
+int hist_resolve_opts(omen_walk_opts *dst, omen_repo *r, const omen_walk_opts *o);
+
 /* Normalised copy of an e-mail: lowercased, spaces and <> trimmed. */
 char *hist_norm_email(omen_arena *a, const char *email);
 

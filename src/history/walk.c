@@ -574,12 +574,40 @@ out:
 	return rc;
 }
 
+/* Options with the configured defaults filled in: omen.maxBlobBytes when
+ * max_blob_bytes is 0, omen.threads when threads is 0. */
+int hist_resolve_opts(omen_walk_opts *dst, omen_repo *r, const omen_walk_opts *o)
+{
+	static const omen_walk_opts defaults = OMEN_WALK_OPTS_INIT;
+	int64_t v;
+	int rc;
+	*dst = o ? *o : defaults;
+	if (dst->max_blob_bytes <= 0) {
+		v = 0;
+		if ((rc = omen_config_int(&v, r, "omen.maxBlobBytes")) < 0)
+			return rc;
+		if (v > 0)
+			dst->max_blob_bytes = v;
+	}
+	if (dst->threads <= 0) {
+		v = 0;
+		if ((rc = omen_config_int(&v, r, "omen.threads")) < 0)
+			return rc;
+		if (v > 0)
+			dst->threads = v > 16 ? 16 : (int)v;
+	}
+	return 0;
+}
+
 /* ---- single commits ------------------------------------------------------ */
 int omen_history_change(omen_change *out, omen_repo *r, const git_oid *id, const omen_walk_opts *o)
 {
 	hist_differ d;
+	omen_walk_opts ro;
 	int rc;
-	if ((rc = hist_differ_init(&d, omen_repo_git(r), o)) < 0)
+	if ((rc = hist_resolve_opts(&ro, r, o)) < 0)
+		return rc;
+	if ((rc = hist_differ_init(&d, omen_repo_git(r), &ro)) < 0)
 		return rc;
 	rc = hist_diff_commit(&d, out, id);
 	hist_differ_free(&d);
@@ -668,12 +696,13 @@ static int default_threads(void)
 
 int omen_history_walk(omen_repo *r, const omen_walk_opts *o, omen_change_cb cb, void *payload)
 {
-	static const omen_walk_opts defaults = OMEN_WALK_OPTS_INIT;
+	omen_walk_opts ro;
 	git_oid *ids = NULL;
 	size_t n = 0;
 	int rc, nth;
-	if (!o)
-		o = &defaults;
+	if ((rc = hist_resolve_opts(&ro, r, o)) < 0)
+		return rc;
+	o = &ro;
 	if ((rc = omen_history_list(&ids, &n, r, o)) < 0)
 		return rc;
 	nth = o->threads > 0 ? o->threads : default_threads();
