@@ -12,7 +12,7 @@
 #define MAX(a, b) ((a) > (b) ? (a) : (b))
 /* Rows of the reduction per block when accumulating a weight gradient,
  * so the activations of one block stay in the first-level caches. */
-#define NN_NB 256
+#define NN_NB 64
 
 /* db[c0..c1) += sum_n dout[n, c] with n ascending. dout [N,Co]. */
 static void bias_grad(float *db, const float *dout, int N, int Co, int c0, int c1)
@@ -66,9 +66,13 @@ static void linear_fwd_rows(float *out, const float *in, const float *W, const f
 	}
 }
 
-/* din rows [n0, n1): din[N,Ci] += dout[N,Co] W^T, W^T packed 16 columns of
- * Ci at a time into P[co][j] = W[ci0+j, co]. */
-static void linear_din_rows(float *din, const float *dout, const float *W, int n0, int n1,
+static void conv_din_segs(float *din, const float *dout, const float *W, const int32_t *off,
+	int s0, int s1, int Ci, int Co, int K);
+
+/* din rows [n0, n1) when Co is too wide for one stack panel: W^T packed
+ * 16 columns of Ci by NN_PANEL/16 rows of Co at a time, partial sums
+ * added to din chunk by chunk. */
+static void linear_din_wide(float *din, const float *dout, const float *W, int n0, int n1,
 	int Ci, int Co)
 {
 	float P[NN_PANEL];
@@ -94,6 +98,21 @@ static void linear_din_rows(float *din, const float *dout, const float *W, int n
 			}
 		}
 	}
+}
+
+/* din rows [n0, n1): din[N,Ci] += dout[N,Co] W^T, computed as a width-1
+ * convolution over one segment (W^T packed into stack panels). */
+static void linear_din_rows(float *din, const float *dout, const float *W, int n0, int n1,
+	int Ci, int Co)
+{
+	int32_t seg[2];
+	if ((size_t)Co * 16 > NN_PANEL) {
+		linear_din_wide(din, dout, W, n0, n1, Ci, Co);
+		return;
+	}
+	seg[0] = n0;
+	seg[1] = n1;
+	conv_din_segs(din, dout, W, seg, 0, 1, Ci, Co, 1);
 }
 
 /* dW rows [ci_a, ci_b): dW[Ci,Co] += in^T dout, reduction over N in blocks
@@ -175,17 +194,26 @@ typedef struct {
 	const float *B;   /* weights for tap 0; tap k starts at B + k*btap */
 	ptrdiff_t ldb, btap;
 	float *C;         /* destination rows, ldc floats apart */
-	int ldc, n;
+	int ldc, n;       /* n columns per panel (last panel: nlast) */
 	const float *init;
 	int K;
+	int npan, nlast;  /* weight panels side by side, 16 columns apart in C */
+	ptrdiff_t pan_stride;
 } conv_pass;
 
 static void conv_flush(const conv_pass *cp, row_tile *tl, int kmin, int kmax)
 {
+	float *c2[NN_MR];
+	int p, i;
 	if (tl->n == 0)
 		return;
-	nn_tile(tl->n, (kmax - kmin + 1) * cp->lda, tl->a, 1, cp->B + kmin * cp->btap,
-		cp->ldb, cp->n, tl->c, cp->init);
+	for (p = 0; p < cp->npan; p++) {
+		for (i = 0; i < tl->n; i++)
+			c2[i] = tl->c[i] + p * 16;
+		nn_tile(tl->n, (kmax - kmin + 1) * cp->lda, tl->a, 1,
+			cp->B + p * cp->pan_stride + kmin * cp->btap, cp->ldb,
+			p == cp->npan - 1 ? cp->nlast : cp->n, c2, cp->init);
+	}
 	tl->n = 0;
 }
 
@@ -229,6 +257,7 @@ static void conv_fwd_segs(float *out, const float *in, const float *W, const flo
 		memset(out + (size_t)off[s0] * Co, 0, sizeof(float) * (size_t)(off[s1] - off[s0]) * Co);
 	cp.A = in; cp.lda = Ci; cp.B = W; cp.ldb = Co; cp.btap = (ptrdiff_t)Ci * Co;
 	cp.C = out; cp.ldc = Co; cp.n = Co; cp.init = b; cp.K = K;
+	cp.npan = 1; cp.nlast = Co; cp.pan_stride = 0;
 	conv_rows(&cp, off, s0, s1);
 }
 
@@ -242,7 +271,7 @@ static void conv_din_segs(float *din, const float *dout, const float *W, const i
 {
 	float P[NN_PANEL];
 	conv_pass cp;
-	int ci0, k2, co, j, p = K / 2;
+	int ci0, k2, co, j, per, p = K / 2;
 
 	if ((size_t)K * Co * 16 > NN_PANEL) {
 		int s, t, k, ci;
@@ -265,26 +294,36 @@ static void conv_din_segs(float *din, const float *dout, const float *W, const i
 				}
 		return;
 	}
+	/* as many 16-column panels as fit the stack buffer, packed once and
+	 * used for every row (each panel is still its own nn_tile call, so the
+	 * grouping does not change any value) */
+	per = (int)(NN_PANEL / ((size_t)K * Co * 16));
 	cp.A = dout; cp.lda = Co; cp.B = P; cp.ldb = 16; cp.btap = (ptrdiff_t)Co * 16;
-	cp.ldc = Ci; cp.init = NULL; cp.K = K;
-	for (ci0 = 0; ci0 < Ci; ci0 += 16) {
-		int nc = MIN(16, Ci - ci0);
-		for (k2 = 0; k2 < K; k2++)
-			for (co = 0; co < Co; co++) {
-				const float *w = W + ((size_t)(K - 1 - k2) * Ci + ci0) * Co + co;
-				float *pr = P + ((size_t)k2 * Co + co) * 16;
-				for (j = 0; j < nc; j++)
-					pr[j] = w[(size_t)j * Co];
-			}
+	cp.ldc = Ci; cp.init = NULL; cp.K = K; cp.n = 16;
+	cp.pan_stride = (ptrdiff_t)K * Co * 16;
+	for (ci0 = 0; ci0 < Ci; ci0 += 16 * per) {
+		int np = MIN(per, (Ci - ci0 + 15) / 16), pi;
+		for (pi = 0; pi < np; pi++) {
+			int c0 = ci0 + 16 * pi, nc = MIN(16, Ci - c0);
+			for (k2 = 0; k2 < K; k2++)
+				for (co = 0; co < Co; co++) {
+					const float *w = W + ((size_t)(K - 1 - k2) * Ci + c0) * Co + co;
+					float *pr = P + pi * cp.pan_stride + ((size_t)k2 * Co + co) * 16;
+					for (j = 0; j < nc; j++)
+						pr[j] = w[(size_t)j * Co];
+				}
+			cp.nlast = nc;
+		}
 		cp.C = din + ci0;
-		cp.n = nc;
+		cp.npan = np;
 		conv_rows(&cp, off, s0, s1);
 	}
 }
 
 /* dW rows ci in [ci_a, ci_b) of every tap: dW[k, ci, :] += sum_t
  * in[t+k-p, ci] dout[t, :] over the t of each segment whose tap k lies in
- * the segment; one reduction run per segment, segments ascending. */
+ * the segment; one reduction run per segment (per NN_NB-row block of a long
+ * one), segments ascending. */
 static void conv_dw_rows(float *dW, const float *dout, const float *in, const int32_t *off,
 	int S, int Ci, int Co, int K, int ci_a, int ci_b)
 {
@@ -293,18 +332,24 @@ static void conv_dw_rows(float *dW, const float *dout, const float *in, const in
 	int s, k, ci, i, p = K / 2;
 
 	for (s = 0; s < S; s++) {
-		int lo = off[s], hi = off[s + 1];
-		for (k = 0; k < K; k++) {
-			int t0 = lo + MAX(0, p - k), t1 = hi - MAX(0, k - p);
-			if (t1 <= t0)
-				continue;
-			for (ci = ci_a; ci < ci_b; ci += NN_MR) {
-				int mr = MIN(NN_MR, ci_b - ci);
-				for (i = 0; i < mr; i++) {
-					a[i] = in + (size_t)(t0 + k - p) * Ci + ci + i;
-					c[i] = dW + ((size_t)k * Ci + ci + i) * Co;
+		int lo = off[s], hi = off[s + 1], tb;
+		/* rows of a long segment in blocks of NN_NB, so the block's input
+		 * and output-gradient rows stay cached across taps and tiles */
+		for (tb = lo; tb < hi; tb += NN_NB) {
+			int te = MIN(hi, tb + NN_NB);
+			for (k = 0; k < K; k++) {
+				int t0 = MAX(tb, lo + MAX(0, p - k)), t1 = MIN(te, hi - MAX(0, k - p));
+				if (t1 <= t0)
+					continue;
+				for (ci = ci_a; ci < ci_b; ci += NN_MR) {
+					int mr = MIN(NN_MR, ci_b - ci);
+					for (i = 0; i < mr; i++) {
+						a[i] = in + (size_t)(t0 + k - p) * Ci + ci + i;
+						c[i] = dW + ((size_t)k * Ci + ci + i) * Co;
+					}
+					nn_tile(mr, t1 - t0, a, Ci, dout + (size_t)t0 * Co, Co, Co, c,
+						NULL);
 				}
-				nn_tile(mr, t1 - t0, a, Ci, dout + (size_t)t0 * Co, Co, Co, c, NULL);
 			}
 		}
 	}

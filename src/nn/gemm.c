@@ -68,22 +68,24 @@ AVX2_INLINE void tile_avx2_mr(const int mr, int K, const float *const *a, ptrdif
 	int i, j0, k;
 	const float *ap[NN_MR];
 
+	for (i = 0; i < mr; i++)
+		ap[i] = a[i];
 	for (j0 = 0; j0 + 16 <= n; j0 += 16) {
 		__m256 acc0[NN_MR], acc1[NN_MR];
 		const float *bp = B + j0;
+		ptrdiff_t ko = 0; /* one running offset shared by all rows */
 		for (i = 0; i < mr; i++) {
 			acc0[i] = _mm256_setzero_ps();
 			acc1[i] = _mm256_setzero_ps();
-			ap[i] = a[i];
 		}
 		for (k = 0; k < K; k++) {
 			__m256 b0 = _mm256_loadu_ps(bp), b1 = _mm256_loadu_ps(bp + 8);
 			for (i = 0; i < mr; i++) {
-				__m256 av = _mm256_broadcast_ss(ap[i]);
+				__m256 av = _mm256_broadcast_ss(ap[i] + ko);
 				acc0[i] = _mm256_fmadd_ps(av, b0, acc0[i]);
 				acc1[i] = _mm256_fmadd_ps(av, b1, acc1[i]);
-				ap[i] += sak;
 			}
+			ko += sak;
 			bp += ldb;
 		}
 		for (i = 0; i < mr; i++) {
@@ -104,19 +106,19 @@ AVX2_INLINE void tile_avx2_mr(const int mr, int K, const float *const *a, ptrdif
 		__m256i m0 = _mm256_cmpgt_epi32(_mm256_set1_epi32(w), lane);
 		__m256i m1 = _mm256_cmpgt_epi32(_mm256_set1_epi32(w - 8), lane);
 		const float *bp = B + j0;
+		ptrdiff_t ko = 0;
 		for (i = 0; i < mr; i++) {
 			acc0[i] = _mm256_setzero_ps();
 			acc1[i] = _mm256_setzero_ps();
-			ap[i] = a[i];
 		}
 		for (k = 0; k < K; k++) {
 			__m256 b0 = _mm256_maskload_ps(bp, m0), b1 = _mm256_maskload_ps(bp + 8, m1);
 			for (i = 0; i < mr; i++) {
-				__m256 av = _mm256_broadcast_ss(ap[i]);
+				__m256 av = _mm256_broadcast_ss(ap[i] + ko);
 				acc0[i] = _mm256_fmadd_ps(av, b0, acc0[i]);
 				acc1[i] = _mm256_fmadd_ps(av, b1, acc1[i]);
-				ap[i] += sak;
 			}
+			ko += sak;
 			bp += ldb;
 		}
 		for (i = 0; i < mr; i++) {

@@ -5,6 +5,25 @@
 #include <math.h>
 #include <string.h>
 #include "omen/nn.h"
+#ifdef __SSE2__
+#include <emmintrin.h>
+#endif
+
+/* a.b over n with 8 running partial sums (lane j takes c = j mod 8), summed
+ * in a fixed tree at the end: the compiler can keep the lanes in vector
+ * registers without reassociating anything, so every build gives the same
+ * bits. */
+static float dot8(const float *a, const float *b, int n)
+{
+	float acc[8] = {0, 0, 0, 0, 0, 0, 0, 0};
+	int c = 0, j;
+	for (; c + 8 <= n; c += 8)
+		for (j = 0; j < 8; j++)
+			acc[j] += a[c + j] * b[c + j];
+	for (; c < n; c++)
+		acc[c & 7] += a[c] * b[c];
+	return ((acc[0] + acc[4]) + (acc[1] + acc[5])) + ((acc[2] + acc[6]) + (acc[3] + acc[7]));
+}
 
 /* ---- embedding sequence: out[T,D] = W[ids[t],:], W [V,D] ---------------- */
 void omen_embed_forward(float *out, const float *W, const uint32_t *ids, int T, int D)
@@ -197,11 +216,7 @@ void omen_attnpool_forward(float *out, float *attn, const float *in, const float
 		if (off[s + 1] <= off[s])
 			continue;
 		for (r = off[s]; r < off[s + 1]; r++) {
-			const float *x = in + (size_t)r * C;
-			float e = 0.0f;
-			for (c = 0; c < C; c++)
-				e += x[c] * q[c];
-			e *= scale;
+			float e = dot8(in + (size_t)r * C, q, C) * scale;
 			attn[r] = e;
 			if (e > mx)
 				mx = e;
@@ -231,18 +246,11 @@ void omen_attnpool_backward(float *din, float *dq, const float *dout, const floa
 	for (s = 0; s < S; s++) {
 		const float *g = dout + (size_t)s * C;
 		float gout = 0.0f;
+		for (r = off[s]; r < off[s + 1]; r++)
+			gout += attn[r] * dot8(g, in + (size_t)r * C, C);
 		for (r = off[s]; r < off[s + 1]; r++) {
 			const float *x = in + (size_t)r * C;
-			float gx = 0.0f;
-			for (c = 0; c < C; c++)
-				gx += g[c] * x[c];
-			gout += attn[r] * gx;
-		}
-		for (r = off[s]; r < off[s + 1]; r++) {
-			const float *x = in + (size_t)r * C;
-			float gx = 0.0f, a = attn[r], de;
-			for (c = 0; c < C; c++)
-				gx += g[c] * x[c];
+			float gx = dot8(g, x, C), a = attn[r], de;
 			de = a * (gx - gout) * scale;
 			if (din) {
 				float *dx = din + (size_t)r * C;
@@ -276,7 +284,21 @@ void omen_maxpool_forward(float *out, int32_t *arg, const float *in,
 			a[c] = off[s];
 		for (r = off[s] + 1; r < off[s + 1]; r++) {
 			const float *x = in + (size_t)r * C;
-			for (c = 0; c < C; c++)
+			c = 0;
+#ifdef __SSE2__
+			/* strictly greater replaces: the first maximum wins */
+			for (; c + 4 <= C; c += 4) {
+				__m128 xv = _mm_loadu_ps(x + c), ov = _mm_loadu_ps(o + c);
+				__m128i av = _mm_loadu_si128((const __m128i *)(a + c));
+				__m128i gt = _mm_castps_si128(_mm_cmpgt_ps(xv, ov));
+				__m128i rv = _mm_set1_epi32(r);
+				_mm_storeu_ps(o + c, _mm_or_ps(_mm_and_ps(_mm_castsi128_ps(gt), xv),
+					_mm_andnot_ps(_mm_castsi128_ps(gt), ov)));
+				_mm_storeu_si128((__m128i *)(a + c),
+					_mm_or_si128(_mm_and_si128(gt, rv), _mm_andnot_si128(gt, av)));
+			}
+#endif
+			for (; c < C; c++)
 				if (x[c] > o[c]) {
 					o[c] = x[c];
 					a[c] = r;

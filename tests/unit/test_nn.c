@@ -680,6 +680,56 @@ static void test_concat(void **state)
 	free(fa); free(fb); free(fR); free(out); free(da); free(db);
 }
 
+/* ---- wide layers take the chunked / direct input-gradient paths ---------- */
+static void test_wide_paths(void **state)
+{
+	/* linear with Co*16 above the stack panel, conv with K*Co*16 above it */
+	enum { N = 9, Ci = 5, CoL = 1100, CoC = 400, K = 3 };
+	static const int32_t off[] = {0, 4, 5, 9};
+	float *x = malloc(sizeof(float) * N * Ci), *d = malloc(sizeof(float) * N * CoL);
+	float *W = malloc(sizeof(float) * K * Ci * CoL), *dx = calloc(N * Ci, sizeof(float));
+	double worst = 0;
+	int n, i, o, k, s, pass;
+	(void)state;
+	for (i = 0; i < N * Ci; i++)
+		x[i] = (float)urand(-1, 1);
+	for (i = 0; i < N * CoL; i++)
+		d[i] = (float)urand(-1, 1);
+	for (i = 0; i < K * Ci * CoL; i++)
+		W[i] = (float)urand(-1, 1);
+	for (pass = 0; pass < 2; pass++) {
+		omen_nn_simd(pass == 0);
+		memset(dx, 0, sizeof(float) * N * Ci);
+		omen_linear_backward(dx, NULL, NULL, d, x, W, N, Ci, CoL);
+		for (n = 0; n < N; n++)
+			for (i = 0; i < Ci; i++) {
+				double want = 0;
+				for (o = 0; o < CoL; o++)
+					want += (double)d[n * CoL + o] * W[i * CoL + o];
+				worst = fmax(worst, fabs(dx[n * Ci + i] - want) / fmax(1, fabs(want)));
+			}
+		memset(dx, 0, sizeof(float) * N * Ci);
+		omen_conv1d_backward(dx, NULL, NULL, d, x, W, off, 3, Ci, CoC, K);
+		for (s = 0; s < 3; s++)
+			for (n = off[s]; n < off[s + 1]; n++)
+				for (i = 0; i < Ci; i++) {
+					double want = 0;
+					for (k = 0; k < K; k++) {
+						int t = n - k + K / 2; /* output row fed by row n with tap k */
+						if (t < off[s] || t >= off[s + 1])
+							continue;
+						for (o = 0; o < CoC; o++)
+							want += (double)d[t * CoC + o] * W[(k * Ci + i) * CoC + o];
+					}
+					worst = fmax(worst, fabs(dx[n * Ci + i] - want) / fmax(1, fabs(want)));
+				}
+	}
+	omen_nn_simd(1);
+	printf("wide input-gradient paths: max rel err %.2e vs double sums\n", worst);
+	assert_true(worst < 1e-5);
+	free(x); free(d); free(W); free(dx);
+}
+
 /* ---- AVX2 and portable paths agree -------------------------------------------- */
 static void test_simd_vs_portable(void **state)
 {
@@ -917,6 +967,7 @@ int main(void)
 		cmocka_unit_test(test_maxpool),
 		cmocka_unit_test(test_bce),
 		cmocka_unit_test(test_concat),
+		cmocka_unit_test(test_wide_paths),
 		cmocka_unit_test(test_simd_vs_portable),
 		cmocka_unit_test(test_threads),
 		cmocka_unit_test(test_parallel_run),
