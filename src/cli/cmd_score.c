@@ -169,7 +169,7 @@ int cmd_score(int argc, char **argv)
 	}
 	if (fail_above >= 0)
 		for (i = 0; i < set.n; i++)
-			if (set.v[i].prob > fail_above)
+			if (set.v[i].prob > (float)fail_above)   /* as printed: %.9g round-trips */
 				rc = EXIT_RISK;
 done:
 	omen_buf_free(&out);

@@ -39,7 +39,7 @@ static int put_num(omen_buf *b, double v)
 {
 	if (!isfinite(v))
 		return omen_buf_puts(b, "null");
-	return omen_buf_printf(b, "%.6g", v);
+	return omen_buf_printf(b, "%.9g", v);   /* round-trips a float */
 }
 
 int omen_score_write_json(omen_buf *out, const omen_score_set *s, const char *model_path)
