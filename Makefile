@@ -184,7 +184,8 @@ install: all
 		$(DESTDIR)$(PREFIX)/share/bash-completion/completions/git-omen; fi
 
 uninstall:
-	rm -f $(DESTDIR)$(PREFIX)/bin/git-omen $(addprefix $(DESTDIR)$(PREFIX)/share/man/man1/,$(notdir $(MANS)))
+	rm -f $(DESTDIR)$(PREFIX)/bin/git-omen $(DESTDIR)$(PREFIX)/share/man/man1/git-omen.1 \
+		$(DESTDIR)$(PREFIX)/share/man/man1/git-omen-*.1
 	rm -rf $(DESTDIR)$(PREFIX)/share/git-omen
 	rm -f $(DESTDIR)$(PREFIX)/share/bash-completion/completions/git-omen
 
