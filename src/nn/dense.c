@@ -13,6 +13,9 @@
 /* Rows of the reduction per block when accumulating a weight gradient,
  * so the activations of one block stay in the first-level caches. */
 #define NN_NB 64
+/* Below this many multiply-adds a second thread costs more to start than it
+ * saves; the _mt kernels then run on the calling thread (same results). */
+#define NN_MT_MIN_MACS (1 << 21)
 
 /* db[c0..c1) += sum_n dout[n, c] with n ascending. dout [N,Co]. */
 static void bias_grad(float *db, const float *dout, int N, int Co, int c0, int c1)
@@ -423,7 +426,7 @@ void omen_linear_forward_mt(float *out, const float *in, const float *W, const f
 	int N, int Ci, int Co, int nthreads)
 {
 	dense_job j = {0};
-	if (nthreads <= 1 || N < 2 * NN_MR) {
+	if (nthreads <= 1 || N < 2 * NN_MR || (double)N * Ci * Co < NN_MT_MIN_MACS) {
 		omen_linear_forward(out, in, W, b, N, Ci, Co);
 		return;
 	}
@@ -436,7 +439,7 @@ void omen_linear_backward_mt(float *din, float *dW, float *db, const float *dout
 	const float *in, const float *W, int N, int Ci, int Co, int nthreads)
 {
 	dense_job j = {0};
-	if (nthreads <= 1) {
+	if (nthreads <= 1 || (double)N * Ci * Co < NN_MT_MIN_MACS) {
 		omen_linear_backward(din, dW, db, dout, in, W, N, Ci, Co);
 		return;
 	}
@@ -466,7 +469,8 @@ void omen_conv1d_forward_mt(float *out, const float *in, const float *W, const f
 	const int32_t *off, int S, int Ci, int Co, int K, int nthreads)
 {
 	dense_job j = {0};
-	if (nthreads <= 1 || S < 2) {
+	if (nthreads <= 1 || S < 2 ||
+		(double)(off[S] - off[0]) * K * Ci * Co < NN_MT_MIN_MACS) {
 		omen_conv1d_forward(out, in, W, b, off, S, Ci, Co, K);
 		return;
 	}
@@ -480,7 +484,7 @@ void omen_conv1d_backward_mt(float *din, float *dW, float *db, const float *dout
 	int nthreads)
 {
 	dense_job j = {0};
-	if (nthreads <= 1) {
+	if (nthreads <= 1 || (double)(off[S] - off[0]) * K * Ci * Co < NN_MT_MIN_MACS) {
 		omen_conv1d_backward(din, dW, db, dout, in, W, off, S, Ci, Co, K);
 		return;
 	}

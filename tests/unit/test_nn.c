@@ -778,8 +778,8 @@ static void chunk_task(int task, void *p)
 
 static void test_threads(void **state)
 {
-	enum { N = 96, Ci = 40, Co = 64, K = 3, NT = 4 };
-	static const int32_t off[] = {0, 30, 31, 60, 96};
+	enum { N = 960, Ci = 40, Co = 64, K = 3, NT = 4 }; /* above NN_MT_MIN_MACS */
+	static const int32_t off[] = {0, 300, 301, 600, 960};
 	size_t nw = (size_t)Ci * Co;
 	float *x = malloc(sizeof(float) * N * Ci), *d = malloc(sizeof(float) * N * Co);
 	float *W = malloc(sizeof(float) * K * Ci * Co), *b = malloc(sizeof(float) * Co);
