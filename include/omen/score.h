@@ -122,8 +122,11 @@ typedef struct {
 	double threshold;        /* < 0: omen.threshold, else the model's */
 	double deadline;         /* omen_now() after which work stops with OMEN_ELIMIT; 0 none */
 	int detail;              /* keep every hunk (explain, sarif); else the top 3 */
+	int lazy;                /* attention and gradients only for commits at or over
+	                          * the threshold (the hook: it reports only those);
+	                          * the others' hunks are weighted by size */
 } omen_score_opts;
-#define OMEN_SCORE_OPTS_INIT {NULL, -1.0, 0.0, 0}
+#define OMEN_SCORE_OPTS_INIT {NULL, -1.0, 0.0, 0, 0}
 
 /* The model path the scorer would use (never creates directories). */
 int omen_score_model_path(char **out, omen_repo *r, const char *override);

@@ -139,6 +139,7 @@ static int hook_run(int argc, char **argv)
 		timeout_ms = 3000;
 	arm_alarm((long)timeout_ms, block_error);
 	so.deadline = t0 + (double)timeout_ms / 1000.0;
+	so.lazy = 1;   /* attention only for the commits it reports */
 
 	if (read_stdin(&in) || omen_prepush_parse(&pl, in.ptr, in.len)) {
 		rc = hook_error(block_error, NULL);

@@ -27,6 +27,7 @@ struct omen_scorer {
 	int have_std;
 	double deadline;
 	int detail;
+	int lazy;
 	char *model_path;
 };
 
@@ -146,6 +147,7 @@ int omen_scorer_open(omen_scorer **out, omen_repo *r, const omen_score_opts *o)
 	s->repo = r;
 	s->deadline = o->deadline;
 	s->detail = o->detail;
+	s->lazy = o->lazy;
 	if ((e = omen_score_model_path(&s->model_path, r, o->model_path)))
 		goto out;
 	if (stat(s->model_path, &stt) != 0) {
@@ -284,7 +286,7 @@ void score_reasons(omen_score_result *r, const omen_scorer *s, const omen_sample
 	if (top) {
 		range_text(where, sizeof(where), top);
 		add_reason(r, cand, &nc, OMEN_REASON_HUNK, 1.0 + 2.0 * top->weight,
-			"most attention: %s (%.0f%%)", where, 100.0 * top->weight);
+			"%s: %s (%.0f%%)", ex ? "most attention" : "largest hunk", where, 100.0 * top->weight);
 	}
 	if (score_standardize(z, s, r->metrics)) {
 		double zl = z[OMEN_M_LA] > z[OMEN_M_LD] ? z[OMEN_M_LA] : z[OMEN_M_LD];
@@ -393,6 +395,7 @@ int score_one(omen_score_set *set, const omen_scorer *s, const omen_change *c,
 	omen_sample sm;
 	omen_score_result *r;
 	size_t first, k, keep;
+	double total;
 	int e, f, h;
 
 	if ((e = omen_sample_build(&sm, sb, c, state, is_fix, &s->caps)))
@@ -402,7 +405,15 @@ int score_one(omen_score_set *set, const omen_scorer *s, const omen_change *c,
 		return omen_error_set(OMEN_ENOMEM, "out of memory");
 	r = &set->v[set->n];
 	memset(r, 0, sizeof(*r));
-	if ((e = omen_model_predict(&r->prob, &r->logit, s->model, &sm, ex)))
+	if (s->lazy && !s->detail) {
+		/* the forward pass alone; the backward pass for attention and
+		 * gradients only when the commit will be reported */
+		if ((e = omen_model_predict(&r->prob, &r->logit, s->model, &sm, NULL)))
+			return omen_error_wrap(e, "cannot score '%.12s'", c->commit.hex);
+		if (r->prob < s->threshold)
+			ex = NULL;
+	}
+	if (ex && (e = omen_model_predict(&r->prob, &r->logit, s->model, &sm, ex)))
 		return omen_error_wrap(e, "cannot score '%.12s'", c->commit.hex);
 	r->lr_prob = omen_model_predict_lr(s->model, &sm);
 	memcpy(r->id, c->commit.hex, sizeof(r->id));
@@ -418,22 +429,29 @@ int score_one(omen_score_set *set, const omen_scorer *s, const omen_change *c,
 	r->band = r->prob >= s->threshold ? OMEN_BAND_HIGH :
 		r->prob >= s->threshold / 2 ? OMEN_BAND_MEDIUM : OMEN_BAND_LOW;
 	first = set->nhunks;
+	total = 0;
+	for (h = 0; h < sm.nhunks; h++)
+		total += (double)sm.hunk_new_lines[h] + sm.hunk_old_lines[h];
 	for (f = 0; f < sm.nfiles; f++) {
 		const char *path = omen_arena_strndup(&set->arena, sm.file_path[f], strlen(sm.file_path[f]));
 		if (!path)
 			return omen_error_set(OMEN_ENOMEM, "out of memory");
 		for (h = sm.file_off[f]; h < sm.file_off[f + 1]; h++) {
 			omen_hunk_score *hs = &set->hunks[set->nhunks++];
-			float fa = ex && f < ex->nfiles ? ex->file_attn[f] : 1.0f / (float)sm.nfiles;
-			float ha = ex && h < ex->nhunks ? ex->hunk_attn[h] :
-				1.0f / (float)(sm.file_off[f + 1] - sm.file_off[f]);
 			hs->path = path;
 			hs->new_start = sm.hunk_new_start[h];
 			hs->new_lines = sm.hunk_new_lines[h];
 			hs->old_start = sm.hunk_old_start[h];
 			hs->old_lines = sm.hunk_old_lines[h];
-			hs->weight = fa * ha;
-			hs->contrib = ex && h < ex->nhunks ? ex->hunk_contrib[h] : 0;
+			if (ex && f < ex->nfiles && h < ex->nhunks) {
+				hs->weight = ex->file_attn[f] * ex->hunk_attn[h];
+				hs->contrib = ex->hunk_contrib[h];
+			} else {
+				/* no attention computed: share of the lines changed */
+				hs->weight = total > 0 ? (float)((hs->new_lines + hs->old_lines) / total) :
+					1.0f / (float)sm.nhunks;
+				hs->contrib = 0;
+			}
 		}
 	}
 	k = set->nhunks - first;
