@@ -107,7 +107,9 @@ typedef struct {
 
 /* Builds the folds over n commits (time[i], label[i] in {-1,0,1}; index
  * order is the dataset's). Test windows tile the newest part of the
- * labelled history, oldest fold first. Too short a history: OMEN_EINVAL
+ * labelled history, oldest fold first, and end at the newest clean commit
+ * (newer labelled commits are inducing ones inside the verification
+ * window, where clean ones are still unknown: they are left out). Too short a history: OMEN_EINVAL
  * with the numbers. */
 int omen_folds_build(omen_fold **out, size_t *out_n, const int64_t *time,
 	const int8_t *label, size_t n, const omen_fold_opts *o);

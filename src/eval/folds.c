@@ -97,6 +97,15 @@ int omen_folds_build(omen_fold **out, size_t *out_n, const int64_t *time,
 		goto out;
 	}
 	qsort(lab, nl, sizeof(*lab), cmp_tkey);
+	/* Inside the verification window only inducing commits get a label
+	 * (a clean one is still "unknown"), so a test window there would hold
+	 * almost nothing but positives. Test windows end at the newest clean
+	 * commit; labelled commits after it are left out. */
+	for (i = nl; i > 0; i--)
+		if (label[lab[i - 1].i] == 0)
+			break;
+	if (i > 0 && i < nl)
+		nl = i;
 	tmin = lab[0].t;
 	tmax = lab[nl - 1].t;
 	if (o->fold_days > 0) {

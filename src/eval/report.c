@@ -503,7 +503,8 @@ int omen_eval_write_html(omen_buf *out, const omen_eval_result *r, const char *t
 		"body{font-family:sans-serif;margin:24px;color:#222;max-width:1120px}\n"
 		"h1{font-size:22px}h2{font-size:17px;margin-top:28px}\n"
 		"table{border-collapse:collapse;font-size:12px;margin:8px 0}\n"
-		"td,th{border:1px solid #ccc;padding:3px 6px;text-align:right}\n"
+		"td,th{border:1px solid #ccc;padding:3px 6px;text-align:right;white-space:nowrap}\n"
+		"td.why{white-space:normal;text-align:left}\n"
 		"td:first-child,th:first-child{text-align:left}\n"
 		"td.na{color:#999}.sw{display:inline-block;width:10px;height:10px;margin-right:5px}\n"
 		".grid{display:grid;grid-template-columns:540px 540px;gap:12px}\n"
@@ -589,7 +590,7 @@ int omen_eval_write_html(omen_buf *out, const omen_eval_result *r, const char *t
 			const omen_risky *x = &r->risky[i];
 			ymd(d1, x->time);
 			omen_buf_printf(b, "<tr><td><code>%.12s</code></td><td>%s</td><td>%.3f</td>"
-				"<td>%s</td><td>%.0f</td><td style=\"text-align:left\">", x->id, d1, x->prob,
+				"<td>%s</td><td>%.0f</td><td class=\"why\">", x->id, d1, x->prob,
 				x->label ? "inducing" : "clean", x->effort);
 			svg_text_esc(b, x->why);
 			omen_buf_puts(b, "</td></tr>\n");

@@ -317,6 +317,8 @@ static void synth_history(int64_t *t, int8_t *y, size_t n, int64_t t0, int64_t s
 		y[i] = omen_rng_uniform(&r) < 0.2;
 		if (i >= n - unknown_tail)
 			y[i] = -1;
+		else if (i == n - unknown_tail - 1)
+			y[i] = 0;   /* the newest labelled commit is clean */
 	}
 }
 
@@ -361,6 +363,20 @@ static void test_folds_basic(void **state)
 	/* the last window ends after the newest labelled commit */
 	assert_true(f[nf - 1].test_end > t[N - 271]);
 	omen_folds_free(f, nf);
+
+	/* inducing commits inside the verification window are labelled while
+	 * clean ones there are unknown (DESIGN.md "Labels" 4): they must stay
+	 * out of every test window, or the last window is nearly all positives */
+	for (i = N - 270; i < N; i += 7)
+		y[i] = 1;
+	assert_int_equal(omen_folds_build(&f, &nf, t, y, N, &o), 0);
+	for (k = 0; k < nf; k++)
+		for (i = 0; i < f[k].n_test; i++)
+			assert_true(f[k].test_idx[i] < N - 270);
+	assert_true(f[nf - 1].test_end == t[N - 271] + 1);
+	omen_folds_free(f, nf);
+	for (i = N - 270; i < N; i++)
+		y[i] = -1;
 
 	/* explicit width */
 	o.folds = 3;
