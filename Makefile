@@ -132,7 +132,8 @@ bench: $(OMEN) $(BENCH_BIN)
 # fixtures/corpora/<x> (FUZZ_KEEP_BYTES=0 keeps the fixtures untouched).
 FUZZ_CC     ?= clang
 FUZZ_CFLAGS := -std=c11 -g -O1 -D_POSIX_C_SOURCE=200809L -D_DEFAULT_SOURCE -Iinclude -Isrc \
-	-pthread -fno-strict-aliasing -fno-omit-frame-pointer -fno-sanitize-recover=undefined
+	-pthread -fno-strict-aliasing -fno-omit-frame-pointer -fno-sanitize-recover=undefined \
+	-fsanitize-coverage-ignorelist=tests/fuzz/coverage-ignore.txt
 FUZZ_LIB_OBJ := $(LIB_SRC:%.c=$(BUILD)/fuzz/lib/%.o)
 
 $(BUILD)/fuzz/lib/%.o: %.c
