@@ -7,7 +7,9 @@
  *     + facts [F,NFN] W_f + b_f + ext_emb[ext] -> attnpool per commit [B,C]
  *   message tokens -> embedding bag (mean) [B,D]
  *   [commit | message | standardized metrics] [B,C+D+NM]
- *     -> linear [B,C] -> GELU -> dropout -> linear [B,1] = logit
+ *     -> linear [B,C] -> GELU -> dropout -> linear [B,1]
+ *   logit = that + metrics [B,NM] W_lin (a linear "wide" skip, after Cheng
+ *   et al., "Wide & Deep Learning for Recommender Systems", DLRS 2016)
  */
 #include <math.h>
 #include <stdlib.h>
@@ -17,7 +19,7 @@
 
 static const char *const tensor_names[P_COUNT] = {
 	"tok_emb", "conv_w", "conv_b", "q_tok", "q_hunk", "fact_w", "fact_b", "ext_emb",
-	"q_file", "msg_emb", "h1_w", "h1_b", "h2_w", "h2_b"
+	"q_file", "msg_emb", "h1_w", "h1_b", "h2_w", "h2_b", "lin_w"
 };
 
 #define ALIGNF 16   /* floats per 64 bytes */
@@ -27,9 +29,9 @@ int omen_model_layout(omen_model *m)
 	int shapes[P_COUNT][3] = {
 		{m->V, m->D, 1}, {m->K, m->D, m->C}, {m->C, 1, 1}, {m->C, 1, 1}, {m->C, 1, 1},
 		{m->NFN, m->C, 1}, {m->C, 1, 1}, {m->NE, m->C, 1}, {m->C, 1, 1}, {m->VM, m->D, 1},
-		{m->HIN, m->HH, 1}, {m->HH, 1, 1}, {m->HH, 1, 1}, {1, 1, 1}
+		{m->HIN, m->HH, 1}, {m->HH, 1, 1}, {m->HH, 1, 1}, {1, 1, 1}, {m->NM, 1, 1}
 	};
-	static const int decay[P_COUNT] = {0, 1, 0, 0, 0, 1, 0, 0, 0, 0, 1, 0, 1, 0};
+	static const int decay[P_COUNT] = {0, 1, 0, 0, 0, 1, 0, 0, 0, 0, 1, 0, 1, 0, 1};
 	size_t off = 0;
 	int i;
 	for (i = 0; i < P_COUNT; i++) {
@@ -194,7 +196,7 @@ static size_t ws_carve(omen_ws *w, const omen_model *m, unsigned char *base)
 	CARVE(w->cvec, (size_t)B * C); CARVE(w->mvec, (size_t)B * D);
 	CARVE(w->cm, (size_t)B * (C + D)); CARVE(w->hin, (size_t)B * m->HIN);
 	CARVE(w->h1, (size_t)B * m->HH); CARVE(w->a1, (size_t)B * m->HH);
-	CARVE(w->d1, (size_t)B * m->HH); CARVE(w->z, B);
+	CARVE(w->d1, (size_t)B * m->HH); CARVE(w->z, B); CARVE(w->zl, B);
 	CARVE(w->mask, (size_t)B * m->HH);
 	/* gradients: keep them together so one memset clears them */
 	{
@@ -315,6 +317,9 @@ void omen_model_forward(const omen_model *m, omen_ws *w, float p, omen_rng *rng)
 	else
 		memcpy(w->d1, w->a1, (size_t)B * m->HH * sizeof(float));
 	omen_linear_forward(w->z, w->d1, PP(m, P_H2_W), PP(m, P_H2_B), B, m->HH, 1);
+	omen_linear_forward(w->zl, w->xm, PP(m, P_LIN_W), NULL, B, m->NM, 1);
+	for (i = 0; i < (size_t)B; i++)
+		w->z[i] += w->zl[i];
 }
 
 #define GG(m, g, i) ((g) + (m)->t[i].off)
@@ -324,6 +329,8 @@ void omen_model_backward(const omen_model *m, omen_ws *w, float *g, float p)
 	int B = w->B, F = w->F, H = w->H, T = w->T, C = m->C, D = m->D;
 	omen_linear_backward(w->g_d1, GG(m, g, P_H2_W), GG(m, g, P_H2_B), w->g_z, w->d1,
 		PP(m, P_H2_W), B, m->HH, 1);
+	omen_linear_backward(w->g_xm, GG(m, g, P_LIN_W), NULL, w->g_z, w->xm, PP(m, P_LIN_W),
+		B, m->NM, 1);
 	if (p > 0)
 		omen_dropout_backward(w->g_a1, w->g_d1, w->mask, p, B * m->HH);
 	else

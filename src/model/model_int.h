@@ -26,6 +26,7 @@ enum {
 	P_H1_B,      /* [C] */
 	P_H2_W,      /* [C, 1]     head output */
 	P_H2_B,      /* [1] */
+	P_LIN_W,     /* [NM, 1]    linear skip from the metrics to the logit ("wide" part) */
 	P_COUNT
 };
 
@@ -75,7 +76,7 @@ typedef struct {
 	float *facts, *xm, *y;
 	/* activations */
 	float *emb, *conv, *act, *tattn, *hvec, *hattn, *fpool, *fvec, *fattn, *fproj;
-	float *cvec, *mvec, *cm, *hin, *h1, *a1, *d1, *z;
+	float *cvec, *mvec, *cm, *hin, *h1, *a1, *d1, *z, *zl;
 	uint8_t *mask;
 	/* activation gradients */
 	float *g_emb, *g_conv, *g_act, *g_hvec, *g_fvec, *g_cvec, *g_mvec, *g_cm, *g_hin,

@@ -398,6 +398,13 @@ static int fit(omen_model *m, fit_info *fi, const omen_dataset *ds, const size_t
 	aw.lr = o->lr;
 	aw.weight_decay = o->weight_decay;
 	memcpy(best, m->params, m->nparams * sizeof(float));
+	if (use_valid && o->warm_start) {
+		/* epoch 0 (the warm start) is a candidate too */
+		if ((e = eval_logits(vz, m, ds, valid_idx, n_valid, threads)))
+			goto out;
+		fi->best_auc = auc_of(vz, ds, valid_idx, n_valid);
+		fi->best_epoch = 0;
+	}
 	omen_rng_seed(&rng, o->seed ^ 0x5eedull);
 	for (ep = 1; ep <= epochs; ep++) {
 		double loss_sum = 0;
@@ -463,7 +470,7 @@ static int fit(omen_model *m, fit_info *fi, const omen_dataset *ds, const size_t
 			break;
 	}
 	memcpy(m->params, best, m->nparams * sizeof(float));
-	if (!fi->best_epoch)
+	if (!use_valid)
 		fi->best_epoch = fi->epochs_run;
 out:
 	ctx_free(&x);
@@ -508,6 +515,34 @@ out:
 	return e;
 }
 
+/* Starts the network at the logistic regression on the metrics: the
+ * linear skip takes its coefficients (both standardize the same
+ * log1p-transformed metrics with the train split's mean and population
+ * std), the output bias its intercept shifted by log(pos_weight) for the
+ * weighted loss, and the deep output layer starts at zero, so the deep part
+ * learns what the metrics miss (zero-initialised last layer: Goyal et al.,
+ * "Accurate, Large Minibatch SGD", 2017). */
+static void warm_start(omen_model *m, const omen_dataset *ds, const size_t *idx, size_t n)
+{
+	size_t i, pos = 0;
+	int j;
+	float *lin = m->params + m->t[P_LIN_W].off;
+	for (i = 0; i < n; i++)
+		pos += omen_dataset_get(ds, idx[i])->label > 0;
+	for (j = 0; j < OMEN_NMETRICS; j++)
+		lin[j] = (float)(m->lr.w[j] * m->metric_scale[j] / m->lr.scale[j]);
+	/* the model centres with its own mean: fold the difference into the bias */
+	{
+		double b = m->lr.b;
+		for (j = 0; j < OMEN_NMETRICS; j++)
+			b += m->lr.w[j] * (m->metric_mean[j] - m->lr.mean[j]) / m->lr.scale[j];
+		if (pos && pos < n)
+			b += log((double)(n - pos) / (double)pos);
+		m->params[m->t[P_H2_B].off] = (float)b;
+	}
+	memset(m->params + m->t[P_H2_W].off, 0, m->t[P_H2_W].n * sizeof(float));
+}
+
 static int train_core(omen_model **out, fit_info *fi, const omen_dataset *ds,
 	const size_t *train_idx, size_t n_train, const size_t *valid_idx, size_t n_valid,
 	const omen_train_opts *o, int epochs, int report)
@@ -519,9 +554,11 @@ static int train_core(omen_model **out, fit_info *fi, const omen_dataset *ds,
 		return e;
 	m->caps = o->caps;
 	fit_standardization(m, ds, train_idx, n_train);
-	if ((e = fit(m, fi, ds, train_idx, n_train, valid_idx, n_valid, o, epochs, report)))
-		goto out;
 	if ((e = fit_lr(&m->lr, ds, train_idx, n_train)))
+		goto out;
+	if (o->warm_start)
+		warm_start(m, ds, train_idx, n_train);
+	if ((e = fit(m, fi, ds, train_idx, n_train, valid_idx, n_valid, o, epochs, report)))
 		goto out;
 	if (n_valid && (e = calibrate(m, ds, valid_idx, n_valid, o->threads > 0 ? o->threads : 2)))
 		goto out;

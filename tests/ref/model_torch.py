@@ -87,7 +87,8 @@ def metrics(s):
 rows = [torch.cat([commit_vector(s), message_vector(s), metrics(s)]) for s in meta["samples"]]
 hin = torch.stack(rows)
 h = F.gelu(hin @ P["h1_w"].reshape(-1, C) + P["h1_b"].reshape(-1))
-z = (h @ P["h2_w"].reshape(C, 1) + P["h2_b"].reshape(-1)).reshape(-1)
+met = torch.stack([metrics(s) for s in meta["samples"]])
+z = (h @ P["h2_w"].reshape(C, 1) + P["h2_b"].reshape(-1) + met @ P["lin_w"].reshape(NM, 1)).reshape(-1)
 y = torch.tensor(meta["y"], dtype=torch.float64)
 loss = F.binary_cross_entropy_with_logits(z, y, pos_weight=torch.tensor(float(meta["pos_weight"])))
 loss.backward()
@@ -114,4 +115,4 @@ if not ok:
     print("FAIL: model forward/backward differs from PyTorch")
     sys.exit(1)
 print("REF model vs PyTorch: loss diff %.1e, logit diff %.1e, worst relative gradient diff %.1e "
-      "over 14 tensors" % (dl, dz, worst))
+      "over 15 tensors" % (dl, dz, worst))

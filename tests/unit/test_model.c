@@ -162,7 +162,7 @@ static void test_gradient_fd(void **state)
 			checked++;
 		}
 	}
-	assert_true(checked >= 3 * 14);
+	assert_true(checked >= 3 * 15);
 	free(g);
 	omen_model_free(m);
 	synth_free(&x);
