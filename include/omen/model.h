@@ -22,7 +22,7 @@ typedef struct {
 	double valid_frac, test_frac;   /* time-ordered split shares (0.15, 0.15) */
 	int refit;               /* refit on train+valid for the shipped model (default 1) */
 	int dim;                 /* D token embedding width (default 32) */
-	int channels;            /* C hidden width (default 64) */
+	int channels;            /* C hidden width (default 32) */
 	omen_caps caps;          /* the caps the dataset was built with (stored in the model) */
 	int warm_start;          /* start from the metrics logistic regression (default 0) */
 	void (*progress)(void *payload, int epoch, int epochs, float loss, float valid_auc, double eta_s);

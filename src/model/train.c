@@ -35,7 +35,7 @@ void omen_train_opts_init(omen_train_opts *o)
 	o->test_frac = 0.15;
 	o->refit = 1;
 	o->dim = 32;
-	o->channels = 64;
+	o->channels = 32;
 	{
 		omen_caps c = OMEN_CAPS_DEFAULT;
 		o->caps = c;
