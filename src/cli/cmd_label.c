@@ -42,8 +42,13 @@ static void print_text(const omen_label_summary *s, const char *path)
 		printf("labels are up to date with %.12s (use --full to relabel)\n", s->head);
 		break;
 	case OMEN_LABEL_MODE_GREW:
-		printf("history grew by %zu commit%s since the previous labels; relabelled\n",
-			s->new_commits, s->new_commits == 1 ? "" : "s");
+		if (s->reused_commits)
+			printf("history grew by %zu commit%s since the previous labels; reused the saved pass "
+				"state of %zu commits and traced only the new ones\n", s->new_commits,
+				s->new_commits == 1 ? "" : "s", s->reused_commits);
+		else
+			printf("history grew by %zu commit%s since the previous labels; relabelled\n",
+				s->new_commits, s->new_commits == 1 ? "" : "s");
 		break;
 	case OMEN_LABEL_MODE_REWRITTEN:
 		printf("history was rewritten since the previous labels (old head is not an ancestor); relabelled\n");
@@ -81,13 +86,14 @@ static void print_json(const omen_label_summary *s)
 		"\"issue\":%zu,\"named\":%zu},\"fixes_traced\":%zu,\"traced_lines\":%zu,"
 		"\"fixes_add_only\":%zu,\"add_only_share\":%.4f,\"fixes_skipped_large\":%zu,"
 		"\"named_links\":%zu,\"latency_days\":[%.3f,%.3f,%.3f],\"shallow\":%s,\"boundary\":%zu,"
-		"\"list_entries\":%zu,\"list_unmatched\":%zu,\"new_commits\":%zu,\"seconds\":%.3f}\n",
+		"\"list_entries\":%zu,\"list_unmatched\":%zu,\"new_commits\":%zu,\"reused_commits\":%zu,"
+		"\"seconds\":%.3f}\n",
 		mode_name(s->mode), s->head, s->commits, s->merges, s->inducing, s->clean, s->unknown,
 		s->fixes, s->fixes_by_pattern, s->fixes_by_list, s->fixes_by_issue, s->fixes_by_named,
 		s->fixes_traced, s->traced_lines, s->fixes_add_only, share(s->fixes_add_only, s->fixes),
 		s->fixes_skipped_large, s->named_links, s->latency_days_q[0], s->latency_days_q[1],
 		s->latency_days_q[2], s->shallow ? "true" : "false", s->boundary, s->list_entries,
-		s->list_unmatched, s->new_commits, s->seconds);
+		s->list_unmatched, s->new_commits, s->reused_commits, s->seconds);
 }
 
 static int parse_count(const char *v, int64_t *out)

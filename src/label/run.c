@@ -58,7 +58,9 @@ typedef struct {
 	omen_label_summary *sum;
 	omen_progress prog;
 	omen_buf path;          /* scratch for tree walks */
-	int tree_delta;
+	uint32_t *tips;         /* commits without children: held as if live */
+	size_t ntips;
+	char old_head[OMEN_OID_HEX + 1]; /* head of the previous labels */
 } lbl_run;
 
 void omen_label_opts_init(omen_label_opts *o)
@@ -200,6 +202,8 @@ static int walk_cb(const omen_change *c, void *payload)
 	if (ci < 0)
 		return omen_error_set(OMEN_ERROR, "walk gave commit '%s' that the listing did not", c->commit.hex);
 	cm = &R->cs[ci];
+	if (cm->walked)
+		return 0; /* restored from the saved state */
 	cm->time = c->commit.author_time;
 	cm->merge = c->commit.nparents > 1;
 	cm->boundary = c->commit.boundary != 0;
@@ -320,6 +324,15 @@ static int load_graph(lbl_run *R)
 		}
 		git_commit_free(cm);
 	}
+	/* tips keep their trees' versions (a virtual child), so the pass state
+	 * at the end is the state at the tips, saved for the next run */
+	if (!(R->tips = malloc((R->n ? R->n : 1) * sizeof(*R->tips))))
+		return omen_error_set(OMEN_ENOMEM, "out of memory");
+	for (i = 0; i < R->n; i++)
+		if (!R->cs[i].pending) {
+			R->cs[i].pending = 1;
+			R->tips[R->ntips++] = (uint32_t)i;
+		}
 	return 0;
 }
 
@@ -424,6 +437,8 @@ static int previous_run(omen_label_summary *sum, lbl_run *R, const char *path, c
 		} else if (git_graph_descendant_of(omen_repo_git(R->repo), &nh, &oh) == 1) {
 			size_t i, known = 0;
 			sum->mode = OMEN_LABEL_MODE_GREW;
+			if (same_opts)
+				strcpy(R->old_head, omen_labels_head(old));
 			for (i = 0; i < omen_labels_count(old); i++)
 				known += lookup(R, omen_labels_at(old, i)->id) >= 0;
 			sum->new_commits = R->n > known ? R->n - known : 0;
@@ -434,6 +449,243 @@ static int previous_run(omen_label_summary *sum, lbl_run *R, const char *path, c
 	cJSON_Delete(j);
 	omen_labels_free(old);
 	return same;
+}
+
+
+/* ---- pass state, saved beside the labels for incremental runs ----------------
+ * "OMENLBS1", u32 version, head hex[40], u32 len + options JSON, summary
+ * counters (u64 x 8), u32 n + commits {oid[20], i64 time, i64 issue date,
+ * u32 traced, u32 named, u32 fix_by, u8 flags}, u32 n + pairs {u32 x 3},
+ * u32 n + tips {u32}, u32 n + versions {u64 path key, oid[20], i32 ref,
+ * u32 n, u32 origins[n]}, u32 CRC-32 of all before it. Little-endian. */
+static void put32(omen_buf *b, uint32_t v)
+{
+	unsigned char x[4] = {(unsigned char)v, (unsigned char)(v >> 8), (unsigned char)(v >> 16), (unsigned char)(v >> 24)};
+	omen_buf_put(b, x, 4);
+}
+
+static void put64(omen_buf *b, uint64_t v)
+{
+	put32(b, (uint32_t)v);
+	put32(b, (uint32_t)(v >> 32));
+}
+
+static int put_version(uint64_t pkey, const git_oid *blob, const uint32_t *orig, uint32_t n,
+	int32_t ref, void *p)
+{
+	omen_buf *b = p;
+	uint32_t i;
+	put64(b, pkey);
+	omen_buf_put(b, blob->id, GIT_OID_RAWSZ);
+	put32(b, (uint32_t)ref);
+	put32(b, n);
+	for (i = 0; i < n; i++)
+		put32(b, orig[i]);
+	return 0;
+}
+
+static size_t *counter(omen_label_summary *s, int k)
+{
+	size_t *c[] = {&s->fixes_add_only, &s->fixes_skipped_large, &s->traced_lines, &s->fixes_traced,
+		&s->named_links, &s->untraced_missing, &s->boundary, NULL};
+	return c[k];
+}
+
+static int save_state(lbl_run *R, const char *path, const char *opts, const char *head)
+{
+	omen_buf b = OMEN_BUF_INIT;
+	size_t i, nv = 0, at;
+	uint32_t crc;
+	int e, k;
+	omen_buf_put(&b, "OMENLBS1", 8);
+	put32(&b, 1);
+	omen_buf_put(&b, head, OMEN_OID_HEX);
+	put32(&b, (uint32_t)strlen(opts));
+	omen_buf_puts(&b, opts);
+	for (k = 0; k < 7; k++)
+		put64(&b, *counter(R->sum, k));
+	put64(&b, (uint64_t)R->sum->shallow);
+	put32(&b, (uint32_t)R->n);
+	for (i = 0; i < R->n; i++) {
+		lbl_commit *c = &R->cs[i];
+		unsigned char fl = (unsigned char)(c->is_fix | c->merge << 1 | c->boundary << 2 | c->skipped << 3);
+		omen_buf_put(&b, R->ids[i].id, GIT_OID_RAWSZ);
+		put64(&b, (uint64_t)c->time);
+		put64(&b, (uint64_t)c->issue_date);
+		put32(&b, c->traced);
+		put32(&b, c->named);
+		put32(&b, c->fix_by);
+		omen_buf_put(&b, &fl, 1);
+	}
+	put32(&b, (uint32_t)R->npairs);
+	for (i = 0; i < R->npairs; i++) {
+		put32(&b, R->pairs[i].ind);
+		put32(&b, R->pairs[i].fix);
+		put32(&b, R->pairs[i].lines);
+	}
+	put32(&b, (uint32_t)R->ntips);
+	for (i = 0; i < R->ntips; i++)
+		put32(&b, R->tips[i]);
+	at = b.len;
+	put32(&b, 0);
+	lbl_tracer_each(R->tr, put_version, &b);
+	nv = lbl_tracer_versions(R->tr);
+	b.ptr[at] = (char)nv;
+	b.ptr[at + 1] = (char)(nv >> 8);
+	b.ptr[at + 2] = (char)(nv >> 16);
+	b.ptr[at + 3] = (char)(nv >> 24);
+	crc = omen_crc32(0, b.ptr, b.len);
+	put32(&b, crc);
+	if (!b.ptr) {
+		omen_buf_free(&b);
+		return omen_error_set(OMEN_ENOMEM, "out of memory");
+	}
+	e = omen_file_write_atomic(path, b.ptr, b.len);
+	omen_buf_free(&b);
+	return e;
+}
+
+/* Restores the state saved by the previous run when it covers exactly the
+ * labelled head with the same options and every new commit's old parents
+ * are saved tips. Returns 1 when restored, 0 when not usable (then the
+ * caller runs a full pass on a fresh tracer), < 0 on error. */
+static int load_state(lbl_run *R, const char *path, const char *opts)
+{
+	omen_buf b = OMEN_BUF_INIT;
+	omen_cursor c;
+	const void *p;
+	uint32_t ver, len, n, i, k, *map = NULL, *newkids = NULL;
+	uint64_t u;
+	unsigned char *old = NULL;
+	int rc = 0, e;
+	if (!*R->old_head || omen_file_read(&b, path, 0)) {
+		omen_error_clear();
+		return 0;
+	}
+	if (b.len < 12 || omen_crc32(0, b.ptr, b.len - 4) !=
+	    ((uint32_t)(unsigned char)b.ptr[b.len - 4] | (uint32_t)(unsigned char)b.ptr[b.len - 3] << 8 |
+	     (uint32_t)(unsigned char)b.ptr[b.len - 2] << 16 | (uint32_t)(unsigned char)b.ptr[b.len - 1] << 24))
+		goto out;
+	omen_cursor_init(&c, b.ptr, b.len - 4);
+	if (omen_cursor_bytes(&c, &p, 8) || memcmp(p, "OMENLBS1", 8) || omen_cursor_u32le(&c, &ver) || ver != 1 ||
+	    omen_cursor_bytes(&c, &p, OMEN_OID_HEX) || memcmp(p, R->old_head, OMEN_OID_HEX) ||
+	    omen_cursor_u32le(&c, &len) || omen_cursor_bytes(&c, &p, len) || len != strlen(opts) ||
+	    memcmp(p, opts, len))
+		goto out;
+	for (k = 0; k < 7; k++) {
+		if (omen_cursor_u64le(&c, &u))
+			goto out;
+		*counter(R->sum, (int)k) = (size_t)u;
+	}
+	if (omen_cursor_u64le(&c, &u))
+		goto out;
+	R->sum->shallow = u != 0;
+	if (omen_cursor_u32le(&c, &n) || n > R->n || !(map = malloc(((size_t)n + 1) * sizeof(*map))) ||
+	    !(old = calloc(R->n + 1, 1)) || !(newkids = calloc(R->n + 1, sizeof(*newkids))))
+		goto nomem_or_out;
+	for (i = 0; i < n; i++) {
+		git_oid id;
+		long ni;
+		uint64_t t, d;
+		uint32_t tr, nm, fb;
+		uint8_t fl;
+		lbl_commit *cm;
+		if (omen_cursor_bytes(&c, &p, GIT_OID_RAWSZ))
+			goto out;
+		memcpy(id.id, p, GIT_OID_RAWSZ);
+		if ((ni = lookup_oid(R, &id)) < 0 || omen_cursor_u64le(&c, &t) || omen_cursor_u64le(&c, &d) ||
+		    omen_cursor_u32le(&c, &tr) || omen_cursor_u32le(&c, &nm) || omen_cursor_u32le(&c, &fb) ||
+		    omen_cursor_u8(&c, &fl))
+			goto out;
+		map[i] = (uint32_t)ni;
+		old[ni] = 1;
+		cm = &R->cs[ni];
+		cm->time = (int64_t)t;
+		cm->issue_date = (int64_t)d;
+		cm->traced = tr;
+		cm->named = nm;
+		cm->fix_by = fb;
+		cm->is_fix = fl & 1;
+		cm->merge = (fl >> 1) & 1;
+		cm->boundary = (fl >> 2) & 1;
+		cm->skipped = (fl >> 3) & 1;
+		cm->walked = 1;
+	}
+	if (omen_cursor_u32le(&c, &len))
+		goto out;
+	for (i = 0; i < len; i++) {
+		uint32_t a, f, l;
+		if (omen_cursor_u32le(&c, &a) || omen_cursor_u32le(&c, &f) || omen_cursor_u32le(&c, &l) || a >= n || f >= n)
+			goto out;
+		if (OMEN_ARRAY_RESERVE(R->pairs, R->pairs_cap, R->npairs + 1))
+			goto nomem_or_out;
+		R->pairs[R->npairs++] = (lbl_pair){map[a], map[f], l};
+	}
+	/* every new commit's parents must be new or a saved tip */
+	for (i = 0; i < R->n; i++) {
+		git_commit *cm = NULL;
+		unsigned j, np;
+		if (old[i])
+			continue;
+		if (git_commit_lookup(&cm, omen_repo_git(R->repo), &R->ids[i]))
+			goto out;
+		np = git_commit_parentcount(cm);
+		for (j = 0; j < np; j++) {
+			long pi = lookup_oid(R, git_commit_parent_id(cm, j));
+			if (pi >= 0 && old[pi])
+				newkids[pi]++;
+		}
+		git_commit_free(cm);
+	}
+	if (omen_cursor_u32le(&c, &len))
+		goto out;
+	for (i = 0; i < len; i++) {
+		uint32_t t;
+		if (omen_cursor_u32le(&c, &t) || t >= n)
+			goto out;
+		old[map[t]] = 2; /* a saved tip */
+	}
+	for (i = 0; i < R->n; i++) {
+		if (old[i] == 1 && newkids[i])
+			goto out; /* a new branch from an old inner commit: no state for it */
+		if (old[i])
+			R->cs[i].pending = old[i] == 2 ? (newkids[i] ? newkids[i] : 1) : 0;
+	}
+	if (omen_cursor_u32le(&c, &len))
+		goto out;
+	for (i = 0; i < len; i++) {
+		uint64_t pkey;
+		git_oid blob;
+		uint32_t ref, nl, j, *orig;
+		if (omen_cursor_u64le(&c, &pkey) || omen_cursor_bytes(&c, &p, GIT_OID_RAWSZ))
+			goto out;
+		memcpy(blob.id, p, GIT_OID_RAWSZ);
+		if (omen_cursor_u32le(&c, &ref) || omen_cursor_u32le(&c, &nl) || (size_t)nl * 4 > c.n)
+			goto out;
+		if (!(orig = malloc(((size_t)nl + 1) * sizeof(*orig))))
+			goto nomem_or_out;
+		for (j = 0; j < nl; j++) {
+			uint32_t o;
+			omen_cursor_u32le(&c, &o);
+			orig[j] = o < n ? map[o] : LBL_NONE;
+		}
+		if ((e = lbl_tracer_put(R->tr, pkey, &blob, orig, nl, (int32_t)ref))) {
+			rc = e;
+			goto out;
+		}
+	}
+	if (c.err || c.n)
+		goto out;
+	rc = 1;
+	goto out;
+nomem_or_out:
+	rc = omen_error_set(OMEN_ENOMEM, "out of memory");
+out:
+	free(map);
+	free(old);
+	free(newkids);
+	omen_buf_free(&b);
+	return rc;
 }
 
 /* ---- writing ---------------------------------------------------------------- */
@@ -577,8 +829,10 @@ int omen_label_run(omen_label_summary *sum, omen_repo *r, const omen_label_opts 
 	lbl_trace_opts to;
 	char *cfg_pattern = NULL, *cfg_list = NULL, *cfg_labels = NULL, *path = NULL;
 	const char *pattern, *list;
-	omen_buf ob = OMEN_BUF_INIT;
-	char head[OMEN_OID_HEX + 1] = "";
+	omen_buf ob = OMEN_BUF_INIT, sp = OMEN_BUF_INIT;
+	char head[OMEN_OID_HEX + 1] = "", excl[OMEN_OID_HEX + 2];
+	const char **walk_revs = NULL;
+	int restored = 0;
 	double t0 = omen_now();
 	int e;
 	int64_t v;
@@ -661,6 +915,51 @@ int omen_label_run(omen_label_summary *sum, omen_repo *r, const omen_label_opts 
 		e = omen_error_set(OMEN_EIO, "cannot write '%s'", o.dump_origins);
 		goto out;
 	}
+	/* with a fix list the old commits would need classifying again (the
+	 * list may have changed): no state reuse then */
+	if (o.incremental && sum->mode == OMEN_LABEL_MODE_GREW && !list) {
+		if ((e = omen_buf_printf(&sp, "%s.state", path)))
+			goto out;
+		if ((e = load_state(&R, sp.ptr, ob.ptr)) < 0)
+			goto out;
+		restored = e;
+		e = 0;
+		if (!restored) { /* start over on a clean table */
+			size_t grew = sum->new_commits;
+			memset(sum, 0, sizeof(*sum));
+			sum->mode = OMEN_LABEL_MODE_GREW;
+			sum->new_commits = grew;
+			sum->list_entries = omen_fixrules_list_size(R.fr);
+			strcpy(sum->head, head);
+			lbl_tracer_free(R.tr);
+			R.tr = NULL;
+			free(R.cs);
+			R.cs = NULL;
+			free(R.tips);
+			R.tips = NULL;
+			R.ntips = R.npairs = 0;
+			if ((e = load_graph(&R)) || (e = lbl_tracer_new(&R.tr, &to)))
+				goto out;
+		}
+	}
+	if (restored) {
+		size_t k = 0;
+		const char *const *rv = o.revs;
+		while (rv && rv[k])
+			k++;
+		if (!(walk_revs = calloc(k + 3, sizeof(*walk_revs)))) {
+			e = omen_error_set(OMEN_ENOMEM, "out of memory");
+			goto out;
+		}
+		for (k = 0; rv && rv[k]; k++)
+			walk_revs[k] = rv[k];
+		if (!k)
+			walk_revs[k++] = "HEAD";
+		snprintf(excl, sizeof(excl), "^%s", R.old_head);
+		walk_revs[k++] = excl;
+		wo.revs = walk_revs;
+		sum->reused_commits = R.n - sum->new_commits;
+	}
 	omen_progress_start(&R.prog, "label", R.n);
 	e = omen_history_walk(r, &wo, walk_cb, &R);
 	omen_progress_end(&R.prog);
@@ -672,6 +971,9 @@ int omen_label_run(omen_label_summary *sum, omen_repo *r, const omen_label_opts 
 	if ((e = latency(&R)))
 		goto out;
 	if ((e = write_labels(&R, path, ob.ptr, head)))
+		goto out;
+	omen_buf_clear(&sp);
+	if ((e = omen_buf_printf(&sp, "%s.state", path)) || (e = save_state(&R, sp.ptr, ob.ptr, head)))
 		goto out;
 out:
 	if (R.dump && fclose(R.dump) && !e)
@@ -687,6 +989,9 @@ out:
 	free(R.cand_lines);
 	omen_buf_free(&R.path);
 	omen_buf_free(&ob);
+	omen_buf_free(&sp);
+	free(walk_revs);
+	free(R.tips);
 	free(cfg_pattern);
 	free(cfg_list);
 	free(cfg_labels);

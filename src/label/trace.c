@@ -239,6 +239,37 @@ void lbl_tracer_sweep(lbl_tracer *t)
 	t->nsweep = 0;
 }
 
+int lbl_tracer_each(const lbl_tracer *t, lbl_version_cb cb, void *payload)
+{
+	size_t i;
+	int e;
+	for (i = 0; i < t->cap; i++)
+		if (t->tab[i].pkey && t->tab[i].ref > 0 &&
+		    (e = cb(t->tab[i].pkey, &t->tab[i].blob, t->tab[i].orig, t->tab[i].n, t->tab[i].ref, payload)))
+			return e;
+	return 0;
+}
+
+int lbl_tracer_put(lbl_tracer *t, uint64_t pkey, const git_oid *blob, uint32_t *orig, uint32_t n, int32_t ref)
+{
+	lbl_version *v;
+	if (!pkey || find(t, pkey, blob)) {
+		free(orig);
+		return omen_error_set(OMEN_ECORRUPT, "duplicate file version in saved state");
+	}
+	if (!(v = insert(t, pkey, blob))) {
+		free(orig);
+		return OMEN_ENOMEM;
+	}
+	v->orig = orig;
+	v->n = n;
+	v->ref = ref;
+	t->bytes += (size_t)n * sizeof(uint32_t);
+	if (t->bytes > t->peak)
+		t->peak = t->bytes;
+	return 0;
+}
+
 size_t lbl_tracer_versions(const lbl_tracer *t) { return t->len; }
 size_t lbl_tracer_bytes(const lbl_tracer *t) { return t->bytes; }
 size_t lbl_tracer_peak_bytes(const lbl_tracer *t) { return t->peak; }

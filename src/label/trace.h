@@ -61,6 +61,13 @@ int lbl_rename_pairs(lbl_tracer *t, git_repository *repo, const omen_change *c, 
 /* The linear step: +1 on every new version, -1 on every old one. */
 void lbl_tracer_step(lbl_tracer *t, const omen_change *c);
 
+/* Saving and restoring the pass state (run.c): every held version, and
+ * putting one back (orig is taken over; path key as the tracer computes it). */
+typedef int (*lbl_version_cb)(uint64_t pkey, const git_oid *blob, const uint32_t *orig, uint32_t n,
+	int32_t ref, void *payload);
+int lbl_tracer_each(const lbl_tracer *t, lbl_version_cb cb, void *payload);
+int lbl_tracer_put(lbl_tracer *t, uint64_t pkey, const git_oid *blob, uint32_t *orig, uint32_t n, int32_t ref);
+
 size_t lbl_tracer_versions(const lbl_tracer *t);  /* held versions */
 size_t lbl_tracer_bytes(const lbl_tracer *t);     /* origin bytes held */
 size_t lbl_tracer_peak_bytes(const lbl_tracer *t);

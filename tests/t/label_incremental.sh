@@ -19,8 +19,20 @@ echo "# more" >> calc.py
 fx_commit 2020-03-01 more "Add a note"
 old=$(git rev-parse HEAD~1)
 "$OMEN" label --window 0 >out.txt
-grep -q "history grew by 1 commit since the previous labels" out.txt || fail "growth: $(cat out.txt)"
+grep -q "history grew by 1 commit since the previous labels; reused the saved pass state of 3 commits" out.txt ||
+	fail "growth: $(cat out.txt)"
 expect origin inducing 1
+# the reused state gives the same labels as a full pass
+cp "$LF" grown.jsonl
+"$OMEN" label --window 0 --full >/dev/null
+cmp -s grown.jsonl "$LF" || fail "incremental labels differ from a full relabel"
+# a damaged state file is not trusted: full pass, same labels
+echo more >> calc.py; fx_commit 2020-03-05 more2 "Add another note"
+printf 'garbage' > "$LF.state"
+"$OMEN" label --window 0 >out.txt
+grep -q "history grew by 1 commit since the previous labels; relabelled" out.txt || fail "bad state: $(cat out.txt)"
+git reset -q --hard more
+"$OMEN" label --window 0 --full >/dev/null
 git merge-base --is-ancestor "$old" HEAD
 # rewrite: amend the newest commit
 GIT_AUTHOR_DATE="2020-03-02T12:00:00Z" GIT_COMMITTER_DATE="2020-03-02T12:00:00Z" git commit -q --amend -m "Add a longer note"
