@@ -147,10 +147,10 @@ AVX2_FN static void tile_avx2(int mr, int K, const float *const *a, ptrdiff_t sa
 
 /* ---- dispatch ------------------------------------------------------------- */
 
-/* -1 unknown, 0 portable, 1 AVX2; set once (a benign repeated write of the
- * same value when two threads race on the first call). */
-static volatile int simd_state = -1;
-static volatile int simd_forced_off;
+/* -1 unknown, 0 portable, 1 AVX2; detected on first use. Relaxed atomics:
+ * two threads racing on the first call both store the same value. */
+static int simd_state = -1;
+static int simd_forced_off;
 
 static int simd_detect(void)
 {
@@ -167,15 +167,18 @@ static int simd_detect(void)
 
 int nn_simd_active(void)
 {
-	if (simd_state < 0)
-		simd_state = simd_detect();
-	return simd_state && !simd_forced_off;
+	int st = __atomic_load_n(&simd_state, __ATOMIC_RELAXED);
+	if (st < 0) {
+		st = simd_detect();
+		__atomic_store_n(&simd_state, st, __ATOMIC_RELAXED);
+	}
+	return st && !__atomic_load_n(&simd_forced_off, __ATOMIC_RELAXED);
 }
 
 int omen_nn_simd(int enable)
 {
 	if (enable >= 0)
-		simd_forced_off = !enable;
+		__atomic_store_n(&simd_forced_off, !enable, __ATOMIC_RELAXED);
 	return nn_simd_active();
 }
 
