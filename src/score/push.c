@@ -120,6 +120,82 @@ out:
 	return e;
 }
 
+typedef struct {
+	const char *name;     /* "refs/heads/x" of branch.x.merge */
+	git_buf dst;
+	int found;
+} fetch_ctx;
+
+static int map_fetch(const git_config_entry *ent, void *payload)
+{
+	fetch_ctx *f = payload;
+	git_refspec *spec = NULL;
+	if (f->found || git_refspec_parse(&spec, ent->value, 1) < 0) {
+		git_error_clear();
+		return 0;
+	}
+	if (git_refspec_src_matches(spec, f->name) &&
+	    git_refspec_transform(&f->dst, spec, f->name) == 0)
+		f->found = 1;
+	git_error_clear();
+	git_refspec_free(spec);
+	return 0;
+}
+
+/* The upstream of the current branch, as git's @{upstream}: branch.<b>.remote
+ * and branch.<b>.merge, the merge ref mapped through the remote's fetch
+ * refspecs ("." means a local branch). Done here rather than with
+ * git_revparse("@{upstream}"), whose remote lookup in libgit2 1.5 leaks. */
+static int upstream_of_head(git_oid *out, omen_repo *r)
+{
+	git_repository *repo = omen_repo_git(r);
+	git_reference *head = NULL;
+	git_config *cfg = NULL;
+	git_buf remote = GIT_BUF_INIT, merge = GIT_BUF_INIT;
+	omen_buf key = OMEN_BUF_INIT;
+	fetch_ctx f;
+	const char *target, *branch;
+	int found = 0;
+
+	memset(&f, 0, sizeof(f));
+	if (git_reference_lookup(&head, repo, "HEAD") < 0 ||
+	    git_reference_type(head) != GIT_REFERENCE_SYMBOLIC)
+		goto out;
+	target = git_reference_symbolic_target(head);
+	if (!target || strncmp(target, "refs/heads/", 11))
+		goto out;
+	branch = target + 11;
+	if (git_repository_config_snapshot(&cfg, repo) < 0)
+		goto out;
+	if (omen_buf_printf(&key, "branch.%s.remote", branch) ||
+	    git_config_get_string_buf(&remote, cfg, key.ptr) < 0)
+		goto out;
+	omen_buf_clear(&key);
+	if (omen_buf_printf(&key, "branch.%s.merge", branch) ||
+	    git_config_get_string_buf(&merge, cfg, key.ptr) < 0)
+		goto out;
+	if (!strcmp(remote.ptr, ".")) {
+		found = git_reference_name_to_id(out, repo, merge.ptr) == 0;
+		goto out;
+	}
+	omen_buf_clear(&key);
+	if (omen_buf_printf(&key, "remote.%s.fetch", remote.ptr))
+		goto out;
+	f.name = merge.ptr;
+	git_config_get_multivar_foreach(cfg, key.ptr, NULL, map_fetch, &f);
+	if (f.found)
+		found = git_reference_name_to_id(out, repo, f.dst.ptr) == 0;
+out:
+	git_error_clear();
+	git_buf_dispose(&f.dst);
+	git_buf_dispose(&remote);
+	git_buf_dispose(&merge);
+	omen_buf_free(&key);
+	git_config_free(cfg);
+	git_reference_free(head);
+	return found;
+}
+
 int omen_score_resolve(git_oid **out, size_t *n, char **out_desc, omen_repo *r,
 	const char *const *args, size_t nargs)
 {
@@ -136,12 +212,16 @@ int omen_score_resolve(git_oid **out, size_t *n, char **out_desc, omen_repo *r,
 		*out_desc = NULL;
 	if (nargs == 0) {
 		git_oid up;
-		if (omen_history_resolve(&up, r, "@{upstream}") == 0) {
-			if ((e = strvec_push(&revs, "@{upstream}..HEAD", NULL)))
+		char hex[GIT_OID_HEXSZ + 2];
+		if (upstream_of_head(&up, r)) {
+			/* the range is "@{upstream}..HEAD"; walk it by id */
+			hex[0] = '^';
+			git_oid_tostr(hex + 1, sizeof(hex) - 1, &up);
+			if ((e = strvec_push(&revs, hex, NULL)) || (e = strvec_push(&revs, "HEAD", NULL)) ||
+			    (e = omen_buf_puts(&desc, "@{upstream}..HEAD")))
 				goto out;
 			range = 1;
 		} else {
-			omen_error_clear();
 			if ((e = strvec_push(&revs, "HEAD", NULL)))
 				goto out;
 		}
@@ -153,7 +233,7 @@ int omen_score_resolve(git_oid **out, size_t *n, char **out_desc, omen_repo *r,
 				goto out;
 		}
 	}
-	for (i = 0; i < revs.n; i++)
+	for (i = 0; i < revs.n && (nargs || !range); i++)
 		if ((e = omen_buf_printf(&desc, "%s%s", i ? " " : "", revs.v[i])))
 			goto out;
 	if (range) {
