@@ -5,6 +5,7 @@
 # succeeds, scores the commits of the newest feature branch and shows the
 # pre-push warning for that branch's push, which reaches the remote.
 # (`make check` itself is what runs this test, so it is not run again here.)
+# The clone holds the committed tree: uncommitted edits are not part of it.
 # Takes about three minutes. Run by tests/run-shell.sh with $ROOT.
 set -u
 : "${ROOT:?}"
