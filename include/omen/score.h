@@ -122,9 +122,11 @@ typedef struct {
 	double threshold;        /* < 0: omen.threshold, else the model's */
 	double deadline;         /* omen_now() after which work stops with OMEN_ELIMIT; 0 none */
 	int detail;              /* keep every hunk (explain, sarif); else the top 3 */
-	int lazy;                /* attention and gradients only for commits at or over
-	                          * the threshold (the hook: it reports only those);
-	                          * the others' hunks are weighted by size */
+	int lazy;                /* the hook's fast mode: attention and gradients only
+	                          * for commits at or over the threshold (the others'
+	                          * hunks are weighted by size), and commits at or
+	                          * before the model's head scored against the saved
+	                          * state instead of replaying the history */
 } omen_score_opts;
 #define OMEN_SCORE_OPTS_INIT {NULL, -1.0, 0.0, 0, 0}
 
@@ -138,10 +140,12 @@ void omen_scorer_free(omen_scorer *s);
 const omen_model *omen_scorer_model(const omen_scorer *s);
 float omen_scorer_threshold(const omen_scorer *s);
 const char *omen_scorer_model_path(const omen_scorer *s);
-/* Scores ids (any order; results come oldest first). The metrics state is
- * the model's, then fed every commit between the model's head and each
- * scored commit, oldest first, so each commit's metrics use only commits
- * before it, exactly as in training. */
+/* Scores ids (results come oldest first). The metrics state is the
+ * model's, then fed every commit between the model's head and each scored
+ * commit, oldest first, so each commit's metrics use only commits before
+ * it, exactly as in training. Commits at or before the model's head are
+ * scored by replaying the history from its start (as training did, with the
+ * labels' fix flags), except in lazy mode. Merges are not scored. */
 int omen_scorer_commits(omen_score_set *out, omen_scorer *s, const git_oid *ids, size_t n);
 /* Scores the staged changes (index against HEAD) as a commit with message
  * msg (NULL = empty), state fed up to HEAD. */

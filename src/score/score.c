@@ -28,6 +28,7 @@ struct omen_scorer {
 	double deadline;
 	int detail;
 	int lazy;
+	int approx;              /* scoring against a state that already counts the commit */
 	char *model_path;
 };
 
@@ -330,13 +331,15 @@ void score_reasons(omen_score_result *r, const omen_scorer *s, const omen_sample
 					bj = j;
 				}
 			}
-			if (bj >= 0)
+			/* not when the state already counts this commit (and later
+			 * ones): history-based metrics would mislead */
+			if (bj >= 0 && !s->approx)
 				add_reason(r, cand, &nc, OMEN_REASON_METRIC, bz * 0.9,
 					"unusual %s: %.0f, typical %.1f", metric_phrase(bj), (double)r->metrics[bj],
 					(double)score_typical(s, bj));
 		}
 	}
-	for (i = 0; sm && i < sm->nfiles; i++) {
+	for (i = 0; sm && !s->approx && i < sm->nfiles; i++) {
 		const float *ff = sm->file_facts + (size_t)i * OMEN_NFACTS;
 		double fixes = expm1(ff[OMEN_FF_LOG_FIXES]), changes = expm1(ff[OMEN_FF_LOG_CHANGES]);
 		double ratio = ff[OMEN_FF_FIX_RATIO];
@@ -591,7 +594,31 @@ int score_walk(omen_score_set *set, omen_scorer *s, const git_oid *ids, size_t n
 	}
 	for (i = 0; i < n; i++)
 		left += !w.done[i];
-	if (left) {
+	if (left && s->lazy) {
+		/* 2'. the hook has no time for a replay: score them one by one
+		 * against the saved state (which already counts them: advisory
+		 * and fast rather than exact) */
+		omen_change c;
+		omen_change_init(&c);
+		if ((e = state_clone(&w.state, s)))
+			goto out;
+		for (i = 0; i < n && !e; i++) {
+			if (w.done[i])
+				continue;
+			if ((e = past_deadline(&w)) || (e = omen_history_change(&c, s->repo, &ids[i], &wo)))
+				break;
+			if (c.commit.nparents <= 1) {
+				w.done[i] = 1;
+				s->approx = 1;
+				e = score_one(set, s, &c, w.state, score_is_fix(s, &c.commit), w.sb, &w.ex, NULL);
+				s->approx = 0;
+			}
+			omen_change_clear(&c);
+		}
+		omen_change_free(&c);
+		if (e)
+			goto out;
+	} else if (left) {
 		/* 2. commits at or before the model's head (or a head this
 		 * repository lacks): the saved state already holds them and what
 		 * came after, so replay the history from its start as training
