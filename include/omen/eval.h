@@ -93,6 +93,11 @@ typedef struct {
 	size_t min_train;     /* labelled training commits required (default 100) */
 	double valid_frac;    /* newest share of the training commits used for
 	                         validation and threshold choice (default 0.15) */
+	const int64_t *label_known;  /* optional, per commit: when its label became
+	                         known (an inducing commit: its first fix's time;
+	                         else INT64_MIN). A training commit whose label
+	                         was not yet known at the fold's test start is
+	                         left out of that fold's training. */
 } omen_fold_opts;
 void omen_fold_opts_init(omen_fold_opts *o);
 
@@ -103,6 +108,7 @@ typedef struct {
 	size_t *valid_idx; size_t n_valid;
 	size_t *test_idx;  size_t n_test;
 	size_t pos_train, pos_valid, pos_test;
+	size_t n_late;        /* inducing commits left out: fixed only after test_start */
 } omen_fold;
 
 /* Builds the folds over n commits (time[i], label[i] in {-1,0,1}; index
@@ -196,6 +202,7 @@ typedef struct {
 	omen_train_opts train;        /* per-fold training settings */
 	int bootstrap;                /* AUC resamples (default 1000) */
 	uint64_t seed;                /* bootstrap seed (default 1) */
+	const char *labels_path;      /* for label_known (NULL: every label counts as known) */
 	const char *const *effort_exclude;   /* NULL = omen_effort_exclude_default */
 	size_t n_effort_exclude;
 	int top_risky;                /* riskiest test commits kept (default 10) */
@@ -210,6 +217,11 @@ void omen_eval_opts_init(omen_eval_opts *o);
  * an excluded file's hunks were capped, so the figure is an upper bound. */
 double omen_sample_effort(const omen_sample *s, const char *const *patterns, size_t npat,
 	int *out_partial, int *out_excluded);
+
+/* Per dataset commit, when its label became known (see label_known):
+ * the author time of the earliest fix that traced to it, from the label
+ * file; INT64_MIN for clean or unknown commits. */
+int omen_eval_label_times(int64_t **out, const omen_dataset *ds, const char *labels_path);
 
 /* Builds the folds over ds, trains the model (and its baselines) per fold
  * with omen_model_train_subset, scores each test window and fills out (free

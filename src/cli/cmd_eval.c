@@ -235,6 +235,7 @@ int cmd_eval(int argc, char **argv)
 		rc = EXIT_FATAL;
 		goto done;
 	}
+	o.labels_path = labels;
 	memset(&dso, 0, sizeof(dso));
 	revs[0] = rev;
 	dso.revs = rev ? revs : NULL;

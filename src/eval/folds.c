@@ -51,6 +51,12 @@ static int cmp_tkey(const void *a, const void *b)
 	return (x->i > y->i) - (x->i < y->i);
 }
 
+/* Label of commit i not yet known at time t (fixed only later). */
+static int late(const omen_fold_opts *o, size_t i, int64_t t)
+{
+	return o->label_known && o->label_known[i] != INT64_MIN && o->label_known[i] >= t;
+}
+
 static void ymd(char out[16], int64_t t)
 {
 	time_t tt = (time_t)t;
@@ -127,8 +133,12 @@ int omen_folds_build(omen_fold **out, size_t *out_n, const int64_t *time,
 		fk->test_end = fk->test_start + W;
 		fk->train_end = fk->test_start - gap;
 		for (j = 0; j < nl; j++) {
-			if (lab[j].t < fk->train_end)
-				ntr++;
+			if (lab[j].t < fk->train_end) {
+				if (late(o, lab[j].i, fk->test_start))
+					fk->n_late++;
+				else
+					ntr++;
+			}
 			else if (lab[j].t >= fk->test_start && lab[j].t < fk->test_end)
 				nte++;
 		}
@@ -162,6 +172,8 @@ int omen_folds_build(omen_fold **out, size_t *out_n, const int64_t *time,
 			size_t id = lab[j].i;
 			int pos = label[id] > 0;
 			if (lab[j].t < fk->train_end) {
+				if (late(o, id, fk->test_start))
+					continue;
 				if (fk->n_train < ntr - nv) {
 					fk->train_idx[fk->n_train++] = id;
 					fk->pos_train += pos;

@@ -118,9 +118,10 @@ int omen_eval_write_json(omen_buf *out, const omen_eval_result *r)
 		ymd(d3, f->fold.test_end);
 		omen_buf_printf(b, "%s{\"fold\":%zu,\"train_before\":\"%s\",\"test_from\":\"%s\","
 			"\"test_until\":\"%s\",\"n_train\":%zu,\"pos_train\":%zu,\"n_valid\":%zu,"
-			"\"pos_valid\":%zu,\"n_test\":%zu,\"pos_test\":%zu,\"no_positives\":%s,",
+			"\"pos_valid\":%zu,\"late_labels_left_out\":%zu,\"n_test\":%zu,\"pos_test\":%zu,"
+			"\"no_positives\":%s,",
 			k ? "," : "", k + 1, d1, d2, d3, f->fold.n_train, f->fold.pos_train,
-			f->fold.n_valid, f->fold.pos_valid, f->fold.n_test, f->fold.pos_test,
+			f->fold.n_valid, f->fold.pos_valid, f->fold.n_late, f->fold.n_test, f->fold.pos_test,
 			f->m[OMEN_EV_MODEL].positives == 0 ? "true" : "false");
 		jnum(b, "base_rate", f->base_rate, 1);
 		jnum(b, "seconds", f->seconds, 1);
@@ -144,7 +145,7 @@ int omen_eval_write_json(omen_buf *out, const omen_eval_result *r)
 		omen_buf_put_json_string(b, x->why, strlen(x->why));
 		omen_buf_puts(b, "}");
 	}
-	omen_buf_puts(b, "],\"warnings\":[");
+	omen_buf_puts(b, "],\"notes\":[");
 	s = r->notes.ptr;
 	i = 0;
 	while (s && *s) {
@@ -250,7 +251,7 @@ int omen_eval_write_text(omen_buf *out, const omen_eval_result *r)
 		}
 	}
 	if (r->notes.len)
-		omen_buf_printf(b, "\nwarnings:\n%s", r->notes.ptr);
+		omen_buf_printf(b, "\nnotes:\n%s", r->notes.ptr);
 	return b->ptr ? 0 : omen_error_set(OMEN_ENOMEM, "cannot write the evaluation: out of memory");
 }
 
@@ -531,7 +532,7 @@ int omen_eval_write_html(omen_buf *out, const omen_eval_result *r, const char *t
 	omen_buf_puts(b, ". Rankings that are not probabilities have no Brier score or ECE.</p>\n");
 	if (r->notes.len) {
 		const char *s = r->notes.ptr, *e;
-		omen_buf_puts(b, "<div class=\"note\"><b>Warnings</b><ul>\n");
+		omen_buf_puts(b, "<div class=\"note\"><b>Notes and warnings</b><ul>\n");
 		while (*s) {
 			char line[512];
 			size_t len;

@@ -145,6 +145,10 @@ int omen_eval_finish(omen_eval_result *r)
 				"slice's effort (lines added + deleted outside excluded paths); "
 				"effort-aware figures of this fold lean on it\n",
 				k + 1, f->top_effort_id, 100 * f->top_effort_share);
+		if (f->fold.n_late)
+			omen_buf_printf(&r->notes, "fold %zu: %zu inducing commits fixed only after the "
+				"test window opened were left out of its training (their label was not "
+				"known yet)\n", k + 1, f->fold.n_late);
 		if (n && f->m[OMEN_EV_MODEL].positives == 0)
 			omen_buf_printf(&r->notes, "fold %zu: no inducing commit among its %zu test "
 				"commits, so its auc and recall are undefined\n", k + 1, n);

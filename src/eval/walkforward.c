@@ -9,6 +9,7 @@
 #include <string.h>
 #include "omen/eval.h"
 #include "omen/error.h"
+#include "omen/label.h"
 
 void omen_eval_opts_init(omen_eval_opts *o)
 {
@@ -200,8 +201,42 @@ out:
 	return rc;
 }
 
+int omen_eval_label_times(int64_t **out, const omen_dataset *ds, const char *labels_path)
+{
+	omen_labels *l = NULL;
+	size_t n = omen_dataset_size(ds), i;
+	int64_t *t;
+	int rc;
+	*out = NULL;
+	if ((rc = omen_labels_load(&l, labels_path)) < 0)
+		return rc;
+	t = malloc((n ? n : 1) * sizeof(*t));
+	if (!t) {
+		omen_labels_free(l);
+		return omen_error_set(OMEN_ENOMEM, "cannot read label times: out of memory");
+	}
+	for (i = 0; i < n; i++) {
+		const omen_sample *s = omen_dataset_get(ds, i);
+		const omen_label_rec *rec = s->label > 0 ? omen_labels_get(l, s->id) : NULL;
+		uint32_t j;
+		t[i] = INT64_MIN;
+		if (!rec)
+			continue;
+		for (j = 0; j < rec->nfixes; j++) {
+			const omen_label_rec *fx = omen_labels_get(l, rec->fixes[j]);
+			if (fx && (t[i] == INT64_MIN || fx->time < t[i]))
+				t[i] = fx->time;
+		}
+	}
+	omen_labels_free(l);
+	*out = t;
+	return 0;
+}
+
 int omen_eval_run(omen_eval_result *out, const omen_dataset *ds, const omen_eval_opts *o)
 {
+	omen_fold_opts fo;
+	int64_t *known = NULL;
 	omen_eval_opts def;
 	omen_fold *folds = NULL;
 	size_t nf = 0, n = omen_dataset_size(ds), i, k, npat = 0, risky_cap = 0;
@@ -232,7 +267,13 @@ int omen_eval_run(omen_eval_result *out, const omen_dataset *ds, const omen_eval
 		t[i] = s->time;
 		y[i] = s->label;
 	}
-	if ((rc = omen_folds_build(&folds, &nf, t, y, n, &o->folds)) < 0)
+	fo = o->folds;
+	if (o->labels_path && !fo.label_known) {
+		if ((rc = omen_eval_label_times(&known, ds, o->labels_path)) < 0)
+			goto out;
+		fo.label_known = known;
+	}
+	if ((rc = omen_folds_build(&folds, &nf, t, y, n, &fo)) < 0)
 		goto out;
 	if ((rc = omen_eval_result_init(out, nf)) < 0)
 		goto out;
@@ -260,6 +301,7 @@ int omen_eval_run(omen_eval_result *out, const omen_dataset *ds, const omen_eval
 	out->seconds = omen_now() - t0;
 out:
 	omen_folds_free(folds, nf);
+	free(known);
 	free(t);
 	free(y);
 	return rc;

@@ -432,6 +432,49 @@ static void test_folds_no_positive_fold(void **state)
 	omen_folds_free(f, nf);
 }
 
+/* A commit whose only fix came after the fold's test start looked clean to
+ * anyone standing at that time: such labels stay out of that fold's
+ * training (and counts as left out); a fix older than the test start keeps
+ * the label in. */
+static void test_folds_late_labels(void **state)
+{
+	enum { N = 1000 };
+	int64_t t[N], known[N];
+	int8_t y[N];
+	omen_fold_opts o;
+	omen_fold *f, *g;
+	size_t nf, ng, i, k, late = 0;
+	(void)state;
+	synth_history(t, y, N, 1600000000, DAY, 0, 4);
+	for (i = 0; i < N; i++)
+		known[i] = y[i] == 1 ? t[i] + 30 * DAY : INT64_MIN;
+	/* a few inducing commits fixed very late: at the newest commit */
+	for (i = 100; i < 600; i += 50)
+		if (y[i] == 1) {
+			known[i] = t[N - 1];
+			late++;
+		}
+	omen_fold_opts_init(&o);
+	o.folds = 3;
+	o.fold_days = 60;
+	assert_int_equal(omen_folds_build(&g, &ng, t, y, N, &o), 0);
+	o.label_known = known;
+	assert_int_equal(omen_folds_build(&f, &nf, t, y, N, &o), 0);
+	assert_true(late > 0);
+	for (k = 0; k < nf; k++) {
+		/* 30-day fixes are older than the 90-day gap: only the late ones go */
+		assert_int_equal(f[k].n_late, late);
+		assert_int_equal(f[k].n_train + f[k].n_valid + late, g[k].n_train + g[k].n_valid);
+		for (i = 0; i < f[k].n_train; i++)
+			assert_true(known[f[k].train_idx[i]] < f[k].test_start);
+		for (i = 0; i < f[k].n_valid; i++)
+			assert_true(known[f[k].valid_idx[i]] < f[k].test_start);
+		assert_int_equal(f[k].n_test, g[k].n_test);
+	}
+	omen_folds_free(f, nf);
+	omen_folds_free(g, ng);
+}
+
 /* ---- results and writers ------------------------------------------------------ */
 static void synth_result(omen_eval_result *r, size_t nfolds, int last_no_pos)
 {
@@ -526,6 +569,7 @@ int main(void)
 		cmocka_unit_test(test_folds_basic),
 		cmocka_unit_test(test_folds_too_short),
 		cmocka_unit_test(test_folds_no_positive_fold),
+		cmocka_unit_test(test_folds_late_labels),
 		cmocka_unit_test(test_results_finish),
 	};
 	return cmocka_run_group_tests(tests, NULL, NULL);
