@@ -107,7 +107,23 @@ git push -q origin --delete detached 2>err || fail "deletion failed: $(cat err)"
 unchanged "deletion"
 git checkout -q main
 
-# 6. a push from a shallow clone (no model inside it; omen.model points at ours)
+# 6. the whole history to an empty remote: the newest 200 commits are scored,
+# those the model saw against its saved state (no replay), within the budget
+git init -q --bare "$top/empty.git"
+git remote add empty "$top/empty.git"
+git push -q empty main~20:refs/heads/old 2>err || fail "push of old history failed: $(cat err)"
+grep -q "scoring the newest 200 of" err || fail "no cap notice: $(cat err)"
+only_notices "old history"
+# once pushed, refs/remotes/empty/old hides it: nothing new for another ref
+git -c omen.onRisk=block -c omen.threshold=0 push -q empty main~20:refs/heads/old2 2>err ||
+	fail "already pushed history was scored again: $(cat err)"
+[ ! -s err ] || fail "already pushed history printed: $(cat err)"
+git init -q --bare "$top/empty2.git"
+set +e; git -c omen.onRisk=block -c omen.threshold=0 push -q "$top/empty2.git" main~20:refs/heads/old 2>err; rc=$?; set -e
+[ "$rc" -ne 0 ] || fail "old history with threshold 0 was not blocked"
+[ "$(grep -c 'risky commit' err)" -eq 200 ] || fail "old history: $(grep -c 'risky commit' err) warnings, want 200"
+
+# 7. a push from a shallow clone (no model inside it; omen.model points at ours)
 git clone -q --depth 3 "file://$top/remote.git" "$top/shallow"
 cd "$top/shallow"
 [ -f .git/shallow ] || fail "clone is not shallow"
