@@ -504,7 +504,7 @@ int omen_eval_write_html(omen_buf *out, const omen_eval_result *r, const char *t
 		"body{font-family:sans-serif;margin:24px;color:#222;max-width:1120px}\n"
 		"h1{font-size:22px}h2{font-size:17px;margin-top:28px}\n"
 		"table{border-collapse:collapse;font-size:12px;margin:8px 0}\n"
-		"td,th{border:1px solid #ccc;padding:3px 6px;text-align:right;white-space:nowrap}\n"
+		"td,th{border:1px solid #ccc;padding:3px 6px;text-align:right}td{white-space:nowrap}\n"
 		"td.why{white-space:normal;text-align:left}\n"
 		"td:first-child,th:first-child{text-align:left}\n"
 		"td.na{color:#999}.sw{display:inline-block;width:10px;height:10px;margin-right:5px}\n"
