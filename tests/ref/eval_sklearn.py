@@ -50,6 +50,7 @@ def check(name, what, got, want, tol=1e-9):
 
 
 def case(name, p, y):
+    before = fails
     p = np.asarray(p, dtype=float)
     y = np.asarray(y, dtype=int)
     g = run(p, y)
@@ -77,8 +78,9 @@ def case(name, p, y):
             fails += 1
             print("FAIL %s bin %d should be empty" % (name, b))
     check(name, "ece", g["ece"], ece)
-    print("REF %-28s n=%-6d auc %.6f ap %.6f brier %.6f ece %.6f (sklearn agrees)"
-          % (name, len(p), g["auc"], g["ap"], g["brier"], g["ece"]))
+    print("REF %-28s n=%-6d auc %.6f ap %.6f brier %.6f ece %.6f (%s)"
+          % (name, len(p), g["auc"], g["ap"], g["brier"], g["ece"],
+             "sklearn agrees" if fails == before else "MISMATCH"))
 
 
 rng = np.random.default_rng(20240601)
