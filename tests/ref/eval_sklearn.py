@@ -50,6 +50,7 @@ def check(name, what, got, want, tol=1e-9):
 
 
 def case(name, p, y):
+    global fails
     before = fails
     p = np.asarray(p, dtype=float)
     y = np.asarray(y, dtype=int)
@@ -67,7 +68,6 @@ def case(name, p, y):
     for j, b in enumerate(nz):
         n, mp, mt = g["bins"][b]
         if n != counts[b]:
-            global fails
             fails += 1
             print("FAIL %s bin %d count: omen %d sklearn %d" % (name, b, n, counts[b]))
         check(name, "bin %d mean prediction" % b, mp, prob_pred[j])
