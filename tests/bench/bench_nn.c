@@ -185,6 +185,7 @@ static double memcpy_gbs(size_t n)
 /* ---- 3. dense kernels ---------------------------------------------------------- */
 typedef struct {
 	int T, S, Ci, Co, K, nth;
+	int part; /* 0 fwd+bwd, 1 forward only, 2 input gradient only, 3 weight gradient only */
 	int32_t *off;
 	float *in, *W, *b, *out, *dout, *din, *dW, *db;
 } dense_ctx;
@@ -201,9 +202,13 @@ static float *frand(size_t n, omen_rng *r)
 static void conv_fb(void *p)
 {
 	dense_ctx *c = p;
-	omen_conv1d_forward_mt(c->out, c->in, c->W, c->b, c->off, c->S, c->Ci, c->Co, c->K, c->nth);
-	omen_conv1d_backward_mt(c->din, c->dW, c->db, c->dout, c->in, c->W, c->off, c->S, c->Ci,
-		c->Co, c->K, c->nth);
+	if (c->part <= 1)
+		omen_conv1d_forward_mt(c->out, c->in, c->W, c->b, c->off, c->S, c->Ci, c->Co, c->K,
+			c->nth);
+	if (c->part != 1)
+		omen_conv1d_backward_mt(c->part == 3 ? NULL : c->din,
+			c->part == 2 ? NULL : c->dW, c->part == 2 ? NULL : c->db, c->dout, c->in, c->W,
+			c->off, c->S, c->Ci, c->Co, c->K, c->nth);
 }
 
 static void conv_f(void *p)
@@ -215,9 +220,12 @@ static void conv_f(void *p)
 static void linear_fb(void *p)
 {
 	dense_ctx *c = p;
-	omen_linear_forward_mt(c->out, c->in, c->W, c->b, c->T, c->Ci, c->Co, c->nth);
-	omen_linear_backward_mt(c->din, c->dW, c->db, c->dout, c->in, c->W, c->T, c->Ci, c->Co,
-		c->nth);
+	if (c->part <= 1)
+		omen_linear_forward_mt(c->out, c->in, c->W, c->b, c->T, c->Ci, c->Co, c->nth);
+	if (c->part != 1)
+		omen_linear_backward_mt(c->part == 3 ? NULL : c->din,
+			c->part == 2 ? NULL : c->dW, c->part == 2 ? NULL : c->db, c->dout, c->in, c->W,
+			c->T, c->Ci, c->Co, c->nth);
 }
 
 static void linear_f(void *p)
@@ -281,6 +289,24 @@ static void report_dense(const char *what, bench_fn fwd, bench_fn fb, dense_ctx 
 			"%4.1f%% of %d-core peak %5.1f (wall), %4.1f%% (cpu time), %.2f ms\n", what, nth,
 			gf, 100 * gf / peak, gfb, 100 * gfb / peak, nth, peak,
 			100 * (3 * 2 * macs / cfb / 1e9) / core_peak_cpu, tfb * 1e3);
+	}
+	/* each pass alone, one thread, best CPU time of many back-to-back runs:
+	 * what a core does when it is not shared */
+	{
+		peak_ctx pk = {1, 200000, avx2};
+		double t, tp, cpart[4], cp, core;
+		int part;
+		c->nth = 1;
+		for (part = 1; part <= 3; part++) {
+			c->part = part;
+			time_pair(&t, fb, c, &tp, peak_run, &pk, 0.0, 60, &cpart[part], &cp);
+		}
+		c->part = 0;
+		core = peak_flops_per_run(&pk) / cp / 1e9;
+		printf("%-40s 1 thr, per pass (cpu time): fwd %4.1f%%, din %4.1f%%, dW %4.1f%% "
+			"of 1-core peak %5.1f; sum %4.1f%%\n", "", 100 * 2 * macs / cpart[1] / 1e9 / core,
+			100 * 2 * macs / cpart[2] / 1e9 / core, 100 * 2 * macs / cpart[3] / 1e9 / core, core,
+			100 * 6 * macs / (cpart[1] + cpart[2] + cpart[3]) / 1e9 / core);
 	}
 }
 
