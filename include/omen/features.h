@@ -67,6 +67,9 @@ typedef struct {
 	int32_t max_msg_tokens;
 } omen_caps;
 #define OMEN_CAPS_DEFAULT {32, 16, 256, 64}
+/* Tokens of one commit at most: when its kept hunks would exceed it, each
+ * hunk gets an equal share (never under 32 tokens). */
+#define OMEN_SAMPLE_TOKEN_BUDGET 8192
 
 /* One commit as the model sees it. All arrays are views into a dataset or
  * sample buffer. Offsets are relative to this sample. */

@@ -13,7 +13,7 @@
 #include "features/sample_int.h"
 
 #define DS_MAGIC "OMENDSET"
-#define DS_VERSION 1u
+#define DS_VERSION 2u
 
 typedef struct {
 	char id[48];
@@ -211,11 +211,11 @@ static int cache_key(omen_buf *key, omen_repo *r, const omen_dataset_opts *o,
 	if ((e = omen_history_list(&ids, &n, r, &wo)))
 		return e;
 	e = omen_buf_printf(key, "omen dataset v%u rec%zu commits=%zu ids=%08x labels=%zu:%08x "
-		"caps=%d,%d,%d,%d vocab=%u,%u", DS_VERSION, sizeof(ds_rec), n,
+		"caps=%d,%d,%d,%d budget=%d vocab=%u,%u", DS_VERSION, sizeof(ds_rec), n,
 		omen_crc32(0, ids, n * sizeof(*ids)), labels_bytes->len,
 		omen_crc32(0, labels_bytes->ptr, labels_bytes->len), o->caps.max_files,
 		o->caps.max_hunks_per_file, o->caps.max_tokens_per_hunk, o->caps.max_msg_tokens,
-		OMEN_VOCAB, OMEN_MSG_VOCAB);
+		OMEN_SAMPLE_TOKEN_BUDGET, OMEN_VOCAB, OMEN_MSG_VOCAB);
 	free(ids);
 	return e;
 }

@@ -128,6 +128,7 @@ int omen_sample_build(omen_sample *out, omen_sample_buf *b, const omen_change *c
 	keyed *fsel = NULL, *hsel = NULL;
 	int e = 0, nf, i, j, nfile = (int)c->nfiles, capped = 0;
 	size_t need;
+	int32_t hunk_limit;
 	tok_ctx t;
 
 	if (!caps)
@@ -170,6 +171,21 @@ int omen_sample_build(omen_sample *out, omen_sample_buf *b, const omen_change *c
 	}
 	b->file_off[0] = 0;
 	b->hunk_off[0] = 0;
+	/* a commit-wide token budget shared by its kept hunks, so that one
+	 * huge commit costs at most a few ordinary ones in time and memory */
+	{
+		int64_t kept_hunks = 0;
+		for (i = 0; i < nf; i++) {
+			int64_t nh = c->files[fsel[i].idx].nhunks;
+			if (caps->max_hunks_per_file > 0 && nh > caps->max_hunks_per_file)
+				nh = caps->max_hunks_per_file;
+			kept_hunks += nh;
+		}
+		hunk_limit = caps->max_tokens_per_hunk > 0 ? caps->max_tokens_per_hunk : INT32_MAX;
+		if (kept_hunks > 0 && OMEN_SAMPLE_TOKEN_BUDGET / kept_hunks < hunk_limit)
+			hunk_limit = (int32_t)(OMEN_SAMPLE_TOKEN_BUDGET / kept_hunks > 32
+				? OMEN_SAMPLE_TOKEN_BUDGET / kept_hunks : 32);
+	}
 	for (i = 0; i < nf; i++) {
 		const omen_file *f = &c->files[fsel[i].idx];
 		int nh = (int)f->nhunks, k, kept;
@@ -210,7 +226,7 @@ int omen_sample_build(omen_sample *out, omen_sample_buf *b, const omen_change *c
 			hs[2] = h->old_start; hs[3] = h->old_lines;
 			memset(&t, 0, sizeof(t));
 			t.b = b;
-			t.limit = caps->max_tokens_per_hunk > 0 ? caps->max_tokens_per_hunk : INT32_MAX;
+			t.limit = hunk_limit;
 			for (l = 0; l < h->nlines && !t.full; l++) {
 				const omen_line *ln = &c->lines[h->line_off + l];
 				t.deleted = ln->origin == '-';
