@@ -131,36 +131,41 @@ static int on_line(const git_diff_delta *d, const git_diff_hunk *h, const git_di
 	return 0;
 }
 
-static int apply_pair(lbl_tracer *t, git_repository *repo, const omen_file *df, const omen_file *af,
-	uint32_t ci)
+static int probe_binary(const git_blob *b)
+{
+	size_t n = b ? (size_t)git_blob_rawsize(b) : 0;
+	return b && memchr(git_blob_rawcontent(b), 0, n > 8000 ? 8000 : n) != NULL;
+}
+
+int lbl_apply_blobs(lbl_tracer *t, git_repository *repo, const omen_file *f, uint32_t ci)
 {
 	git_blob *a = NULL, *b = NULL;
 	git_diff_options dopts;
 	pair_diff x;
 	omen_change pc;
-	int e = 0;
+	int e = 0, has_old = f->old_path && !git_oid_is_zero(&f->old_blob);
 	memset(&x, 0, sizeof(x));
 	git_diff_options_init(&dopts, GIT_DIFF_OPTIONS_VERSION);
 	dopts.context_lines = 0;
 	dopts.interhunk_lines = 0;
 	dopts.flags = GIT_DIFF_FORCE_TEXT | GIT_DIFF_INDENT_HEURISTIC;
-	if (git_blob_lookup(&a, repo, &df->old_blob) || git_blob_lookup(&b, repo, &af->new_blob)) {
-		e = 0; /* unreadable: leave the file as added */
-		goto out;
-	}
+	if ((has_old && git_blob_lookup(&a, repo, &f->old_blob)) || git_blob_lookup(&b, repo, &f->new_blob))
+		goto out; /* unreadable: no version */
+	if (probe_binary(a) || probe_binary(b) || (int64_t)git_blob_rawsize(b) > (50ll << 20))
+		goto out; /* binary or too large: not traced, as in the history reader */
 	if (git_diff_blobs(a, NULL, b, NULL, &dopts, NULL, NULL, on_hunk, on_line, &x) < 0 || x.err) {
 		e = x.err ? omen_error_set(OMEN_ENOMEM, "out of memory") : 0;
 		goto out;
 	}
-	/* deleted lines first, then added, within each hunk (libgit2 order) */
 	memset(&pc, 0, sizeof(pc));
-	x.file = *af;
-	x.file.old_path = df->old_path;
-	x.file.old_blob = df->old_blob;
-	x.file.status = OMEN_FILE_RENAMED;
+	x.file = *f;
+	x.file.flags = 0;
 	x.file.hunk_off = 0;
 	x.file.nhunks = (uint32_t)x.nhunks;
-	x.file.old_nlines = df->old_nlines;
+	if (!has_old) {
+		x.file.old_path = NULL;
+		x.file.status = OMEN_FILE_ADDED;
+	}
 	pc.files = &x.file;
 	pc.nfiles = 1;
 	pc.hunks = x.hunks;
@@ -176,6 +181,17 @@ out:
 	free(x.lines);
 	omen_buf_free(&x.text);
 	return e;
+}
+
+static int apply_pair(lbl_tracer *t, git_repository *repo, const omen_file *df, const omen_file *af,
+	uint32_t ci)
+{
+	omen_file f = *af;
+	f.old_path = df->old_path;
+	f.old_blob = df->old_blob;
+	f.old_nlines = df->old_nlines;
+	f.status = OMEN_FILE_RENAMED;
+	return lbl_apply_blobs(t, repo, &f, ci);
 }
 
 int lbl_rename_pairs(lbl_tracer *t, git_repository *repo, const omen_change *c, uint32_t ci)

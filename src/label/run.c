@@ -31,6 +31,7 @@ typedef struct {
 	int32_t parent1;       /* walk index of the first parent, -1 none */
 	unsigned fix_by;
 	uint8_t is_fix, merge, boundary, skipped, walked;
+	uint8_t is_merge_listed; /* > 1 parent in the history: handled by do_merge */
 } lbl_commit;
 
 typedef struct {
@@ -58,6 +59,7 @@ typedef struct {
 	omen_label_summary *sum;
 	omen_progress prog;
 	omen_buf path;          /* scratch for tree walks */
+	size_t next_merge;      /* walk index up to which merges are handled */
 	uint32_t *tips;         /* commits without children: held as if live */
 	size_t ntips;
 	char old_head[OMEN_OID_HEX + 1]; /* head of the previous labels */
@@ -190,17 +192,168 @@ static long resolve_named(lbl_run *R, const char *hex)
 	return i;
 }
 
+/* Reference moves after commit ci (see the top of this file), then frees
+ * the versions no live commit holds. */
+static int ref_step(lbl_run *R, const omen_change *c, long ci, lbl_commit *cm)
+{
+	int e, i, live;
+	long p1;
+	live = cm->pending > 0;
+	p1 = cm->parent1;
+	if (p1 >= 0) {
+		int p1_dies = --R->cs[p1].pending == 0;
+		if (live && p1_dies) {
+			lbl_tracer_step(R->tr, c);
+		} else if (live) {
+			if ((e = tree_ref(R, (uint32_t)ci, +1)))
+				return e;
+		} else if (p1_dies) {
+			if ((e = tree_ref(R, (uint32_t)p1, -1)))
+				return e;
+		}
+	} else if (live) {
+		size_t fi;
+		for (fi = 0; fi < c->nfiles; fi++)
+			if (c->files[fi].new_path && c->files[fi].status != OMEN_FILE_DELETED)
+				lbl_tracer_ref(R->tr, c->files[fi].new_path, &c->files[fi].new_blob, +1);
+	}
+	for (i = 1; i < (int)c->commit.nparents; i++) {
+		long pk = lookup_oid(R, &c->commit.parents[i]);
+		if (pk >= 0 && pk != p1 && R->cs[pk].pending && --R->cs[pk].pending == 0)
+			if ((e = tree_ref(R, (uint32_t)pk, -1)))
+				return e;
+	}
+	lbl_tracer_sweep(R->tr);
+	R->done++;
+	if (R->o->max_bytes > 0 && (int64_t)lbl_tracer_bytes(R->tr) > R->o->max_bytes)
+		return omen_error_set(OMEN_ELIMIT, "label state over the memory limit (%lld bytes)",
+			(long long)R->o->max_bytes);
+	omen_progress_update(&R->prog, R->done, NULL);
+	return 0;
+}
+
+/* ---- merges ----------------------------------------------------------------
+ * The history is walked without merges (their diffs against the first
+ * parent repeat the side branch's work); each merge is handled here, in its
+ * place in the walk order: the files it changes against its first parent
+ * (a tree diff, no blob diffs) reuse the side branch's version when the
+ * merge took it unchanged, and only the others (conflict resolutions, files
+ * changed on both sides) are diffed. */
+static int do_merge(lbl_run *R, uint32_t mi)
+{
+	git_repository *repo = omen_repo_git(R->repo);
+	git_commit *cm = NULL, *p1c = NULL;
+	git_tree *t1 = NULL, *tm = NULL;
+	git_diff *diff = NULL;
+	git_diff_options dopts;
+	omen_change fake;
+	omen_file *files = NULL;
+	git_oid *parents = NULL;
+	size_t nd, i, nf = 0;
+	unsigned k, np;
+	int e = 0;
+	lbl_commit *c = &R->cs[mi];
+	if (git_commit_lookup(&cm, repo, &R->ids[mi]) || git_commit_tree(&tm, cm))
+		goto gitfail;
+	np = git_commit_parentcount(cm);
+	c->time = git_commit_author(cm)->when.time;
+	c->merge = 1;
+	c->walked = 1;
+	if (!(parents = calloc(np + 1, sizeof(*parents)))) {
+		e = omen_error_set(OMEN_ENOMEM, "out of memory");
+		goto out;
+	}
+	for (k = 0; k < np; k++)
+		parents[k] = *git_commit_parent_id(cm, k);
+	if (c->parent1 >= 0 && (git_commit_lookup(&p1c, repo, &R->ids[c->parent1]) || git_commit_tree(&t1, p1c)))
+		goto gitfail;
+	git_diff_options_init(&dopts, GIT_DIFF_OPTIONS_VERSION);
+	dopts.flags = GIT_DIFF_SKIP_BINARY_CHECK;
+	if (git_diff_tree_to_tree(&diff, repo, t1, tm, &dopts))
+		goto gitfail;
+	nd = git_diff_num_deltas(diff);
+	if (!(files = calloc(nd + 1, sizeof(*files)))) {
+		e = omen_error_set(OMEN_ENOMEM, "out of memory");
+		goto out;
+	}
+	for (i = 0; i < nd; i++) {
+		const git_diff_delta *d = git_diff_get_delta(diff, i);
+		omen_file *f = &files[nf];
+		int old_blob = d->old_file.mode == GIT_FILEMODE_BLOB || d->old_file.mode == GIT_FILEMODE_BLOB_EXECUTABLE;
+		int new_blob = d->new_file.mode == GIT_FILEMODE_BLOB || d->new_file.mode == GIT_FILEMODE_BLOB_EXECUTABLE;
+		memset(f, 0, sizeof(*f));
+		if (old_blob && d->status != GIT_DELTA_ADDED) {
+			f->old_path = d->old_file.path;
+			f->old_blob = d->old_file.id;
+		}
+		if (new_blob && d->status != GIT_DELTA_DELETED) {
+			f->new_path = d->new_file.path;
+			f->new_blob = d->new_file.id;
+		}
+		if (!f->old_path && !f->new_path)
+			continue;
+		f->status = !f->old_path ? OMEN_FILE_ADDED : !f->new_path ? OMEN_FILE_DELETED : OMEN_FILE_MODIFIED;
+		nf++;
+		if (f->new_path && !lbl_tracer_get(R->tr, f->new_path, &f->new_blob, NULL)) {
+			uint32_t nold = 0;
+			if (f->old_path && lbl_tracer_get(R->tr, f->old_path, &f->old_blob, &nold))
+				f->old_nlines = nold;
+			else
+				f->old_path = NULL; /* no state for the old side: a new file */
+			if ((e = lbl_apply_blobs(R->tr, repo, f, mi)))
+				goto out;
+		}
+	}
+	memset(&fake, 0, sizeof(fake));
+	fake.commit.nparents = np;
+	fake.commit.parents = parents;
+	fake.files = files;
+	fake.nfiles = nf;
+	e = ref_step(R, &fake, (long)mi, c);
+	goto out;
+gitfail:
+	{
+		const git_error *ge = git_error_last();
+		char hex[OMEN_OID_HEX + 1];
+		git_oid_tostr(hex, sizeof(hex), &R->ids[mi]);
+		e = omen_error_set(OMEN_EGIT, "cannot read merge '%s': %s", hex,
+			ge && ge->message ? ge->message : "libgit2 error");
+	}
+out:
+	git_diff_free(diff);
+	git_tree_free(t1);
+	git_tree_free(tm);
+	git_commit_free(p1c);
+	git_commit_free(cm);
+	free(files);
+	free(parents);
+	return e;
+}
+
+/* Handles the merges that come before walk index upto. */
+static int catch_up(lbl_run *R, size_t upto)
+{
+	int e;
+	for (; R->next_merge < upto; R->next_merge++) {
+		size_t m = R->next_merge;
+		if (R->cs[m].is_merge_listed && !R->cs[m].walked && (e = do_merge(R, (uint32_t)m)))
+			return e;
+	}
+	return 0;
+}
+
 static int walk_cb(const omen_change *c, void *payload)
 {
 	lbl_run *R = payload;
 	long ci = lookup(R, c->commit.hex);
 	lbl_commit *cm;
 	char named[MAX_NAMED][OMEN_OID_HEX + 1];
-	int nnamed = 0, e, i, live;
+	int nnamed = 0, e, i;
 	unsigned by;
-	long p1;
 	if (ci < 0)
 		return omen_error_set(OMEN_ERROR, "walk gave commit '%s' that the listing did not", c->commit.hex);
+	if ((e = catch_up(R, (size_t)ci)))
+		return e;
 	cm = &R->cs[ci];
 	if (cm->walked)
 		return 0; /* restored from the saved state */
@@ -257,39 +410,7 @@ static int walk_cb(const omen_change *c, void *payload)
 		return e;
 	if ((e = lbl_tracer_apply(R->tr, c, (uint32_t)ci)))
 		return e;
-	/* references: see the top of this file */
-	live = cm->pending > 0;
-	p1 = cm->parent1;
-	if (p1 >= 0) {
-		int p1_dies = --R->cs[p1].pending == 0;
-		if (live && p1_dies) {
-			lbl_tracer_step(R->tr, c);
-		} else if (live) {
-			if ((e = tree_ref(R, (uint32_t)ci, +1)))
-				return e;
-		} else if (p1_dies) {
-			if ((e = tree_ref(R, (uint32_t)p1, -1)))
-				return e;
-		}
-	} else if (live) {
-		size_t fi;
-		for (fi = 0; fi < c->nfiles; fi++)
-			if (c->files[fi].new_path && c->files[fi].status != OMEN_FILE_DELETED)
-				lbl_tracer_ref(R->tr, c->files[fi].new_path, &c->files[fi].new_blob, +1);
-	}
-	for (i = 1; i < (int)c->commit.nparents; i++) {
-		long pk = lookup_oid(R, &c->commit.parents[i]);
-		if (pk >= 0 && pk != p1 && R->cs[pk].pending && --R->cs[pk].pending == 0)
-			if ((e = tree_ref(R, (uint32_t)pk, -1)))
-				return e;
-	}
-	lbl_tracer_sweep(R->tr);
-	R->done++;
-	if (R->o->max_bytes > 0 && (int64_t)lbl_tracer_bytes(R->tr) > R->o->max_bytes)
-		return omen_error_set(OMEN_ELIMIT, "label state over the memory limit (%lld bytes)",
-			(long long)R->o->max_bytes);
-	omen_progress_update(&R->prog, R->done, NULL);
-	return 0;
+	return ref_step(R, c, ci, cm);
 }
 
 /* ---- graph pre-pass ---------------------------------------------------------- */
@@ -314,6 +435,7 @@ static int load_graph(lbl_run *R)
 			return omen_error_set(OMEN_EGIT, "cannot read commit: %s", ge ? ge->message : "");
 		}
 		np = git_commit_parentcount(cm);
+		R->cs[i].is_merge_listed = np > 1;
 		for (k = 0; k < np; k++) {
 			long p = lookup_oid(R, git_commit_parent_id(cm, k));
 			if (p < 0)
@@ -961,7 +1083,10 @@ int omen_label_run(omen_label_summary *sum, omen_repo *r, const omen_label_opts 
 		sum->reused_commits = R.n - sum->new_commits;
 	}
 	omen_progress_start(&R.prog, "label", R.n);
+	wo.include_merges = 0; /* merges: do_merge */
 	e = omen_history_walk(r, &wo, walk_cb, &R);
+	if (!e)
+		e = catch_up(&R, R.n);
 	omen_progress_end(&R.prog);
 	if (e)
 		goto out;
