@@ -203,6 +203,10 @@ int omen_labels_parse(omen_labels **out, const char *name, const char *data, siz
 	omen_cursor_init(&cur, data, n);
 	while (omen_cursor_line(&cur, &line, &len)) {
 		lineno++;
+		if (memchr(line, '\0', len)) {
+			e = omen_error_set(OMEN_ECORRUPT, "bad label file '%s': line %zu: NUL byte", name, lineno);
+			goto out;
+		}
 		if (lineno == 1) {
 			if ((e = parse_header(l, name, line, len)))
 				goto out;
@@ -210,10 +214,6 @@ int omen_labels_parse(omen_labels **out, const char *name, const char *data, siz
 		}
 		if (len == 0 && cur.n == 0)
 			break;
-		if (memchr(line, '\0', len)) {
-			e = omen_error_set(OMEN_ECORRUPT, "bad label file '%s': line %zu: NUL byte", name, lineno);
-			goto out;
-		}
 		if ((e = parse_record(l, name, lineno, line, len)))
 			goto out;
 	}
