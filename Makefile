@@ -54,8 +54,9 @@ $(BUILD)/%.o: %.c
 	$(CC) $(ALL_CFLAGS) -MMD -MP -c $< -o $@
 
 # src/nn/ kernels: -O3 so the register-blocked tiles unroll (AVX2 is chosen
-# at run time inside the code, so the objects still run on any x86-64).
-$(BUILD)/src/nn/%.o: ALL_CFLAGS += -O3
+# at run time inside the code, so the objects still run on any x86-64);
+# -fno-math-errno lets sqrtf vectorise (no value changes: errno only).
+$(BUILD)/src/nn/%.o: ALL_CFLAGS += -O3 -fno-math-errno
 
 $(BUILD)/libomen.a: $(LIB_OBJ)
 	@rm -f $@

@@ -34,16 +34,18 @@ void omen_adamw_step(float *w, const float *g, float *m, float *v, size_t n,
 	float keep = (float)(1.0 - (double)o->lr * (double)o->weight_decay);
 	float b1 = o->beta1, b2 = o->beta2;
 	float a1 = (float)(1.0 - (double)b1), a2 = (float)(1.0 - (double)b2);
+	float eps = o->eps;
 	size_t i;
 
+	/* branch-free so the loop vectorises; a factor of exactly 1 leaves an
+	 * exempt weight unchanged bit for bit */
 	for (i = 0; i < n; i++) {
-		float gi = g[i], denom;
-		if (!decay || decay[i])
-			w[i] *= keep;
-		m[i] = m[i] * b1 + gi * a1;
-		v[i] = v[i] * b2 + gi * gi * a2;
-		denom = sqrtf(v[i]) / bc2s + o->eps;
-		w[i] += -step * (m[i] / denom);
+		float gi = g[i], kd = (!decay || decay[i]) ? keep : 1.0f, mi, vi;
+		mi = m[i] * b1 + gi * a1;
+		vi = v[i] * b2 + gi * gi * a2;
+		m[i] = mi;
+		v[i] = vi;
+		w[i] = w[i] * kd + -step * (mi / (sqrtf(vi) / bc2s + eps));
 	}
 }
 
@@ -69,13 +71,20 @@ float omen_clip_grad_norm(float *g, size_t n, float max_norm)
 int omen_all_finite(const float *x, size_t n)
 {
 	size_t i;
-	/* no early exit in the inner block, so the loop vectorises */
+	/* x*0 is NaN for NaN and +-Inf, 0 otherwise; eight lanes and no early
+	 * exit inside a block, so the loop vectorises */
 	for (i = 0; i < n; i += 1024) {
 		size_t j, e = n - i < 1024 ? n : i + 1024;
-		float acc = 0.0f;
-		for (j = i; j < e; j++)
-			acc += x[j] * 0.0f; /* NaN for NaN and for +-Inf, 0 otherwise */
-		if (acc != acc)
+		float acc[8] = {0, 0, 0, 0, 0, 0, 0, 0};
+		int l;
+		for (j = i; j + 8 <= e; j += 8)
+			for (l = 0; l < 8; l++)
+				acc[l] += x[j + l] * 0.0f;
+		for (; j < e; j++)
+			acc[0] += x[j] * 0.0f;
+		for (l = 1; l < 8; l++)
+			acc[0] += acc[l];
+		if (acc[0] != acc[0])
 			return 0;
 	}
 	return 1;

@@ -391,7 +391,21 @@ static void maxp_f(void *p)
 }
 
 /* The yardstick copies bytes/2 (so it too moves `bytes`, read + written). */
-static void report_mem(const char *what, bench_fn fn, mem_ctx *c, double bytes)
+typedef struct {
+	float *w, *g, *m, *v;
+	uint8_t *decay;
+	size_t n;
+	int t;
+} adam_ctx;
+
+static void adam_run(void *p)
+{
+	adam_ctx *a = p;
+	omen_adamw o = OMEN_ADAMW_DEFAULT;
+	omen_adamw_step(a->w, a->g, a->m, a->v, a->n, &o, ++a->t, a->decay);
+}
+
+static void report_mem(const char *what, bench_fn fn, void *c, double bytes)
 {
 	copy_ctx cp;
 	double t, tc, ct, cc, gbs, bw;
@@ -475,6 +489,21 @@ int main(void)
 		3.0 * rows * m.D * 4 + (double)m.S * m.D * 4 + rows * 4);
 	report_mem("maxpool fwd R=65536 C=64 sets of 4..64", maxp_f, &m,
 		1.0 * rows * m.D * 4 + 2.0 * m.S * m.D * 4);
+	{
+		adam_ctx a;
+		size_t k;
+		a.n = (size_t)1 << 21; /* 2M parameters: an embedding table and the rest */
+		a.w = frand(a.n, &r); a.g = frand(a.n, &r); a.m = frand(a.n, &r); a.v = frand(a.n, &r);
+		a.decay = malloc(a.n);
+		for (k = 0; k < a.n; k++) {
+			a.v[k] = a.v[k] * a.v[k];
+			a.decay[k] = (uint8_t)(k % 7 != 0);
+		}
+		a.t = 0;
+		report_mem("adamw step n=2M (w,m,v read+written; g, mask read)", adam_run, &a,
+			(double)a.n * (6 * 4 + 4 + 1));
+		free(a.w); free(a.g); free(a.m); free(a.v); free(a.decay);
+	}
 	free(m.ids); free(m.W); free(m.dW); free(m.out); free(m.dout); free(m.din);
 	free(m.attn); free(m.q); free(m.arg); free(m.off);
 	return 0;
