@@ -107,7 +107,8 @@ typedef struct {
 void omen_adamw_step(float *w, const float *g, float *m, float *v, size_t n,
 	const omen_adamw *o, int t, const uint8_t *decay);
 /* Global L2 norm of g; when max_norm > 0 and norm > max_norm, scales g by
- * max_norm / (norm + 1e-6) (torch.nn.utils.clip_grad_norm_). Returns the
+ * max_norm / (norm + 1e-6) (torch.nn.utils.clip_grad_norm_, which scales
+ * exactly when that factor is < 1, i.e. norm + 1e-6 > max_norm). Returns the
  * norm before clipping; NaN/Inf norm is returned unchanged (caller checks). */
 float omen_clip_grad_norm(float *g, size_t n, float max_norm);
 /* 1 when every value is finite. */
