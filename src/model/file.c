@@ -15,6 +15,7 @@
  *
  * The loader trusts no length: every read goes through an omen_cursor and
  * the tensor table is recomputed from the dimensions and compared. */
+#include <errno.h>
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
@@ -192,8 +193,10 @@ int omen_model_save(const omen_model *m, const char *path)
 	if ((e = omen_atomic_open(&f, path)))
 		goto out;
 	if (fwrite(img.ptr, 1, img.len, f.fp) != img.len || fflush(f.fp)) {
+		int err = errno;
 		omen_atomic_abort(&f);
-		e = omen_error_set(OMEN_EIO, "cannot write model '%s': write failed", path);
+		e = omen_error_set(OMEN_EIO, "cannot write model '%s': %s (the old model is kept)", path,
+			strerror(err ? err : EIO));
 		goto out;
 	}
 	if ((e = omen_atomic_commit(&f)))

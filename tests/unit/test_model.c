@@ -12,6 +12,8 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <signal.h>
+#include <sys/resource.h>
 #include <unistd.h>
 #include <cmocka.h>
 #include "omen/omen.h"
@@ -332,8 +334,28 @@ static void test_file_format(void **state)
 			omen_buf_free(&img);
 		}
 	}
-	/* a failed save (directory missing and not creatable) keeps the old file */
+	/* a failed save (directory missing and not creatable) is an error */
 	assert_int_not_equal(omen_model_save(m, "/proc/omen-no/model.omen"), 0);
+	/* disk full while saving: the file-size limit makes the write fail
+	 * part way (EFBIG, as ENOSPC would); the old model stays whole */
+	{
+		struct rlimit old_lim, lim;
+		omen_model *m2, *back;
+		assert_int_equal(omen_model_save(m, file), 0);
+		assert_int_equal(omen_model_new(&m2, 8, 16, 77), 0);
+		signal(SIGXFSZ, SIG_IGN);
+		assert_int_equal(getrlimit(RLIMIT_FSIZE, &old_lim), 0);
+		lim = old_lim;
+		lim.rlim_cur = 65536;
+		assert_int_equal(setrlimit(RLIMIT_FSIZE, &lim), 0);
+		assert_int_equal(omen_model_save(m2, file), OMEN_EIO);
+		assert_int_equal(setrlimit(RLIMIT_FSIZE, &old_lim), 0);
+		assert_int_equal(omen_model_load(&back, file), 0);
+		assert_memory_equal(omen_model_params(back), omen_model_params(m),
+			omen_model_nparams(m) * sizeof(float));
+		omen_model_free(back);
+		omen_model_free(m2);
+	}
 	unlink(file);
 	rmdir(path);
 	omen_model_free(m);
