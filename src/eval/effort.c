@@ -211,9 +211,11 @@ omen_effort_scores omen_effort(const double *score, const int *y, const double *
 			s.effort_at_20 = E > 0 ? ce / E : NAN;
 		}
 	}
-	s.commits_at_20 = (double)k20 / (double)n;
-	if (P > 0)
-		s.recall_at_20 = (double)f20 / (double)P;
+	if (E > 0) {   /* without any effort there is no budget to share */
+		s.commits_at_20 = (double)k20 / (double)n;
+		if (P > 0)
+			s.recall_at_20 = (double)f20 / (double)P;
+	}
 	if (P > 0 && E > 0) {
 		double am, ao, aw;
 		opt = inspection_order(score, y, effort, n, 1);

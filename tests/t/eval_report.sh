@@ -22,7 +22,18 @@ grep -q "history too short for 40 folds of 60 days" ../short.err || { cat ../sho
 grep -q "labelled history: [0-9]* commits over [0-9]* days" ../short.err || { cat ../short.err; exit 1; }
 
 "$OMEN" eval --folds 3 --epochs 4 --bootstrap 200 --format json --html ../report.html >../eval.json
+# omen.effortExclude replaces the default list: excluding every file leaves
+# no effort, so the effort-aware figures are undefined (null), not 0 or 1
+GIT_CONFIG_PARAMETERS="'omen.effortExclude'='*'" "$OMEN" eval --folds 2 --epochs 1 \
+	--bootstrap 0 --format json >../noeffort.json
 cd ..
+$py - noeffort.json <<'PY'
+import json, sys
+r = json.load(open(sys.argv[1]))
+m = r["pooled"]["methods"]["model"]
+assert m["recall_at_20_effort"] is None and m["popt"] is None, m
+assert m["auc"] is not None
+PY
 $py - eval.json <<'PY'
 import json, math, sys
 r = json.load(open(sys.argv[1]))

@@ -108,10 +108,16 @@ static void test_effort_extremes(void **state)
 	/* no inducing commit: recall and Popt undefined */
 	{
 		int none[5] = {0};
+		double zero[5] = {0};
 		s = omen_effort(ex_score, none, ex_eff, 5);
 		assert_true(isnan(s.recall_at_20));
 		assert_true(isnan(s.effort_at_20));
 		assert_true(isnan(s.popt));
+		/* every path excluded: no effort, no effort-aware figure */
+		s = omen_effort(ex_score, ex_y, zero, 5);
+		assert_true(isnan(s.recall_at_20) && isnan(s.commits_at_20));
+		assert_true(isnan(s.effort_at_20) && isnan(s.popt));
+		assert_int_equal(s.false_alarms_first, 1);
 	}
 }
 
