@@ -438,6 +438,10 @@ int main(void)
 	peak2 = peak_gflops(2, avx2);
 	printf("peak FMA (%s, 12 independent chains): 1 thread %.1f GFLOP/s, 2 threads %.1f GFLOP/s\n",
 		avx2 ? "AVX2 256-bit" : "portable", peak1, peak2);
+	if (peak2 < 1.5 * peak1)
+		printf("note: two threads reached only %.2fx one thread: the machine's second core is "
+			"busy with other work, so read the cpu-time shares for two threads\n",
+			peak2 / peak1);
 	bw_big = memcpy_gbs((size_t)256 << 20);
 	bw_mid = memcpy_gbs((size_t)16 << 20);
 	bw_small = memcpy_gbs((size_t)1 << 20);
