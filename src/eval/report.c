@@ -241,6 +241,10 @@ int omen_eval_write_text(omen_buf *out, const omen_eval_result *r)
 	omen_buf_puts(b, "r@20%e recall at 20% effort, e@20%r effort at 20% recall, c@20%e share "
 		"of commits inspected at 20% effort, fa1st false alarms before the first hit; "
 		"effort = lines added + deleted\n");
+	omen_buf_puts(b, "base_rate is one constant per fold (its training share of inducing "
+		"commits): within a fold it ties every commit, so its AUC is 0.5 and its ranking, ties "
+		"broken smaller change first, is that of smallest_first; pooled, it ranks the folds by "
+		"their rates\n");
 	if (r->nrisky) {
 		omen_buf_puts(b, "\nriskiest test commits:\n");
 		for (i = 0; i < r->nrisky; i++) {
@@ -529,7 +533,11 @@ int omen_eval_write_html(omen_buf *out, const omen_eval_result *r, const char *t
 		omen_buf_puts(b, "n/a");
 	else
 		omen_buf_printf(b, "%.4f", r->pooled[OMEN_EV_BASE].brier_base);
-	omen_buf_puts(b, ". Rankings that are not probabilities have no Brier score or ECE.</p>\n");
+	omen_buf_puts(b, ". Rankings that are not probabilities have no Brier score or ECE. "
+		"The base rate is one constant per fold (its training share of inducing commits): "
+		"within a fold it ties every commit, so its AUC is 0.5 and its inspection order, ties "
+		"broken smaller change first, is that of smallest change first; pooled over the folds "
+		"it ranks the folds by their rates.</p>\n");
 	if (r->notes.len) {
 		const char *s = r->notes.ptr, *e;
 		omen_buf_puts(b, "<div class=\"note\"><b>Notes and warnings</b><ul>\n");
