@@ -279,8 +279,10 @@ static int do_merge(lbl_run *R, uint32_t mi)
 	for (i = 0; i < nd; i++) {
 		const git_diff_delta *d = git_diff_get_delta(diff, i);
 		omen_file *f = &files[nf];
-		int old_blob = d->old_file.mode == GIT_FILEMODE_BLOB || d->old_file.mode == GIT_FILEMODE_BLOB_EXECUTABLE;
-		int new_blob = d->new_file.mode == GIT_FILEMODE_BLOB || d->new_file.mode == GIT_FILEMODE_BLOB_EXECUTABLE;
+		int old_blob = d->old_file.mode == GIT_FILEMODE_BLOB || d->old_file.mode == GIT_FILEMODE_BLOB_EXECUTABLE ||
+			d->old_file.mode == GIT_FILEMODE_LINK;
+		int new_blob = d->new_file.mode == GIT_FILEMODE_BLOB || d->new_file.mode == GIT_FILEMODE_BLOB_EXECUTABLE ||
+			d->new_file.mode == GIT_FILEMODE_LINK; /* symlinks: as the history reader */
 		memset(f, 0, sizeof(*f));
 		if (old_blob && d->status != GIT_DELTA_ADDED) {
 			f->old_path = d->old_file.path;
