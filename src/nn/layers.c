@@ -243,7 +243,10 @@ NN_CLONES void omen_attnpool_forward(float *out, float *attn, const float *in, c
 		if (off[s + 1] <= off[s])
 			continue;
 		for (r = off[s]; r < off[s + 1]; r++) {
-			float e = dot8(in + (size_t)r * C, q, C) * scale;
+			float e;
+			if (r + 6 < off[S])
+				prefetch_row(in + (size_t)(r + 6) * C, C, 0);
+			e = dot8(in + (size_t)r * C, q, C) * scale;
 			attn[r] = e;
 			if (e > mx)
 				mx = e;
@@ -311,6 +314,8 @@ void omen_maxpool_forward(float *out, int32_t *arg, const float *in,
 			a[c] = off[s];
 		for (r = off[s] + 1; r < off[s + 1]; r++) {
 			const float *x = in + (size_t)r * C;
+			if (r + 6 < off[S])
+				prefetch_row(in + (size_t)(r + 6) * C, C, 0);
 			c = 0;
 #ifdef __SSE2__
 			/* strictly greater replaces: the first maximum wins */
