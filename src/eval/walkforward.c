@@ -39,7 +39,9 @@ static void explain_text(char *out, size_t cap, const omen_sample *s, const omen
 		if (best < 0)
 			break;
 		used[k] = best;
-		len += (size_t)snprintf(out + len, len < cap ? cap - len : 0, "%s%s %.0f%%",
+		if (len >= cap)
+			break;
+		len += (size_t)snprintf(out + len, cap - len, "%s%s %.0f%%",
 			k ? ", " : "files: ", s->file_path && s->file_path[best] ? s->file_path[best] : "?",
 			100.0 * ex->file_attn[best]);
 	}
