@@ -86,8 +86,8 @@ NN_CLONES void omen_embag_forward(float *out, const float *W, const uint32_t *id
 		memset(o, 0, sizeof(float) * (size_t)D);
 		for (r = off[s]; r < off[s + 1]; r++) {
 			const float *w = W + (size_t)ids[r] * D;
-			if (r + 8 < off[S])
-				prefetch_row(W + (size_t)ids[r + 8] * D, D, 0);
+			if (r + 16 < off[S])
+				prefetch_row(W + (size_t)ids[r + 16] * D, D, 0);
 			for (j = 0; j < D; j++)
 				o[j] += w[j];
 		}
