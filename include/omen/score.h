@@ -97,6 +97,8 @@ typedef struct {
 	int is_fix;
 	int capped;
 	int32_t la, ld, nfiles, nhunks;
+	int32_t nskipped;            /* files over omen.maxBlobBytes: lines not read */
+	const char *skipped_path;    /* the first of them, owned by the set */
 	float metrics[OMEN_NMETRICS];
 	int nreasons;
 	omen_reason reasons[2];

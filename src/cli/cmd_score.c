@@ -138,6 +138,17 @@ int cmd_score(int argc, char **argv)
 				nids - set.n, nids - set.n == 1 ? "" : "s");
 	}
 	set.threshold = omen_scorer_threshold(sc);
+	for (i = 0; i < set.n; i++) {
+		const omen_score_result *r = &set.v[i];
+		int st = strspn(r->id, "0") == strlen(r->id);
+		if (r->nskipped)
+			fprintf(stderr, "git omen: notice: %.10s: '%s'%s is over omen.maxBlobBytes; its lines "
+				"were not read\n", st ? "staged" : r->id, r->skipped_path ? r->skipped_path : "",
+				r->nskipped > 1 ? " (and others)" : "");
+		if (r->capped)
+			fprintf(stderr, "git omen: notice: %.10s: a large commit, capped: the model saw only "
+				"its largest files and hunks\n", st ? "staged" : r->id);
+	}
 	if (!strcmp(format, "json")) {
 		e = omen_score_write_json(&out, &set, omen_scorer_model_path(sc));
 	} else if (!strcmp(format, "sarif")) {

@@ -429,6 +429,15 @@ int score_one(omen_score_set *set, const omen_scorer *s, const omen_change *c,
 	r->nfiles = (int32_t)c->nfiles;
 	r->nhunks = (int32_t)c->nhunks;
 	memcpy(r->metrics, sm.metrics, sizeof(r->metrics));
+	for (k = 0; k < c->nfiles; k++) {
+		const omen_file *cf = &c->files[k];
+		if (!(cf->flags & OMEN_FILE_TOO_LARGE))
+			continue;
+		if (!r->nskipped++) {
+			const char *p = cf->new_path ? cf->new_path : cf->old_path ? cf->old_path : "";
+			r->skipped_path = omen_arena_strndup(&set->arena, p, strlen(p));
+		}
+	}
 	r->band = r->prob >= s->threshold ? OMEN_BAND_HIGH :
 		r->prob >= s->threshold / 2 ? OMEN_BAND_MEDIUM : OMEN_BAND_LOW;
 	first = set->nhunks;
