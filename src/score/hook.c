@@ -3,6 +3,7 @@
  * under OMEN_HOOK_CHAINED_NAME so the shim runs it after ours; uninstall
  * renames it back, so its bytes and mode come back unchanged. */
 #include <errno.h>
+#include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 #include <sys/stat.h>
@@ -116,15 +117,22 @@ static int exists(const char *path)
 	return omen_error_set(OMEN_EIO, "cannot read '%s': %s", path, strerror(errno));
 }
 
+/* Ours when the mark is one of the first lines (read at most 4 KiB: a
+ * foreign hook may be any size, even a binary). */
 static int is_ours(int *out, const char *path)
 {
-	omen_buf b = OMEN_BUF_INIT;
-	int e;
+	char buf[4097];
+	size_t n;
+	FILE *fp = fopen(path, "rb");
 	*out = 0;
-	if ((e = omen_file_read(&b, path, 1 << 20)))
-		return e;
-	*out = b.ptr && strstr(b.ptr, "\n" OMEN_HOOK_MARK "\n") != NULL;
-	omen_buf_free(&b);
+	if (!fp && errno == ENOENT)
+		return 0;   /* a dangling symlink: someone else's */
+	if (!fp)
+		return omen_error_set(OMEN_EIO, "cannot read hook '%s': %s", path, strerror(errno));
+	n = fread(buf, 1, sizeof(buf) - 1, fp);
+	fclose(fp);
+	buf[n] = '\0';
+	*out = strstr(buf, "\n" OMEN_HOOK_MARK "\n") != NULL;
 	return 0;
 }
 
