@@ -42,6 +42,7 @@ git remote add origin "$top/remote.git"
 git push -q origin main 2>/dev/null   # no hook yet
 git fetch -q origin
 "$OMEN" hook install >/dev/null
+git config omen.hookTimeout 600000   # no check may hinge on the machine's speed
 
 mark() { before_w=$(snap .git); before_r=$(snap "$top/remote.git"); }
 mark

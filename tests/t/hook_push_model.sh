@@ -26,6 +26,9 @@ git -C "$top/remote.git" update-ref refs/heads/main "$(git rev-parse main~10)"
 git remote add origin "$top/remote.git"
 git fetch -q origin
 "$OMEN" hook install >/dev/null
+# a generous budget so that a slow or busy machine (or a sanitizer build)
+# does not turn a check into the timeout's let-through; section 4 tests it
+git config omen.hookTimeout 600000
 
 snap() { # dir: fingerprints of files a push must leave alone
 	(cd "$1" && find . -type f ! -path '*/objects/*' ! -path '*/refs/*' ! -path '*/logs/*' \
@@ -128,6 +131,7 @@ git clone -q --depth 3 "file://$top/remote.git" "$top/shallow"
 cd "$top/shallow"
 [ -f .git/shallow ] || fail "clone is not shallow"
 "$OMEN" hook install >/dev/null
+git config omen.hookTimeout 600000
 git checkout -q -b from-shallow
 echo "shallow work" >>README.md && git commit -q -am "Change made in a shallow clone"
 git -c omen.model="$top/work/.git/omen/model.omen" push -q origin from-shallow 2>err ||
