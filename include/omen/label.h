@@ -105,6 +105,7 @@ typedef struct {
 	int mode;                  /* OMEN_LABEL_MODE_* */
 	size_t new_commits;        /* commits added since the previous run (mode GREW) */
 	size_t reused_commits;     /* commits whose pass state was reused (0 = full pass) */
+	size_t state_peak_bytes;   /* peak of the tracer's origin arrays plus the commit table */
 	char head[OMEN_OID_HEX + 1];
 	int64_t newest_time, window_cut; /* newest author time, clean cut-off */
 } omen_label_summary;

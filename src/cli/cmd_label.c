@@ -87,13 +87,13 @@ static void print_json(const omen_label_summary *s)
 		"\"fixes_add_only\":%zu,\"add_only_share\":%.4f,\"fixes_skipped_large\":%zu,"
 		"\"named_links\":%zu,\"latency_days\":[%.3f,%.3f,%.3f],\"shallow\":%s,\"boundary\":%zu,"
 		"\"list_entries\":%zu,\"list_unmatched\":%zu,\"new_commits\":%zu,\"reused_commits\":%zu,"
-		"\"seconds\":%.3f}\n",
+		"\"state_peak_bytes\":%zu,\"seconds\":%.3f}\n",
 		mode_name(s->mode), s->head, s->commits, s->merges, s->inducing, s->clean, s->unknown,
 		s->fixes, s->fixes_by_pattern, s->fixes_by_list, s->fixes_by_issue, s->fixes_by_named,
 		s->fixes_traced, s->traced_lines, s->fixes_add_only, share(s->fixes_add_only, s->fixes),
 		s->fixes_skipped_large, s->named_links, s->latency_days_q[0], s->latency_days_q[1],
 		s->latency_days_q[2], s->shallow ? "true" : "false", s->boundary, s->list_entries,
-		s->list_unmatched, s->new_commits, s->reused_commits, s->seconds);
+		s->list_unmatched, s->new_commits, s->reused_commits, s->state_peak_bytes, s->seconds);
 }
 
 static int parse_count(const char *v, int64_t *out)
