@@ -22,9 +22,8 @@ for b in "$ROOT"/fixtures/label/*.sh; do
 done
 if [ -n "$OMEN_REF_REPO" ]; then
 	echo "real history: $(basename "$OMEN_REF_REPO")"
-	(cd "$OMEN_REF_REPO" && "$OMEN" label -o "$PWD/../omen-ref-labels.jsonl" --dump-origins "$OLDPWD/real.dump" >/dev/null) ||
-		(cd "$OMEN_REF_REPO" && "$OMEN" label -o /tmp/omen-ref-labels.$$.jsonl --dump-origins "$OLDPWD/real.dump" >/dev/null)
-	rm -f /tmp/omen-ref-labels.$$.jsonl
+	here=$PWD
+	(cd "$OMEN_REF_REPO" && "$OMEN" label --full -o "$here/real-labels.jsonl" --dump-origins "$here/real.dump" >/dev/null)
 	"$py" "$lib/blame_compare.py" "$OMEN_REF_REPO" real.dump --sample "${OMEN_REF_SAMPLE:-250}" --seed 1 --min-agree 0.75
 	"$py" "$lib/named_oracle.py" "$OMEN_REF_REPO" real.dump
 else

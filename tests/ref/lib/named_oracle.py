@@ -24,14 +24,25 @@ def main():
             traced[f[0]].add(f[2])
     fixes = 0
     tp = n_traced = n_named = 0
-    for c in git(repo, "rev-list", "--no-merges", "HEAD").split():
-        msg = git(repo, "log", "-1", "--format=%B", c)
-        named = set()
-        for m in FORMS.finditer(msg):
-            h = m.group(1) or m.group(2)
-            full = git(repo, "rev-parse", "-q", "--verify", h + "^{commit}").strip()
-            if full and full != c:
-                named.add(full)
+    log = git(repo, "log", "--no-merges", "--format=%H%x00%B%x01", "HEAD")
+    ids = {}
+    for rec in log.split("\x01"):
+        if "\x00" not in rec:
+            continue
+        c, msg = rec.strip("\n").split("\x00", 1)
+        hexes = [m.group(1) or m.group(2) for m in FORMS.finditer(msg)]
+        if hexes:
+            ids[c] = hexes
+    short = sorted({h for hs in ids.values() for h in hs})
+    full = {}
+    if short:
+        for h in short:
+            r = subprocess.run(["git", "-C", repo, "rev-parse", "-q", "--verify", h + "^{commit}"],
+                               capture_output=True, text=True).stdout.strip()
+            if r:
+                full[h] = r
+    for c, hexes in ids.items():
+        named = {full[h] for h in hexes if h in full and full[h] != c}
         if not named:
             continue
         fixes += 1
