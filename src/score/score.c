@@ -490,6 +490,8 @@ typedef struct {
 	omen_sample_buf *sb;
 	omen_explain ex;
 	omen_labels *labels;     /* replay: is_fix as training saw it */
+	omen_progress prog;      /* on a terminal, not in the hook */
+	uint64_t walked;
 	score_visit_fn visit;
 	void *payload;
 } walk_ctx;
@@ -529,6 +531,11 @@ static int on_change(const omen_change *c, void *payload)
 			return e;
 		if (w->visit && (e = w->visit(w->payload, c, &sm, &w->ex, &w->set->v[w->set->n - 1])))
 			return e;
+	}
+	if (w->prog.enabled) {
+		char extra[64];
+		snprintf(extra, sizeof(extra), "commits read, %zu of %zu scored", w->set->n, w->n);
+		omen_progress_update(&w->prog, ++w->walked, extra);
 	}
 	return omen_metrics_update(w->state, c, is_fix);
 }
@@ -585,6 +592,8 @@ int score_walk(omen_score_set *set, omen_scorer *s, const git_oid *ids, size_t n
 	}
 	if ((e = omen_sample_buf_new(&w.sb)))
 		goto out;
+	if (!s->lazy)
+		omen_progress_start(&w.prog, "score", 0);
 	if (s->head_known) {
 		/* 1. every commit after the model's head up to the scored ones,
 		 * oldest first, from the state saved at the head: each feeds the
@@ -653,6 +662,8 @@ int score_walk(omen_score_set *set, omen_scorer *s, const git_oid *ids, size_t n
 	}
 	/* what is still not done is a merge (not scored) */
 out:
+	if (w.prog.enabled)
+		omen_progress_end(&w.prog);
 	for (i = 0; i < nr; i++)
 		free(revs[i]);
 	free(revs);
