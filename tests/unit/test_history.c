@@ -178,6 +178,23 @@ static int cmp_commit(const omen_change *c, void *payload)
 			assert_null(memchr(omen_line_text(c, l), '\n', l->text_len));
 		}
 	}
+	/* old_nlines: lines of the old blob, a final line without newline
+	 * included (awk's NR counts the same way) */
+	for (size_t i = 0; i < c->nfiles; i++) {
+		const omen_file *f = &c->files[i];
+		char hex[GIT_OID_HEXSZ + 1];
+		long want = 0;
+		if (!f->old_path || (f->flags & (OMEN_FILE_BINARY | OMEN_FILE_SUBMODULE | OMEN_FILE_TOO_LARGE)))
+			continue;
+		git_oid_tostr(hex, sizeof(hex), &f->old_blob);
+		snprintf(cmd, sizeof(cmd), "git -C '%s' cat-file blob %s | awk 'END { print NR }'",
+			s->dir, hex);
+		p = popen(cmd, "r");
+		assert_non_null(p);
+		assert_int_equal(fscanf(p, "%ld", &want), 1);
+		assert_int_equal(pclose(p), 0);
+		assert_int_equal(f->old_nlines, want);
+	}
 	s->files += c->nfiles;
 	s->hunks += hi;
 	free(hseen);
