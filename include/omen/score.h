@@ -181,7 +181,7 @@ typedef struct {
 typedef struct {
 	char id[OMEN_OID_HEX + 1];
 	const char *summary;
-	float distance;      /* in standardized log-metric space */
+	float distance;      /* RMS distance of standardized log-metrics + 1 - Jaccard of files */
 	int nfixes;          /* fixes that traced to it */
 } omen_neighbour;
 
@@ -201,7 +201,9 @@ typedef struct {
 /* Explains one commit: attention and gradient x input from the model,
  * metrics against the training history's typical values (the model's
  * standardization), and the top_n labelled inducing commits no newer than
- * it, nearest in the model's standardized log-metric space. Neighbours need
+ * it, nearest by the root mean square distance of the model's standardized
+ * log-metrics plus one minus the Jaccard overlap of the files touched
+ * (alike in shape and in place). Neighbours need
  * the labels file and the dataset (cache); without them they are empty. */
 int omen_score_explain(omen_explanation *out, omen_scorer *s, omen_repo *r,
 	const git_oid *id, int top_n);

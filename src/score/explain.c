@@ -177,6 +177,22 @@ static int cmp_cand(const void *a, const void *b)
 	return x < y ? -1 : x > y ? 1 : 0;
 }
 
+/* Jaccard index of the (sample-capped) file sets of the explained commit
+ * and sm; both are small (at most the file cap). */
+static double file_jaccard(const omen_explanation *x, const omen_sample *sm)
+{
+	size_t i, both = 0, uni;
+	int j;
+	for (i = 0; i < x->nfiles; i++)
+		for (j = 0; j < sm->nfiles; j++)
+			if (!strcmp(x->files[i].path, sm->file_path[j])) {
+				both++;
+				break;
+			}
+	uni = x->nfiles + (size_t)sm->nfiles - both;
+	return uni ? (double)both / (double)uni : 0.0;
+}
+
 static int neighbours(omen_explanation *x, omen_scorer *s, omen_repo *r, int top_n)
 {
 	omen_dataset_opts dopt;
@@ -212,8 +228,11 @@ static int neighbours(omen_explanation *x, omen_scorer *s, omen_repo *r, int top
 		score_standardize(z, s, sm->metrics);
 		for (j = 0; j < OMEN_NMETRICS; j++)
 			d += (z[j] - zt[j]) * (z[j] - zt[j]);
+		/* root mean square distance of the metrics, plus one minus the
+		 * Jaccard overlap of the files touched: commits alike in shape
+		 * and in place come first */
 		cs[nc].idx = i;
-		cs[nc].d = (float)sqrt(d);
+		cs[nc].d = (float)(sqrt(d / OMEN_NMETRICS) + 1.0 - file_jaccard(x, sm));
 		nc++;
 	}
 	qsort(cs, nc, sizeof(*cs), cmp_cand);
