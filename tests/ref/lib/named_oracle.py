@@ -12,7 +12,7 @@ FORMS = re.compile(r"(?im)^[ \t>]*(?:fixes:?|fixes commit|fix:|reverts:?|revert 
                    r"[ \t]*([0-9a-f]{7,40})\b|reverts commit ([0-9a-f]{7,40})\b")
 
 def git(repo, *a):
-    return subprocess.run(["git", "-C", repo] + list(a), capture_output=True, text=True).stdout
+    return subprocess.run(["git", "-C", repo] + list(a), capture_output=True, text=True, errors="replace").stdout
 
 def main():
     repo, dump = sys.argv[1], sys.argv[2]
