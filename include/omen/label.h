@@ -75,15 +75,15 @@ typedef struct {
 	const char *const *revs;   /* NULL = HEAD */
 	const char *fix_pattern;   /* NULL = omen.fixPattern or default */
 	const char *fix_list;      /* NULL = none */
-	int64_t window_days;       /* default 90 */
-	int max_fix_files;         /* default 50 */
+	int64_t window_days;       /* -1 (init): omen.window, else 90 */
+	int max_fix_files;         /* -1 (init): omen.maxFixFiles, else 50; 0 = no limit */
 	int skip_blank;            /* refinements: 1 on (default), 0 off */
 	int skip_comments;
 	int ws_keeps_origin;
 	int follow_renames;
 	int use_issue_dates;
-	int incremental;           /* reuse the previous pass's state */
-	int64_t max_bytes;         /* memory ceiling, 0 = none */
+	int incremental;           /* reuse the previous pass's state (saved as <labels>.state) */
+	int64_t max_bytes;         /* ceiling on the tracer state, 0 = omen.memoryLimit or none */
 	const char *dump_origins;  /* testing: write every traced fix line's origin here */
 } omen_label_opts;
 void omen_label_opts_init(omen_label_opts *o);
@@ -118,7 +118,10 @@ enum {
 };
 
 /* Runs the pass and writes the label file atomically to out_path
- * (NULL = $GIT_DIR/omen/labels.jsonl). */
+ * (NULL = omen.labels or $GIT_DIR/omen/labels.jsonl), and the pass state
+ * beside it (<path>.state) for the next incremental run. When the previous
+ * labels cover the same head with the same options, nothing is rewritten
+ * (sum->mode OMEN_LABEL_MODE_UPTODATE, counts from the file's header). */
 int omen_label_run(omen_label_summary *sum, omen_repo *r, const omen_label_opts *o,
 	const char *out_path);
 
