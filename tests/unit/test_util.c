@@ -243,6 +243,7 @@ static void test_crc32(void **st)
 	assert_int_equal(omen_crc32(0, "", 0), 0x00000000u);
 	assert_int_equal(omen_crc32(0, "a", 1), 0xe8b7be43u);
 	assert_int_equal(omen_crc32(0, "123456789", 9), 0xcbf43926u);
+	assert_int_equal(omen_crc32(0, "123456789abcdefghijklmnop", 25), 0xe0dfbc17u); /* > 8 bytes: sliced path */
 	assert_int_equal(omen_crc32(0, fox, strlen(fox)), 0x414fa339u);
 	assert_int_equal(omen_crc32(0, all, 256), 0x29058c73u);
 	/* chaining as zlib.crc32(b, zlib.crc32(a)) == zlib.crc32(a + b) */
