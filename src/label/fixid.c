@@ -199,7 +199,8 @@ int omen_fixrules_load_list(omen_fixrules *fr, const char *path)
 		}
 		fr->ents[fr->nents++] = ent;
 	}
-	qsort(fr->ents, fr->nents, sizeof(*fr->ents), ent_cmp);
+	if (fr->nents)
+		qsort(fr->ents, fr->nents, sizeof(*fr->ents), ent_cmp);
 	free(fr->hit);
 	if (!(fr->hit = calloc(fr->nents ? fr->nents : 1, 1))) {
 		e = omen_error_set(OMEN_ENOMEM, "out of memory");

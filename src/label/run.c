@@ -1095,7 +1095,8 @@ int omen_label_run(omen_label_summary *sum, omen_repo *r, const omen_label_opts 
 	sum->list_unmatched = omen_fixrules_unmatched(R.fr);
 	sum->state_peak_bytes = lbl_tracer_peak_bytes(R.tr) + R.n * (sizeof(*R.cs) + sizeof(*R.ids)) +
 		R.pairs_cap * sizeof(*R.pairs);
-	qsort(R.pairs, R.npairs, sizeof(*R.pairs), pair_cmp);
+	if (R.npairs)
+		qsort(R.pairs, R.npairs, sizeof(*R.pairs), pair_cmp);
 	count_labels(&R);
 	if ((e = latency(&R)))
 		goto out;
