@@ -11,6 +11,7 @@
 #include <stdlib.h>
 #include <string.h>
 #include <time.h>
+#include <unistd.h>
 #include "omen/error.h"
 #include "omen/eval.h"
 #include "model/model_int.h"
@@ -40,6 +41,16 @@ void omen_train_opts_init(omen_train_opts *o)
 		omen_caps c = OMEN_CAPS_DEFAULT;
 		o->caps = c;
 	}
+}
+
+/* Worker threads: the option, else the online cores; never more than the
+ * fixed chunks of a batch. */
+static int train_threads(const omen_train_opts *o)
+{
+	long n = o->threads > 0 ? o->threads : sysconf(_SC_NPROCESSORS_ONLN);
+	if (n < 1)
+		n = 1;
+	return n > OMEN_TRAIN_CHUNKS ? OMEN_TRAIN_CHUNKS : (int)n;
 }
 
 /* ---- one step over a batch ----------------------------------------------- */
@@ -349,7 +360,7 @@ static int fit(omen_model *m, fit_info *fi, const omen_dataset *ds, const size_t
 	float *g = NULL, *mom = NULL, *vel = NULL, *best = NULL, *vz = NULL;
 	uint8_t *decay = NULL;
 	size_t *order = NULL, i, npos = 0, step = 0;
-	int e, ep, threads = o->threads > 0 ? o->threads : 2, since_best = 0, t;
+	int e, ep, threads = train_threads(o), since_best = 0, t;
 	double t0 = omen_now();
 	omen_rng rng;
 	float pw;
@@ -560,7 +571,7 @@ static int train_core(omen_model **out, fit_info *fi, const omen_dataset *ds,
 		warm_start(m, ds, train_idx, n_train);
 	if ((e = fit(m, fi, ds, train_idx, n_train, valid_idx, n_valid, o, epochs, report)))
 		goto out;
-	if (n_valid && (e = calibrate(m, ds, valid_idx, n_valid, o->threads > 0 ? o->threads : 2)))
+	if (n_valid && (e = calibrate(m, ds, valid_idx, n_valid, train_threads(o))))
 		goto out;
 	*out = m;
 	m = NULL;
@@ -624,7 +635,7 @@ int omen_model_train(omen_model **out, omen_train_report *rep, const omen_datase
 	omen_model *eval_m = NULL, *m = NULL;
 	float *z = NULL;
 	double *sc = NULL, *pr = NULL, *ef = NULL, *lrp = NULL, *la = NULL, t0 = omen_now();
-	int *y = NULL, e = 0, threads = o->threads > 0 ? o->threads : 2;
+	int *y = NULL, e = 0, threads = train_threads(o);
 	fit_info fi, fi2;
 	cJSON *meta = NULL, *tr, *te;
 	char date[32];
