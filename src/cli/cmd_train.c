@@ -33,8 +33,12 @@ static void on_progress(void *payload, int epoch, int epochs, float loss, float 
 	progress_state *p = payload;
 	if (!p->tty)
 		return;
-	fprintf(stderr, "\rtrain: epoch %d/%d  loss %.4f  valid AUC %.3f  about %.0f s left   ",
-		epoch, epochs, loss, valid_auc, eta_s);
+	if (isnan(valid_auc))   /* the refit on train+validation */
+		fprintf(stderr, "\rtrain: refit epoch %d/%d  loss %.4f  about %.0f s left            ",
+			epoch, epochs, loss, eta_s);
+	else
+		fprintf(stderr, "\rtrain: epoch %d/%d  loss %.4f  valid AUC %.3f  about %.0f s left   ",
+			epoch, epochs, loss, valid_auc, eta_s);
 	fflush(stderr);
 }
 

@@ -714,7 +714,7 @@ int omen_model_train(omen_model **out, omen_train_report *rep, const omen_datase
 	 * calibrated on the test slice it has not seen */
 	if (o->refit) {
 		if ((e = train_core(&m, &fi2, ds, idx, n_train + n_valid, NULL, 0, o,
-				fi.best_epoch > 0 ? fi.best_epoch : 1, 0)))
+				fi.best_epoch > 0 ? fi.best_epoch : 1, 1)))
 			goto out;
 		if ((e = calibrate(m, ds, idx + n_train + n_valid, n_test, threads)))
 			goto out;
