@@ -52,14 +52,6 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
 	omen_buf b = OMEN_BUF_INIT;
 	size_t i, n;
 	int e;
-	/* FUZZ_SKIP_KNOWN=1 (exploratory runs only) steps over the known
-	 * finding kept in the corpus as repro-header-nul: a NUL byte inside the
-	 * header line is accepted but the header is kept cut at the NUL */
-	if (getenv("FUZZ_SKIP_KNOWN")) {
-		const uint8_t *nl = memchr(data, '\n', size);
-		if (memchr(data, 0, nl ? (size_t)(nl - data) : size))
-			return 0;
-	}
 	omen_error_clear();
 	e = omen_labels_parse(&l, "fuzz", (const char *)data, size);
 	if (e) {
