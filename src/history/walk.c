@@ -688,10 +688,19 @@ static void *worker_main(void *arg)
 	return NULL;
 }
 
+/* Online cores, at most 2; but 1 when the one-minute load average says no
+ * core is idle (as `make -l` holds back jobs): a second diff worker then
+ * only adds the cost of a second object cache and of lock hand-offs.
+ * omen.threads or walk_opts.threads overrides this. */
 static int default_threads(void)
 {
 	long n = sysconf(_SC_NPROCESSORS_ONLN);
-	return n >= 2 ? 2 : 1;
+	double load = 0;
+	if (n < 2)
+		return 1;
+	if (getloadavg(&load, 1) == 1 && load > (double)n - 1.0)
+		return 1;
+	return 2;
 }
 
 int omen_history_walk(omen_repo *r, const omen_walk_opts *o, omen_change_cb cb, void *payload)

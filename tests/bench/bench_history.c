@@ -1,5 +1,5 @@
 /* Benchmark: reading every non-merge commit's -U0 hunks and line texts
- * with omen_history_walk (1 and 2 diff threads) against
+ * with omen_history_walk (1, 2 and the default number of diff threads) against
  * `git log -p -U0 --no-merges --no-renames >/dev/null` on the same
  * repository, in the same run, interleaved, best of 3. Figures only, no
  * assertion. Repository: $OMEN_BENCH_REPO (a git dir or work tree), else the
@@ -75,8 +75,8 @@ int main(void)
 {
 	const char *repo = getenv("OMEN_BENCH_REPO");
 	char tmp[] = "/tmp/omen-bench-history-XXXXXX", path[512];
-	double tg[3], t1[3], t2[3];
-	counts k1, k2;
+	double tg[3], t0[3], t1[3], t2[3];
+	counts k0, k1, k2;
 	struct rusage ru;
 	int made = 0;
 	double load = 0;
@@ -100,12 +100,14 @@ int main(void)
 		tg[i] = run_git(repo);
 		t1[i] = run_omen(repo, 1, &k1);
 		t2[i] = run_omen(repo, 2, &k2);
-		if (tg[i] < 0 || t1[i] < 0 || t2[i] < 0)
+		t0[i] = run_omen(repo, 0, &k0);
+		if (tg[i] < 0 || t0[i] < 0 || t1[i] < 0 || t2[i] < 0)
 			return 1;
 	}
 	qsort(tg, 3, sizeof(double), cmp_d);
 	qsort(t1, 3, sizeof(double), cmp_d);
 	qsort(t2, 3, sizeof(double), cmp_d);
+	qsort(t0, 3, sizeof(double), cmp_d);
 	getrusage(RUSAGE_SELF, &ru);
 	printf("BENCH history: %s%zu commits, %zu hunks, %zu lines\n", made ? "fixture, " : "",
 		k2.commits, k2.hunks, k2.lines);
@@ -113,6 +115,8 @@ int main(void)
 		tg[0], t1[0], t2[0]);
 	printf("BENCH history: ratio omen/git %.2f (2 threads), %.2f (1 thread); %.0f commits/s\n",
 		t2[0] / tg[0], t1[0] / tg[0], (double)k2.commits / t2[0]);
+	printf("BENCH history: default threads (2, or 1 when the load average leaves no core idle) "
+		"%.3f s, ratio %.2f\n", t0[0], t0[0] / tg[0]);
 	printf("BENCH history: CPU seconds per run (user+sys): git %.3f, omen 1 thread %.3f, "
 		"2 threads %.3f; load average at start %.2f\n", cpu_git / 3, cpu_omen[1] / 3,
 		cpu_omen[2] / 3, load);
