@@ -142,6 +142,13 @@ $(BUILD)/fuzz/lib/%.o: %.c
 	$(FUZZ_CC) $(FUZZ_CFLAGS) -fsanitize=fuzzer-no-link,address,undefined $(PKG_CFLAGS) \
 		-MMD -MP -c $< -o $@
 
+# src/nn with the ordinary compiler and no instrumentation: the parsers never
+# reach the kernels, and clang 14 cannot link target_clones functions called
+# from another file (it defines only the .ifunc symbol)
+$(BUILD)/fuzz/lib/src/nn/%.o: src/nn/%.c
+	@mkdir -p $(dir $@)
+	$(CC) $(ALL_CFLAGS) -MMD -MP -c $< -o $@
+
 $(BUILD)/fuzz/libomen-fuzz.a: $(FUZZ_LIB_OBJ)
 	@rm -f $@
 	ar rcs $@ $^
