@@ -24,7 +24,7 @@ typedef struct {
 	int dim;                 /* D token embedding width (default 32) */
 	int channels;            /* C hidden width (default 32) */
 	omen_caps caps;          /* the caps the dataset was built with (stored in the model) */
-	int warm_start;          /* start from the metrics logistic regression (default 0) */
+	int warm_start;          /* start from the metrics logistic regression (default 1) */
 	/* per epoch; valid_auc is NaN during the refit on train+validation */
 	void (*progress)(void *payload, int epoch, int epochs, float loss, float valid_auc, double eta_s);
 	void *payload;

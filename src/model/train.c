@@ -26,7 +26,7 @@ void omen_train_opts_init(omen_train_opts *o)
 	o->epochs = 30;
 	o->patience = 5;
 	o->batch = 32;
-	o->lr = 2e-3f;
+	o->lr = 5e-4f;
 	o->weight_decay = 1e-2f;
 	o->clip = 1.0f;
 	o->dropout = 0.1f;
@@ -35,6 +35,7 @@ void omen_train_opts_init(omen_train_opts *o)
 	o->valid_frac = 0.15;
 	o->test_frac = 0.15;
 	o->refit = 1;
+	o->warm_start = 1;
 	o->dim = 32;
 	o->channels = 32;
 	{
