@@ -18,7 +18,6 @@ for b in "$ROOT"/fixtures/label/*.sh; do
 	(cd "fx-$n" && "$OMEN" label --window 0 --dump-origins ../"$n".dump >/dev/null)
 	echo "fixture $n:"
 	"$py" "$lib/blame_compare.py" "fx-$n" "$n".dump --strict
-	cat "$n".dump >>all.dump
 done
 if [ -n "$OMEN_REF_REPO" ]; then
 	echo "real history: $(basename "$OMEN_REF_REPO")"
