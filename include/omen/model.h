@@ -75,6 +75,9 @@ int omen_model_predict(float *out_prob, float *out_logit, const omen_model *m,
 	const omen_sample *s, omen_explain *ex);
 /* Baseline probability from the logistic regression on metrics. */
 float omen_model_predict_lr(const omen_model *m, const omen_sample *s);
+/* The metrics as the model and its baseline see them before z-scoring:
+ * log1p of the counts, entropy and the fix flag as they are. */
+void omen_metrics_transform(double out[OMEN_NMETRICS], const float raw[OMEN_NMETRICS]);
 
 /* Model file: magic, version, length-prefixed JSON metadata, 64-byte
  * aligned float32 tensors, CRC32 over all of it; written atomically. */

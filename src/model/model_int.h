@@ -62,9 +62,6 @@ int omen_model_layout(omen_model *m);
 int omen_model_alloc(omen_model **out, int D, int C);
 void omen_model_init_weights(omen_model *m, uint64_t seed);
 
-/* Baseline features: the 14 metrics with log1p on counts. */
-void omen_metrics_transform(double out[OMEN_NMETRICS], const float raw[OMEN_NMETRICS]);
-
 /* Workspace of one chunk: batch arrays and activations, one block each. */
 typedef struct {
 	int B, F, H, T, M;

@@ -61,25 +61,10 @@ int omen_score_model_path(char **out, omen_repo *r, const char *override)
 	return e;
 }
 
-/* The model's metric transform (log1p of counts; entropy and the fix flag
- * as they are), so z-scores are in the model's own standardized space. */
-void score_metric_transform(double out[OMEN_NMETRICS], const float raw[OMEN_NMETRICS])
-{
-	int j;
-	for (j = 0; j < OMEN_NMETRICS; j++) {
-		double v = raw[j];
-		if (!isfinite(v))
-			v = 0;
-		if (j != OMEN_M_ENTROPY && j != OMEN_M_FIX)
-			v = log1p(v > 0 ? v : 0);
-		out[j] = v;
-	}
-}
-
 int score_standardize(double z[OMEN_NMETRICS], const omen_scorer *s, const float raw[OMEN_NMETRICS])
 {
 	int j;
-	score_metric_transform(z, raw);
+	omen_metrics_transform(z, raw);
 	if (!s->have_std)
 		return 0;
 	for (j = 0; j < OMEN_NMETRICS; j++)

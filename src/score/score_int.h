@@ -17,7 +17,6 @@ int score_one(omen_score_set *set, const omen_scorer *s, const omen_change *c,
 void score_reasons(omen_score_result *r, const omen_scorer *s, const omen_sample *sm,
 	const omen_explain *ex, const omen_hunk_score *top);
 int score_is_fix(const omen_scorer *s, const omen_commit *c);
-void score_metric_transform(double out[OMEN_NMETRICS], const float raw[OMEN_NMETRICS]);
 /* z-scores in the model's standardized space; 0 when the model has none. */
 int score_standardize(double z[OMEN_NMETRICS], const omen_scorer *s, const float raw[OMEN_NMETRICS]);
 /* The training history's typical raw value of metric j (NAN if unknown). */
