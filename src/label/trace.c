@@ -32,54 +32,6 @@ struct lbl_tracer {
 	size_t used_cap;
 };
 
-int lbl_line_blank(const char *s, size_t n)
-{
-	size_t i;
-	for (i = 0; i < n; i++)
-		if (s[i] != ' ' && s[i] != '\t' && s[i] != '\r' && s[i] != '\f' && s[i] != '\v')
-			return 0;
-	return 1;
-}
-
-/* Comment-only line in the common syntaxes: "//", slash-star, star continuation
- * ("* x", "*" alone, "*\/"), "#" unless it is a C preprocessor directive,
- * "-- ", "; " / ";;", "% ". Conservative where the marker is also code
- * ("*p = 1;", "--i;", "#include"). */
-int lbl_line_comment(const char *s, size_t n)
-{
-	static const char *const directives[] = {"include", "define", "undef", "if", "ifdef", "ifndef",
-		"elif", "else", "endif", "pragma", "error", "warning", "line", "import", NULL};
-	size_t i = 0, k;
-	while (i < n && (s[i] == ' ' || s[i] == '\t'))
-		i++;
-	if (i == n)
-		return 0;
-	s += i;
-	n -= i;
-	if (n >= 2 && s[0] == '/' && (s[1] == '/' || s[1] == '*'))
-		return 1;
-	if (s[0] == '*')
-		return n == 1 || s[1] == ' ' || s[1] == '\t' || s[1] == '/';
-	if (s[0] == '#') {
-		if (n >= 2 && s[1] == '!')
-			return 1;
-		for (k = 1; k < n && (s[k] == ' ' || s[k] == '\t'); k++)
-			;
-		for (i = 0; directives[i]; i++) {
-			size_t dl = strlen(directives[i]);
-			if (n - k >= dl && !memcmp(s + k, directives[i], dl) &&
-			    (n - k == dl || !((s[k + dl] >= 'a' && s[k + dl] <= 'z') || s[k + dl] == '_')))
-				return 0;
-		}
-		return 1;
-	}
-	if (n >= 2 && ((s[0] == '-' && s[1] == '-') || (s[0] == ';' && s[1] == ';')))
-		return n == 2 || s[2] == ' ' || s[2] == '\t' || s[0] == ';';
-	if ((s[0] == ';' || s[0] == '%') && n >= 2 && (s[1] == ' ' || s[1] == '\t'))
-		return 1;
-	return 0;
-}
-
 static uint64_t path_key(const char *path)
 {
 	uint64_t h = omen_hash64(path, strlen(path), 0x6c6162656cULL);
@@ -364,9 +316,9 @@ int lbl_tracer_trace(lbl_tracer *t, const omen_change *c, lbl_line_cb cb, void *
 				int skip = LBL_TRACED;
 				if (orig && l->old_lineno >= 1 && (uint32_t)l->old_lineno <= n)
 					origin = orig[l->old_lineno - 1];
-				if (t->o.skip_blank && lbl_line_blank(s, l->text_len))
+				if (t->o.skip_blank && omen_line_is_blank(s, l->text_len))
 					skip = LBL_SKIP_BLANK;
-				else if (t->o.skip_comments && lbl_line_comment(s, l->text_len))
+				else if (t->o.skip_comments && omen_line_is_comment(s, l->text_len))
 					skip = LBL_SKIP_COMMENT;
 				else if (match && t->used[k])
 					skip = LBL_SKIP_WS;

@@ -76,8 +76,4 @@ size_t lbl_tracer_versions(const lbl_tracer *t);  /* held versions */
 size_t lbl_tracer_bytes(const lbl_tracer *t);     /* origin bytes held */
 size_t lbl_tracer_peak_bytes(const lbl_tracer *t);
 
-/* Line classes (whitespace = space, tab, CR, FF, VT). */
-int lbl_line_blank(const char *s, size_t n);
-int lbl_line_comment(const char *s, size_t n);
-
 #endif

@@ -373,19 +373,20 @@ static void test_tracer_skips_and_rename(void **state)
 static void test_comment_lines(void **state)
 {
 	(void)state;
-	assert_true(lbl_line_comment("  // x", 6));
-	assert_true(lbl_line_comment("/* x */", 7));
-	assert_true(lbl_line_comment(" *", 2));
-	assert_true(lbl_line_comment("-- sql", 6));
-	assert_true(lbl_line_comment("; lisp", 6));
-	assert_true(lbl_line_comment("#!/bin/sh", 9));
-	assert_false(lbl_line_comment("*p = 1;", 7));
-	assert_false(lbl_line_comment("--i;", 4));
-	assert_false(lbl_line_comment("#define X 1", 11));
-	assert_false(lbl_line_comment("#  if X", 7));
-	assert_false(lbl_line_comment("x = 1; // y", 11));
-	assert_true(lbl_line_blank(" \t\r", 3));
-	assert_false(lbl_line_blank(" x", 2));
+	assert_true(omen_line_is_comment("  // x", 6));
+	assert_true(omen_line_is_comment("/* x */", 7));
+	assert_true(omen_line_is_comment(" *", 2));
+	assert_true(omen_line_is_comment("-- sql", 6));
+	assert_true(omen_line_is_comment("; lisp", 6));
+	/* a shebang is code: a fix may well change the interpreter */
+	assert_false(omen_line_is_comment("#!/bin/sh", 9));
+	assert_false(omen_line_is_comment("*p = 1;", 7));
+	assert_false(omen_line_is_comment("--i;", 4));
+	assert_false(omen_line_is_comment("#define X 1", 11));
+	assert_false(omen_line_is_comment("#  if X", 7));
+	assert_false(omen_line_is_comment("x = 1; // y", 11));
+	assert_true(omen_line_is_blank(" \t\r", 3));
+	assert_false(omen_line_is_blank(" x", 2));
 }
 
 /* ---- label file -------------------------------------------------------------- */
