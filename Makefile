@@ -128,9 +128,9 @@ bench: $(OMEN) $(BENCH_BIN)
 # instrumentation and ASan+UBSan into $(BUILD)/fuzz/lib/ (incremental), each
 # target links it with -fsanitize=fuzzer. `make fuzz` runs every target for
 # FUZZ_SECONDS on a work corpus in $(BUILD)/fuzz/corpus/<x> seeded from
-# fixtures/corpora/<x>; crashes go to $(BUILD)/fuzz/artifacts/<x>/. New inputs
-# of at most FUZZ_KEEP_BYTES that add coverage are merged back into
-# fixtures/corpora/<x> (FUZZ_KEEP_BYTES=0 keeps the fixtures untouched).
+# fixtures/corpora/<x>; crashes go to $(BUILD)/fuzz/artifacts/<x>/. Of the new
+# inputs of at most FUZZ_KEEP_BYTES that add coverage, the FUZZ_KEEP_FILES
+# smallest go into fixtures/corpora/<x> (FUZZ_KEEP_BYTES=0: fixtures untouched).
 FUZZ_CC     ?= clang
 FUZZ_CFLAGS := -std=c11 -g -O1 -D_POSIX_C_SOURCE=200809L -D_DEFAULT_SOURCE -Iinclude -Isrc \
 	-pthread -fno-strict-aliasing -fno-omit-frame-pointer -fno-sanitize-recover=undefined \
@@ -161,6 +161,7 @@ $(BUILD)/fuzz/%-libfuzzer: tests/fuzz/%.c $(BUILD)/fuzz/libomen-fuzz.a
 FUZZ_SECONDS ?= 60
 FUZZ_MAX_LEN ?= 4096
 FUZZ_KEEP_BYTES ?= 256
+FUZZ_KEEP_FILES ?= 4
 fuzz: $(FUZZ_LF)
 	@for f in $(FUZZ_LF); do n=$$(basename $$f -libfuzzer); x=$${n#fuzz_}; \
 		d=fixtures/corpora/$$x; w=$(BUILD)/fuzz/corpus/$$x; a=$(BUILD)/fuzz/artifacts/$$x; \
@@ -172,11 +173,9 @@ fuzz: $(FUZZ_LF)
 			$(BUILD)/fuzz/$$x.log | sed "s/^/  $$x: /"; \
 		if [ $$r -ne 0 ]; then tail -40 $(BUILD)/fuzz/$$x.log; \
 			echo "fuzz: $$x FAILED, reproducer in $$a/"; exit 1; fi; \
-		if [ "$(FUZZ_KEEP_BYTES)" -gt 0 ]; then s=$(BUILD)/fuzz/small/$$x; rm -rf $$s; \
-			mkdir -p $$s; find $$w -type f -size -$$(($(FUZZ_KEEP_BYTES) + 1))c \
-				-exec cp {} $$s/ \; ; \
-			$$f -merge=1 -max_len=$(FUZZ_KEEP_BYTES) $$d $$s 2>>$(BUILD)/fuzz/$$x.log; \
-			echo "  $$x: corpus now $$(ls $$d | wc -l) files"; fi; \
+		if [ "$(FUZZ_KEEP_BYTES)" -gt 0 ]; then printf '  %s: ' $$x; \
+			sh tests/fuzz/keep-small.sh $$f $$d $$w $(BUILD)/fuzz/keep/$$x \
+				$(FUZZ_KEEP_BYTES) $(FUZZ_KEEP_FILES); fi; \
 	done
 
 demo: all
