@@ -159,6 +159,25 @@ int omen_history_staged(omen_change *out, omen_repo *r, const omen_walk_opts *o)
 /* Resolves a revision string (anything git_revparse_single takes). */
 int omen_history_resolve(git_oid *out, omen_repo *r, const char *spec);
 
+/* ---- refs and commit facts (src/history/refs.c) -------------------------- */
+/* The commits of the remote-tracking refs refs/remotes/<remote>/STAR, each
+ * peeled to its commit, in ref order; refs that do not name a commit are
+ * skipped, and a remote without refs gives *n = 0. *out malloc'd (NULL when
+ * none). Only running out of memory fails (OMEN_ENOMEM). */
+int omen_history_remote_refs(git_oid **out, size_t *n, omen_repo *r, const char *remote);
+/* The commit of the current branch's upstream, as git's @{upstream}:
+ * branch.<b>.remote and branch.<b>.merge from the config, the merge ref
+ * mapped through remote.<remote>.fetch refspecs ("." as the remote means a
+ * local branch). Read by hand because libgit2 1.5's own @{upstream} lookup
+ * leaks. OMEN_ENOTFOUND "no upstream for the current branch" when HEAD is
+ * not on a branch, a key is missing, no refspec maps the merge ref,
+ * or the mapped ref does not exist; OMEN_ENOMEM when out of memory. */
+int omen_history_upstream(git_oid *out, omen_repo *r);
+/* A commit's subject as git's %s (first paragraph of the message, lines
+ * joined by spaces, leading blank lines dropped). *out malloc'd.
+ * OMEN_ENOTFOUND "cannot read commit '<id>': ..." when it is not there. */
+int omen_history_subject(char **out, omen_repo *r, const git_oid *id);
+
 /* ---- tokenizers (language-agnostic) -------------------------------------
  * Code: identifiers (also split into parts on camelCase and '_': the whole
  * identifier and, when it has several parts, each lowercased part),

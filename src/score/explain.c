@@ -259,21 +259,19 @@ static int neighbours(omen_explanation *x, omen_scorer *s, omen_repo *r, int top
 		omen_neighbour *nb = &x->neighbours[i];
 		const omen_label_rec *lr = lab ? omen_labels_get(lab, sm->id) : NULL;
 		git_oid oid;
-		git_commit *gc = NULL;
+		char *sum = NULL;
 		memcpy(nb->id, sm->id, sizeof(nb->id));
 		nb->distance = cs[i].d;
 		nb->nfixes = lr ? (int)lr->nfixes : 0;
 		nb->summary = "";
-		if (git_oid_fromstr(&oid, sm->id) == 0 && git_commit_lookup(&gc, omen_repo_git(r), &oid) == 0) {
-			const char *sum = git_commit_summary(gc);
-			if (sum) {
-				char *p = omen_arena_strndup(&x->arena, sum, strlen(sum) > 200 ? 200 : strlen(sum));
-				if (p)
-					nb->summary = p;
-			}
-			git_commit_free(gc);
+		if (git_oid_fromstr(&oid, sm->id) == 0 && omen_history_subject(&sum, r, &oid) == 0) {
+			char *p = omen_arena_strndup(&x->arena, sum, strlen(sum) > 200 ? 200 : strlen(sum));
+			if (p)
+				nb->summary = p;
+			free(sum);
+		} else {
+			omen_error_clear();
 		}
-		git_error_clear();
 	}
 	x->nneighbours = k;
 out:

@@ -37,31 +37,6 @@ static void strvec_free(strvec *s)
 	s->n = s->cap = 0;
 }
 
-typedef struct {
-	strvec *hide;
-	git_repository *repo;
-	int err;
-} glob_ctx;
-
-static int hide_ref(const char *name, void *payload)
-{
-	glob_ctx *g = payload;
-	git_object *o = NULL;
-	char hex[GIT_OID_HEXSZ + 1];
-	if (git_revparse_single(&o, g->repo, name) == 0) {
-		git_object *c = NULL;
-		if (git_object_peel(&c, o, GIT_OBJECT_COMMIT) == 0) {
-			git_oid_tostr(hex, sizeof(hex), git_object_id(c));
-			if (strvec_push(g->hide, "^", hex))
-				g->err = OMEN_ENOMEM;
-			git_object_free(c);
-		}
-		git_object_free(o);
-	}
-	git_error_clear();
-	return g->err ? -1 : 0;
-}
-
 int omen_push_select(git_oid **out, size_t *n, omen_repo *r, const char *remote,
 	const omen_push_list *l)
 {
@@ -97,17 +72,18 @@ int omen_push_select(git_oid **out, size_t *n, omen_repo *r, const char *remote,
 	if (need_glob && remote && *remote) {
 		/* the remote id is unknown here (new ref, or someone else pushed):
 		 * hide what we know the remote has, its remote-tracking refs */
-		omen_buf glob = OMEN_BUF_INIT;
-		glob_ctx g = {&hide, omen_repo_git(r), 0};
-		if ((e = omen_buf_printf(&glob, "refs/remotes/%s/*", remote)))
+		git_oid *known = NULL;
+		size_t nknown = 0, j;
+		char hex[GIT_OID_HEXSZ + 1];
+		if ((e = omen_history_remote_refs(&known, &nknown, r, remote)))
 			goto out;
-		git_reference_foreach_glob(omen_repo_git(r), glob.ptr, hide_ref, &g);
-		git_error_clear();
-		omen_buf_free(&glob);
-		if (g.err) {
-			e = omen_error_set(OMEN_ENOMEM, "out of memory");
-			goto out;
+		for (j = 0; j < nknown && !e; j++) {
+			git_oid_tostr(hex, sizeof(hex), &known[j]);
+			e = strvec_push(&hide, "^", hex);
 		}
+		free(known);
+		if (e)
+			goto out;
 	}
 	for (i = 0; i < hide.n; i++)
 		if ((e = strvec_push(&revs, hide.v[i], NULL)))
@@ -118,82 +94,6 @@ out:
 	strvec_free(&revs);
 	strvec_free(&hide);
 	return e;
-}
-
-typedef struct {
-	const char *name;     /* "refs/heads/x" of branch.x.merge */
-	git_buf dst;
-	int found;
-} fetch_ctx;
-
-static int map_fetch(const git_config_entry *ent, void *payload)
-{
-	fetch_ctx *f = payload;
-	git_refspec *spec = NULL;
-	if (f->found || git_refspec_parse(&spec, ent->value, 1) < 0) {
-		git_error_clear();
-		return 0;
-	}
-	if (git_refspec_src_matches(spec, f->name) &&
-	    git_refspec_transform(&f->dst, spec, f->name) == 0)
-		f->found = 1;
-	git_error_clear();
-	git_refspec_free(spec);
-	return 0;
-}
-
-/* The upstream of the current branch, as git's @{upstream}: branch.<b>.remote
- * and branch.<b>.merge, the merge ref mapped through the remote's fetch
- * refspecs ("." means a local branch). Done here rather than with
- * git_revparse("@{upstream}"), whose remote lookup in libgit2 1.5 leaks. */
-static int upstream_of_head(git_oid *out, omen_repo *r)
-{
-	git_repository *repo = omen_repo_git(r);
-	git_reference *head = NULL;
-	git_config *cfg = NULL;
-	git_buf remote = GIT_BUF_INIT, merge = GIT_BUF_INIT;
-	omen_buf key = OMEN_BUF_INIT;
-	fetch_ctx f;
-	const char *target, *branch;
-	int found = 0;
-
-	memset(&f, 0, sizeof(f));
-	if (git_reference_lookup(&head, repo, "HEAD") < 0 ||
-	    git_reference_type(head) != GIT_REFERENCE_SYMBOLIC)
-		goto out;
-	target = git_reference_symbolic_target(head);
-	if (!target || strncmp(target, "refs/heads/", 11))
-		goto out;
-	branch = target + 11;
-	if (git_repository_config_snapshot(&cfg, repo) < 0)
-		goto out;
-	if (omen_buf_printf(&key, "branch.%s.remote", branch) ||
-	    git_config_get_string_buf(&remote, cfg, key.ptr) < 0)
-		goto out;
-	omen_buf_clear(&key);
-	if (omen_buf_printf(&key, "branch.%s.merge", branch) ||
-	    git_config_get_string_buf(&merge, cfg, key.ptr) < 0)
-		goto out;
-	if (!strcmp(remote.ptr, ".")) {
-		found = git_reference_name_to_id(out, repo, merge.ptr) == 0;
-		goto out;
-	}
-	omen_buf_clear(&key);
-	if (omen_buf_printf(&key, "remote.%s.fetch", remote.ptr))
-		goto out;
-	f.name = merge.ptr;
-	git_config_get_multivar_foreach(cfg, key.ptr, NULL, map_fetch, &f);
-	if (f.found)
-		found = git_reference_name_to_id(out, repo, f.dst.ptr) == 0;
-out:
-	git_error_clear();
-	git_buf_dispose(&f.dst);
-	git_buf_dispose(&remote);
-	git_buf_dispose(&merge);
-	omen_buf_free(&key);
-	git_config_free(cfg);
-	git_reference_free(head);
-	return found;
 }
 
 int omen_score_resolve(git_oid **out, size_t *n, char **out_desc, omen_repo *r,
@@ -213,7 +113,7 @@ int omen_score_resolve(git_oid **out, size_t *n, char **out_desc, omen_repo *r,
 	if (nargs == 0) {
 		git_oid up;
 		char hex[GIT_OID_HEXSZ + 2];
-		if (upstream_of_head(&up, r)) {
+		if ((e = omen_history_upstream(&up, r)) == 0) {
 			/* the range is "@{upstream}..HEAD"; walk it by id */
 			hex[0] = '^';
 			git_oid_tostr(hex + 1, sizeof(hex) - 1, &up);
@@ -221,9 +121,12 @@ int omen_score_resolve(git_oid **out, size_t *n, char **out_desc, omen_repo *r,
 			    (e = omen_buf_puts(&desc, "@{upstream}..HEAD")))
 				goto out;
 			range = 1;
-		} else {
+		} else if (e == OMEN_ENOTFOUND) {
+			omen_error_clear();
 			if ((e = strvec_push(&revs, "HEAD", NULL)))
 				goto out;
+		} else {
+			goto out;
 		}
 	} else {
 		for (i = 0; i < nargs; i++) {

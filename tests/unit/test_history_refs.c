@@ -1,0 +1,192 @@
+/* Repository look-ups of src/history/refs.c: remote-tracking refs, the
+ * current branch's upstream and commit subjects, each checked against the
+ * git CLI on a small repository (reference: git for-each-ref, git rev-parse
+ * @{upstream}, git log --format=%s). */
+#include <stdarg.h>
+#include <stddef.h>
+#include <setjmp.h>
+#include <stdint.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <unistd.h>
+#include <cmocka.h>
+#include "omen/omen.h"
+
+static char dir[256];
+static omen_repo *repo;
+
+static void sh(const char *fmt, ...)
+{
+	char cmd[4096];
+	va_list ap;
+	va_start(ap, fmt);
+	vsnprintf(cmd, sizeof(cmd), fmt, ap);
+	va_end(ap);
+	if (system(cmd) != 0)
+		fail_msg("command failed: %s", cmd);
+}
+
+static char *sh_out(const char *cmd)
+{
+	static char buf[65536];
+	char full[4096];
+	FILE *p;
+	size_t n;
+	snprintf(full, sizeof(full), "cd '%s' && %s", dir, cmd);
+	p = popen(full, "r");
+	assert_non_null(p);
+	n = fread(buf, 1, sizeof(buf) - 1, p);
+	buf[n] = '\0';
+	assert_int_equal(pclose(p), 0);
+	return buf;
+}
+
+static int setup(void **st)
+{
+	(void)st;
+	snprintf(dir, sizeof(dir), "%s/omen-refs-XXXXXX", getenv("TMPDIR") ? getenv("TMPDIR") : "/tmp");
+	assert_non_null(mkdtemp(dir));
+	setenv("GIT_CONFIG_NOSYSTEM", "1", 1);
+	setenv("GIT_CONFIG_GLOBAL", "/dev/null", 1);
+	setenv("GIT_AUTHOR_NAME", "T", 1);
+	setenv("GIT_AUTHOR_EMAIL", "t@example.invalid", 1);
+	setenv("GIT_COMMITTER_NAME", "T", 1);
+	setenv("GIT_COMMITTER_EMAIL", "t@example.invalid", 1);
+	sh("cd '%s' && git init -q -b main . && git remote add origin /nonexistent.git && "
+	   "for i in 1 2 3 4; do echo $i >f$i && git add f$i && git commit -q -m \"c$i\"; done && "
+	   "printf 'two line\\nsubject\\n\\nbody text\\n' >msg && git commit -q --allow-empty -F msg && "
+	   "git update-ref refs/remotes/origin/main HEAD~3 && git update-ref refs/remotes/origin/side HEAD~1 && "
+	   "git tag -a -m t v1 HEAD~2 && git update-ref refs/remotes/origin/tagged v1 && "
+	   "git update-ref refs/remotes/other/main HEAD && git tag tree-tag 'HEAD^{tree}' && "
+	   "git update-ref refs/remotes/origin/tree tree-tag", dir);
+	git_libgit2_init();
+	assert_int_equal(omen_repo_open(&repo, dir), 0);
+	return 0;
+}
+
+static int teardown(void **st)
+{
+	(void)st;
+	omen_repo_free(repo);
+	git_libgit2_shutdown();
+	sh("rm -rf '%s'", dir);
+	return 0;
+}
+
+static int cmp_hex(const void *a, const void *b)
+{
+	return memcmp(a, b, GIT_OID_HEXSZ);
+}
+
+static void test_remote_refs(void **st)
+{
+	git_oid *ids = NULL;
+	size_t n = 0, i;
+	char got[16][GIT_OID_HEXSZ + 1], want[65536], all[65536];
+	(void)st;
+	assert_int_equal(omen_history_remote_refs(&ids, &n, repo, "origin"), 0);
+	/* the annotated tag peels to its commit; the ref to a tree is skipped */
+	assert_int_equal(n, 3);
+	for (i = 0; i < n; i++)
+		git_oid_tostr(got[i], sizeof(got[i]), &ids[i]);
+	qsort(got, n, sizeof(got[0]), cmp_hex);
+	all[0] = '\0';
+	for (i = 0; i < n; i++) {
+		strcat(all, got[i]);
+		strcat(all, "\n");
+	}
+	snprintf(want, sizeof(want), "%s",
+		sh_out("git rev-parse origin/main^{commit} origin/side^{commit} origin/tagged^{commit} | sort"));
+	assert_string_equal(all, want);
+	free(ids);
+	/* a remote without refs: none, not an error */
+	assert_int_equal(omen_history_remote_refs(&ids, &n, repo, "nowhere"), 0);
+	assert_int_equal(n, 0);
+	assert_null(ids);
+}
+
+static void upstream_eq(const char *want_rev)
+{
+	git_oid up;
+	char hex[GIT_OID_HEXSZ + 1], cmd[256];
+	assert_int_equal(omen_history_upstream(&up, repo), 0);
+	git_oid_tostr(hex, sizeof(hex), &up);
+	snprintf(cmd, sizeof(cmd), "git rev-parse '%s'", want_rev);
+	assert_memory_equal(hex, sh_out(cmd), GIT_OID_HEXSZ);
+}
+
+static void test_upstream(void **st)
+{
+	git_oid up;
+	(void)st;
+	/* no branch.main.* keys */
+	assert_int_equal(omen_history_upstream(&up, repo), OMEN_ENOTFOUND);
+	assert_non_null(strstr(omen_error_last(), "no upstream"));
+	omen_error_clear();
+	/* the default refspec maps refs/heads/main to origin/main */
+	sh("cd '%s' && git config branch.main.remote origin && git config branch.main.merge refs/heads/main", dir);
+	upstream_eq("@{upstream}");
+	upstream_eq("origin/main");
+	/* a refspec that maps the merge ref onto another name */
+	sh("cd '%s' && git config branch.main.merge refs/heads/x && git config --unset-all remote.origin.fetch && "
+	   "git config remote.origin.fetch '+refs/heads/x:refs/remotes/origin/side'", dir);
+	upstream_eq("@{upstream}");
+	upstream_eq("origin/side");
+	/* a merge ref no refspec maps: none (git rev-parse @{upstream} fails too) */
+	sh("cd '%s' && git config --unset-all remote.origin.fetch && "
+	   "git config remote.origin.fetch '+refs/heads/main:refs/remotes/origin/main'", dir);
+	assert_int_equal(omen_history_upstream(&up, repo), OMEN_ENOTFOUND);
+	omen_error_clear();
+	/* "." as the remote: a local branch */
+	sh("cd '%s' && git branch -q base HEAD~2 && git config branch.main.remote . && "
+	   "git config branch.main.merge refs/heads/base", dir);
+	upstream_eq("@{upstream}");
+	upstream_eq("base");
+	/* detached HEAD: none */
+	sh("cd '%s' && git checkout -q --detach HEAD", dir);
+	assert_int_equal(omen_history_upstream(&up, repo), OMEN_ENOTFOUND);
+	omen_error_clear();
+	sh("cd '%s' && git checkout -q main && git config --unset branch.main.remote && "
+	   "git config --unset branch.main.merge", dir);
+}
+
+static void subject_eq(const char *r)
+{
+	git_oid id;
+	char *s = NULL, cmd[256], want[4096];
+	size_t n;
+	assert_int_equal(omen_history_resolve(&id, repo, r), 0);
+	assert_int_equal(omen_history_subject(&s, repo, &id), 0);
+	snprintf(cmd, sizeof(cmd), "git log -1 --format=%%s '%s'", r);
+	snprintf(want, sizeof(want), "%s", sh_out(cmd));
+	n = strlen(want);
+	if (n && want[n - 1] == '\n')
+		want[n - 1] = '\0';
+	assert_string_equal(s, want);
+	free(s);
+}
+
+static void test_subject(void **st)
+{
+	git_oid id;
+	char *s = NULL;
+	(void)st;
+	subject_eq("HEAD~1");
+	subject_eq("HEAD");   /* a two-line first paragraph joins with a space */
+	assert_int_equal(git_oid_fromstr(&id, "0123456789012345678901234567890123456789"), 0);
+	assert_int_equal(omen_history_subject(&s, repo, &id), OMEN_ENOTFOUND);
+	assert_null(s);
+	assert_non_null(strstr(omen_error_last(), "cannot read commit '0123456789012345678901234567890123456789'"));
+	omen_error_clear();
+}
+
+int main(void)
+{
+	const struct CMUnitTest tests[] = {
+		cmocka_unit_test(test_remote_refs),
+		cmocka_unit_test(test_upstream),
+		cmocka_unit_test(test_subject),
+	};
+	return cmocka_run_group_tests_name("history_refs", tests, setup, teardown);
+}
