@@ -359,6 +359,16 @@ out:
 	return ok;
 }
 
+/* Bytes the dataset holds, for omen.memoryLimit on a dataset read from the
+ * cache (the build path counts as it goes). */
+static size_t ds_bytes(const omen_dataset *d)
+{
+	size_t b = d->n * (sizeof(ds_rec) + sizeof(omen_sample) + sizeof(char *));
+	for (int i = 0; i < C_NCOLS; i++)
+		b += d->c[i].len * d->c[i].elem;
+	return b;
+}
+
 /* ---- building from history ----------------------------------------------- */
 typedef struct {
 	omen_dataset *d;
@@ -431,6 +441,13 @@ int omen_dataset_build(omen_dataset **out, omen_repo *r, const omen_dataset_opts
 			goto out;
 		if (cache_read(out, cache_path, &key)) {
 			e = 0;
+			if (o->max_bytes > 0 && ds_bytes(*out) > (size_t)o->max_bytes) {
+				e = omen_error_set(OMEN_ELIMIT, "cannot load dataset: %zu bytes is over the "
+					"memory limit of %lld bytes (omen.memoryLimit)", ds_bytes(*out),
+					(long long)o->max_bytes);
+				omen_dataset_free(*out);
+				*out = NULL;
+			}
 			goto out;
 		}
 	}

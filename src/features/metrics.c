@@ -311,7 +311,8 @@ int omen_metrics_compute(double out[OMEN_NMETRICS], const omen_metrics *m,
 				const u32vec *v = &dv->sub[sids[i]];
 				if (i && sids[i] == sids[i - 1])
 					continue;
-				memcpy(sexp + sexp_n, v->v, v->n * sizeof(*sexp));
+				if (v->n)  /* v->v is NULL when empty: memcpy(NULL) is UB */
+					memcpy(sexp + sexp_n, v->v, v->n * sizeof(*sexp));
 				sexp_n += v->n;
 			}
 			out[OMEN_M_SEXP] = (double)count_unique(sexp, sexp_n);

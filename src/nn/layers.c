@@ -11,8 +11,9 @@
 
 /* A 256-bit clone of the hottest loops beside the baseline one, picked at
  * load time. Same operations lane for lane and no FMA contraction (ISO C
- * mode), so both clones give the same bits. */
-#if defined(__x86_64__) && defined(__GNUC__) && defined(__has_attribute)
+ * mode), so both clones give the same bits. Not with clang 14, which cannot
+ * link clones across files. */
+#if defined(__x86_64__) && defined(__GNUC__) && !defined(__clang__) && defined(__has_attribute)
 #if __has_attribute(target_clones)
 #define NN_CLONES __attribute__((target_clones("avx2", "default")))
 #endif
