@@ -115,6 +115,8 @@ int omen_cursor_line(omen_cursor *c, const char **out, size_t *len);
 
 /* ---- time and progress --------------------------------------------------- */
 double omen_now(void);  /* monotonic seconds */
+/* UTC date of t (seconds since the epoch) as YYYY-MM-DD, "?" if out of range. */
+void omen_format_date(char out[16], int64_t t);
 /* Progress to stderr when it is a terminal: "label: 1234/5678 commits". */
 typedef struct {
 	const char *what;

@@ -57,17 +57,6 @@ static int late(const omen_fold_opts *o, size_t i, int64_t t)
 	return o->label_known && o->label_known[i] != INT64_MIN && o->label_known[i] >= t;
 }
 
-static void ymd(char out[16], int64_t t)
-{
-	time_t tt = (time_t)t;
-	struct tm tm;
-	if (!gmtime_r(&tt, &tm)) {
-		strcpy(out, "?");
-		return;
-	}
-	strftime(out, 16, "%Y-%m-%d", &tm);
-}
-
 int omen_folds_build(omen_fold **out, size_t *out_n, const int64_t *time,
 	const int8_t *label, size_t n, const omen_fold_opts *o)
 {
@@ -144,9 +133,9 @@ int omen_folds_build(omen_fold **out, size_t *out_n, const int64_t *time,
 		}
 		if (k == 0 && ntr < (o->min_train ? o->min_train : 1)) {
 			char a[16], b[16], c[16];
-			ymd(a, fk->train_end);
-			ymd(b, tmin);
-			ymd(c, tmax);
+			omen_format_date(a, fk->train_end);
+			omen_format_date(b, tmin);
+			omen_format_date(c, tmax);
 			rc = omen_error_set(OMEN_EINVAL, "history too short for %zu folds of %lld days "
 				"with a %lld-day gap: the first fold would train on the %zu labelled "
 				"commits before %s, %zu are needed (labelled history: %zu commits over "
@@ -188,7 +177,7 @@ int omen_folds_build(omen_fold **out, size_t *out_n, const int64_t *time,
 		}
 		if (k == 0 && fk->pos_train + fk->pos_valid == 0) {
 			char a[16];
-			ymd(a, fk->train_end);
+			omen_format_date(a, fk->train_end);
 			rc = omen_error_set(OMEN_EINVAL, "no inducing commit among the %zu labelled "
 				"commits before %s that the first fold would train on; use fewer --folds "
 				"or a smaller --fold-days", ntr, a);

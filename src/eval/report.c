@@ -20,17 +20,6 @@ static const char *const method_colors[OMEN_EV_NMETHODS] = {
 static const char advisory[] = "scores are advisory: a probability learned from this "
 	"repository's own fixes, not a verdict";
 
-static void ymd(char out[16], int64_t t)
-{
-	time_t tt = (time_t)t;
-	struct tm tm;
-	if (!gmtime_r(&tt, &tm)) {
-		strcpy(out, "?");
-		return;
-	}
-	strftime(out, 16, "%Y-%m-%d", &tm);
-}
-
 /* ---- JSON ---------------------------------------------------------------------- */
 static void jval(omen_buf *b, double v)
 {
@@ -113,9 +102,9 @@ int omen_eval_write_json(omen_buf *out, const omen_eval_result *r)
 	omen_buf_puts(b, "\"folds\":[");
 	for (k = 0; k < r->nfolds; k++) {
 		const omen_fold_result *f = &r->folds[k];
-		ymd(d1, f->fold.train_end);
-		ymd(d2, f->fold.test_start);
-		ymd(d3, f->fold.test_end);
+		omen_format_date(d1, f->fold.train_end);
+		omen_format_date(d2, f->fold.test_start);
+		omen_format_date(d3, f->fold.test_end);
 		omen_buf_printf(b, "%s{\"fold\":%zu,\"train_before\":\"%s\",\"test_from\":\"%s\","
 			"\"test_until\":\"%s\",\"n_train\":%zu,\"pos_train\":%zu,\"n_valid\":%zu,"
 			"\"pos_valid\":%zu,\"late_labels_left_out\":%zu,\"n_test\":%zu,\"pos_test\":%zu,"
@@ -136,7 +125,7 @@ int omen_eval_write_json(omen_buf *out, const omen_eval_result *r)
 	omen_buf_puts(b, "},\"riskiest\":[");
 	for (i = 0; i < r->nrisky; i++) {
 		const omen_risky *x = &r->risky[i];
-		ymd(d1, x->time);
+		omen_format_date(d1, x->time);
 		omen_buf_printf(b, "%s{\"commit\":\"%s\",\"date\":\"%s\",", i ? "," : "", x->id, d1);
 		jnum(b, "probability", x->prob, 1);
 		omen_buf_printf(b, "\"label\":%d,", x->label);
@@ -220,8 +209,8 @@ int omen_eval_write_text(omen_buf *out, const omen_eval_result *r)
 	for (k = 0; k < r->nfolds; k++) {
 		const omen_fold_result *f = &r->folds[k];
 		const omen_method_scores *m = &f->m[OMEN_EV_MODEL];
-		ymd(d1, f->fold.test_start);
-		ymd(d2, f->fold.test_end - 1);
+		omen_format_date(d1, f->fold.test_start);
+		omen_format_date(d2, f->fold.test_end - 1);
 		omen_buf_printf(b, "%-5zu%s..%-11s%7zu%7zu%6zu", k + 1, d1, d2,
 			f->fold.n_train + f->fold.n_valid, f->fold.n_test, f->fold.pos_test);
 		tnum(b, m->auc, "%*.3f", 7);
@@ -249,7 +238,7 @@ int omen_eval_write_text(omen_buf *out, const omen_eval_result *r)
 		omen_buf_puts(b, "\nriskiest test commits:\n");
 		for (i = 0; i < r->nrisky; i++) {
 			const omen_risky *x = &r->risky[i];
-			ymd(d1, x->time);
+			omen_format_date(d1, x->time);
 			omen_buf_printf(b, "  %.12s %s p=%.3f %-8s %s\n", x->id, d1, x->prob,
 				x->label ? "inducing" : "clean", x->why);
 		}
@@ -572,10 +561,10 @@ int omen_eval_write_html(omen_buf *out, const omen_eval_result *r, const char *t
 	for (k = 0; k < r->nfolds; k++) {
 		const omen_fold_result *f = &r->folds[k];
 		const omen_method_scores *m = &f->m[OMEN_EV_MODEL];
-		ymd(d1, f->fold.train_end);
+		omen_format_date(d1, f->fold.train_end);
 		omen_buf_printf(b, "<tr><td>%zu</td><td>%s</td>", k + 1, d1);
-		ymd(d1, f->fold.test_start);
-		ymd(d2, f->fold.test_end - 1);
+		omen_format_date(d1, f->fold.test_start);
+		omen_format_date(d2, f->fold.test_end - 1);
 		omen_buf_printf(b, "<td>%s &ndash; %s</td><td>%zu</td><td>%zu</td><td>%zu</td>", d1, d2,
 			f->fold.n_train + f->fold.n_valid, f->fold.n_test, f->fold.pos_test);
 		html_num(b, m->auc, "%.3f");
@@ -597,7 +586,7 @@ int omen_eval_write_html(omen_buf *out, const omen_eval_result *r, const char *t
 			"<th>label</th><th>effort</th><th>what drove the score</th></tr>\n");
 		for (i = 0; i < r->nrisky; i++) {
 			const omen_risky *x = &r->risky[i];
-			ymd(d1, x->time);
+			omen_format_date(d1, x->time);
 			omen_buf_printf(b, "<tr><td><code>%.12s</code></td><td>%s</td><td>%.3f</td>"
 				"<td>%s</td><td>%.0f</td><td class=\"why\">", x->id, d1, x->prob,
 				x->label ? "inducing" : "clean", x->effort);

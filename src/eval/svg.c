@@ -86,12 +86,7 @@ void svg_axes(svg_plot *p, int xticks, int yticks, int xfmt_date)
 		double x = p->xmin + (p->xmax - p->xmin) * i / xticks;
 		char lab[32];
 		if (xfmt_date) {
-			time_t tt = (time_t)x;
-			struct tm tm;
-			if (gmtime_r(&tt, &tm))
-				strftime(lab, sizeof(lab), "%Y-%m-%d", &tm);
-			else
-				lab[0] = '\0';
+			omen_format_date(lab, (int64_t)x);
 		} else {
 			snprintf(lab, sizeof(lab), "%g", round(x * 100) / 100);
 		}

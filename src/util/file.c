@@ -241,6 +241,14 @@ double omen_now(void)
 	return (double)ts.tv_sec + ts.tv_nsec * 1e-9;
 }
 
+void omen_format_date(char out[16], int64_t t)
+{
+	time_t tt = (time_t)t;
+	struct tm tm;
+	if (!gmtime_r(&tt, &tm) || !strftime(out, 16, "%Y-%m-%d", &tm))
+		strcpy(out, "?");
+}
+
 void omen_progress_start(omen_progress *p, const char *what, uint64_t total)
 {
 	p->what = what;
