@@ -5,6 +5,7 @@
 #include <math.h>
 #include <stdlib.h>
 #include "omen/error.h"
+#include "omen/eval.h"
 #include "omen/model.h"
 
 static double log1pexp(double z)
@@ -84,46 +85,10 @@ int omen_platt_fit(double *out_a, double *out_b, const double *f, const int *y, 
 	return 0;
 }
 
-typedef struct { double p; int y; } scored;
-
-static int cmp_desc(const void *x, const void *y)
-{
-	double a = ((const scored *)x)->p, b = ((const scored *)y)->p;
-	return a < b ? 1 : a > b ? -1 : 0;
-}
-
 /* Threshold t (predict positive when prob >= t) with the highest F1 over the
- * distinct predicted values (one sweep in descending order); 0.5 when there
- * are no positives. */
+ * distinct predicted values; 0.5 when there are no positives. The sweep is
+ * the evaluation's own. */
 double omen_threshold_max_f1(const double *prob, const int *y, size_t n)
 {
-	scored *s;
-	double best_t = 0.5, best_f1 = -1;
-	size_t i, pos = 0, tp = 0, fp = 0;
-	if (!n || !(s = malloc(n * sizeof(*s))))
-		return 0.5;
-	for (i = 0; i < n; i++) {
-		s[i].p = prob[i];
-		s[i].y = y[i] != 0;
-		pos += s[i].y;
-	}
-	if (!pos) {
-		free(s);
-		return 0.5;
-	}
-	qsort(s, n, sizeof(*s), cmp_desc);
-	for (i = 0; i < n; i++) {
-		double f1;
-		tp += s[i].y;
-		fp += !s[i].y;
-		if (i + 1 < n && s[i + 1].p == s[i].p)
-			continue;
-		f1 = 2.0 * tp / (double)(2 * tp + fp + (pos - tp));
-		if (f1 > best_f1) {
-			best_f1 = f1;
-			best_t = s[i].p;
-		}
-	}
-	free(s);
-	return best_t;
+	return omen_best_f1_threshold(prob, y, n);
 }
