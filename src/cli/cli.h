@@ -29,6 +29,8 @@ int cli_usage(const char *cmd, const char *fmt, ...)
  * when argv[*i] is the option (advancing *i past a separate value), -1 when
  * the value is missing, 0 otherwise. */
 int cli_opt_value(int argc, char **argv, int *i, const char *name, const char **val);
+/* A decimal integer from lo to hi, the whole of v; 0, or -1 when v is not one. */
+int cli_parse_int(long long *out, const char *v, long long lo, long long hi);
 /* Whether standard output should get colour (a terminal, NO_COLOR unset). */
 int cli_use_color(FILE *fp);
 

@@ -24,19 +24,6 @@ static const char usage_text[] =
 	"\n"
 	"Scores are advisory: the evaluation shows how far to trust them on this history.\n";
 
-static int parse_count(const char *v, int64_t *out, int64_t max)
-{
-	char *end;
-	long long x;
-	if (!*v)
-		return -1;
-	x = strtoll(v, &end, 10);
-	if (*end || x < 0 || x > max)
-		return -1;
-	*out = x;
-	return 0;
-}
-
 typedef struct {
 	int tty;
 	double total;
@@ -89,7 +76,7 @@ int cmd_eval(int argc, char **argv)
 	char **excl = NULL;
 	size_t nexcl = 0;
 	int i, r, rc = EXIT_OK, gap_set = 0, threads_set = 0, no_cache = 0;
-	int64_t n;
+	long long n;
 
 	omen_eval_opts_init(&o);
 	memset(&res, 0, sizeof(res));
@@ -101,7 +88,7 @@ int cmd_eval(int argc, char **argv)
 		} else if ((r = cli_opt_value(argc, argv, &i, "--folds", &val))) {
 			if (r < 0)
 				goto missing;
-			if (parse_count(val, &n, 1000) || n < 1) {
+			if (cli_parse_int(&n, val, 1, 1000)) {
 				rc = cli_usage("eval", "--folds: '%s' is not a count from 1 to 1000", val);
 				goto done;
 			}
@@ -109,7 +96,7 @@ int cmd_eval(int argc, char **argv)
 		} else if ((r = cli_opt_value(argc, argv, &i, "--fold-days", &val))) {
 			if (r < 0)
 				goto missing;
-			if (parse_count(val, &n, 100000) || n < 1) {
+			if (cli_parse_int(&n, val, 1, 100000)) {
 				rc = cli_usage("eval", "--fold-days: '%s' is not a number of days", val);
 				goto done;
 			}
@@ -117,7 +104,7 @@ int cmd_eval(int argc, char **argv)
 		} else if ((r = cli_opt_value(argc, argv, &i, "--gap-days", &val))) {
 			if (r < 0)
 				goto missing;
-			if (parse_count(val, &n, 100000)) {
+			if (cli_parse_int(&n, val, 0, 100000)) {
 				rc = cli_usage("eval", "--gap-days: '%s' is not a number of days", val);
 				goto done;
 			}
@@ -138,7 +125,7 @@ int cmd_eval(int argc, char **argv)
 		} else if ((r = cli_opt_value(argc, argv, &i, "--seed", &val))) {
 			if (r < 0)
 				goto missing;
-			if (parse_count(val, &n, INT64_MAX)) {
+			if (cli_parse_int(&n, val, 0, INT64_MAX)) {
 				rc = cli_usage("eval", "--seed: '%s' is not a number", val);
 				goto done;
 			}
@@ -147,7 +134,7 @@ int cmd_eval(int argc, char **argv)
 		} else if ((r = cli_opt_value(argc, argv, &i, "--bootstrap", &val))) {
 			if (r < 0)
 				goto missing;
-			if (parse_count(val, &n, 1000000)) {
+			if (cli_parse_int(&n, val, 0, 1000000)) {
 				rc = cli_usage("eval", "--bootstrap: '%s' is not a count", val);
 				goto done;
 			}
@@ -155,7 +142,7 @@ int cmd_eval(int argc, char **argv)
 		} else if ((r = cli_opt_value(argc, argv, &i, "--epochs", &val))) {
 			if (r < 0)
 				goto missing;
-			if (parse_count(val, &n, 100000) || n < 1) {
+			if (cli_parse_int(&n, val, 1, 100000)) {
 				rc = cli_usage("eval", "--epochs: '%s' is not a count", val);
 				goto done;
 			}
@@ -163,7 +150,7 @@ int cmd_eval(int argc, char **argv)
 		} else if ((r = cli_opt_value(argc, argv, &i, "--threads", &val))) {
 			if (r < 0)
 				goto missing;
-			if (parse_count(val, &n, 1024)) {
+			if (cli_parse_int(&n, val, 0, 1024)) {
 				rc = cli_usage("eval", "--threads: '%s' is not a count", val);
 				goto done;
 			}

@@ -1,5 +1,6 @@
 /* git omen label: find fix commits, trace the lines they repair to the
  * commits that introduced them (SZZ), write the label file, print a summary. */
+#include <limits.h>
 #include <stdlib.h>
 #include <string.h>
 #include "cli/cli.h"
@@ -96,16 +97,6 @@ static void print_json(const omen_label_summary *s)
 		s->list_unmatched, s->new_commits, s->reused_commits, s->state_peak_bytes, s->seconds);
 }
 
-static int parse_count(const char *v, int64_t *out)
-{
-	char *end;
-	long long x = strtoll(v, &end, 10);
-	if (!*v || *end || x < 0)
-		return -1;
-	*out = x;
-	return 0;
-}
-
 int cmd_label(int argc, char **argv)
 {
 	omen_label_opts o;
@@ -114,7 +105,7 @@ int cmd_label(int argc, char **argv)
 	const char *out = NULL, *format = "text", *val;
 	const char **revs = NULL;
 	int nrevs = 0, i, r, rc = EXIT_OK, e;
-	int64_t n;
+	long long n;
 
 	omen_label_opts_init(&o);
 	if (!(revs = calloc((size_t)argc + 1, sizeof(*revs))))
@@ -139,7 +130,7 @@ int cmd_label(int argc, char **argv)
 		} else if ((r = cli_opt_value(argc, argv, &i, "--window", &val))) {
 			if (r < 0)
 				goto missing;
-			if (parse_count(val, &n)) {
+			if (cli_parse_int(&n, val, 0, LLONG_MAX)) {
 				rc = cli_usage("label", "--window: '%s' is not a number of days", val);
 				goto done;
 			}
@@ -147,7 +138,7 @@ int cmd_label(int argc, char **argv)
 		} else if ((r = cli_opt_value(argc, argv, &i, "--max-fix-files", &val))) {
 			if (r < 0)
 				goto missing;
-			if (parse_count(val, &n) || n > 1000000000) {
+			if (cli_parse_int(&n, val, 0, 1000000000)) {
 				rc = cli_usage("label", "--max-fix-files: '%s' is not a count", val);
 				goto done;
 			}

@@ -210,16 +210,6 @@ out:
 	return rc;
 }
 
-static int parse_int(const char *v, long long lo, long long hi, long long *out)
-{
-	char *end;
-	long long x = strtoll(v, &end, 10);
-	if (!*v || *end || x < lo || x > hi)
-		return -1;
-	*out = x;
-	return 0;
-}
-
 int cmd_train(int argc, char **argv)
 {
 	omen_train_opts o;
@@ -254,17 +244,17 @@ int cmd_train(int argc, char **argv)
 			labels = val;
 		} else if ((r = cli_opt_value(argc, argv, &i, "--epochs", &val))) {
 			if (r < 0) goto missing;
-			if (parse_int(val, 1, 10000, &n))
+			if (cli_parse_int(&n, val, 1, 10000))
 				return cli_usage("train", "--epochs: '%s' is not a count from 1 to 10000", val);
 			o.epochs = (int)n;
 		} else if ((r = cli_opt_value(argc, argv, &i, "--seed", &val))) {
 			if (r < 0) goto missing;
-			if (parse_int(val, 0, INT64_MAX, &n))
+			if (cli_parse_int(&n, val, 0, INT64_MAX))
 				return cli_usage("train", "--seed: '%s' is not a non-negative integer", val);
 			o.seed = (uint64_t)n;
 		} else if ((r = cli_opt_value(argc, argv, &i, "--threads", &val))) {
 			if (r < 0) goto missing;
-			if (parse_int(val, 1, 64, &n))
+			if (cli_parse_int(&n, val, 1, 64))
 				return cli_usage("train", "--threads: '%s' is not a count from 1 to 64", val);
 			o.threads = (int)n;
 		} else if ((r = cli_opt_value(argc, argv, &i, "--format", &val))) {

@@ -70,6 +70,16 @@ int cli_opt_value(int argc, char **argv, int *i, const char *name, const char **
 	return 1;
 }
 
+int cli_parse_int(long long *out, const char *v, long long lo, long long hi)
+{
+	char *end;
+	long long x = strtoll(v, &end, 10);
+	if (!*v || *end || x < lo || x > hi)
+		return -1;
+	*out = x;
+	return 0;
+}
+
 int cli_use_color(FILE *fp)
 {
 	const char *nc = getenv("NO_COLOR");
