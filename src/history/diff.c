@@ -50,7 +50,7 @@ void omen_change_free(omen_change *c)
 	memset(c, 0, sizeof(*c));
 }
 
-static int git_fail(const char *what, const char *subject)
+int hist_git_fail(const char *what, const char *subject)
 {
 	const git_error *e = git_error_last();
 	return omen_error_set(OMEN_EGIT, "%s '%s': %s", what, subject,
@@ -83,7 +83,7 @@ int hist_differ_init(hist_differ *d, git_repository *repo, const omen_walk_opts 
 	d->detect_renames = o ? o->detect_renames >= 0 : 1;
 	d->with_lines = o ? o->with_lines : 1;
 	if (git_repository_odb(&d->odb, repo) < 0)
-		return git_fail("cannot open object database of", git_repository_path(repo));
+		return hist_git_fail("cannot open object database of", git_repository_path(repo));
 	git_diff_options_init(&d->dopts, GIT_DIFF_OPTIONS_VERSION);
 	d->dopts.context_lines = 0;
 	d->dopts.interhunk_lines = 0;
@@ -162,12 +162,12 @@ static int entry_pair(hist_differ *d, omen_change *out, const git_tree_entry *ea
 		/* same name and both trees (entry_cmp makes mixed pairs unequal) */
 		git_tree *ta = NULL, *tb = NULL;
 		if (ea && git_tree_lookup(&ta, d->repo, git_tree_entry_id(ea)) < 0) {
-			rc = git_fail("cannot read tree", d->path.ptr);
+			rc = hist_git_fail("cannot read tree", d->path.ptr);
 			goto out;
 		}
 		if (eb && git_tree_lookup(&tb, d->repo, git_tree_entry_id(eb)) < 0) {
 			git_tree_free(ta);
-			rc = git_fail("cannot read tree", d->path.ptr);
+			rc = hist_git_fail("cannot read tree", d->path.ptr);
 			goto out;
 		}
 		if (omen_buf_put(&d->path, "/", 1) < 0) {
@@ -311,13 +311,13 @@ static int load_blob(hist_differ *d, git_blob **out, const git_oid *id, const ch
 	git_object_t type;
 	*out = NULL;
 	if (git_odb_read_header(&len, &type, d->odb, id) < 0)
-		return git_fail("cannot read blob of", path);
+		return hist_git_fail("cannot read blob of", path);
 	if ((int64_t)len > d->max_blob) {
 		*too_large = 1;
 		return 0;
 	}
 	if (git_blob_lookup(out, d->repo, id) < 0)
-		return git_fail("cannot read blob of", path);
+		return hist_git_fail("cannot read blob of", path);
 	return 0;
 }
 
@@ -395,7 +395,7 @@ static int run_diff(hist_differ *d, omen_change *c, uint32_t fi, const git_blob 
 	if (x.rc < 0)
 		return x.rc;
 	if (rc < 0)
-		return git_fail("cannot diff", c->files[fi].new_path ? c->files[fi].new_path : c->files[fi].old_path);
+		return hist_git_fail("cannot diff", c->files[fi].new_path ? c->files[fi].new_path : c->files[fi].old_path);
 	return 0;
 }
 
@@ -581,19 +581,19 @@ int hist_diff_commit(hist_differ *d, omen_change *out, const git_oid *id)
 	omen_change_clear(out);
 	git_oid_tostr(hex, sizeof(hex), id);
 	if (git_commit_lookup(&cm, d->repo, id) < 0) {
-		rc = git_fail("cannot read commit", hex);
+		rc = hist_git_fail("cannot read commit", hex);
 		goto out;
 	}
 	if ((rc = fill_commit(d, out, cm)) < 0)
 		goto out;
 	if (out->commit.nparents && git_odb_exists(d->odb, &out->commit.parents[0])) {
 		if (git_commit_parent(&parent, cm, 0) < 0 || git_commit_tree(&ta, parent) < 0) {
-			rc = git_fail("cannot read parent of commit", hex);
+			rc = hist_git_fail("cannot read parent of commit", hex);
 			goto out;
 		}
 	}
 	if (git_commit_tree(&tb, cm) < 0) {
-		rc = git_fail("cannot read tree of commit", hex);
+		rc = hist_git_fail("cannot read tree of commit", hex);
 		goto out;
 	}
 	rc = hist_diff_trees(d, out, ta, tb);
@@ -637,18 +637,18 @@ int omen_history_staged(omen_change *out, omen_repo *r, const omen_walk_opts *o)
 	if (!unborn) {
 		if (git_reference_name_to_id(&head_id, repo, "HEAD") < 0 ||
 		    git_commit_lookup(&head, repo, &head_id) < 0 || git_commit_tree(&tree, head) < 0) {
-			rc = git_fail("cannot read", "HEAD");
+			rc = hist_git_fail("cannot read", "HEAD");
 			goto out;
 		}
 	}
 	if (git_repository_index(&index, repo) < 0) {
-		rc = git_fail("cannot read index of", omen_repo_gitdir(r));
+		rc = hist_git_fail("cannot read index of", omen_repo_gitdir(r));
 		goto out;
 	}
 	git_diff_options_init(&dopts, GIT_DIFF_OPTIONS_VERSION);
 	dopts.flags = GIT_DIFF_INCLUDE_TYPECHANGE;
 	if (git_diff_tree_to_index(&diff, repo, tree, index, &dopts) < 0) {
-		rc = git_fail("cannot compare index with", "HEAD");
+		rc = hist_git_fail("cannot compare index with", "HEAD");
 		goto out;
 	}
 	d.nents = 0;

@@ -46,6 +46,10 @@ int hist_diff_entries(hist_differ *d, omen_change *out);
 /* o with omen.maxBlobBytes / omen.threads filled in where 0. */
 int hist_resolve_opts(omen_walk_opts *dst, omen_repo *r, const omen_walk_opts *o);
 
+/* Sets an OMEN_EGIT error "<what> '<subject>': <libgit2's last message>"
+ * and returns it. */
+int hist_git_fail(const char *what, const char *subject);
+
 /* Normalised copy of an e-mail: lowercased, spaces and <> trimmed. */
 char *hist_norm_email(omen_arena *a, const char *email);
 

@@ -42,13 +42,6 @@ typedef struct {
 	int first_parent;
 } lister;
 
-static int git_fail(const char *what, const char *subject)
-{
-	const git_error *e = git_error_last();
-	return omen_error_set(OMEN_EGIT, "%s '%s': %s", what, subject,
-		e && e->message ? e->message : "libgit2 error");
-}
-
 static size_t oid_hash(const git_oid *id)
 {
 	size_t h;
@@ -168,7 +161,7 @@ static int node_load(lister *l, int32_t v)
 	if (e < 0) {
 		char hex[OMEN_OID_HEX + 1];
 		git_oid_tostr(hex, sizeof(hex), &nd->id);
-		return git_fail("cannot read commit", hex);
+		return hist_git_fail("cannot read commit", hex);
 	}
 	np = git_commit_parentcount(c);
 	follow = l->first_parent && np > 1 ? 1 : np;
@@ -286,7 +279,7 @@ int omen_history_resolve(git_oid *out, omen_repo *r, const char *spec)
 				e == GIT_EAMBIGUOUS ? "ambiguous revision" :
 				ge && ge->message ? ge->message : "unknown revision");
 		}
-		return git_fail("cannot resolve", spec);
+		return hist_git_fail("cannot resolve", spec);
 	}
 	rc = peel_commit(out, repo, o, spec);
 	git_object_free(o);
@@ -345,7 +338,7 @@ static int add_all_refs(lister *l, omen_repo *r)
 	git_reference *ref;
 	int rc = 0, any = 0;
 	if (git_reference_iterator_new(&it, repo) < 0)
-		return git_fail("cannot list references of", omen_repo_gitdir(r));
+		return hist_git_fail("cannot list references of", omen_repo_gitdir(r));
 	while (!rc && git_reference_next(&ref, it) == 0) {
 		git_object *o = NULL, *c = NULL;
 		if (git_reference_peel(&o, ref, GIT_OBJECT_ANY) == 0 &&
@@ -650,7 +643,7 @@ static void *worker_main(void *arg)
 	int ready = 0, init_rc = 0;
 	char init_err[512] = "";
 	if (git_repository_open_ext(&repo, w->gitdir, GIT_REPOSITORY_OPEN_NO_SEARCH, NULL) < 0)
-		init_rc = git_fail("cannot open repository", w->gitdir);
+		init_rc = hist_git_fail("cannot open repository", w->gitdir);
 	else if ((init_rc = hist_differ_init(&d, repo, w->o)) == 0)
 		ready = 1;
 	if (init_rc)
