@@ -7,18 +7,11 @@
 #include "omen/error.h"
 #include "omen/eval.h"
 #include "omen/model.h"
-
-static double log1pexp(double z)
-{
-	return z > 0 ? z + log1p(exp(-z)) : log1p(exp(z));
-}
+#include "model/model_int.h"
 
 double omen_platt_apply(double a, double b, double f)
 {
-	double z = a * f + b;
-	if (z >= 0)
-		return 1.0 / (1.0 + exp(-z));
-	return exp(z) / (1.0 + exp(z));
+	return omen_sigmoid_d(a * f + b);
 }
 
 /* Minimises the cross-entropy of p = sigmoid(a f + b) against the smoothed
@@ -42,13 +35,13 @@ int omen_platt_fit(double *out_a, double *out_b, const double *f, const int *y, 
 	b = log((np + 1) / (nn + 1));
 	for (i = 0; i < n; i++) {
 		double t = y[i] ? tp : tn, z = a * f[i] + b;
-		fval += log1pexp(z) - t * z;
+		fval += omen_softplus_d(z) - t * z;
 	}
 	for (it = 0; it < 100; it++) {
 		double h11 = 1e-12, h22 = 1e-12, h21 = 0, g1 = 0, g2 = 0, det, da, db, step = 1;
 		for (i = 0; i < n; i++) {
 			double t = y[i] ? tp : tn, z = a * f[i] + b;
-			double p = z >= 0 ? 1 / (1 + exp(-z)) : exp(z) / (1 + exp(z));
+			double p = omen_sigmoid_d(z);
 			double w = p * (1 - p), d = p - t;
 			h11 += f[i] * f[i] * w;
 			h22 += w;
@@ -67,7 +60,7 @@ int omen_platt_fit(double *out_a, double *out_b, const double *f, const int *y, 
 			double na = a + step * da, nb = b + step * db, nf = 0;
 			for (i = 0; i < n; i++) {
 				double t = y[i] ? tp : tn, z = na * f[i] + nb;
-				nf += log1pexp(z) - t * z;
+				nf += omen_softplus_d(z) - t * z;
 			}
 			if (nf < fval + 1e-4 * step * (g1 * da + g2 * db)) {
 				a = na; b = nb; fval = nf;

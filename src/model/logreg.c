@@ -10,23 +10,7 @@
 #include <string.h>
 #include "omen/error.h"
 #include "omen/model.h"
-
-static double sigmoid(double z)
-{
-	if (z >= 0) {
-		double e = exp(-z);
-		return 1.0 / (1.0 + e);
-	} else {
-		double e = exp(z);
-		return e / (1.0 + e);
-	}
-}
-
-/* log(1 + exp(z)), stable. */
-static double softplus(double z)
-{
-	return z > 0 ? z + log1p(exp(-z)) : log1p(exp(z));
-}
+#include "model/model_int.h"
 
 /* Solves A x = r for symmetric positive definite A [k,k] in place by
  * Cholesky; returns -1 when A is not positive definite. */
@@ -73,7 +57,7 @@ static double objective(const double *Z, const double *y, int n, int p, const do
 		double z = th[p];
 		for (j = 0; j < p; j++)
 			z += Z[(size_t)i * p + j] * th[j];
-		f += softplus(z) - y[i] * z;
+		f += omen_softplus_d(z) - y[i] * z;
 	}
 	for (j = 0; j < p; j++)
 		f += 0.5 * l2 * th[j] * th[j];
@@ -133,7 +117,7 @@ int omen_logreg_fit(omen_logreg *out, const double *X, const double *y, int n, i
 			double z = th[p], mu, w;
 			for (j = 0; j < p; j++)
 				z += zi[j] * th[j];
-			mu = sigmoid(z);
+			mu = omen_sigmoid_d(z);
 			w = mu * (1 - mu);
 			for (j = 0; j < p; j++) {
 				g[j] += (mu - y[i]) * zi[j];
@@ -195,7 +179,7 @@ double omen_logreg_predict(const omen_logreg *lr, const double *x)
 	int j;
 	for (j = 0; j < lr->p; j++)
 		z += lr->w[j] * (x[j] - lr->mean[j]) / lr->scale[j];
-	return sigmoid(z);
+	return omen_sigmoid_d(z);
 }
 
 void omen_logreg_free(omen_logreg *lr)

@@ -3,8 +3,27 @@
 #ifndef OMEN_MODEL_INT_H
 #define OMEN_MODEL_INT_H
 
+#include <math.h>
 #include "omen/model.h"
 #include "omen/nn.h"
+
+/* 1 / (1 + exp(-z)) and log(1 + exp(z)) without overflow, shared by the
+ * logistic regression and the Platt scaling. */
+static inline double omen_sigmoid_d(double z)
+{
+	if (z >= 0) {
+		double e = exp(-z);
+		return 1.0 / (1.0 + e);
+	} else {
+		double e = exp(z);
+		return e / (1.0 + e);
+	}
+}
+
+static inline double omen_softplus_d(double z)
+{
+	return z > 0 ? z + log1p(exp(-z)) : log1p(exp(z));
+}
 
 #define OMEN_MODEL_ARCH "omen-hier-1"
 #define OMEN_MODEL_KW 3                      /* conv width */
