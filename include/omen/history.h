@@ -121,6 +121,11 @@ static inline const char *omen_line_text(const omen_change *c, const omen_line *
 {
 	return c->text + l->text_off;
 }
+/* The file's path: the new one, else the old one (deleted files), else "". */
+static inline const char *omen_file_path(const omen_file *f)
+{
+	return f->new_path ? f->new_path : f->old_path ? f->old_path : "";
+}
 
 /* ---- walking ------------------------------------------------------------- */
 typedef struct {

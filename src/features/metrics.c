@@ -116,11 +116,6 @@ void omen_metrics_free(omen_metrics *m)
 }
 
 /* ---- path helpers ------------------------------------------------------- */
-static const char *file_path(const omen_file *f)
-{
-	return f->new_path ? f->new_path : f->old_path ? f->old_path : "";
-}
-
 /* Subsystem: the top-level directory ("" for files at the root). */
 static size_t subsystem_len(const char *p)
 {
@@ -236,7 +231,7 @@ int omen_metrics_compute(double out[OMEN_NMETRICS], const omen_metrics *m,
 	}
 	for (size_t i = 0; i < nf; i++) {
 		const omen_file *f = &c->files[i];
-		const char *p = file_path(f);
+		const char *p = omen_file_path(f);
 		const mfile *pf = file_find(m, f);
 		ss[i].s = p;
 		ss[i].len = subsystem_len(p);
@@ -389,7 +384,7 @@ int omen_metrics_update(omen_metrics *m, const omen_change *c, int is_fix)
 	d->times[d->ntimes++] = c->commit.author_time;
 	for (size_t i = 0; i < c->nfiles; i++) {
 		const omen_file *f = &c->files[i];
-		const char *p = file_path(f);
+		const char *p = omen_file_path(f);
 		char key[4096];
 		size_t l = subsystem_len(p);
 		uint32_t sid;
@@ -443,7 +438,7 @@ int omen_metrics_file_facts(float out[OMEN_NFACTS], const omen_metrics *m,
 		return omen_error_set(OMEN_EINVAL, "file index %zu out of range", file_index);
 	f = &c->files[file_index];
 	pf = f->status == OMEN_FILE_ADDED ? NULL : file_find(m, f);
-	p = file_path(f);
+	p = omen_file_path(f);
 	memset(out, 0, sizeof(float) * OMEN_NFACTS);
 	if (pf) {
 		double age = (double)(c->commit.author_time - pf->last_time) / DAY;

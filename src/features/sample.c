@@ -114,11 +114,6 @@ static int pick_largest(keyed *out, const int64_t *size, int n, int k)
 	return n;
 }
 
-static const char *file_name(const omen_file *f)
-{
-	return f->new_path ? f->new_path : f->old_path ? f->old_path : "";
-}
-
 int omen_sample_build(omen_sample *out, omen_sample_buf *b, const omen_change *c,
 	const omen_metrics *m, int is_fix, const omen_caps *caps)
 {
@@ -189,7 +184,7 @@ int omen_sample_build(omen_sample *out, omen_sample_buf *b, const omen_change *c
 	for (i = 0; i < nf; i++) {
 		const omen_file *f = &c->files[fsel[i].idx];
 		int nh = (int)f->nhunks, k, kept;
-		const char *nm = file_name(f);
+		const char *nm = omen_file_path(f);
 		b->order[i] = fsel[i].idx;
 		b->paths[i] = b->names.len;   /* offset, turned into a pointer at the end */
 		if ((e = omen_buf_put(&b->names, nm, strlen(nm) + 1)))
