@@ -189,6 +189,22 @@ out:
 	return rc;
 }
 
+/* One step down the ascending order ord from a: counts the cases whose score
+ * ties score[ord[a - 1]] into tp and fp and returns where the group starts. */
+static size_t take_group(size_t *tp, size_t *fp, const double *score, const int *y,
+	const size_t *ord, size_t a)
+{
+	size_t b = a;
+	while (b > 0 && score[ord[b - 1]] == score[ord[a - 1]]) {
+		if (y[ord[b - 1]])
+			(*tp)++;
+		else
+			(*fp)++;
+		b--;
+	}
+	return b;
+}
+
 /* ---- average precision ----------------------------------------------------- */
 double omen_average_precision(const double *score, const int *y, size_t n)
 {
@@ -204,14 +220,7 @@ double omen_average_precision(const double *score, const int *y, size_t n)
 	a = n;
 	while (a > 0) {
 		double r;
-		b = a;
-		while (b > 0 && score[ord[b - 1]] == score[ord[a - 1]]) {
-			if (y[ord[b - 1]])
-				tp++;
-			else
-				fp++;
-			b--;
-		}
+		b = take_group(&tp, &fp, score, y, ord, a);
 		r = (double)tp / (double)P;
 		ap += (r - prev_r) * ((double)tp / (double)(tp + fp));
 		prev_r = r;
@@ -330,14 +339,7 @@ double omen_best_f1_threshold(const double *score, const int *y, size_t n)
 	a = n;
 	while (a > 0) {
 		double f1;
-		b = a;
-		while (b > 0 && score[ord[b - 1]] == score[ord[a - 1]]) {
-			if (y[ord[b - 1]])
-				tp++;
-			else
-				fp++;
-			b--;
-		}
+		b = take_group(&tp, &fp, score, y, ord, a);
 		f1 = 2.0 * (double)tp / (double)(tp + fp + P);
 		if (f1 > best_f1) {   /* strict: on ties the higher threshold stays */
 			best_f1 = f1;
@@ -366,14 +368,7 @@ size_t omen_roc_curve(double *out_fpr, double *out_tpr, const double *score,
 	out_tpr[k++] = 0;
 	a = n;
 	while (a > 0) {
-		b = a;
-		while (b > 0 && score[ord[b - 1]] == score[ord[a - 1]]) {
-			if (y[ord[b - 1]])
-				tp++;
-			else
-				fp++;
-			b--;
-		}
+		b = take_group(&tp, &fp, score, y, ord, a);
 		out_fpr[k] = (double)fp / (double)N;
 		out_tpr[k++] = (double)tp / (double)P;
 		a = b;
