@@ -249,6 +249,15 @@ static void expect_origins(lbl_tracer *t, const char *path, int b, const uint32_
 		assert_int_equal(got[i], want[i]);
 }
 
+/* Commit ci of the linear history: its new versions, the references moved
+ * from the old ones, and the released versions freed. */
+static void advance(lbl_tracer *t, fake *f, uint32_t ci)
+{
+	assert_int_equal(lbl_tracer_apply(t, &f->c, ci), 0);
+	lbl_tracer_step(t, &f->c);
+	lbl_tracer_sweep(t);
+}
+
 static void test_tracer_origins(void **state)
 {
 	lbl_trace_opts o = {1, 1, 1};
@@ -266,17 +275,13 @@ static void test_tracer_origins(void **state)
 	fake_init(&f);
 	fake_file(&f, NULL, 0, "x.c", 1, 'A');
 	fake_hunk(&f, 0, 0, 1, 4, NULL, add1);
-	assert_int_equal(lbl_tracer_apply(t, &f.c, 0), 0);
-	lbl_tracer_step(t, &f.c);
-	lbl_tracer_sweep(t);
+	advance(t, &f, 0);
 	expect_origins(t, "x.c", 1, (const uint32_t[]){0, 0, 0, 0}, 4);
 	/* commit 1 replaces line 2 by two lines: @@ -2 +2,2 @@ */
 	fake_init(&f);
 	fake_file(&f, "x.c", 1, "x.c", 2, 'M');
 	fake_hunk(&f, 2, 1, 2, 2, del2, add2);
-	assert_int_equal(lbl_tracer_apply(t, &f.c, 1), 0);
-	lbl_tracer_step(t, &f.c);
-	lbl_tracer_sweep(t);
+	advance(t, &f, 1);
 	expect_origins(t, "x.c", 2, (const uint32_t[]){0, 1, 1, 0, 0}, 5);
 	{ /* the old version was released */
 		git_oid b1;
@@ -288,9 +293,7 @@ static void test_tracer_origins(void **state)
 	fake_init(&f);
 	fake_file(&f, "x.c", 2, "x.c", 3, 'M');
 	fake_hunk(&f, 0, 0, 1, 1, NULL, add3);
-	assert_int_equal(lbl_tracer_apply(t, &f.c, 2), 0);
-	lbl_tracer_step(t, &f.c);
-	lbl_tracer_sweep(t);
+	advance(t, &f, 2);
 	expect_origins(t, "x.c", 3, (const uint32_t[]){2, 0, 1, 1, 0, 0}, 6);
 	/* commit 3 re-indents "a" and deletes "B": @@ -2,2 +2 @@; the new "  a"
 	 * keeps origin 0 (whitespace-only rewrite) */
@@ -304,9 +307,7 @@ static void test_tracer_origins(void **state)
 	assert_int_equal(tr.skip[0], LBL_SKIP_WS);
 	assert_int_equal(tr.origin[1], 1);
 	assert_int_equal(tr.skip[1], LBL_TRACED);
-	assert_int_equal(lbl_tracer_apply(t, &f.c, 3), 0);
-	lbl_tracer_step(t, &f.c);
-	lbl_tracer_sweep(t);
+	advance(t, &f, 3);
 	expect_origins(t, "x.c", 4, (const uint32_t[]){2, 0, 1, 0, 0}, 5);
 	/* a fix deleting lines 2,3 and 1 (as two hunks) traces to 0, 1, 2 */
 	fake_init(&f);
@@ -335,15 +336,11 @@ static void test_tracer_skips_and_rename(void **state)
 	fake_init(&f);
 	fake_file(&f, NULL, 0, "y.c", 1, 'A');
 	fake_hunk(&f, 0, 0, 1, 7, NULL, add1);
-	assert_int_equal(lbl_tracer_apply(t, &f.c, 0), 0);
-	lbl_tracer_step(t, &f.c);
-	lbl_tracer_sweep(t);
+	advance(t, &f, 0);
 	/* exact rename, no hunks: origins carried to the new path */
 	fake_init(&f);
 	fake_file(&f, "y.c", 1, "z.c", 1, 'R');
-	assert_int_equal(lbl_tracer_apply(t, &f.c, 1), 0);
-	lbl_tracer_step(t, &f.c);
-	lbl_tracer_sweep(t);
+	advance(t, &f, 1);
 	expect_origins(t, "z.c", 1, (const uint32_t[]){0, 0, 0, 0, 0, 0, 0}, 7);
 	/* deleting every line: blank and comment lines are marked skipped */
 	fake_init(&f);
