@@ -242,18 +242,7 @@ static int neighbours(omen_explanation *x, omen_scorer *s, omen_repo *r, int top
 		e = omen_error_set(OMEN_ENOMEM, "out of memory");
 		goto out;
 	}
-	{
-		char *lp = lpath && *lpath ? strdup(lpath) : NULL;
-		if (!lp) {
-			omen_buf b = OMEN_BUF_INIT;
-			if (!omen_buf_printf(&b, "%somen/labels.jsonl", omen_repo_gitdir(r)))
-				lp = omen_buf_detach(&b);
-			omen_buf_free(&b);
-		}
-		if (lp && omen_labels_load(&lab, lp))
-			omen_error_clear();
-		free(lp);
-	}
+	score_load_labels(&lab, r);
 	for (i = 0; i < k; i++) {
 		const omen_sample *sm = omen_dataset_get(ds, cs[i].idx);
 		omen_neighbour *nb = &x->neighbours[i];

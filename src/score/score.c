@@ -536,7 +536,7 @@ static int push_hex(char **revs, size_t *nr, const char *prefix, const git_oid *
 	return 0;
 }
 
-static void load_labels(omen_labels **out, omen_repo *r)
+void score_load_labels(omen_labels **out, omen_repo *r)
 {
 	char *path = NULL;
 	omen_buf b = OMEN_BUF_INIT;
@@ -640,7 +640,7 @@ int score_walk(omen_score_set *set, omen_scorer *s, const git_oid *ids, size_t n
 		}
 		if (e || (e = omen_metrics_new(&w.state)))
 			goto out;
-		load_labels(&w.labels, s->repo);
+		score_load_labels(&w.labels, s->repo);
 		wo.revs = (const char *const *)revs;
 		if ((e = omen_history_walk(s->repo, &wo, on_change, &w)))
 			goto out;

@@ -2,6 +2,7 @@
 #ifndef OMEN_SCORE_INT_H
 #define OMEN_SCORE_INT_H
 
+#include "omen/label.h"
 #include "omen/score.h"
 
 /* Called for each scored commit while its change, sample and explanation
@@ -21,6 +22,9 @@ int score_is_fix(const omen_scorer *s, const omen_commit *c);
 int score_standardize(double z[OMEN_NMETRICS], const omen_scorer *s, const float raw[OMEN_NMETRICS]);
 /* The training history's typical raw value of metric j (NAN if unknown). */
 float score_typical(const omen_scorer *s, int j);
+/* The label file (omen.labels, else $GIT_DIR/omen/labels.jsonl); *out NULL
+ * when it cannot be read, with no error left set. */
+void score_load_labels(omen_labels **out, omen_repo *r);
 omen_repo *score_repo(const omen_scorer *s);
 void score_set_detail(omen_scorer *s, int detail);
 
