@@ -72,10 +72,8 @@ static void disarm_alarm(void)
 static int hook_error(int block, const char *what)
 {
 	const char *msg = what ? what : omen_error_last();
-	if (block)
-		fprintf(stderr, "git omen: %s; push stopped (omen.onError=block)\n", *msg ? msg : "unknown error");
-	else
-		fprintf(stderr, "git omen: %s; push not checked (scores are advisory)\n", *msg ? msg : "unknown error");
+	fprintf(stderr, "git omen: %s; %s\n", *msg ? msg : "unknown error",
+		block ? "push stopped (omen.onError=block)" : "push not checked (scores are advisory)");
 	return block ? EXIT_RISK : EXIT_OK;
 }
 
