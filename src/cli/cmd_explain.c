@@ -171,7 +171,7 @@ int cmd_explain(int argc, char **argv)
 	omen_explanation x;
 	omen_buf out = OMEN_BUF_INIT;
 	git_oid id;
-	long top = 5;
+	long long top = 5;
 	int rc = EXIT_OK, k, have_x = 0;
 
 	for (k = 1; k < argc; k++) {
@@ -198,12 +198,8 @@ int cmd_explain(int argc, char **argv)
 		return cli_usage("explain", "which commit? usage: git omen explain <commit>");
 	if (strcmp(format, "text") && strcmp(format, "json"))
 		return cli_usage("explain", "bad --format '%s': use text or json", format);
-	if (top_s) {
-		char *end;
-		top = strtol(top_s, &end, 10);
-		if (end == top_s || *end || top < 1 || top > 1000)
-			return cli_usage("explain", "bad --top '%s': give a number from 1 to 1000", top_s);
-	}
+	if (top_s && cli_parse_int(&top, top_s, 1, 1000))
+		return cli_usage("explain", "bad --top '%s': give a number from 1 to 1000", top_s);
 	if (omen_repo_open(&repo, NULL) || omen_history_resolve(&id, repo, rev)) {
 		rc = cli_fatal(NULL);
 		goto done;
