@@ -582,13 +582,26 @@ static int previous_run(omen_label_summary *sum, lbl_run *R, const char *path, c
  * u32 traced, u32 named, u32 fix_by, u8 flags}, u32 n + pairs {u32 x 3},
  * u32 n + tips {u32}, u32 n + versions {u64 path key, oid[20], i32 ref,
  * u32 n, u32 origins[n]}, u32 CRC-32 of all before it. Little-endian. */
-static void put32(omen_buf *b, uint32_t v)
+/* The state being written; err sticks at the first failed append, so an
+ * out-of-memory run never writes a short state under a valid checksum. */
+typedef struct {
+	omen_buf b;
+	int err;
+} state_w;
+
+static void wput(state_w *w, const void *data, size_t n)
 {
-	unsigned char x[4] = {(unsigned char)v, (unsigned char)(v >> 8), (unsigned char)(v >> 16), (unsigned char)(v >> 24)};
-	omen_buf_put(b, x, 4);
+	if (!w->err)
+		w->err = omen_buf_put(&w->b, data, n);
 }
 
-static void put64(omen_buf *b, uint64_t v)
+static void put32(state_w *b, uint32_t v)
+{
+	unsigned char x[4] = {(unsigned char)v, (unsigned char)(v >> 8), (unsigned char)(v >> 16), (unsigned char)(v >> 24)};
+	wput(b, x, 4);
+}
+
+static void put64(state_w *b, uint64_t v)
 {
 	put32(b, (uint32_t)v);
 	put32(b, (uint32_t)(v >> 32));
@@ -597,10 +610,10 @@ static void put64(omen_buf *b, uint64_t v)
 static int put_version(uint64_t pkey, const git_oid *blob, const uint32_t *orig, uint32_t n,
 	int32_t ref, void *p)
 {
-	omen_buf *b = p;
+	state_w *b = p;
 	uint32_t i;
 	put64(b, pkey);
-	omen_buf_put(b, blob->id, GIT_OID_RAWSZ);
+	wput(b, blob->id, GIT_OID_RAWSZ);
 	put32(b, (uint32_t)ref);
 	put32(b, n);
 	for (i = 0; i < n; i++)
@@ -617,55 +630,57 @@ static size_t *counter(omen_label_summary *s, int k)
 
 static int save_state(lbl_run *R, const char *path, const char *opts, const char *head)
 {
-	omen_buf b = OMEN_BUF_INIT;
+	state_w w = {OMEN_BUF_INIT, 0};
 	size_t i, nv = 0, at;
 	uint32_t crc;
 	int e, k;
-	omen_buf_put(&b, "OMENLBS1", 8);
-	put32(&b, 1);
-	omen_buf_put(&b, head, OMEN_OID_HEX);
-	put32(&b, (uint32_t)strlen(opts));
-	omen_buf_puts(&b, opts);
+	wput(&w, "OMENLBS1", 8);
+	put32(&w, 1);
+	wput(&w, head, OMEN_OID_HEX);
+	put32(&w, (uint32_t)strlen(opts));
+	wput(&w, opts, strlen(opts));
 	for (k = 0; k < 7; k++)
-		put64(&b, *counter(R->sum, k));
-	put64(&b, (uint64_t)R->sum->shallow);
-	put32(&b, (uint32_t)R->n);
+		put64(&w, *counter(R->sum, k));
+	put64(&w, (uint64_t)R->sum->shallow);
+	put32(&w, (uint32_t)R->n);
 	for (i = 0; i < R->n; i++) {
 		lbl_commit *c = &R->cs[i];
 		unsigned char fl = (unsigned char)(c->is_fix | c->merge << 1 | c->boundary << 2 | c->skipped << 3);
-		omen_buf_put(&b, R->ids[i].id, GIT_OID_RAWSZ);
-		put64(&b, (uint64_t)c->time);
-		put64(&b, (uint64_t)c->issue_date);
-		put32(&b, c->traced);
-		put32(&b, c->named);
-		put32(&b, c->fix_by);
-		omen_buf_put(&b, &fl, 1);
+		wput(&w, R->ids[i].id, GIT_OID_RAWSZ);
+		put64(&w, (uint64_t)c->time);
+		put64(&w, (uint64_t)c->issue_date);
+		put32(&w, c->traced);
+		put32(&w, c->named);
+		put32(&w, c->fix_by);
+		wput(&w, &fl, 1);
 	}
-	put32(&b, (uint32_t)R->npairs);
+	put32(&w, (uint32_t)R->npairs);
 	for (i = 0; i < R->npairs; i++) {
-		put32(&b, R->pairs[i].ind);
-		put32(&b, R->pairs[i].fix);
-		put32(&b, R->pairs[i].lines);
+		put32(&w, R->pairs[i].ind);
+		put32(&w, R->pairs[i].fix);
+		put32(&w, R->pairs[i].lines);
 	}
-	put32(&b, (uint32_t)R->ntips);
+	put32(&w, (uint32_t)R->ntips);
 	for (i = 0; i < R->ntips; i++)
-		put32(&b, R->tips[i]);
-	at = b.len;
-	put32(&b, 0);
-	lbl_tracer_each(R->tr, put_version, &b);
-	nv = lbl_tracer_versions(R->tr);
-	b.ptr[at] = (char)nv;
-	b.ptr[at + 1] = (char)(nv >> 8);
-	b.ptr[at + 2] = (char)(nv >> 16);
-	b.ptr[at + 3] = (char)(nv >> 24);
-	crc = omen_crc32(0, b.ptr, b.len);
-	put32(&b, crc);
-	if (!b.ptr) {
-		omen_buf_free(&b);
-		return omen_error_set(OMEN_ENOMEM, "out of memory");
+		put32(&w, R->tips[i]);
+	at = w.b.len;
+	put32(&w, 0);
+	lbl_tracer_each(R->tr, put_version, &w);
+	if (!w.err) {
+		nv = lbl_tracer_versions(R->tr);
+		w.b.ptr[at] = (char)nv;
+		w.b.ptr[at + 1] = (char)(nv >> 8);
+		w.b.ptr[at + 2] = (char)(nv >> 16);
+		w.b.ptr[at + 3] = (char)(nv >> 24);
+		crc = omen_crc32(0, w.b.ptr, w.b.len);
+		put32(&w, crc);
 	}
-	e = omen_file_write_atomic(path, b.ptr, b.len);
-	omen_buf_free(&b);
+	if (w.err) {
+		omen_buf_free(&w.b);
+		return omen_error_set(OMEN_ENOMEM, "cannot save label state '%s': out of memory", path);
+	}
+	e = omen_file_write_atomic(path, w.b.ptr, w.b.len);
+	omen_buf_free(&w.b);
 	return e;
 }
 
