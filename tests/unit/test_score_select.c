@@ -14,62 +14,17 @@
 #include "omen/omen.h"
 #include "omen/score.h"
 
-static char dir[256];
-static omen_repo *repo;
-
-static void sh(const char *fmt, ...)
-{
-	char cmd[4096];
-	va_list ap;
-	va_start(ap, fmt);
-	vsnprintf(cmd, sizeof(cmd), fmt, ap);
-	va_end(ap);
-	if (system(cmd) != 0)
-		fail_msg("command failed: %s", cmd);
-}
-
-static char *sh_out(const char *cmd)
-{
-	static char buf[65536];
-	char full[4096];
-	FILE *p;
-	size_t n;
-	snprintf(full, sizeof(full), "cd '%s' && %s", dir, cmd);
-	p = popen(full, "r");
-	assert_non_null(p);
-	n = fread(buf, 1, sizeof(buf) - 1, p);
-	buf[n] = '\0';
-	assert_int_equal(pclose(p), 0);
-	return buf;
-}
+#include "git_repo.h"
 
 static int setup(void **st)
 {
 	(void)st;
-	snprintf(dir, sizeof(dir), "%s/omen-select-XXXXXX", getenv("TMPDIR") ? getenv("TMPDIR") : "/tmp");
-	assert_non_null(mkdtemp(dir));
-	setenv("GIT_CONFIG_NOSYSTEM", "1", 1);
-	setenv("GIT_CONFIG_GLOBAL", "/dev/null", 1);
-	setenv("GIT_AUTHOR_NAME", "T", 1);
-	setenv("GIT_AUTHOR_EMAIL", "t@example.invalid", 1);
-	setenv("GIT_COMMITTER_NAME", "T", 1);
-	setenv("GIT_COMMITTER_EMAIL", "t@example.invalid", 1);
-	sh("cd '%s' && git init -q -b main . && git remote add origin /nonexistent.git && for i in 1 2 3 4; do echo $i >f$i && git add f$i && "
-	   "git commit -q -m c$i; done && git update-ref refs/remotes/origin/main HEAD~2 && "
-	   "git checkout -q -b topic && for i in 5 6; do echo $i >f$i && git add f$i && "
-	   "git commit -q -m c$i; done && git checkout -q main && git merge -q --no-ff -m m topic && "
-	   "git tag -a -m t v1 && git tag tree-tag 'HEAD^{tree}'", dir);
-	git_libgit2_init();
-	assert_int_equal(omen_repo_open(&repo, dir), 0);
-	return 0;
-}
-
-static int teardown(void **st)
-{
-	(void)st;
-	omen_repo_free(repo);
-	git_libgit2_shutdown();
-	sh("rm -rf '%s'", dir);
+	test_repo_make("select",
+		"git init -q -b main . && git remote add origin /nonexistent.git && for i in 1 2 3 4; do echo $i >f$i && git add f$i && "
+		"git commit -q -m c$i; done && git update-ref refs/remotes/origin/main HEAD~2 && "
+		"git checkout -q -b topic && for i in 5 6; do echo $i >f$i && git add f$i && "
+		"git commit -q -m c$i; done && git checkout -q main && git merge -q --no-ff -m m topic && "
+		"git tag -a -m t v1 && git tag tree-tag 'HEAD^{tree}'");
 	return 0;
 }
 
@@ -211,5 +166,5 @@ int main(void)
 		cmocka_unit_test(test_delete_and_tags),
 		cmocka_unit_test(test_resolve),
 	};
-	return cmocka_run_group_tests_name("score_select", tests, setup, teardown);
+	return cmocka_run_group_tests_name("score_select", tests, setup, test_repo_drop);
 }
