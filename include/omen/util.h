@@ -26,6 +26,10 @@ int omen_buf_printf(omen_buf *b, const char *fmt, ...)
 /* Appends s as a JSON string literal (quotes included). Invalid UTF-8 bytes
  * become U+FFFD so the output is always valid JSON. */
 int omen_buf_put_json_string(omen_buf *b, const char *s, size_t n);
+/* Append v as 4 or 8 little-endian bytes: the byte order of every binary file
+ * omen writes, whatever the host's (read back with omen_cursor_u32le/u64le). */
+int omen_buf_put_u32le(omen_buf *b, uint32_t v);
+int omen_buf_put_u64le(omen_buf *b, uint64_t v);
 void omen_buf_clear(omen_buf *b);
 void omen_buf_free(omen_buf *b);
 /* Detaches the memory; caller frees. */
@@ -110,6 +114,9 @@ int omen_cursor_u8(omen_cursor *c, uint8_t *out);
 int omen_cursor_u32le(omen_cursor *c, uint32_t *out);
 int omen_cursor_u64le(omen_cursor *c, uint64_t *out);
 int omen_cursor_bytes(omen_cursor *c, const void **out, size_t n);
+/* Takes the last 4 bytes of what is left as a u32le (the CRC-32 trailer of
+ * omen's binary files) and leaves c holding only the bytes before them. */
+int omen_cursor_tail_u32le(omen_cursor *c, uint32_t *out);
 /* Next line without its '\n' (and '\r' before it); 0 at end of input. */
 int omen_cursor_line(omen_cursor *c, const char **out, size_t *len);
 

@@ -220,42 +220,27 @@ static int cache_key(omen_buf *key, omen_repo *r, const omen_dataset_opts *o,
 	return e;
 }
 
-static void put_u64(omen_buf *b, uint64_t v, int *e)
-{
-	unsigned char w[8];
-	int i;
-	for (i = 0; i < 8; i++)
-		w[i] = (unsigned char)(v >> (8 * i));
-	if (!*e)
-		*e = omen_buf_put(b, w, 8);
-}
-
 static int cache_write(const omen_dataset *d, const char *path, const omen_buf *key)
 {
 	omen_buf b = OMEN_BUF_INIT, ms = OMEN_BUF_INIT;
-	unsigned char w4[4];
-	uint32_t crc;
 	int e = 0, i;
 	if (d->metrics && (e = omen_metrics_save(d->metrics, &ms)))
 		goto out;
 	e = omen_buf_put(&b, DS_MAGIC, 8);
-	put_u64(&b, DS_VERSION, &e);
-	put_u64(&b, key->len, &e);
+	if (!e) e = omen_buf_put_u64le(&b, DS_VERSION);
+	if (!e) e = omen_buf_put_u64le(&b, key->len);
 	if (!e) e = omen_buf_put(&b, key->ptr, key->len);
-	put_u64(&b, d->n, &e);
+	if (!e) e = omen_buf_put_u64le(&b, d->n);
 	if (!e && d->n) e = omen_buf_put(&b, d->rec, d->n * sizeof(ds_rec));
 	for (i = 0; i < C_NCOLS; i++) {
-		put_u64(&b, d->c[i].len, &e);
+		if (!e) e = omen_buf_put_u64le(&b, d->c[i].len);
 		if (!e && d->c[i].len) e = omen_buf_put(&b, d->c[i].p, d->c[i].len * d->c[i].elem);
 	}
-	put_u64(&b, ms.len, &e);
+	if (!e) e = omen_buf_put_u64le(&b, ms.len);
 	if (!e && ms.len) e = omen_buf_put(&b, ms.ptr, ms.len);
 	if (e)
 		goto out;
-	crc = omen_crc32(0, b.ptr, b.len);
-	for (i = 0; i < 4; i++)
-		w4[i] = (unsigned char)(crc >> (8 * i));
-	if ((e = omen_buf_put(&b, w4, 4)))
+	if ((e = omen_buf_put_u32le(&b, omen_crc32(0, b.ptr, b.len))))
 		goto out;
 	e = omen_file_write_atomic(path, b.ptr, b.len);
 out:
@@ -279,12 +264,9 @@ static int cache_read(omen_dataset **out, const char *path, const omen_buf *key)
 	*out = NULL;
 	if (omen_file_read(&b, path, 0) || b.len < 12)
 		goto out;
-	p = b.ptr + b.len - 4;
-	crc = (uint32_t)((const unsigned char *)p)[0] | (uint32_t)((const unsigned char *)p)[1] << 8 |
-		(uint32_t)((const unsigned char *)p)[2] << 16 | (uint32_t)((const unsigned char *)p)[3] << 24;
-	if (omen_crc32(0, b.ptr, b.len - 4) != crc)
+	omen_cursor_init(&c, b.ptr, b.len);
+	if (omen_cursor_tail_u32le(&c, &crc) || omen_crc32(0, b.ptr, c.n) != crc)
 		goto out;
-	omen_cursor_init(&c, b.ptr, b.len - 4);
 	if (omen_cursor_bytes(&c, &p, 8) || memcmp(p, DS_MAGIC, 8) || omen_cursor_u64le(&c, &v) ||
 		v != DS_VERSION || omen_cursor_u64le(&c, &k) || k != key->len ||
 		omen_cursor_bytes(&c, &p, key->len) || memcmp(p, key->ptr, key->len))

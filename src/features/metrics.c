@@ -468,30 +468,18 @@ int omen_metrics_file_facts(float out[OMEN_NFACTS], const omen_metrics *m,
  *   u64 last_time, u32 nchanges, u32 nfixes, u32 ndevs, ndevs x u32,
  *   u32 nseqs, nseqs x u32);  u32 crc32 of everything before it.
  * str = u32 length, bytes. */
-static int put_u32(omen_buf *b, uint32_t v)
-{
-	unsigned char x[4] = {(unsigned char)v, (unsigned char)(v >> 8), (unsigned char)(v >> 16),
-		(unsigned char)(v >> 24)};
-	return omen_buf_put(b, x, 4);
-}
-
-static int put_u64(omen_buf *b, uint64_t v)
-{
-	return put_u32(b, (uint32_t)v) || put_u32(b, (uint32_t)(v >> 32)) ? OMEN_ENOMEM : 0;
-}
-
 static int put_str(omen_buf *b, const char *s)
 {
 	size_t n = strlen(s);
-	return put_u32(b, (uint32_t)n) || omen_buf_put(b, s, n) ? OMEN_ENOMEM : 0;
+	return omen_buf_put_u32le(b, (uint32_t)n) || omen_buf_put(b, s, n) ? OMEN_ENOMEM : 0;
 }
 
 static int put_vec(omen_buf *b, const u32vec *v)
 {
-	if (put_u32(b, (uint32_t)v->n))
+	if (omen_buf_put_u32le(b, (uint32_t)v->n))
 		return OMEN_ENOMEM;
 	for (size_t i = 0; i < v->n; i++)
-		if (put_u32(b, v->v[i]))
+		if (omen_buf_put_u32le(b, v->v[i]))
 			return OMEN_ENOMEM;
 	return 0;
 }
@@ -501,12 +489,12 @@ int omen_metrics_save(const omen_metrics *m, omen_buf *out)
 	size_t start = out->len, nfiles = 0;
 	int e = 0;
 	e |= omen_buf_put(out, MAGIC, 4);
-	e |= put_u32(out, VERSION);
-	e |= put_u32(out, m->seq);
-	e |= put_u32(out, (uint32_t)m->nsubs);
+	e |= omen_buf_put_u32le(out, VERSION);
+	e |= omen_buf_put_u32le(out, m->seq);
+	e |= omen_buf_put_u32le(out, (uint32_t)m->nsubs);
 	for (size_t i = 0; i < m->nsubs && !e; i++)
 		e |= put_str(out, m->subname[i]);
-	e |= put_u32(out, (uint32_t)m->ndev);
+	e |= omen_buf_put_u32le(out, (uint32_t)m->ndev);
 	/* developer keys in id order */
 	{
 		const char **keys = calloc(m->ndev + 1, sizeof(*keys));
@@ -518,10 +506,10 @@ int omen_metrics_save(const omen_metrics *m, omen_buf *out)
 		for (size_t i = 0; i < m->ndev && !e; i++) {
 			const mdev *d = &m->dv[i];
 			e |= put_str(out, keys[i] ? keys[i] : "");
-			e |= put_u32(out, (uint32_t)d->ntimes);
+			e |= omen_buf_put_u32le(out, (uint32_t)d->ntimes);
 			for (size_t j = 0; j < d->ntimes && !e; j++)
-				e |= put_u64(out, (uint64_t)d->times[j]);
-			e |= put_u32(out, (uint32_t)d->nsub);
+				e |= omen_buf_put_u64le(out, (uint64_t)d->times[j]);
+			e |= omen_buf_put_u32le(out, (uint32_t)d->nsub);
 			for (size_t j = 0; j < d->nsub && !e; j++)
 				e |= put_vec(out, &d->sub[j]);
 		}
@@ -529,21 +517,21 @@ int omen_metrics_save(const omen_metrics *m, omen_buf *out)
 	}
 	for (size_t i = 0; i < m->files.cap; i++)
 		nfiles += m->files.keys[i] && m->files.vals[i];
-	e |= put_u32(out, (uint32_t)nfiles);
+	e |= omen_buf_put_u32le(out, (uint32_t)nfiles);
 	for (size_t i = 0; i < m->files.cap && !e; i++) {
 		const mfile *f = m->files.vals[i];
 		if (!m->files.keys[i] || !f)
 			continue;
 		e |= put_str(out, m->files.keys[i]);
-		e |= put_u64(out, (uint64_t)f->last_time);
-		e |= put_u32(out, f->nchanges);
-		e |= put_u32(out, f->nfixes);
+		e |= omen_buf_put_u64le(out, (uint64_t)f->last_time);
+		e |= omen_buf_put_u32le(out, f->nchanges);
+		e |= omen_buf_put_u32le(out, f->nfixes);
 		e |= put_vec(out, &f->devs);
 		e |= put_vec(out, &f->seqs);
 	}
 	if (e)
 		return oom();
-	return put_u32(out, omen_crc32(0, out->ptr + start, out->len - start)) ? oom() : 0;
+	return omen_buf_put_u32le(out, omen_crc32(0, out->ptr + start, out->len - start)) ? oom() : 0;
 }
 
 static int corrupt(const char *what)
@@ -597,14 +585,10 @@ int omen_metrics_load(omen_metrics **out, const void *data, size_t n)
 		return corrupt("bad magic");
 	if (n < 12)
 		return corrupt("truncated");
-	memcpy(&crc, (const char *)data + n - 4, 4);
-	{
-		const unsigned char *q = (const unsigned char *)data + n - 4;
-		crc = (uint32_t)q[0] | (uint32_t)q[1] << 8 | (uint32_t)q[2] << 16 | (uint32_t)q[3] << 24;
-	}
-	if (omen_crc32(0, data, n - 4) != crc)
+	omen_cursor_init(&c, data, n);
+	omen_cursor_tail_u32le(&c, &crc);  /* n >= 12: cannot fail */
+	if (omen_crc32(0, data, c.n) != crc)
 		return corrupt("bad checksum");
-	omen_cursor_init(&c, data, n - 4);
 	omen_cursor_bytes(&c, &magic, 4);
 	if (omen_cursor_u32le(&c, &ver) || ver != VERSION)
 		return corrupt("unsupported version");

@@ -595,16 +595,17 @@ static void wput(state_w *w, const void *data, size_t n)
 		w->err = omen_buf_put(&w->b, data, n);
 }
 
-static void put32(state_w *b, uint32_t v)
+/* Sticky-error forms of omen_buf_put_u32le/u64le: save_state checks w->err once. */
+static void put32(state_w *w, uint32_t v)
 {
-	unsigned char x[4] = {(unsigned char)v, (unsigned char)(v >> 8), (unsigned char)(v >> 16), (unsigned char)(v >> 24)};
-	wput(b, x, 4);
+	if (!w->err)
+		w->err = omen_buf_put_u32le(&w->b, v);
 }
 
-static void put64(state_w *b, uint64_t v)
+static void put64(state_w *w, uint64_t v)
 {
-	put32(b, (uint32_t)v);
-	put32(b, (uint32_t)(v >> 32));
+	if (!w->err)
+		w->err = omen_buf_put_u64le(&w->b, v);
 }
 
 static int put_version(uint64_t pkey, const git_oid *blob, const uint32_t *orig, uint32_t n,
@@ -631,8 +632,7 @@ static size_t *counter(omen_label_summary *s, int k)
 static int save_state(lbl_run *R, const char *path, const char *opts, const char *head)
 {
 	state_w w = {OMEN_BUF_INIT, 0};
-	size_t i, nv = 0, at;
-	uint32_t crc;
+	size_t i;
 	int e, k;
 	wput(&w, "OMENLBS1", 8);
 	put32(&w, 1);
@@ -663,18 +663,10 @@ static int save_state(lbl_run *R, const char *path, const char *opts, const char
 	put32(&w, (uint32_t)R->ntips);
 	for (i = 0; i < R->ntips; i++)
 		put32(&w, R->tips[i]);
-	at = w.b.len;
-	put32(&w, 0);
+	put32(&w, (uint32_t)lbl_tracer_versions(R->tr));
 	lbl_tracer_each(R->tr, put_version, &w);
-	if (!w.err) {
-		nv = lbl_tracer_versions(R->tr);
-		w.b.ptr[at] = (char)nv;
-		w.b.ptr[at + 1] = (char)(nv >> 8);
-		w.b.ptr[at + 2] = (char)(nv >> 16);
-		w.b.ptr[at + 3] = (char)(nv >> 24);
-		crc = omen_crc32(0, w.b.ptr, w.b.len);
-		put32(&w, crc);
-	}
+	if (!w.err)
+		put32(&w, omen_crc32(0, w.b.ptr, w.b.len));
 	if (w.err) {
 		omen_buf_free(&w.b);
 		return omen_error_set(OMEN_ENOMEM, "cannot save label state '%s': out of memory", path);
@@ -693,7 +685,7 @@ static int load_state(lbl_run *R, const char *path, const char *opts)
 	omen_buf b = OMEN_BUF_INIT;
 	omen_cursor c;
 	const void *p;
-	uint32_t ver, len, n, i, k, *map = NULL, *newkids = NULL;
+	uint32_t ver, len, n, i, k, crc, *map = NULL, *newkids = NULL;
 	uint64_t u;
 	unsigned char *old = NULL;
 	int rc = 0, e;
@@ -701,11 +693,9 @@ static int load_state(lbl_run *R, const char *path, const char *opts)
 		omen_error_clear();
 		return 0;
 	}
-	if (b.len < 12 || omen_crc32(0, b.ptr, b.len - 4) !=
-	    ((uint32_t)(unsigned char)b.ptr[b.len - 4] | (uint32_t)(unsigned char)b.ptr[b.len - 3] << 8 |
-	     (uint32_t)(unsigned char)b.ptr[b.len - 2] << 16 | (uint32_t)(unsigned char)b.ptr[b.len - 1] << 24))
+	omen_cursor_init(&c, b.ptr, b.len);
+	if (b.len < 12 || omen_cursor_tail_u32le(&c, &crc) || omen_crc32(0, b.ptr, c.n) != crc)
 		goto out;
-	omen_cursor_init(&c, b.ptr, b.len - 4);
 	if (omen_cursor_bytes(&c, &p, 8) || memcmp(p, "OMENLBS1", 8) || omen_cursor_u32le(&c, &ver) || ver != 1 ||
 	    omen_cursor_bytes(&c, &p, OMEN_OID_HEX) || memcmp(p, R->old_head, OMEN_OID_HEX) ||
 	    omen_cursor_u32le(&c, &len) || omen_cursor_bytes(&c, &p, len) || len != strlen(opts) ||

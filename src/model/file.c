@@ -26,18 +26,6 @@
 #define OMEN_MODEL_VERSION 1u
 #define HDR 32
 
-static void put_u32(unsigned char *p, uint32_t v)
-{
-	p[0] = (unsigned char)v; p[1] = (unsigned char)(v >> 8);
-	p[2] = (unsigned char)(v >> 16); p[3] = (unsigned char)(v >> 24);
-}
-
-static void put_u64(unsigned char *p, uint64_t v)
-{
-	put_u32(p, (uint32_t)v);
-	put_u32(p + 4, (uint32_t)(v >> 32));
-}
-
 static cJSON *float_array(const float *v, int n)
 {
 	cJSON *a = cJSON_CreateArray();
@@ -137,7 +125,6 @@ static int model_image(omen_buf *out, const omen_model *m)
 	char *js = NULL;
 	size_t jl, param_off, total, i;
 	uint64_t ml = m->mstate_blob.len;
-	unsigned char hdr[HDR], w8[8], w4[4];
 	int e = 0;
 	/* the metadata names the parameter offset, which depends on its own
 	 * length: iterate until the padded length is stable */
@@ -157,12 +144,9 @@ static int model_image(omen_buf *out, const omen_model *m)
 		param_off = (HDR + jl + 63) / 64 * 64;
 	}
 	total = param_off + m->nparams * sizeof(float) + 8 + ml + 4;
-	memcpy(hdr, OMEN_MODEL_MAGIC, 8);
-	put_u32(hdr + 8, OMEN_MODEL_VERSION);
-	put_u32(hdr + 12, 0);
-	put_u64(hdr + 16, total);
-	put_u64(hdr + 24, jl);
-	if ((e = omen_buf_grow(out, total)) || (e = omen_buf_put(out, hdr, HDR)) ||
+	if ((e = omen_buf_grow(out, total)) || (e = omen_buf_put(out, OMEN_MODEL_MAGIC, 8)) ||
+		(e = omen_buf_put_u32le(out, OMEN_MODEL_VERSION)) || (e = omen_buf_put_u32le(out, 0)) ||
+		(e = omen_buf_put_u64le(out, total)) || (e = omen_buf_put_u64le(out, jl)) ||
 		(e = omen_buf_put(out, js, jl)))
 		goto out;
 	while (out->len < param_off)
@@ -170,11 +154,10 @@ static int model_image(omen_buf *out, const omen_model *m)
 			goto out;
 	if ((e = omen_buf_put(out, m->params, m->nparams * sizeof(float))))
 		goto out;
-	put_u64(w8, ml);
-	if ((e = omen_buf_put(out, w8, 8)) || (ml && (e = omen_buf_put(out, m->mstate_blob.ptr, ml))))
+	if ((e = omen_buf_put_u64le(out, ml)) ||
+		(ml && (e = omen_buf_put(out, m->mstate_blob.ptr, ml))))
 		goto out;
-	put_u32(w4, omen_crc32(0, out->ptr, out->len));
-	e = omen_buf_put(out, w4, 4);
+	e = omen_buf_put_u32le(out, omen_crc32(0, out->ptr, out->len));
 out:
 	cJSON_Delete(j);
 	free(js);
@@ -281,12 +264,10 @@ int omen_model_parse(omen_model **out, const char *name, const void *data, size_
 	if (total != n)
 		BAD("cannot read model '%s': truncated or padded (%zu bytes, header says %llu)", name, n,
 			(unsigned long long)total);
-	{
-		const unsigned char *p = (const unsigned char *)data + n - 4;
-		crc = (uint32_t)p[0] | (uint32_t)p[1] << 8 | (uint32_t)p[2] << 16 | (uint32_t)p[3] << 24;
-		if (omen_crc32(0, data, n - 4) != crc)
-			BAD("cannot read model '%s': bad checksum", name);
-	}
+	/* the CRC trailer comes off the cursor here, so what is left ends at
+	 * the metrics state */
+	if (omen_cursor_tail_u32le(&c, &crc) || omen_crc32(0, data, n - 4) != crc)
+		BAD("cannot read model '%s': bad checksum", name);
 	if (ml > c.n || omen_cursor_bytes(&c, &mj, (size_t)ml))
 		BAD("cannot read model '%s': metadata length out of bounds", name);
 	j = cJSON_ParseWithLength(mj, (size_t)ml);
@@ -331,7 +312,7 @@ int omen_model_parse(omen_model **out, const char *name, const void *data, size_
 	if (!omen_all_finite(m->params, m->nparams))
 		BAD("cannot read model '%s': non-finite weights", name);
 	if (omen_cursor_u64le(&c, &sl) || sl > c.n || omen_cursor_bytes(&c, &sb, (size_t)sl) ||
-		c.n != 4)
+		c.n != 0)
 		BAD("cannot read model '%s': bad metrics-state length", name);
 	st = cJSON_GetObjectItemCaseSensitive(j, "standardize");
 	if (farray(m->metric_mean, st, "metric_mean", OMEN_NMETRICS) ||

@@ -39,6 +39,19 @@ int omen_buf_put(omen_buf *b, const void *data, size_t n)
 
 int omen_buf_puts(omen_buf *b, const char *s) { return omen_buf_put(b, s, strlen(s)); }
 
+int omen_buf_put_u32le(omen_buf *b, uint32_t v)
+{
+	unsigned char x[4] = {(unsigned char)v, (unsigned char)(v >> 8), (unsigned char)(v >> 16),
+		(unsigned char)(v >> 24)};
+	return omen_buf_put(b, x, 4);
+}
+
+int omen_buf_put_u64le(omen_buf *b, uint64_t v)
+{
+	int e = omen_buf_put_u32le(b, (uint32_t)v);
+	return e ? e : omen_buf_put_u32le(b, (uint32_t)(v >> 32));
+}
+
 int omen_buf_printf(omen_buf *b, const char *fmt, ...)
 {
 	va_list ap;

@@ -216,6 +216,19 @@ int omen_cursor_u64le(omen_cursor *c, uint64_t *out)
 	return 0;
 }
 
+int omen_cursor_tail_u32le(omen_cursor *c, uint32_t *out)
+{
+	omen_cursor t;
+	if (c->err || c->n < 4) {
+		c->err = 1;
+		*out = 0;
+		return OMEN_ECORRUPT;
+	}
+	c->n -= 4;
+	omen_cursor_init(&t, c->p + c->n, 4);
+	return omen_cursor_u32le(&t, out);
+}
+
 int omen_cursor_line(omen_cursor *c, const char **out, size_t *len)
 {
 	const unsigned char *nl;

@@ -491,6 +491,49 @@ static void test_cursor_bounds(void **st)
 	assert_int_equal(omen_cursor_u8(&c, &u8), OMEN_ECORRUPT);
 }
 
+/* The LE writers and the cursor readers are two halves of every binary
+ * format: fixed bytes for fixed values, and a round trip at the extremes. */
+static void test_le_round_trip(void **st)
+{
+	static const unsigned char want[] = {0x78, 0x56, 0x34, 0x12, 0x08, 0x07, 0x06, 0x05, 0x04,
+		0x03, 0x02, 0x01, 0xef, 0xbe, 0xad, 0xde};
+	omen_buf b = OMEN_BUF_INIT;
+	omen_cursor c;
+	uint32_t u32, tail;
+	uint64_t u64;
+	(void)st;
+	assert_int_equal(omen_buf_put_u32le(&b, 0x12345678u), 0);
+	assert_int_equal(omen_buf_put_u64le(&b, 0x0102030405060708ull), 0);
+	assert_int_equal(omen_buf_put_u32le(&b, 0xdeadbeefu), 0);
+	assert_int_equal(b.len, sizeof(want));
+	assert_memory_equal(b.ptr, want, sizeof(want));
+	assert_int_equal(b.ptr[b.len], '\0');
+	/* the trailer comes off the end; the front reads as before */
+	omen_cursor_init(&c, b.ptr, b.len);
+	assert_int_equal(omen_cursor_tail_u32le(&c, &tail), 0);
+	assert_int_equal(tail, 0xdeadbeefu);
+	assert_int_equal(c.n, 12);
+	assert_int_equal(omen_cursor_u32le(&c, &u32), 0);
+	assert_int_equal(u32, 0x12345678u);
+	assert_int_equal(omen_cursor_u64le(&c, &u64), 0);
+	assert_true(u64 == 0x0102030405060708ull);
+	assert_int_equal(c.n, 0);
+	/* no room for a trailer: fails, zeroes, sticks */
+	tail = 7;
+	assert_int_equal(omen_cursor_tail_u32le(&c, &tail), OMEN_ECORRUPT);
+	assert_int_equal(tail, 0);
+	assert_int_equal(c.err, 1);
+	omen_buf_clear(&b);
+	assert_int_equal(omen_buf_put_u64le(&b, UINT64_MAX), 0);
+	assert_int_equal(omen_buf_put_u32le(&b, 0), 0);
+	omen_cursor_init(&c, b.ptr, b.len);
+	assert_int_equal(omen_cursor_u64le(&c, &u64), 0);
+	assert_true(u64 == UINT64_MAX);
+	assert_int_equal(omen_cursor_u32le(&c, &u32), 0);
+	assert_int_equal(u32, 0);
+	omen_buf_free(&b);
+}
+
 static void test_cursor_lines(void **st)
 {
 	const char *text = "one\r\ntwo\n\nlast\r", *l;
@@ -554,6 +597,7 @@ int main(void)
 		cmocka_unit_test(test_lock_contention),
 		cmocka_unit_test(test_mkdirs),
 		cmocka_unit_test(test_cursor_bounds),
+		cmocka_unit_test(test_le_round_trip),
 		cmocka_unit_test(test_cursor_lines),
 		cmocka_unit_test(test_error_state),
 	};
