@@ -161,6 +161,18 @@ int omen_history_change(omen_change *out, omen_repo *r, const git_oid *id, const
  * as a change whose commit has a zero id, the configured identity and now. */
 int omen_history_staged(omen_change *out, omen_repo *r, const omen_walk_opts *o);
 
+/* Diffs one pair of blobs exactly as the walk diffs a changed regular file
+ * (-U0, git's common-tail trim, binary probe, omen.maxBlobBytes): out is
+ * cleared and gets that one file (OMEN_FILE_BINARY or OMEN_FILE_TOO_LARGE and
+ * no hunks when so), its hunks and, unless o->with_lines is 0, its lines.
+ * A NULL or zero old_blob is an added file, a NULL or zero new_blob a deleted
+ * one; each present side needs its path (equal paths: modified, else
+ * renamed). o as for omen_history_change (NULL: defaults). A blob that
+ * cannot be read is OMEN_EGIT. */
+int omen_history_diff_blobs(omen_change *out, omen_repo *r, const char *old_path,
+	const git_oid *old_blob, const char *new_path, const git_oid *new_blob,
+	const omen_walk_opts *o);
+
 /* Resolves a revision string (anything git_revparse_single takes). */
 int omen_history_resolve(git_oid *out, omen_repo *r, const char *spec);
 

@@ -700,3 +700,30 @@ out:
 	git_commit_free(head);
 	return rc;
 }
+
+/* ---- one blob pair ------------------------------------------------------- */
+int omen_history_diff_blobs(omen_change *out, omen_repo *r, const char *old_path,
+	const git_oid *old_blob, const char *new_path, const git_oid *new_blob,
+	const omen_walk_opts *o)
+{
+	omen_walk_opts ro;
+	hist_differ d;
+	int rc, has_old = old_blob && !git_oid_is_zero(old_blob);
+	int has_new = new_blob && !git_oid_is_zero(new_blob);
+	omen_change_clear(out);
+	if ((!has_old && !has_new) || (has_old && !old_path) || (has_new && !new_path))
+		return omen_error_set(OMEN_EINVAL, "cannot diff blobs: a side without a blob or a path");
+	if ((rc = hist_resolve_opts(&ro, r, o)) < 0)
+		return rc;
+	if ((rc = hist_differ_init(&d, omen_repo_git(r), &ro)) < 0)
+		return rc;
+	/* one regular-file entry through the same path as a commit's files,
+	 * so a pair diffs exactly as the walk would diff it */
+	rc = hist_add_entry(&d, out, has_old ? old_path : NULL, has_new ? new_path : NULL,
+		has_old ? old_blob : NULL, has_old ? MODE_REG | 0644 : 0,
+		has_new ? new_blob : NULL, has_new ? MODE_REG | 0644 : 0);
+	if (rc >= 0)
+		rc = hist_diff_entries(&d, out);
+	hist_differ_free(&d);
+	return rc;
+}

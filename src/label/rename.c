@@ -4,8 +4,9 @@
  * default -M50% similarity). Here an added file with no origin state is
  * paired with a deleted file of the same commit when at least half of the
  * larger side's lines (whitespace ignored) occur in the other, the two blobs
- * are diffed -U0 with libgit2 (as git diff does) and the new version takes
- * the old one's origins through that diff. */
+ * are diffed -U0 by the history reader (omen_history_diff_blobs, the diff of
+ * the walk itself) and the new version takes the old one's origins through
+ * that diff. */
 #include <stdlib.h>
 #include <string.h>
 #include "omen/error.h"
@@ -70,120 +71,44 @@ static size_t common(const uint64_t *a, size_t na, const uint64_t *b, size_t nb)
 	return k;
 }
 
-typedef struct {
-	omen_file file;
-	omen_hunk *hunks;
-	size_t nhunks, hcap;
-	omen_line *lines;
-	size_t nlines, lcap;
-	omen_buf text;
-	int err;
-} pair_diff;
-
-static int on_hunk(const git_diff_delta *d, const git_diff_hunk *h, void *p)
+int lbl_apply_blobs(lbl_tracer *t, omen_repo *r, const omen_file *f, uint32_t ci)
 {
-	pair_diff *x = p;
-	omen_hunk *o;
-	(void)d;
-	if (OMEN_ARRAY_RESERVE(x->hunks, x->hcap, x->nhunks + 1)) {
-		x->err = OMEN_ENOMEM;
-		return -1;
-	}
-	o = &x->hunks[x->nhunks++];
-	o->old_start = h->old_start;
-	o->old_lines = h->old_lines;
-	o->new_start = h->new_start;
-	o->new_lines = h->new_lines;
-	o->line_off = (uint32_t)x->nlines;
-	o->nlines = 0;
-	o->file = 0;
-	return 0;
-}
-
-static int on_line(const git_diff_delta *d, const git_diff_hunk *h, const git_diff_line *l, void *p)
-{
-	pair_diff *x = p;
-	omen_line *o;
-	size_t n = l->content_len;
-	(void)d;
-	(void)h;
-	if (l->origin != GIT_DIFF_LINE_ADDITION && l->origin != GIT_DIFF_LINE_DELETION)
-		return 0;
-	if (!x->nhunks)
-		return 0;
-	if (n && l->content[n - 1] == '\n')
-		n--;
-	if (OMEN_ARRAY_RESERVE(x->lines, x->lcap, x->nlines + 1)) {
-		x->err = OMEN_ENOMEM;
-		return -1;
-	}
-	o = &x->lines[x->nlines++];
-	o->origin = l->origin == GIT_DIFF_LINE_ADDITION ? '+' : '-';
-	o->old_lineno = l->old_lineno;
-	o->new_lineno = l->new_lineno;
-	o->text_off = (uint32_t)x->text.len;
-	o->text_len = (uint32_t)n;
-	if (omen_buf_put(&x->text, l->content, n)) {
-		x->err = OMEN_ENOMEM;
-		return -1;
-	}
-	x->hunks[x->nhunks - 1].nlines++;
-	return 0;
-}
-
-static int probe_binary(const git_blob *b)
-{
-	size_t n = b ? (size_t)git_blob_rawsize(b) : 0;
-	return b && memchr(git_blob_rawcontent(b), 0, n > 8000 ? 8000 : n) != NULL;
-}
-
-int lbl_apply_blobs(lbl_tracer *t, git_repository *repo, const omen_file *f, uint32_t ci)
-{
-	git_blob *a = NULL, *b = NULL;
-	git_diff_options dopts;
-	pair_diff x;
-	omen_change pc;
-	int e = 0, has_old = f->old_path && !git_oid_is_zero(&f->old_blob);
-	memset(&x, 0, sizeof(x));
-	git_diff_options_init(&dopts, GIT_DIFF_OPTIONS_VERSION);
-	dopts.context_lines = 0;
-	dopts.interhunk_lines = 0;
-	dopts.flags = GIT_DIFF_FORCE_TEXT | GIT_DIFF_INDENT_HEURISTIC;
-	if ((has_old && git_blob_lookup(&a, repo, &f->old_blob)) || git_blob_lookup(&b, repo, &f->new_blob))
-		goto out; /* unreadable: no version */
-	if (probe_binary(a) || probe_binary(b) || (int64_t)git_blob_rawsize(b) > (50ll << 20))
-		goto out; /* binary or too large: not traced, as in the history reader */
-	if (git_diff_blobs(a, NULL, b, NULL, &dopts, NULL, NULL, on_hunk, on_line, &x) < 0 || x.err) {
-		e = x.err ? omen_error_set(OMEN_ENOMEM, "out of memory") : 0;
+	omen_walk_opts wo = OMEN_WALK_OPTS_INIT;
+	omen_change dc;
+	omen_file *df;
+	uint32_t nh;
+	int e, has_old = f->old_path && !git_oid_is_zero(&f->old_blob);
+	omen_change_init(&dc);
+	e = omen_history_diff_blobs(&dc, r, has_old ? f->old_path : NULL,
+		has_old ? &f->old_blob : NULL, f->new_path, &f->new_blob, &wo);
+	if (e == OMEN_EGIT) {
+		omen_error_clear();  /* unreadable: no version */
+		e = 0;
 		goto out;
 	}
-	memset(&pc, 0, sizeof(pc));
-	x.file = *f;
-	x.file.flags = 0;
-	x.file.hunk_off = 0;
-	x.file.nhunks = (uint32_t)x.nhunks;
+	if (e)
+		goto out;
+	df = &dc.files[0];
+	if (df->flags & (OMEN_FILE_BINARY | OMEN_FILE_TOO_LARGE))
+		goto out; /* not traced, as in the walk */
+	/* the caller's view of the file (status, old side, old line count)
+	 * with the hunks of the diff */
+	nh = df->nhunks;
+	*df = *f;
+	df->flags = 0;
+	df->hunk_off = 0;
+	df->nhunks = nh;
 	if (!has_old) {
-		x.file.old_path = NULL;
-		x.file.status = OMEN_FILE_ADDED;
+		df->old_path = NULL;
+		df->status = OMEN_FILE_ADDED;
 	}
-	pc.files = &x.file;
-	pc.nfiles = 1;
-	pc.hunks = x.hunks;
-	pc.nhunks = x.nhunks;
-	pc.lines = x.lines;
-	pc.nlines = x.nlines;
-	pc.text = x.text.ptr ? x.text.ptr : "";
-	e = lbl_tracer_apply(t, &pc, ci);
+	e = lbl_tracer_apply(t, &dc, ci);
 out:
-	git_blob_free(a);
-	git_blob_free(b);
-	free(x.hunks);
-	free(x.lines);
-	omen_buf_free(&x.text);
+	omen_change_free(&dc);
 	return e;
 }
 
-static int apply_pair(lbl_tracer *t, git_repository *repo, const omen_file *df, const omen_file *af,
+static int apply_pair(lbl_tracer *t, omen_repo *r, const omen_file *df, const omen_file *af,
 	uint32_t ci)
 {
 	omen_file f = *af;
@@ -191,10 +116,10 @@ static int apply_pair(lbl_tracer *t, git_repository *repo, const omen_file *df, 
 	f.old_blob = df->old_blob;
 	f.old_nlines = df->old_nlines;
 	f.status = OMEN_FILE_RENAMED;
-	return lbl_apply_blobs(t, repo, &f, ci);
+	return lbl_apply_blobs(t, r, &f, ci);
 }
 
-int lbl_rename_pairs(lbl_tracer *t, git_repository *repo, const omen_change *c, uint32_t ci)
+int lbl_rename_pairs(lbl_tracer *t, omen_repo *r, const omen_change *c, uint32_t ci)
 {
 	size_t i, j, nd = 0;
 	const unsigned skip = OMEN_FILE_BINARY | OMEN_FILE_TOO_LARGE | OMEN_FILE_SUBMODULE;
@@ -244,7 +169,7 @@ int lbl_rename_pairs(lbl_tracer *t, git_repository *repo, const omen_change *c, 
 		free(ah);
 		if (bj >= 0) {
 			used[bj] = 1;
-			if ((e = apply_pair(t, repo, &c->files[bj], af, ci)))
+			if ((e = apply_pair(t, r, &c->files[bj], af, ci)))
 				goto out;
 		}
 	}

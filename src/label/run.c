@@ -302,7 +302,7 @@ static int do_merge(lbl_run *R, uint32_t mi)
 				f->old_nlines = nold;
 			else
 				f->old_path = NULL; /* no state for the old side: a new file */
-			if ((e = lbl_apply_blobs(R->tr, repo, f, mi)))
+			if ((e = lbl_apply_blobs(R->tr, R->repo, f, mi)))
 				goto out;
 		}
 	}
@@ -408,7 +408,7 @@ static int walk_cb(const omen_change *c, void *payload)
 			R->pairs[R->npairs++] = (lbl_pair){t, (uint32_t)ci, R->cand_lines[k]};
 		}
 	}
-	if (R->o->follow_renames && (e = lbl_rename_pairs(R->tr, omen_repo_git(R->repo), c, (uint32_t)ci)))
+	if (R->o->follow_renames && (e = lbl_rename_pairs(R->tr, R->repo, c, (uint32_t)ci)))
 		return e;
 	if ((e = lbl_tracer_apply(R->tr, c, (uint32_t)ci)))
 		return e;

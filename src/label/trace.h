@@ -56,11 +56,12 @@ int lbl_tracer_apply(lbl_tracer *t, const omen_change *c, uint32_t ci);
 /* Renames with edits (rename.c): pairs added files without state with
  * deleted files of c at >= 50% line similarity and gives the new versions
  * the old origins through a -U0 diff of the two blobs. Before apply. */
-int lbl_rename_pairs(lbl_tracer *t, git_repository *repo, const omen_change *c, uint32_t ci);
+int lbl_rename_pairs(lbl_tracer *t, omen_repo *r, const omen_change *c, uint32_t ci);
 
-/* Diffs f's two blobs -U0 (old side may be absent) and builds f's new
- * version from it; binary and over-50-MiB blobs get no version. */
-int lbl_apply_blobs(lbl_tracer *t, git_repository *repo, const omen_file *f, uint32_t ci);
+/* Diffs f's two blobs -U0 with omen_history_diff_blobs (old side may be
+ * absent) and builds f's new version from it; binary blobs, blobs over
+ * omen.maxBlobBytes and unreadable ones get no version. */
+int lbl_apply_blobs(lbl_tracer *t, omen_repo *r, const omen_file *f, uint32_t ci);
 
 /* The linear step: +1 on every new version, -1 on every old one. */
 void lbl_tracer_step(lbl_tracer *t, const omen_change *c);
