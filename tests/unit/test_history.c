@@ -663,6 +663,85 @@ static void test_staged(void **state)
 	omen_repo_free(NULL);
 }
 
+/* ---- one blob pair ------------------------------------------------------- */
+typedef struct {
+	omen_repo *r;
+	omen_change d;
+	int pairs, added, binary;
+} pair_state;
+
+/* Every regular text file of every commit diffed again as a lone blob pair
+ * must give the walk's hunks and lines exactly: there is one diff. */
+static int pair_cb(const omen_change *c, void *payload)
+{
+	pair_state *s = payload;
+	for (size_t i = 0; i < c->nfiles; i++) {
+		const omen_file *f = &c->files[i], *g;
+		if (!f->new_path || (f->flags & (OMEN_FILE_SUBMODULE | OMEN_FILE_SYMLINK)) ||
+		    f->status == OMEN_FILE_TYPECHANGE)
+			continue;
+		assert_int_equal(omen_history_diff_blobs(&s->d, s->r, f->old_path,
+			f->old_path ? &f->old_blob : NULL, f->new_path, &f->new_blob, NULL), 0);
+		assert_int_equal(s->d.nfiles, 1);
+		g = &s->d.files[0];
+		assert_int_equal(g->status, f->status);
+		assert_int_equal(g->flags & (OMEN_FILE_BINARY | OMEN_FILE_TOO_LARGE),
+			f->flags & (OMEN_FILE_BINARY | OMEN_FILE_TOO_LARGE));
+		assert_int_equal(g->added, f->added);
+		assert_int_equal(g->deleted, f->deleted);
+		assert_true(g->old_nlines == f->old_nlines);
+		assert_int_equal(g->nhunks, f->nhunks);
+		for (uint32_t h = 0; h < f->nhunks; h++) {
+			const omen_hunk *a = &c->hunks[f->hunk_off + h], *b = &s->d.hunks[g->hunk_off + h];
+			assert_int_equal(a->old_start, b->old_start);
+			assert_int_equal(a->old_lines, b->old_lines);
+			assert_int_equal(a->new_start, b->new_start);
+			assert_int_equal(a->new_lines, b->new_lines);
+			assert_int_equal(a->nlines, b->nlines);
+			for (uint32_t k = 0; k < a->nlines; k++) {
+				const omen_line *la = &c->lines[a->line_off + k], *lb = &s->d.lines[b->line_off + k];
+				assert_int_equal(la->origin, lb->origin);
+				assert_int_equal(la->old_lineno, lb->old_lineno);
+				assert_int_equal(la->new_lineno, lb->new_lineno);
+				assert_int_equal(la->text_len, lb->text_len);
+				assert_memory_equal(omen_line_text(c, la), omen_line_text(&s->d, lb), la->text_len);
+			}
+		}
+		s->pairs++;
+		s->added += f->status == OMEN_FILE_ADDED;
+		s->binary += (f->flags & OMEN_FILE_BINARY) != 0;
+	}
+	return 0;
+}
+
+static void test_diff_blobs(void **state)
+{
+	omen_repo *r = open_fx("history");
+	omen_walk_opts o = OMEN_WALK_OPTS_INIT;
+	pair_state s;
+	git_oid missing;
+	(void)state;
+	memset(&s, 0, sizeof(s));
+	s.r = r;
+	omen_change_init(&s.d);
+	assert_int_equal(omen_history_walk(r, &o, pair_cb, &s), 0);
+	assert_true(s.pairs > 10);
+	assert_true(s.added > 0);
+	assert_true(s.binary > 0);
+	git_oid_fromstr(&missing, "0123456789abcdef0123456789abcdef01234567");
+	/* no side, or a side without its path */
+	assert_int_equal(omen_history_diff_blobs(&s.d, r, NULL, NULL, NULL, NULL, NULL), OMEN_EINVAL);
+	assert_int_equal(omen_history_diff_blobs(&s.d, r, "a", &missing, NULL, &missing, NULL),
+		OMEN_EINVAL);
+	/* a blob that is not there */
+	assert_int_equal(omen_history_diff_blobs(&s.d, r, NULL, NULL, "gone.txt", &missing, NULL),
+		OMEN_EGIT);
+	assert_non_null(strstr(omen_error_last(), "cannot read blob of 'gone.txt'"));
+	assert_null(strchr(omen_error_last(), '\n'));
+	omen_change_free(&s.d);
+	omen_repo_free(r);
+}
+
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
@@ -675,6 +754,7 @@ int main(void)
 		cmocka_unit_test(test_missing_object),
 		cmocka_unit_test(test_too_large),
 		cmocka_unit_test(test_staged),
+		cmocka_unit_test(test_diff_blobs),
 	};
 	return cmocka_run_group_tests(tests, setup_all, teardown_all);
 }
