@@ -341,14 +341,28 @@ out:
 	return ok;
 }
 
-/* Bytes the dataset holds, for omen.memoryLimit on a dataset read from the
- * cache (the build path counts as it goes). */
+/* What omen.memoryLimit weighs: the bytes the finished dataset holds, that
+ * is its records, the sample views and path pointers ds_finish adds, and the
+ * contents (lengths, not capacities) of every column. It is a function of the
+ * dataset alone, so the same history weighs the same built or loaded from
+ * the cache, and a build that stayed under the limit loads under it too. */
 static size_t ds_bytes(const omen_dataset *d)
 {
-	size_t b = d->n * (sizeof(ds_rec) + sizeof(omen_sample) + sizeof(char *));
+	size_t b = d->n * (sizeof(ds_rec) + sizeof(omen_sample)) +
+		d->c[C_PATHOFF].len * sizeof(const char *);
 	for (int i = 0; i < C_NCOLS; i++)
 		b += d->c[i].len * d->c[i].elem;
 	return b;
+}
+
+/* OMEN_ELIMIT when d weighs more than max_bytes (0 or less: no limit). */
+static int check_limit(const omen_dataset *d, int64_t max_bytes, const char *what)
+{
+	size_t b;
+	if (max_bytes <= 0 || (b = ds_bytes(d)) <= (size_t)max_bytes)
+		return 0;
+	return omen_error_set(OMEN_ELIMIT, "cannot %s dataset: %zu bytes after %zu commits is over "
+		"the memory limit of %lld bytes (omen.memoryLimit)", what, b, d->n, (long long)max_bytes);
 }
 
 /* ---- building from history ----------------------------------------------- */
@@ -359,7 +373,6 @@ typedef struct {
 	omen_sample_buf *sb;
 	const omen_caps *caps;
 	int64_t max_bytes;
-	size_t bytes;
 	omen_progress prog;
 	size_t done;
 	int err;
@@ -378,13 +391,8 @@ static int on_change(const omen_change *c, void *payload)
 		goto fail;
 	if ((e = omen_metrics_update(x->m, c, is_fix)))
 		goto fail;
-	x->bytes += sizeof(ds_rec) + (size_t)s.ntok * 8 + (size_t)s.nmsg * 4 +
-		(size_t)s.nfiles * (OMEN_NFACTS * 4 + 64) + (size_t)s.nhunks * 20;
-	if (x->max_bytes > 0 && x->bytes > (size_t)x->max_bytes) {
-		e = omen_error_set(OMEN_ELIMIT, "cannot build dataset: over the memory limit of %lld bytes "
-			"after %zu commits (omen.memoryLimit)", (long long)x->max_bytes, x->d->n);
+	if ((e = check_limit(x->d, x->max_bytes, "build")))
 		goto fail;
-	}
 	x->done++;
 	omen_progress_update(&x->prog, x->done, NULL);
 	return 0;
@@ -422,11 +430,7 @@ int omen_dataset_build(omen_dataset **out, omen_repo *r, const omen_dataset_opts
 			(e = cache_key(&key, r, o, &lb)))
 			goto out;
 		if (cache_read(out, cache_path, &key)) {
-			e = 0;
-			if (o->max_bytes > 0 && ds_bytes(*out) > (size_t)o->max_bytes) {
-				e = omen_error_set(OMEN_ELIMIT, "cannot load dataset: %zu bytes is over the "
-					"memory limit of %lld bytes (omen.memoryLimit)", ds_bytes(*out),
-					(long long)o->max_bytes);
+			if ((e = check_limit(*out, o->max_bytes, "load"))) {
 				omen_dataset_free(*out);
 				*out = NULL;
 			}
