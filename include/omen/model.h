@@ -114,9 +114,12 @@ double omen_platt_apply(double a, double b, double f);
 /* Threshold of maximal F1 (prob >= t is positive); 0.5 without positives. */
 double omen_threshold_max_f1(const double *prob, const int *y, size_t n);
 
-/* Raw logits of the samples idx[0..n) of ds, batched over threads. */
+/* Raw logits of the samples idx[0..n) of ds, batched over threads (0 = the
+ * online cores, at most 2). */
 int omen_model_logits(float *out, const omen_model *m, const omen_dataset *ds, const size_t *idx,
 	size_t n, int threads);
+/* The calibrated probability of a raw logit (the model's Platt scaling). */
+float omen_model_calibrated(const omen_model *m, float logit);
 
 /* ---- low-level access (tests, references, benchmarks) ------------------- */
 /* A fresh model with seeded initial weights (no training, identity

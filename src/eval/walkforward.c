@@ -94,6 +94,7 @@ static int run_fold(omen_eval_result *r, size_t k, const omen_dataset *ds,
 	omen_model *m = NULL;
 	omen_explain ex;
 	double *vs = NULL, t0 = omen_now(), base;
+	float *logits = NULL;
 	int *vy = NULL, rc = 0;
 	size_t i, nv = f->fold.n_valid, nt = f->fold.n_test, partial = 0;
 	pidx *top = NULL;
@@ -136,15 +137,20 @@ static int run_fold(omen_eval_result *r, size_t k, const omen_dataset *ds,
 
 	if ((rc = omen_eval_fold_alloc(f, nt)) < 0)
 		goto out;
+	/* the test slice in batches over the training threads */
+	logits = malloc((nt ? nt : 1) * sizeof(*logits));
+	if (!logits) {
+		rc = omen_error_set(OMEN_ENOMEM, "cannot evaluate fold %zu: out of memory", k + 1);
+		goto out;
+	}
+	if ((rc = omen_model_logits(logits, m, ds, f->fold.test_idx, nt, o->train.threads)) < 0) {
+		rc = omen_error_wrap(rc, "fold %zu: cannot score the test commits", k + 1);
+		goto out;
+	}
 	for (i = 0; i < nt; i++) {
 		const omen_sample *s = omen_dataset_get(ds, f->fold.test_idx[i]);
-		float prob = 0, logit = 0, lr;
+		float prob = omen_model_calibrated(m, logits[i]), lr = omen_model_predict_lr(m, s);
 		int part = 0, excl = 0;
-		if ((rc = omen_model_predict(&prob, &logit, m, s, NULL)) < 0) {
-			rc = omen_error_wrap(rc, "fold %zu: cannot score commit '%.12s'", k + 1, s->id);
-			goto out;
-		}
-		lr = omen_model_predict_lr(m, s);
 		f->y[i] = s->label > 0;
 		f->effort[i] = omen_sample_effort(s, pat, npat, &part, &excl);
 		f->time[i] = s->time;
@@ -200,6 +206,7 @@ out:
 	free(vs);
 	free(vy);
 	free(top);
+	free(logits);
 	return rc;
 }
 

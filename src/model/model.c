@@ -467,11 +467,16 @@ int omen_model_predict(float *out_prob, float *out_logit, const omen_model *m,
 	if (out_logit)
 		*out_logit = w.z[0];
 	if (out_prob)
-		*out_prob = (float)omen_platt_apply(m->platt_a, m->platt_b, w.z[0]);
+		*out_prob = omen_model_calibrated(m, w.z[0]);
 	if (ex)
 		e = explain_fill(ex, m, &w);
 	omen_ws_free(&w);
 	return e;
+}
+
+float omen_model_calibrated(const omen_model *m, float logit)
+{
+	return (float)omen_platt_apply(m->platt_a, m->platt_b, logit);
 }
 
 float omen_model_predict_lr(const omen_model *m, const omen_sample *s)

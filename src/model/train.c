@@ -46,12 +46,17 @@ void omen_train_opts_init(omen_train_opts *o)
 
 /* Worker threads: the option, else the online cores; never more than the
  * fixed chunks of a batch. */
-static int train_threads(const omen_train_opts *o)
+static int resolve_threads(int threads)
 {
-	long n = o->threads > 0 ? o->threads : sysconf(_SC_NPROCESSORS_ONLN);
+	long n = threads > 0 ? threads : sysconf(_SC_NPROCESSORS_ONLN);
 	if (n < 1)
 		n = 1;
 	return n > OMEN_TRAIN_CHUNKS ? OMEN_TRAIN_CHUNKS : (int)n;
+}
+
+static int train_threads(const omen_train_opts *o)
+{
+	return resolve_threads(o->threads);
 }
 
 /* ---- one step over a batch ----------------------------------------------- */
@@ -175,7 +180,7 @@ out:
 int omen_model_logits(float *out, const omen_model *m, const omen_dataset *ds, const size_t *idx,
 	size_t n, int threads)
 {
-	return eval_logits(out, m, ds, idx, n, threads);
+	return eval_logits(out, m, ds, idx, n, resolve_threads(threads));
 }
 
 static double auc_of(const float *z, const omen_dataset *ds, const size_t *idx, size_t n)
