@@ -89,10 +89,10 @@ unit: $(UNIT_BIN)
 	@sh tests/run-unit.sh $(UNIT_BIN)
 
 shell: $(OMEN)
-	@OMEN="$(CURDIR)/$(OMEN)" sh tests/run-shell.sh
+	@OMEN="$(abspath $(OMEN))" sh tests/run-shell.sh
 
 ref: $(OMEN) $(REF_BIN)
-	@OMEN="$(CURDIR)/$(OMEN)" BUILD="$(CURDIR)/$(BUILD)" PYTHON=$(PYTHON) sh tests/run-ref.sh
+	@OMEN="$(abspath $(OMEN))" BUILD="$(abspath $(BUILD))" PYTHON=$(PYTHON) sh tests/run-ref.sh
 
 fuzz-replay: $(FUZZ_REPLAY)
 	@for f in $(FUZZ_REPLAY); do n=$$(basename $$f -replay); \
@@ -116,13 +116,13 @@ unit-asan: $(UNIT_BIN) $(FUZZ_REPLAY)
 	@$(ASAN_ENV) sh tests/run-unit.sh $(UNIT_BIN)
 	@for f in $(FUZZ_REPLAY); do n=$$(basename $$f -replay); \
 		$(ASAN_ENV) $$f fixtures/corpora/$${n#fuzz_} || exit 1; done
-	@$(ASAN_ENV) OMEN="$(CURDIR)/$(OMEN)" sh tests/run-shell.sh
+	@$(ASAN_ENV) OMEN="$(abspath $(OMEN))" sh tests/run-shell.sh
 
 valgrind: $(UNIT_BIN)
 	@VALGRIND=1 sh tests/run-unit.sh $(UNIT_BIN)
 
 bench: $(OMEN) $(BENCH_BIN)
-	@OMEN="$(CURDIR)/$(OMEN)" BUILD="$(CURDIR)/$(BUILD)" sh tests/bench/run.sh $(BENCH_BIN)
+	@OMEN="$(abspath $(OMEN))" BUILD="$(abspath $(BUILD))" sh tests/bench/run.sh $(BENCH_BIN)
 
 # libFuzzer builds: the library is compiled once more with clang, coverage
 # instrumentation and ASan+UBSan into $(BUILD)/fuzz/lib/ (incremental), each
@@ -179,7 +179,7 @@ fuzz: $(FUZZ_LF)
 	done
 
 demo: all
-	@OMEN="$(CURDIR)/$(OMEN)" sh fixtures/demo/run-demo.sh
+	@OMEN="$(abspath $(OMEN))" sh fixtures/demo/run-demo.sh
 
 install: all
 	install -d $(DESTDIR)$(PREFIX)/bin $(DESTDIR)$(PREFIX)/share/man/man1 \
