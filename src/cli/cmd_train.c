@@ -71,6 +71,15 @@ static void print_text(const omen_train_report *r, const char *path)
 	print_row("model", &r->model);
 	print_row("lr on metrics", &r->lr_metrics);
 	print_row("lines added", &r->lines_added);
+	{
+		/* say it in words when a baseline ranks the test slice better */
+		const omen_slice_scores *b = isnan(r->lines_added.auc) ||
+			r->lr_metrics.auc >= r->lines_added.auc ? &r->lr_metrics : &r->lines_added;
+		if (isfinite(r->model.auc) && isfinite(b->auc) && b->auc > r->model.auc)
+			printf("note: %s ranks this test slice better than the model (AUC %.3f vs %.3f); "
+				"on small histories the simple baselines are often as good\n",
+				b == &r->lr_metrics ? "lr on metrics" : "lines added", b->auc, r->model.auc);
+	}
 	printf("threshold %.3f (max F1 on validation); %.1f s\n", r->threshold, r->seconds);
 	printf("wrote %s (refit on train+validation; scores are advisory)\n", path);
 }
