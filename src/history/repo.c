@@ -20,7 +20,8 @@ int omen_repo_open(omen_repo **out, const char *path)
 	 * git_repository, and a walk opens one per diff worker: 64 MiB each keeps
 	 * the label pass on curl (39.5k commits, two workers) at 383 MB peak
 	 * against 696 MB with 512 MiB, for 7-10% more wall time; on redis and jq
-	 * the difference is 2-5% (tests/bench, 2026-12-02). */
+	 * the difference is 2-5% (git omen label and tests/bench/bench_history.c,
+	 * 2026-12-02). */
 	git_libgit2_opts(GIT_OPT_ENABLE_STRICT_HASH_VERIFICATION, 0);
 	git_libgit2_opts(GIT_OPT_SET_CACHE_MAX_SIZE, (ssize_t)64 * 1024 * 1024);
 	if (!(r = calloc(1, sizeof(*r))))
