@@ -161,6 +161,15 @@ int omen_history_change(omen_change *out, omen_repo *r, const git_oid *id, const
  * as a change whose commit has a zero id, the configured identity and now. */
 int omen_history_staged(omen_change *out, omen_repo *r, const omen_walk_opts *o);
 
+/* The files that differ between the trees of two commits (old_commit NULL:
+ * against nothing), in tree order, with paths, blob ids and status (added,
+ * deleted, modified) only: no blob is read, no hunk made and no rename
+ * paired, and equal subtrees are skipped unread. A submodule side counts as
+ * absent. out is cleared first. A commit or tree that cannot be read is
+ * OMEN_EGIT. */
+int omen_history_tree_files(omen_change *out, omen_repo *r, const git_oid *old_commit,
+	const git_oid *new_commit);
+
 /* Diffs one pair of blobs exactly as the walk diffs a changed regular file
  * (-U0, git's common-tail trim, binary probe, omen.maxBlobBytes): out is
  * cleared and gets that one file (OMEN_FILE_BINARY or OMEN_FILE_TOO_LARGE and

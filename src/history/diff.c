@@ -530,14 +530,20 @@ int hist_diff_entries(hist_differ *d, omen_change *c)
 	return 0;
 }
 
-int hist_diff_trees(hist_differ *d, omen_change *out, git_tree *old_tree, git_tree *new_tree)
+/* The changed entries between two trees (either may be NULL) into d->ents. */
+static int list_trees(hist_differ *d, omen_change *out, git_tree *old_tree, git_tree *new_tree)
 {
-	int rc;
 	d->nents = 0;
 	omen_buf_clear(&d->path);
 	if (omen_buf_put(&d->path, "", 0) < 0)
 		return OMEN_ENOMEM;
-	if ((rc = walk_trees(d, out, old_tree, new_tree)) < 0)
+	return walk_trees(d, out, old_tree, new_tree);
+}
+
+int hist_diff_trees(hist_differ *d, omen_change *out, git_tree *old_tree, git_tree *new_tree)
+{
+	int rc;
+	if ((rc = list_trees(d, out, old_tree, new_tree)) < 0)
 		return rc;
 	return hist_diff_entries(d, out);
 }
@@ -724,6 +730,68 @@ int omen_history_diff_blobs(omen_change *out, omen_repo *r, const char *old_path
 		has_new ? new_blob : NULL, has_new ? MODE_REG | 0644 : 0);
 	if (rc >= 0)
 		rc = hist_diff_entries(&d, out);
+	hist_differ_free(&d);
+	return rc;
+}
+
+/* ---- changed files of two commits, without blob diffs -------------------- */
+static int commit_tree(git_tree **out, git_repository *repo, const git_oid *id)
+{
+	git_commit *cm = NULL;
+	char hex[GIT_OID_HEXSZ + 1];
+	*out = NULL;
+	if (!id)
+		return 0;
+	if (git_commit_lookup(&cm, repo, id) < 0 || git_commit_tree(out, cm) < 0) {
+		git_commit_free(cm);
+		git_oid_tostr(hex, sizeof(hex), id);
+		return hist_git_fail("cannot read the tree of commit", hex);
+	}
+	git_commit_free(cm);
+	return 0;
+}
+
+int omen_history_tree_files(omen_change *out, omen_repo *r, const git_oid *old_commit,
+	const git_oid *new_commit)
+{
+	hist_differ d;
+	git_tree *ta = NULL, *tb = NULL;
+	int rc;
+	omen_change_clear(out);
+	if ((rc = hist_differ_init(&d, omen_repo_git(r), NULL)) < 0)
+		return rc;
+	if ((rc = commit_tree(&ta, d.repo, old_commit)) < 0 ||
+		(rc = commit_tree(&tb, d.repo, new_commit)) < 0 ||
+		(rc = list_trees(&d, out, ta, tb)) < 0)
+		goto out;
+	if (OMEN_ARRAY_RESERVE(out->files, out->files_cap, d.nents ? d.nents : 1) < 0) {
+		rc = OMEN_ENOMEM;
+		goto out;
+	}
+	for (size_t i = 0; i < d.nents; i++) {
+		const hist_entry *e = &d.ents[i];
+		omen_file *f = &out->files[out->nfiles];
+		/* a submodule side is no file: absent, as a directory would be */
+		int has_old = e->old_mode && MODE_TYPE(e->old_mode) != MODE_GITLINK;
+		int has_new = e->new_mode && MODE_TYPE(e->new_mode) != MODE_GITLINK;
+		if (!has_old && !has_new)
+			continue;
+		memset(f, 0, sizeof(*f));
+		if (has_old) {
+			f->old_path = e->old_path;
+			git_oid_cpy(&f->old_blob, &e->old_id);
+		}
+		if (has_new) {
+			f->new_path = e->new_path;
+			git_oid_cpy(&f->new_blob, &e->new_id);
+		}
+		f->status = !has_old ? OMEN_FILE_ADDED : !has_new ? OMEN_FILE_DELETED : OMEN_FILE_MODIFIED;
+		out->nfiles++;
+	}
+	out->text = out->textbuf.ptr ? out->textbuf.ptr : "";
+out:
+	git_tree_free(ta);
+	git_tree_free(tb);
 	hist_differ_free(&d);
 	return rc;
 }

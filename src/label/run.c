@@ -241,20 +241,21 @@ static int ref_step(lbl_run *R, const omen_change *c, long ci, lbl_commit *cm)
  * changed on both sides) are diffed. */
 static int do_merge(lbl_run *R, uint32_t mi)
 {
-	git_repository *repo = omen_repo_git(R->repo);
-	git_commit *cm = NULL, *p1c = NULL;
-	git_tree *t1 = NULL, *tm = NULL;
-	git_diff *diff = NULL;
-	git_diff_options dopts;
-	omen_change fake;
-	omen_file *files = NULL;
+	git_commit *cm = NULL;
 	git_oid *parents = NULL;
-	size_t nd, i, nf = 0;
+	omen_change files;
+	size_t i;
 	unsigned k, np;
 	int e = 0;
 	lbl_commit *c = &R->cs[mi];
-	if (git_commit_lookup(&cm, repo, &R->ids[mi]) || git_commit_tree(&tm, cm))
-		goto gitfail;
+	omen_change_init(&files);
+	if (git_commit_lookup(&cm, omen_repo_git(R->repo), &R->ids[mi])) {
+		const git_error *ge = git_error_last();
+		char hex[OMEN_OID_HEX + 1];
+		git_oid_tostr(hex, sizeof(hex), &R->ids[mi]);
+		return omen_error_set(OMEN_EGIT, "cannot read merge '%s': %s", hex,
+			ge && ge->message ? ge->message : "libgit2 error");
+	}
 	np = git_commit_parentcount(cm);
 	c->time = git_commit_author(cm)->when.time;
 	c->merge = 1;
@@ -265,37 +266,11 @@ static int do_merge(lbl_run *R, uint32_t mi)
 	}
 	for (k = 0; k < np; k++)
 		parents[k] = *git_commit_parent_id(cm, k);
-	if (c->parent1 >= 0 && (git_commit_lookup(&p1c, repo, &R->ids[c->parent1]) || git_commit_tree(&t1, p1c)))
-		goto gitfail;
-	git_diff_options_init(&dopts, GIT_DIFF_OPTIONS_VERSION);
-	dopts.flags = GIT_DIFF_SKIP_BINARY_CHECK;
-	if (git_diff_tree_to_tree(&diff, repo, t1, tm, &dopts))
-		goto gitfail;
-	nd = git_diff_num_deltas(diff);
-	if (!(files = calloc(nd + 1, sizeof(*files)))) {
-		e = omen_error_set(OMEN_ENOMEM, "out of memory");
+	if ((e = omen_history_tree_files(&files, R->repo, c->parent1 >= 0 ? &R->ids[c->parent1] : NULL,
+			&R->ids[mi])))
 		goto out;
-	}
-	for (i = 0; i < nd; i++) {
-		const git_diff_delta *d = git_diff_get_delta(diff, i);
-		omen_file *f = &files[nf];
-		int old_blob = d->old_file.mode == GIT_FILEMODE_BLOB || d->old_file.mode == GIT_FILEMODE_BLOB_EXECUTABLE ||
-			d->old_file.mode == GIT_FILEMODE_LINK;
-		int new_blob = d->new_file.mode == GIT_FILEMODE_BLOB || d->new_file.mode == GIT_FILEMODE_BLOB_EXECUTABLE ||
-			d->new_file.mode == GIT_FILEMODE_LINK; /* symlinks: as the history reader */
-		memset(f, 0, sizeof(*f));
-		if (old_blob && d->status != GIT_DELTA_ADDED) {
-			f->old_path = d->old_file.path;
-			f->old_blob = d->old_file.id;
-		}
-		if (new_blob && d->status != GIT_DELTA_DELETED) {
-			f->new_path = d->new_file.path;
-			f->new_blob = d->new_file.id;
-		}
-		if (!f->old_path && !f->new_path)
-			continue;
-		f->status = !f->old_path ? OMEN_FILE_ADDED : !f->new_path ? OMEN_FILE_DELETED : OMEN_FILE_MODIFIED;
-		nf++;
+	for (i = 0; i < files.nfiles; i++) {
+		omen_file *f = &files.files[i];
 		if (f->new_path && !lbl_tracer_get(R->tr, f->new_path, &f->new_blob, NULL)) {
 			uint32_t nold = 0;
 			if (f->old_path && lbl_tracer_get(R->tr, f->old_path, &f->old_blob, &nold))
@@ -306,28 +281,12 @@ static int do_merge(lbl_run *R, uint32_t mi)
 				goto out;
 		}
 	}
-	memset(&fake, 0, sizeof(fake));
-	fake.commit.nparents = np;
-	fake.commit.parents = parents;
-	fake.files = files;
-	fake.nfiles = nf;
-	e = ref_step(R, &fake, (long)mi, c);
-	goto out;
-gitfail:
-	{
-		const git_error *ge = git_error_last();
-		char hex[OMEN_OID_HEX + 1];
-		git_oid_tostr(hex, sizeof(hex), &R->ids[mi]);
-		e = omen_error_set(OMEN_EGIT, "cannot read merge '%s': %s", hex,
-			ge && ge->message ? ge->message : "libgit2 error");
-	}
+	files.commit.nparents = np;
+	files.commit.parents = parents;
+	e = ref_step(R, &files, (long)mi, c);
 out:
-	git_diff_free(diff);
-	git_tree_free(t1);
-	git_tree_free(tm);
-	git_commit_free(p1c);
+	omen_change_free(&files);
 	git_commit_free(cm);
-	free(files);
 	free(parents);
 	return e;
 }

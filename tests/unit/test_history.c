@@ -742,6 +742,83 @@ static void test_diff_blobs(void **state)
 	omen_repo_free(r);
 }
 
+/* omen_history_tree_files against `git diff-tree -r --no-renames --raw
+ * <first parent> <commit>` (a side is a file unless absent or a submodule),
+ * for every commit of the main fixture, its merge included. */
+static int cmp_line(const void *a, const void *b)
+{
+	return strcmp(*(char *const *)a, *(char *const *)b);
+}
+
+static void test_tree_files(void **state)
+{
+	omen_repo *r = open_fx("history");
+	omen_change c;
+	char cmd[1024], line[4096], *want[256], *got[256];
+	FILE *p, *revs;
+	size_t nw, ng, i, commits = 0, merges = 0;
+	git_oid id, parent;
+	(void)state;
+	omen_change_init(&c);
+	snprintf(cmd, sizeof(cmd), "git -C '%s/history' rev-list --parents HEAD", fx);
+	assert_non_null(revs = popen(cmd, "r"));
+	while (fgets(line, sizeof(line), revs)) {
+		char hex[41], phex[41] = "";
+		int np = sscanf(line, "%40s %40s", hex, phex) - 1;
+		merges += strlen(line) > 2 * 41 + 1;
+		commits++;
+		git_oid_fromstr(&id, hex);
+		if (np > 0)
+			git_oid_fromstr(&parent, phex);
+		assert_int_equal(omen_history_tree_files(&c, r, np > 0 ? &parent : NULL, &id), 0);
+		for (ng = 0; ng < c.nfiles; ng++) {
+			const omen_file *f = &c.files[ng];
+			char buf[1100];
+			assert_true(ng < 256);
+			assert_int_equal(f->nhunks, 0);
+			snprintf(buf, sizeof(buf), "%c\t%s", f->status == OMEN_FILE_ADDED ? 'A' :
+				f->status == OMEN_FILE_DELETED ? 'D' : 'M',
+				f->new_path ? f->new_path : f->old_path);
+			got[ng] = strdup(buf);
+		}
+		snprintf(cmd, sizeof(cmd), "git -C '%s/history' -c core.quotepath=false diff-tree -r "
+			"--no-renames --raw --no-abbrev %s %s %s", fx, np > 0 ? "" : "--root",
+			np > 0 ? phex : "", hex);
+		assert_non_null(p = popen(cmd, "r"));
+		for (nw = 0; fgets(line, sizeof(line), p);) {
+			/* ":<old mode> <new mode> <old id> <new id> <status>\t<path>"; a side
+			 * is a file unless absent (000000) or a submodule (160000) */
+			char om[8], nm[8], *path = strchr(line, '\t'), buf[1100];
+			int ho, hn;
+			if (line[0] != ':' || !path)
+				continue;   /* --root prints the commit id first */
+			line[strcspn(line, "\n")] = '\0';
+			assert_int_equal(sscanf(line, ":%7s %7s", om, nm), 2);
+			ho = strcmp(om, "000000") && strcmp(om, "160000");
+			hn = strcmp(nm, "000000") && strcmp(nm, "160000");
+			if (!ho && !hn)
+				continue;
+			snprintf(buf, sizeof(buf), "%c\t%s", !ho ? 'A' : !hn ? 'D' : 'M', path + 1);
+			assert_true(nw < 256);
+			want[nw++] = strdup(buf);
+		}
+		assert_int_equal(pclose(p), 0);
+		qsort(got, ng, sizeof(*got), cmp_line);
+		qsort(want, nw, sizeof(*want), cmp_line);
+		assert_int_equal(ng, nw);
+		for (i = 0; i < ng; i++) {
+			assert_string_equal(got[i], want[i]);
+			free(got[i]);
+			free(want[i]);
+		}
+	}
+	pclose(revs);
+	assert_true(commits > 10);
+	assert_int_equal(merges, 1);
+	omen_change_free(&c);
+	omen_repo_free(r);
+}
+
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
@@ -755,6 +832,7 @@ int main(void)
 		cmocka_unit_test(test_too_large),
 		cmocka_unit_test(test_staged),
 		cmocka_unit_test(test_diff_blobs),
+		cmocka_unit_test(test_tree_files),
 	};
 	return cmocka_run_group_tests(tests, setup_all, teardown_all);
 }
