@@ -109,6 +109,7 @@ typedef struct {
 	const char *labels_path;  /* labels.jsonl to join (NULL = default path) */
 	omen_caps caps;
 	int use_cache;            /* read/write $GIT_DIR/omen/dataset.cache */
+	int cache_only;           /* with use_cache: OMEN_ENOTFOUND on a miss instead of a build */
 	int64_t max_bytes;        /* memory ceiling (0 = none) */
 } omen_dataset_opts;
 int omen_dataset_build(omen_dataset **out, omen_repo *r, const omen_dataset_opts *o);

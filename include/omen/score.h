@@ -113,6 +113,7 @@ typedef struct {
 	omen_arena arena;
 	float threshold;      /* probability at or above which a commit is risky */
 	int stopped;          /* the deadline stopped scoring early */
+	size_t from_cache;    /* of them, scored from the training samples in the dataset cache */
 } omen_score_set;
 
 void omen_score_set_init(omen_score_set *s);
@@ -146,8 +147,10 @@ const char *omen_scorer_model_path(const omen_scorer *s);
  * model's, then fed every commit between the model's head and each scored
  * commit, oldest first, so each commit's metrics use only commits before
  * it, exactly as in training. Commits at or before the model's head are
- * scored by replaying the history from its start (as training did, with the
- * labels' fix flags), except in lazy mode. Merges are not scored. */
+ * scored from the samples training built when the dataset cache holding
+ * them is still valid (same history up to the head, labels and caps), else
+ * by replaying the history from its start (as training did, with the
+ * labels' fix flags); lazy mode does neither. Merges are not scored. */
 int omen_scorer_commits(omen_score_set *out, omen_scorer *s, const git_oid *ids, size_t n);
 /* Scores the staged changes (index against HEAD) as a commit with message
  * msg (NULL = empty), state fed up to HEAD. */

@@ -436,6 +436,10 @@ int omen_dataset_build(omen_dataset **out, omen_repo *r, const omen_dataset_opts
 			}
 			goto out;
 		}
+		if (o->cache_only) {
+			e = omen_error_set(OMEN_ENOTFOUND, "no dataset cache for this history and labels");
+			goto out;
+		}
 	}
 	if ((e = omen_labels_parse(&x.labels, labels_path, lb.ptr, lb.len)))
 		goto out;

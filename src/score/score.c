@@ -376,18 +376,18 @@ static const char *summary_of(omen_arena *a, const char *msg)
 	return p;
 }
 
-int score_one(omen_score_set *set, const omen_scorer *s, const omen_change *c,
-	const omen_metrics *state, int is_fix, omen_sample_buf *sb, omen_explain *ex,
-	omen_sample *out_sample)
+/* Scores the sample sm of the change c (its commit and file flags give the
+ * summary and the skipped files) into set. */
+static int score_sample(omen_score_set *set, const omen_scorer *s, const omen_change *c,
+	const omen_sample *smp, omen_explain *ex)
 {
-	omen_sample sm;
+	const omen_sample sm = *smp;
+	const int is_fix = sm.is_fix;
 	omen_score_result *r;
 	size_t first, k, keep;
 	double total;
 	int e, f, h;
 
-	if ((e = omen_sample_build(&sm, sb, c, state, is_fix, &s->caps)))
-		return omen_error_wrap(e, "cannot build the sample of '%.12s'", c->commit.hex);
 	if (OMEN_ARRAY_RESERVE(set->v, set->cap, set->n + 1) ||
 	    OMEN_ARRAY_RESERVE(set->hunks, set->hunks_cap, set->nhunks + (size_t)sm.nhunks + 1))
 		return omen_error_set(OMEN_ENOMEM, "out of memory");
@@ -459,6 +459,19 @@ int score_one(omen_score_set *set, const omen_scorer *s, const omen_change *c,
 	r->nhunk_scores = keep;
 	score_reasons(r, s, &sm, ex, keep ? &set->hunks[first] : NULL);
 	set->n++;
+	return 0;
+}
+
+int score_one(omen_score_set *set, const omen_scorer *s, const omen_change *c,
+	const omen_metrics *state, int is_fix, omen_sample_buf *sb, omen_explain *ex,
+	omen_sample *out_sample)
+{
+	omen_sample sm;
+	int e;
+	if ((e = omen_sample_build(&sm, sb, c, state, is_fix, &s->caps)))
+		return omen_error_wrap(e, "cannot build the sample of '%.12s'", c->commit.hex);
+	if ((e = score_sample(set, s, c, &sm, ex)))
+		return e;
 	if (out_sample)
 		*out_sample = sm;
 	return 0;
@@ -552,6 +565,75 @@ void score_load_labels(omen_labels **out, omen_repo *r)
 	omen_buf_free(&b);
 }
 
+/* Merges are never scored: one left over needs no replay. */
+static int is_merge(omen_repo *r, const git_oid *id)
+{
+	git_commit *c = NULL;
+	int m = 0;
+	if (git_commit_lookup(&c, omen_repo_git(r), id) == 0)
+		m = git_commit_parentcount(c) > 1;
+	git_commit_free(c);
+	return m;
+}
+
+/* 2a. commits of the training history: their samples, built when training
+ * read the history, are in the dataset cache, keyed by the history up to
+ * the model's head, the labels and the caps. When that cache is there,
+ * score from it (the same samples training saw) and read only each scored
+ * commit's own diff, instead of replaying the whole history. A missing or
+ * stale cache is not an error: the replay below covers what is left. */
+static int score_cached(walk_ctx *w, const omen_walk_opts *wo)
+{
+	omen_dataset_opts dopt;
+	omen_dataset *ds = NULL;
+	omen_change c;
+	char *lpath = NULL, head[GIT_OID_HEXSZ + 1];
+	const char *revs[2] = {head, NULL};
+	size_t i, nd;
+	int e = 0, k;
+
+	memset(&dopt, 0, sizeof(dopt));
+	git_oid_tostr(head, sizeof(head), &w->s->head);
+	dopt.revs = revs;
+	dopt.caps = w->s->caps;
+	dopt.use_cache = 1;
+	dopt.cache_only = 1;
+	if (omen_config_string(&lpath, w->s->repo, "omen.labels") == 0)
+		dopt.labels_path = lpath && *lpath ? lpath : NULL;
+	/* the history as training read it: up to the model's head, or up to
+	 * HEAD when that is a merge (the head is the newest sample, and merges
+	 * are not samples) */
+	if (omen_dataset_build(&ds, w->s->repo, &dopt)) {
+		dopt.revs = NULL;
+		if (omen_dataset_build(&ds, w->s->repo, &dopt))
+			ds = NULL;
+	}
+	omen_error_clear();
+	free(lpath);
+	if (!ds)
+		return 0;
+	omen_change_init(&c);
+	nd = omen_dataset_size(ds);
+	for (i = 0; i < nd && !e; i++) {
+		const omen_sample *sm = omen_dataset_get(ds, i);
+		git_oid id;
+		if (git_oid_fromstr(&id, sm->id) || (k = find_id(w->ids, w->n, &id)) < 0 || w->done[k])
+			continue;
+		if ((e = past_deadline(w)) || (e = omen_history_change(&c, w->s->repo, &id, wo)))
+			break;
+		w->done[k] = 1;
+		if (!(e = score_sample(w->set, w->s, &c, sm, &w->ex))) {
+			w->set->from_cache++;
+			if (w->visit)
+				e = w->visit(w->payload, &c, sm, &w->ex, &w->set->v[w->set->n - 1]);
+		}
+		omen_change_clear(&c);
+	}
+	omen_change_free(&c);
+	omen_dataset_free(ds);
+	return e;
+}
+
 int score_walk(omen_score_set *set, omen_scorer *s, const git_oid *ids, size_t n,
 	score_visit_fn visit, void *payload)
 {
@@ -597,6 +679,12 @@ int score_walk(omen_score_set *set, omen_scorer *s, const git_oid *ids, size_t n
 	}
 	for (i = 0; i < n; i++)
 		left += !w.done[i];
+	if (left && !s->lazy && s->head_known) {
+		if ((e = score_cached(&w, &wo)))
+			goto out;
+		for (left = 0, i = 0; i < n; i++)
+			left += !w.done[i] && !is_merge(s->repo, &ids[i]);
+	}
 	if (left && s->lazy) {
 		/* 2'. the hook has no time for a replay: score them one by one
 		 * against the saved state (which already counts them: advisory
