@@ -121,6 +121,10 @@ const omen_sample *omen_dataset_get(const omen_dataset *d, size_t i);
 const omen_metrics *omen_dataset_metrics(const omen_dataset *d);
 /* Commits whose sample was capped. */
 size_t omen_dataset_capped(const omen_dataset *d);
+/* The commit the history was read from (HEAD or the one revision given),
+ * NULL for a range, several revisions or an in-memory dataset. Its
+ * non-merge ancestors are the samples and what the metrics state counts. */
+const char *omen_dataset_tip(const omen_dataset *d);
 /* An in-memory dataset copied from n samples (tests, synthetic data); it
  * has no metrics state. */
 int omen_dataset_from_samples(omen_dataset **out, const omen_sample *s, size_t n);

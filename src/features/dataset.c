@@ -42,6 +42,7 @@ struct omen_dataset {
 	const char **paths;
 	omen_metrics *metrics;
 	size_t capped;
+	char tip[OMEN_OID_HEX + 1]; /* the commit the walk started from, "" if not one */
 };
 
 static int col_put(col *c, const void *data, size_t n)
@@ -100,6 +101,22 @@ const omen_sample *omen_dataset_get(const omen_dataset *d, size_t i)
 }
 const omen_metrics *omen_dataset_metrics(const omen_dataset *d) { return d ? d->metrics : NULL; }
 size_t omen_dataset_capped(const omen_dataset *d) { return d ? d->capped : 0; }
+const char *omen_dataset_tip(const omen_dataset *d) { return d && d->tip[0] ? d->tip : NULL; }
+
+/* The one commit a walk of revs starts from: HEAD, or a single revision
+ * that is not a range or an exclusion; "" otherwise (or when it does not
+ * resolve: the walk itself reports that). */
+static void set_tip(omen_dataset *d, omen_repo *r, const char *const *revs)
+{
+	const char *spec = revs ? revs[0] : "HEAD";
+	git_oid id;
+	d->tip[0] = '\0';
+	if (!spec || (revs && revs[1]) || spec[0] == '^' || strstr(spec, ".."))
+		return;
+	if (omen_history_resolve(&id, r, spec) == 0)
+		git_oid_tostr(d->tip, sizeof(d->tip), &id);
+	omen_error_clear();
+}
 
 static int ds_append(omen_dataset *d, const omen_sample *s)
 {
@@ -433,6 +450,8 @@ int omen_dataset_build(omen_dataset **out, omen_repo *r, const omen_dataset_opts
 			if ((e = check_limit(*out, o->max_bytes, "load"))) {
 				omen_dataset_free(*out);
 				*out = NULL;
+			} else {
+				set_tip(*out, r, o->revs);
 			}
 			goto out;
 		}
@@ -459,6 +478,7 @@ int omen_dataset_build(omen_dataset **out, omen_repo *r, const omen_dataset_opts
 		goto out;
 	x.d->metrics = x.m;
 	x.m = NULL;
+	set_tip(x.d, r, o->revs);
 	if ((e = ds_finish(x.d)))
 		goto out;
 	if (o->use_cache && cache_path) {

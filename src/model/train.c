@@ -730,8 +730,13 @@ int omen_model_train(omen_model **out, omen_train_report *rep, const omen_datase
 		m = eval_m;
 		eval_m = NULL;
 	}
-	/* metrics state and head: the whole dataset */
-	if (n) {
+	/* metrics state and head: the whole dataset. The head is the commit
+	 * the history was read from (its state counts every non-merge
+	 * ancestor), which is not the newest sample when it is a merge; a
+	 * range or an in-memory dataset falls back to the newest sample */
+	if (omen_dataset_tip(ds)) {
+		memcpy(m->head, omen_dataset_tip(ds), sizeof(m->head));
+	} else if (n) {
 		const omen_sample *last = omen_dataset_get(ds, n - 1);
 		memcpy(m->head, last->id, sizeof(m->head));
 	}

@@ -600,14 +600,8 @@ static int score_cached(walk_ctx *w, const omen_walk_opts *wo)
 	dopt.cache_only = 1;
 	if (omen_config_string(&lpath, w->s->repo, "omen.labels") == 0)
 		dopt.labels_path = lpath && *lpath ? lpath : NULL;
-	/* the history as training read it: up to the model's head, or up to
-	 * HEAD when that is a merge (the head is the newest sample, and merges
-	 * are not samples) */
-	if (omen_dataset_build(&ds, w->s->repo, &dopt)) {
-		dopt.revs = NULL;
-		if (omen_dataset_build(&ds, w->s->repo, &dopt))
-			ds = NULL;
-	}
+	if (omen_dataset_build(&ds, w->s->repo, &dopt))
+		ds = NULL;
 	omen_error_clear();
 	free(lpath);
 	if (!ds)

@@ -16,6 +16,7 @@
 #include <cmocka.h>
 #include "omen/omen.h"
 #include "omen/features.h"
+#include "omen/history.h"
 #include "omen/label.h"
 #include "omen/model.h"
 #include "omen/score.h"
@@ -114,10 +115,75 @@ static void test_cache_matches_replay(void **st)
 	omen_scorer_free(s);
 }
 
+/* The model's head is the commit training read the history from, also
+ * when that is a merge (the newest sample is then on a merged branch): a
+ * commit made after it is scored with exactly the metrics a later training
+ * would give it. With the newest sample as head, the walk from it to the
+ * new commit fed the state again with the main line's commits since the
+ * branch point (counted twice). Reference: the sample a fresh dataset
+ * build gives the new commit. */
+static void test_merge_tip_head(void **st)
+{
+	omen_label_opts lo;
+	omen_label_summary sum;
+	omen_dataset_opts dopt;
+	omen_dataset *ds = NULL;
+	omen_train_opts to;
+	omen_train_report rep;
+	omen_model *m = NULL;
+	omen_score_opts so = OMEN_SCORE_OPTS_INIT;
+	omen_scorer *s = NULL;
+	omen_score_set a;
+	omen_caps caps = OMEN_CAPS_DEFAULT;
+	const omen_sample *last;
+	git_oid id;
+	char path[512], *out;
+	(void)st;
+
+	sh("cd '%s' && git checkout -q -b side HEAD~6 && printf 'int w1;\n' >src/w.c && git add -A && "
+		"GIT_AUTHOR_DATE='@1644000000 +0000' git commit -q -m 'add w1' && git checkout -q main && "
+		"printf 'int v99 = 99;\n' >>src/m1.c && git add -A && "
+		"GIT_AUTHOR_DATE='@1644100000 +0000' git commit -q -m 'add v99' && "
+		"GIT_AUTHOR_DATE='@1644200000 +0000' git merge -q --no-ff -m 'merge side' side", dir);
+	omen_label_opts_init(&lo);
+	assert_int_equal(omen_label_run(&sum, repo, &lo, NULL), 0);
+	memset(&dopt, 0, sizeof(dopt));
+	dopt.caps = caps;
+	assert_int_equal(omen_dataset_build(&ds, repo, &dopt), 0);
+	omen_train_opts_init(&to);
+	to.epochs = 2;
+	to.dim = 8;
+	to.channels = 8;
+	to.caps = caps;
+	assert_int_equal(omen_model_train(&m, &rep, ds, &to), 0);
+	out = sh_out("git rev-parse HEAD");
+	assert_memory_equal(omen_model_head(m), out, OMEN_OID_HEX);
+	snprintf(path, sizeof(path), "%s/.git/omen/model.omen", dir);
+	assert_int_equal(omen_model_save(m, path), 0);
+	omen_model_free(m);
+	omen_dataset_free(ds);
+
+	sh("cd '%s' && printf 'int v100 = 100;\n' >>src/m2.c && git add -A && "
+		"GIT_AUTHOR_DATE='@1644300000 +0000' git commit -q -m 'add v100'", dir);
+	assert_int_equal(omen_history_resolve(&id, repo, "HEAD"), 0);
+	assert_int_equal(omen_scorer_open(&s, repo, &so), 0);
+	omen_score_set_init(&a);
+	assert_int_equal(omen_scorer_commits(&a, s, &id, 1), 0);
+	assert_int_equal(a.n, 1);
+	assert_int_equal(omen_dataset_build(&ds, repo, &dopt), 0);
+	last = omen_dataset_get(ds, omen_dataset_size(ds) - 1);
+	assert_memory_equal(last->id, a.v[0].id, OMEN_OID_HEX);
+	assert_memory_equal(last->metrics, a.v[0].metrics, sizeof(last->metrics));
+	omen_dataset_free(ds);
+	omen_score_set_free(&a);
+	omen_scorer_free(s);
+}
+
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
 		cmocka_unit_test(test_cache_matches_replay),
+		cmocka_unit_test(test_merge_tip_head),
 	};
 	return cmocka_run_group_tests(tests, setup, test_repo_drop);
 }
