@@ -50,7 +50,10 @@ static size_t rev_list(git_oid *ids, size_t cap, const char *range)
 	return n;
 }
 
-static void test_cache_matches_replay(void **st)
+/* Labels the repository, builds its dataset (writing the cache), trains a
+ * small model and saves it where the scorer looks; head gets the model's
+ * head. */
+static void label_train_save(char head[OMEN_OID_HEX + 1])
 {
 	omen_label_opts lo;
 	omen_label_summary sum;
@@ -59,14 +62,8 @@ static void test_cache_matches_replay(void **st)
 	omen_train_opts to;
 	omen_train_report rep;
 	omen_model *m = NULL;
-	omen_score_opts so = OMEN_SCORE_OPTS_INIT;
-	omen_scorer *s = NULL;
-	omen_score_set a, b;
 	omen_caps caps = OMEN_CAPS_DEFAULT;
-	git_oid ids[32];
 	char path[512];
-	size_t n, i;
-	(void)st;
 
 	omen_label_opts_init(&lo);
 	assert_int_equal(omen_label_run(&sum, repo, &lo, NULL), 0);
@@ -81,11 +78,24 @@ static void test_cache_matches_replay(void **st)
 	to.channels = 8;
 	to.caps = caps;
 	assert_int_equal(omen_model_train(&m, &rep, ds, &to), 0);
+	memcpy(head, omen_model_head(m), OMEN_OID_HEX + 1);
 	snprintf(path, sizeof(path), "%s/.git/omen/model.omen", dir);
 	assert_int_equal(omen_model_save(m, path), 0);
 	omen_model_free(m);
 	omen_dataset_free(ds);
+}
 
+static void test_cache_matches_replay(void **st)
+{
+	omen_score_opts so = OMEN_SCORE_OPTS_INIT;
+	omen_scorer *s = NULL;
+	omen_score_set a, b;
+	git_oid ids[32];
+	char path[512], head[OMEN_OID_HEX + 1];
+	size_t n, i;
+	(void)st;
+
+	label_train_save(head);
 	n = rev_list(ids, 32, "HEAD~20..HEAD");
 	assert_int_equal(n, 20);
 	assert_int_equal(omen_scorer_open(&s, repo, &so), 0);
@@ -124,20 +134,15 @@ static void test_cache_matches_replay(void **st)
  * build gives the new commit. */
 static void test_merge_tip_head(void **st)
 {
-	omen_label_opts lo;
-	omen_label_summary sum;
 	omen_dataset_opts dopt;
 	omen_dataset *ds = NULL;
-	omen_train_opts to;
-	omen_train_report rep;
-	omen_model *m = NULL;
 	omen_score_opts so = OMEN_SCORE_OPTS_INIT;
 	omen_scorer *s = NULL;
 	omen_score_set a;
 	omen_caps caps = OMEN_CAPS_DEFAULT;
 	const omen_sample *last;
 	git_oid id;
-	char path[512], *out;
+	char head[OMEN_OID_HEX + 1];
 	(void)st;
 
 	sh("cd '%s' && git checkout -q -b side HEAD~6 && printf 'int w1;\n' >src/w.c && git add -A && "
@@ -145,23 +150,8 @@ static void test_merge_tip_head(void **st)
 		"printf 'int v99 = 99;\n' >>src/m1.c && git add -A && "
 		"GIT_AUTHOR_DATE='@1644100000 +0000' git commit -q -m 'add v99' && "
 		"GIT_AUTHOR_DATE='@1644200000 +0000' git merge -q --no-ff -m 'merge side' side", dir);
-	omen_label_opts_init(&lo);
-	assert_int_equal(omen_label_run(&sum, repo, &lo, NULL), 0);
-	memset(&dopt, 0, sizeof(dopt));
-	dopt.caps = caps;
-	assert_int_equal(omen_dataset_build(&ds, repo, &dopt), 0);
-	omen_train_opts_init(&to);
-	to.epochs = 2;
-	to.dim = 8;
-	to.channels = 8;
-	to.caps = caps;
-	assert_int_equal(omen_model_train(&m, &rep, ds, &to), 0);
-	out = sh_out("git rev-parse HEAD");
-	assert_memory_equal(omen_model_head(m), out, OMEN_OID_HEX);
-	snprintf(path, sizeof(path), "%s/.git/omen/model.omen", dir);
-	assert_int_equal(omen_model_save(m, path), 0);
-	omen_model_free(m);
-	omen_dataset_free(ds);
+	label_train_save(head);
+	assert_memory_equal(head, sh_out("git rev-parse HEAD"), OMEN_OID_HEX);
 
 	sh("cd '%s' && printf 'int v100 = 100;\n' >>src/m2.c && git add -A && "
 		"GIT_AUTHOR_DATE='@1644300000 +0000' git commit -q -m 'add v100'", dir);
@@ -170,6 +160,8 @@ static void test_merge_tip_head(void **st)
 	omen_score_set_init(&a);
 	assert_int_equal(omen_scorer_commits(&a, s, &id, 1), 0);
 	assert_int_equal(a.n, 1);
+	memset(&dopt, 0, sizeof(dopt));
+	dopt.caps = caps;
 	assert_int_equal(omen_dataset_build(&ds, repo, &dopt), 0);
 	last = omen_dataset_get(ds, omen_dataset_size(ds) - 1);
 	assert_memory_equal(last->id, a.v[0].id, OMEN_OID_HEX);
