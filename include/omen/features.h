@@ -106,7 +106,7 @@ int omen_sample_build(omen_sample *out, omen_sample_buf *b, const omen_change *c
 typedef struct omen_dataset omen_dataset;
 typedef struct {
 	const char *const *revs;  /* NULL = HEAD */
-	const char *labels_path;  /* labels.jsonl to join (NULL = default path) */
+	const char *labels_path;  /* labels.jsonl to join (NULL: omen_labels_path) */
 	omen_caps caps;
 	int use_cache;            /* read/write $GIT_DIR/omen/dataset.cache */
 	int cache_only;           /* with use_cache: OMEN_ENOTFOUND on a miss instead of a build */

@@ -37,6 +37,10 @@ int omen_config_string(char **out, omen_repo *r, const char *key); /* malloc'd o
 int omen_config_int(int64_t *out, omen_repo *r, const char *key);  /* accepts k/m/g suffixes */
 int omen_config_bool(int *out, omen_repo *r, const char *key);
 int omen_config_double(double *out, omen_repo *r, const char *key);
+/* The label file every stage reads unless told otherwise: omen.labels when
+ * set and not empty, else $GIT_DIR/omen/labels.jsonl. *configured (may be
+ * NULL) says which. Caller frees. */
+int omen_labels_path(char **out, omen_repo *r, int *configured);
 /* Parses GIT_CONFIG_PARAMETERS text (exposed for the fuzz target):
  * calls cb for every key=value pair; returns OMEN_EINVAL on bad quoting. */
 int omen_config_parse_params(const char *text,

@@ -72,7 +72,7 @@ int cmd_eval(int argc, char **argv)
 	progress_state ps = {0, 0};
 	const char *format = "text", *html = NULL, *labels = NULL, *rev = NULL, *val;
 	const char *revs[2] = {NULL, NULL};
-	char *cfg_labels = NULL, *default_labels = NULL, *excl_text = NULL;
+	char *default_labels = NULL, *excl_text = NULL;
 	char **excl = NULL;
 	size_t nexcl = 0;
 	int i, r, rc = EXIT_OK, gap_set = 0, threads_set = 0, no_cache = 0;
@@ -204,14 +204,7 @@ int cmd_eval(int argc, char **argv)
 			o.effort_exclude = (const char *const *)&excl_text;
 	}
 	if (!labels) {
-		if (omen_config_string(&cfg_labels, repo, "omen.labels") < 0) {
-			rc = cli_fatal(NULL);
-			goto done;
-		}
-		labels = cfg_labels;
-	}
-	if (!labels) {
-		if (omen_repo_omen_path(&default_labels, repo, "labels.jsonl") < 0) {
+		if (omen_labels_path(&default_labels, repo, NULL) < 0) {
 			rc = cli_fatal(NULL);
 			goto done;
 		}
@@ -277,7 +270,6 @@ done:
 	omen_eval_result_free(&res);
 	omen_dataset_free(ds);
 	omen_repo_free(repo);
-	free(cfg_labels);
 	free(default_labels);
 	free(excl);
 	free(excl_text);

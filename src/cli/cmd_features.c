@@ -152,7 +152,7 @@ int cmd_features(int argc, char **argv)
 	char **revs = calloc((size_t)argc + 1, sizeof(*revs));
 	const char **tips = calloc((size_t)argc * 2 + 2, sizeof(*tips));
 	char **keep = calloc((size_t)argc * 2 + 2, sizeof(*keep));
-	char *cfg_labels = NULL, *cfg_pattern = NULL, *def_labels = NULL;
+	char *cfg_pattern = NULL, *def_labels = NULL;
 	size_t nrev = 0, ntips = 0;
 	int i, r, rc = EXIT_OK, e, has_excl = 0;
 
@@ -206,13 +206,12 @@ int cmd_features(int argc, char **argv)
 	}
 	/* labels: --labels, else omen.labels, else the default file if present */
 	if (!labels_path) {
-		if ((e = omen_config_string(&cfg_labels, repo, "omen.labels"))) {
+		int configured;
+		if ((e = omen_labels_path(&def_labels, repo, &configured))) {
 			rc = cli_fatal(NULL);
 			goto out;
 		}
-		labels_path = cfg_labels;
-		if (!labels_path && !omen_repo_omen_path(&def_labels, repo, "labels.jsonl") &&
-		    access(def_labels, R_OK) == 0)
+		if (configured || access(def_labels, R_OK) == 0)
 			labels_path = def_labels;
 	}
 	if (labels_path && omen_labels_load(&labels, labels_path)) {
@@ -285,7 +284,6 @@ out:
 	omen_metrics_free(s.m);
 	omen_repo_free(repo);
 	free(s.ids);
-	free(cfg_labels);
 	free(cfg_pattern);
 	free(def_labels);
 	if (keep)

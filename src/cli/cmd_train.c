@@ -230,7 +230,7 @@ int cmd_train(int argc, char **argv)
 	progress_state ps;
 	const char *out_path = NULL, *labels = NULL, *format = "text", *rev = NULL, *val;
 	const char *revs[2] = {NULL, NULL};
-	char *model_path = NULL, *lock_path = NULL, *cfg_labels = NULL;
+	char *model_path = NULL, *lock_path = NULL;
 	int i, r, rc = EXIT_OK, info = 0, no_cache = 0, lock_fd = -1, e;
 	long long n;
 	int64_t v64;
@@ -295,13 +295,6 @@ int cmd_train(int argc, char **argv)
 		rc = cli_fatal(NULL);
 		goto out;
 	}
-	if (!labels) {
-		if (omen_config_string(&cfg_labels, repo, "omen.labels")) {
-			rc = cli_fatal(NULL);
-			goto out;
-		}
-		labels = cfg_labels;
-	}
 	if (!o.threads) {
 		v64 = 0;
 		if (omen_config_int(&v64, repo, "omen.threads")) {
@@ -335,7 +328,7 @@ int cmd_train(int argc, char **argv)
 		revs[0] = rev;
 		dopt.revs = revs;
 	}
-	dopt.labels_path = labels;
+	dopt.labels_path = labels;   /* NULL: omen.labels, else the default file */
 	dopt.use_cache = !no_cache;
 	v64 = 0;
 	if (omen_config_int(&v64, repo, "omen.memoryLimit")) {
@@ -375,7 +368,6 @@ out:
 	omen_repo_free(repo);
 	free(model_path);
 	free(lock_path);
-	free(cfg_labels);
 	return rc;
 missing:
 	return cli_usage("train", "option '%s' needs a value", argv[i]);

@@ -433,7 +433,7 @@ int omen_dataset_build(omen_dataset **out, omen_repo *r, const omen_dataset_opts
 			e = omen_error_set(OMEN_ENOMEM, "out of memory");
 			goto out;
 		}
-	} else if ((e = omen_repo_omen_path(&labels_path, r, "labels.jsonl"))) {
+	} else if ((e = omen_labels_path(&labels_path, r, NULL))) {
 		goto out;
 	}
 	if ((e = omen_file_read(&lb, labels_path, 0))) {

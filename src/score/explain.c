@@ -199,7 +199,6 @@ static int neighbours(omen_explanation *x, omen_scorer *s, omen_repo *r, int top
 	omen_dataset *ds = NULL;
 	omen_labels *lab = NULL;
 	omen_caps caps = OMEN_CAPS_DEFAULT;
-	char *lpath = NULL;
 	cand *cs = NULL;
 	size_t n, i, nc = 0, k;
 	double zt[OMEN_NMETRICS];
@@ -208,9 +207,6 @@ static int neighbours(omen_explanation *x, omen_scorer *s, omen_repo *r, int top
 	memset(&dopt, 0, sizeof(dopt));
 	dopt.caps = caps;
 	dopt.use_cache = 1;
-	if ((e = omen_config_string(&lpath, r, "omen.labels")))
-		goto out;
-	dopt.labels_path = lpath;
 	if ((e = omen_dataset_build(&ds, r, &dopt)))
 		goto out;
 	score_standardize(zt, s, x->result.metrics);
@@ -265,7 +261,6 @@ static int neighbours(omen_explanation *x, omen_scorer *s, omen_repo *r, int top
 	x->nneighbours = k;
 out:
 	free(cs);
-	free(lpath);
 	omen_labels_free(lab);
 	omen_dataset_free(ds);
 	return e;

@@ -552,17 +552,11 @@ static int push_hex(char **revs, size_t *nr, const char *prefix, const git_oid *
 void score_load_labels(omen_labels **out, omen_repo *r)
 {
 	char *path = NULL;
-	omen_buf b = OMEN_BUF_INIT;
 	*out = NULL;
-	if (omen_config_string(&path, r, "omen.labels") == 0 && path && *path)
-		omen_buf_puts(&b, path);
-	else
-		omen_buf_printf(&b, "%somen/labels.jsonl", omen_repo_gitdir(r));
-	if (b.ptr && omen_labels_load(out, b.ptr))
+	if (omen_labels_path(&path, r, NULL) || omen_labels_load(out, path))
 		*out = NULL;
 	omen_error_clear();
 	free(path);
-	omen_buf_free(&b);
 }
 
 /* Merges are never scored: one left over needs no replay. */
@@ -587,7 +581,7 @@ static int score_cached(walk_ctx *w, const omen_walk_opts *wo)
 	omen_dataset_opts dopt;
 	omen_dataset *ds = NULL;
 	omen_change c;
-	char *lpath = NULL, head[GIT_OID_HEXSZ + 1];
+	char head[GIT_OID_HEXSZ + 1];
 	const char *revs[2] = {head, NULL};
 	size_t i, nd;
 	int e = 0, k;
@@ -598,12 +592,9 @@ static int score_cached(walk_ctx *w, const omen_walk_opts *wo)
 	dopt.caps = w->s->caps;
 	dopt.use_cache = 1;
 	dopt.cache_only = 1;
-	if (omen_config_string(&lpath, w->s->repo, "omen.labels") == 0)
-		dopt.labels_path = lpath && *lpath ? lpath : NULL;
 	if (omen_dataset_build(&ds, w->s->repo, &dopt))
 		ds = NULL;
 	omen_error_clear();
-	free(lpath);
 	if (!ds)
 		return 0;
 	omen_change_init(&c);

@@ -315,6 +315,29 @@ static void test_repo_config_fallback(void **st)
 	assert_int_equal(omen_config_int(&v, r, "omen.window"), 0);
 	assert_true(v == 7);
 	unsetenv("GIT_CONFIG_PARAMETERS");
+	/* the label file: omen.labels when set and not empty, else the default */
+	{
+		char *p = NULL, want[256];
+		int configured = -1;
+		snprintf(want, sizeof(want), "%s/.git/omen/labels.jsonl", dir);
+		assert_int_equal(omen_labels_path(&p, r, &configured), 0);
+		assert_string_equal(p, want);
+		assert_int_equal(configured, 0);
+		free(p);
+		env("'omen.labels'=''");
+		assert_int_equal(omen_labels_path(&p, r, &configured), 0);
+		assert_string_equal(p, want);
+		assert_int_equal(configured, 0);
+		free(p);
+		env("'omen.labels'='/srv/l.jsonl'");
+		assert_int_equal(omen_labels_path(&p, r, NULL), 0);
+		assert_string_equal(p, "/srv/l.jsonl");
+		free(p);
+		assert_int_equal(omen_labels_path(&p, r, &configured), 0);
+		assert_int_equal(configured, 1);
+		free(p);
+		unsetenv("GIT_CONFIG_PARAMETERS");
+	}
 	omen_repo_free(r);
 	snprintf(cmd, sizeof(cmd), "rm -rf '%s'", dir);
 	assert_int_equal(system(cmd), 0);
