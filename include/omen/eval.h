@@ -126,6 +126,7 @@ enum {
 	OMEN_EV_MODEL,         /* the hierarchical model */
 	OMEN_EV_LR,            /* baseline: logistic regression on metrics */
 	OMEN_EV_LA,            /* baseline: rank by lines added */
+	OMEN_EV_DENSITY,       /* the model's probability per changed line (effort-aware) */
 	OMEN_EV_SMALL,         /* reference: smallest change first */
 	OMEN_EV_BASE,          /* reference: base rate (training positive rate) */
 	OMEN_EV_NMETHODS

@@ -11,10 +11,10 @@
 
 static const char *const method_titles[OMEN_EV_NMETHODS] = {
 	"model", "logistic regression on metrics", "rank by lines added",
-	"smallest change first", "base rate"
+	"model per changed line", "smallest change first", "base rate"
 };
 static const char *const method_colors[OMEN_EV_NMETHODS] = {
-	"#d62728", "#1f77b4", "#2ca02c", "#9467bd", "#7f7f7f"
+	"#d62728", "#1f77b4", "#2ca02c", "#ff7f0e", "#9467bd", "#7f7f7f"
 };
 
 static const char advisory[] = "scores are advisory: a probability learned from this "
@@ -354,8 +354,8 @@ static int plot_roc(omen_buf *b, const pooled_arrays *p)
 	}
 	for (m = 0; m < OMEN_EV_NMETHODS; m++) {
 		size_t k;
-		if (m == OMEN_EV_BASE)
-			continue;   /* a single point on the diagonal */
+		if (m == OMEN_EV_BASE || m == OMEN_EV_DENSITY)
+			continue;   /* a single point on the diagonal; an effort ordering, not a classifier */
 		k = omen_roc_curve(x, y, p->score[m], p->y, p->n);
 		svg_line(&sp, x, y, k, method_colors[m], NULL, m == OMEN_EV_MODEL ? 2.5 : 1.5,
 			method_titles[m]);

@@ -8,7 +8,7 @@
 #include "omen/error.h"
 
 const char *const omen_eval_method_names[OMEN_EV_NMETHODS] = {
-	"model", "lr_metrics", "lines_added", "smallest_first", "base_rate"
+	"model", "lr_metrics", "lines_added", "model_per_line", "smallest_first", "base_rate"
 };
 
 /* Which methods output probabilities (Brier and ECE make sense). */

@@ -133,6 +133,7 @@ static int run_fold(omen_eval_result *r, size_t k, const omen_dataset *ds,
 	f->m[OMEN_EV_LA].has_cls = 1;
 	f->m[OMEN_EV_BASE].threshold = base;   /* flags every commit: the "inspect all" reference */
 	f->m[OMEN_EV_BASE].has_cls = 1;
+	f->m[OMEN_EV_DENSITY].has_cls = 0;
 	f->m[OMEN_EV_SMALL].has_cls = 0;
 
 	if ((rc = omen_eval_fold_alloc(f, nt)) < 0)
@@ -159,6 +160,9 @@ static int run_fold(omen_eval_result *r, size_t k, const omen_dataset *ds,
 		f->score[OMEN_EV_MODEL][i] = prob;
 		f->score[OMEN_EV_LR][i] = isnan(lr) ? base : lr;
 		f->score[OMEN_EV_LA][i] = (double)s->la;
+		/* risk per line to review: the effort-aware ranking of a classifier
+		 * (Mende & Koschke, CSMR 2010; Kamei et al., TSE 2013, section 5) */
+		f->score[OMEN_EV_DENSITY][i] = prob / (f->effort[i] > 1 ? f->effort[i] : 1);
 		f->score[OMEN_EV_SMALL][i] = -f->effort[i];
 		f->score[OMEN_EV_BASE][i] = base;
 		f->n_excluded_effort += excl != 0;

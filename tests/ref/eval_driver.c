@@ -57,6 +57,7 @@ static int synth_html(const char *path)
 			f->score[OMEN_EV_MODEL][i] = 1 / (1 + exp(-z));
 			f->score[OMEN_EV_LR][i] = 1 / (1 + exp(-(0.5 * z + 0.7 * omen_rng_normal(&g) - 0.6)));
 			f->score[OMEN_EV_LA][i] = la;
+			f->score[OMEN_EV_DENSITY][i] = f->score[OMEN_EV_MODEL][i] / f->effort[i];
 			f->score[OMEN_EV_SMALL][i] = -f->effort[i];
 			f->score[OMEN_EV_BASE][i] = f->base_rate;
 		}

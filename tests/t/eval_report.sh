@@ -38,7 +38,7 @@ $py - eval.json <<'PY'
 import json, math, sys
 r = json.load(open(sys.argv[1]))
 assert len(r["folds"]) == 3, len(r["folds"])
-names = ["model", "lr_metrics", "lines_added", "smallest_first", "base_rate"]
+names = ["model", "lr_metrics", "lines_added", "model_per_line", "smallest_first", "base_rate"]
 for f in r["folds"] + [r["pooled"]]:
     for n in names:
         m = f["methods"][n]

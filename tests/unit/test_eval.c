@@ -510,6 +510,7 @@ static void synth_result(omen_eval_result *r, size_t nfolds, int last_no_pos)
 			f->score[OMEN_EV_MODEL][i] = 1 / (1 + exp(-(yy ? 1.0 : -1.0) - omen_rng_normal(&g)));
 			f->score[OMEN_EV_LR][i] = 1 / (1 + exp(-(yy ? 0.5 : -0.5) - omen_rng_normal(&g)));
 			f->score[OMEN_EV_LA][i] = la;
+			f->score[OMEN_EV_DENSITY][i] = f->score[OMEN_EV_MODEL][i] / (f->effort[i] > 1 ? f->effort[i] : 1);
 			f->score[OMEN_EV_SMALL][i] = -f->effort[i];
 			f->score[OMEN_EV_BASE][i] = f->base_rate;
 		}
