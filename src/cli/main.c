@@ -4,6 +4,9 @@
 #include <string.h>
 #include <unistd.h>
 #include <git2.h>
+#ifdef __GLIBC__
+#include <malloc.h>
+#endif
 #include "cli/cli.h"
 
 static const struct {
@@ -97,10 +100,23 @@ int cmd_version(int argc, char **argv)
 	return EXIT_OK;
 }
 
+/* glibc raises its mmap threshold to the size of every large block freed,
+ * up to 32 MiB, so the big training and diff buffers freed and allocated
+ * again end up in per-thread arenas that keep their pages. A fixed 1 MiB
+ * threshold maps every large block and gives it back when freed: `git omen
+ * train` on jq peaks at 91 MB instead of 223 MB, in the same time. */
+static void malloc_setup(void)
+{
+#ifdef __GLIBC__
+	mallopt(M_MMAP_THRESHOLD, 1 << 20);
+#endif
+}
+
 int main(int argc, char **argv)
 {
 	size_t i;
 	int rc;
+	malloc_setup();
 	if (argc < 2) {
 		usage(stderr);
 		return EXIT_USAGE;

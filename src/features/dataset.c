@@ -3,10 +3,14 @@
  * history it covers (the walked commit ids, the label file's bytes, the
  * caps and the format version), so a second `train` need not re-read
  * history. The cache is a local file of this machine: records are written
- * raw and the key holds their sizes; loading still checks every count and
- * offset through a bounded cursor and a CRC-32. */
+ * raw and the key holds their sizes; loading still checks every length
+ * against the file's size, every count and offset against the columns, and
+ * a CRC-32. */
+#include <errno.h>
+#include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/stat.h>
 #include "omen/error.h"
 #include "omen/features.h"
 #include "omen/label.h"
@@ -154,6 +158,21 @@ static int ds_append(omen_dataset *d, const omen_sample *s)
 	return 0;
 }
 
+/* Gives back what doubling left unused (up to half of every column); the
+ * sample views are pointed in after this. */
+static void ds_shrink(omen_dataset *d)
+{
+	int i;
+	for (i = 0; i < C_NCOLS; i++) {
+		col *c = &d->c[i];
+		unsigned char *np;
+		if (c->len && c->len < c->cap && (np = realloc(c->p, c->len * c->elem))) {
+			c->p = np;
+			c->cap = c->len;
+		}
+	}
+}
+
 /* Points every sample view into the columns. */
 static int ds_finish(omen_dataset *d)
 {
@@ -237,97 +256,123 @@ static int cache_key(omen_buf *key, omen_repo *r, const omen_dataset_opts *o,
 	return e;
 }
 
+/* ---- the cache file, streamed --------------------------------------------
+ * Sections go straight between the file and the dataset's own arrays, with
+ * the CRC-32 kept as they pass, so there is never a second copy of the
+ * dataset in memory (curl's cache is 123 MB). Reading, `left` is what the
+ * file holds before its CRC trailer: no length read from the file is
+ * allocated or read before it is checked against that. */
+typedef struct {
+	FILE *fp;
+	uint32_t crc;
+	uint64_t left;   /* reading: bytes before the trailer not read yet */
+	int err;
+} cstream;
+
+static void cs_put(cstream *s, const void *p, size_t n)
+{
+	if (s->err || !n)
+		return;
+	if (fwrite(p, 1, n, s->fp) != n)
+		s->err = errno ? errno : EIO;
+	else
+		s->crc = omen_crc32(s->crc, p, n);
+}
+
+static void cs_put_u64(cstream *s, uint64_t v)
+{
+	unsigned char b[8];
+	for (int i = 0; i < 8; i++)
+		b[i] = (unsigned char)(v >> (8 * i));
+	cs_put(s, b, 8);
+}
+
+static int cs_get(cstream *s, void *p, size_t n)
+{
+	if (s->err || n > s->left || (n && fread(p, 1, n, s->fp) != n)) {
+		s->err = 1;
+		return -1;
+	}
+	s->crc = omen_crc32(s->crc, p, n);
+	s->left -= n;
+	return 0;
+}
+
+static int cs_get_u64(cstream *s, uint64_t *v)
+{
+	unsigned char b[8];
+	if (cs_get(s, b, 8))
+		return -1;
+	*v = 0;
+	for (int i = 7; i >= 0; i--)
+		*v = *v << 8 | b[i];
+	return 0;
+}
+
 static int cache_write(const omen_dataset *d, const char *path, const omen_buf *key)
 {
-	omen_buf b = OMEN_BUF_INIT, ms = OMEN_BUF_INIT;
-	int e = 0, i;
+	omen_buf ms = OMEN_BUF_INIT;
+	omen_atomic_file f;
+	cstream s;
+	unsigned char tail[4];
+	int e, i;
 	if (d->metrics && (e = omen_metrics_save(d->metrics, &ms)))
 		goto out;
-	e = omen_buf_put(&b, DS_MAGIC, 8);
-	if (!e) e = omen_buf_put_u64le(&b, DS_VERSION);
-	if (!e) e = omen_buf_put_u64le(&b, key->len);
-	if (!e) e = omen_buf_put(&b, key->ptr, key->len);
-	if (!e) e = omen_buf_put_u64le(&b, d->n);
-	if (!e && d->n) e = omen_buf_put(&b, d->rec, d->n * sizeof(ds_rec));
+	if ((e = omen_atomic_open(&f, path)))
+		goto out;
+	memset(&s, 0, sizeof(s));
+	s.fp = f.fp;
+	cs_put(&s, DS_MAGIC, 8);
+	cs_put_u64(&s, DS_VERSION);
+	cs_put_u64(&s, key->len);
+	cs_put(&s, key->ptr, key->len);
+	cs_put_u64(&s, d->n);
+	cs_put(&s, d->rec, d->n * sizeof(ds_rec));
 	for (i = 0; i < C_NCOLS; i++) {
-		if (!e) e = omen_buf_put_u64le(&b, d->c[i].len);
-		if (!e && d->c[i].len) e = omen_buf_put(&b, d->c[i].p, d->c[i].len * d->c[i].elem);
+		cs_put_u64(&s, d->c[i].len);
+		cs_put(&s, d->c[i].p, d->c[i].len * d->c[i].elem);
 	}
-	if (!e) e = omen_buf_put_u64le(&b, ms.len);
-	if (!e && ms.len) e = omen_buf_put(&b, ms.ptr, ms.len);
-	if (e)
+	cs_put_u64(&s, ms.len);
+	cs_put(&s, ms.ptr, ms.len);
+	for (i = 0; i < 4; i++)
+		tail[i] = (unsigned char)(s.crc >> (8 * i));
+	if (!s.err && fwrite(tail, 1, 4, f.fp) != 4)
+		s.err = errno ? errno : EIO;
+	if (s.err) {
+		omen_atomic_abort(&f);
+		e = omen_error_set(OMEN_EIO, "cannot write '%s': %s", path, strerror(s.err));
 		goto out;
-	if ((e = omen_buf_put_u32le(&b, omen_crc32(0, b.ptr, b.len))))
-		goto out;
-	e = omen_file_write_atomic(path, b.ptr, b.len);
+	}
+	e = omen_atomic_commit(&f);
 out:
-	omen_buf_free(&b);
 	omen_buf_free(&ms);
 	return e;
 }
 
-/* Returns 1 when the cache matched and *out was loaded, 0 when it did not
- * match or is unreadable (then it is simply rebuilt), negative on OOM. */
-static int cache_read(omen_dataset **out, const char *path, const omen_buf *key)
+/* Every count and offset of the records must agree with the columns. */
+static int cache_consistent(omen_dataset *d)
 {
-	omen_buf b = OMEN_BUF_INIT;
-	omen_cursor c;
-	omen_dataset *d = NULL;
-	const void *p;
-	uint64_t v, n, k;
-	uint32_t crc;
-	int ok = 0, i;
 	size_t j, fo = 0, ho = 0, tk = 0, ms = 0, fi = 0, hu = 0;
-	*out = NULL;
-	if (omen_file_read(&b, path, 0) || b.len < 12)
-		goto out;
-	omen_cursor_init(&c, b.ptr, b.len);
-	if (omen_cursor_tail_u32le(&c, &crc) || omen_crc32(0, b.ptr, c.n) != crc)
-		goto out;
-	if (omen_cursor_bytes(&c, &p, 8) || memcmp(p, DS_MAGIC, 8) || omen_cursor_u64le(&c, &v) ||
-		v != DS_VERSION || omen_cursor_u64le(&c, &k) || k != key->len ||
-		omen_cursor_bytes(&c, &p, key->len) || memcmp(p, key->ptr, key->len))
-		goto out;
-	if (ds_new(&d))
-		goto out;
-	if (omen_cursor_u64le(&c, &n) || n > c.n / sizeof(ds_rec) ||
-		omen_cursor_bytes(&c, &p, (size_t)n * sizeof(ds_rec)))
-		goto out;
-	if (n) {
-		d->rec = malloc((size_t)n * sizeof(ds_rec));
-		if (!d->rec)
-			goto out;
-		memcpy(d->rec, p, (size_t)n * sizeof(ds_rec));
-	}
-	d->n = d->cap = (size_t)n;
-	for (i = 0; i < C_NCOLS; i++) {
-		if (omen_cursor_u64le(&c, &v) || v > c.n / d->c[i].elem ||
-			omen_cursor_bytes(&c, &p, (size_t)v * d->c[i].elem))
-			goto out;
-		if (col_put(&d->c[i], p, (size_t)v))
-			goto out;
-	}
-	/* every count and offset must agree with the columns */
 	for (j = 0; j < d->n; j++) {
 		const ds_rec *r = &d->rec[j];
 		const int32_t *fof, *hof;
 		int32_t q;
 		if (r->nfiles < 0 || r->nhunks < 0 || r->ntok < 0 || r->nmsg < 0)
-			goto out;
+			return 0;
 		if (fo + r->nfiles + 1 > d->c[C_FILE_OFF].len || ho + r->nhunks + 1 > d->c[C_HUNK_OFF].len ||
 			tk + r->ntok > d->c[C_TOK].len || ms + r->nmsg > d->c[C_MSG].len ||
 			fi + r->nfiles > d->c[C_PATHOFF].len || hu + r->nhunks > d->c[C_HNS].len)
-			goto out;
+			return 0;
 		fof = (const int32_t *)d->c[C_FILE_OFF].p + fo;
 		hof = (const int32_t *)d->c[C_HUNK_OFF].p + ho;
 		if (fof[0] != 0 || fof[r->nfiles] != r->nhunks || hof[0] != 0 || hof[r->nhunks] != r->ntok)
-			goto out;
+			return 0;
 		for (q = 0; q < r->nfiles; q++)
 			if (fof[q + 1] < fof[q])
-				goto out;
+				return 0;
 		for (q = 0; q < r->nhunks; q++)
 			if (hof[q + 1] < hof[q])
-				goto out;
+				return 0;
 		fo += (size_t)r->nfiles + 1; ho += (size_t)r->nhunks + 1; tk += (size_t)r->ntok;
 		ms += (size_t)r->nmsg; fi += (size_t)r->nfiles; hu += (size_t)r->nhunks;
 		d->capped += r->capped != 0;
@@ -336,24 +381,74 @@ static int cache_read(omen_dataset **out, const char *path, const omen_buf *key)
 		tk != d->c[C_TOK_LINE].len || ms != d->c[C_MSG].len || fi * OMEN_NFACTS != d->c[C_FACTS].len ||
 		fi != d->c[C_PATHOFF].len || hu != d->c[C_HNS].len || hu != d->c[C_HNL].len ||
 		hu != d->c[C_HOS].len || hu != d->c[C_HOL].len)
-		goto out;
+		return 0;
 	for (j = 0; j < fi; j++)
 		if (((const uint64_t *)d->c[C_PATHOFF].p)[j] >= d->c[C_NAMES].len)
+			return 0;
+	return !d->c[C_NAMES].len || d->c[C_NAMES].p[d->c[C_NAMES].len - 1] == '\0';
+}
+
+/* Returns 1 when the cache matched and *out was loaded, 0 when it did not
+ * match, is unreadable or cannot be held in memory (then it is simply
+ * rebuilt). */
+static int cache_read(omen_dataset **out, const char *path, const omen_buf *key)
+{
+	omen_dataset *d = NULL;
+	cstream s;
+	struct stat st;
+	unsigned char *buf = NULL, tail[4];
+	uint64_t v, n;
+	uint32_t crc;
+	int ok = 0, i;
+	*out = NULL;
+	memset(&s, 0, sizeof(s));
+	if (!(s.fp = fopen(path, "rb")) || fstat(fileno(s.fp), &st) || st.st_size < 12)
+		goto out;
+	s.left = (uint64_t)st.st_size - 4;
+	if (!(buf = malloc(key->len > 8 ? key->len : 8)) || cs_get(&s, buf, 8) ||
+		memcmp(buf, DS_MAGIC, 8) || cs_get_u64(&s, &v) || v != DS_VERSION ||
+		cs_get_u64(&s, &v) || v != key->len || cs_get(&s, buf, key->len) ||
+		memcmp(buf, key->ptr, key->len))
+		goto out;
+	if (ds_new(&d) || cs_get_u64(&s, &n) || n > s.left / sizeof(ds_rec))
+		goto out;
+	if (n && !(d->rec = malloc((size_t)n * sizeof(ds_rec))))
+		goto out;
+	d->n = d->cap = (size_t)n;
+	if (cs_get(&s, d->rec, (size_t)n * sizeof(ds_rec)))
+		goto out;
+	for (i = 0; i < C_NCOLS; i++) {
+		col *c = &d->c[i];
+		if (cs_get_u64(&s, &v) || v > s.left / c->elem)
 			goto out;
-	if (d->c[C_NAMES].len && d->c[C_NAMES].p[d->c[C_NAMES].len - 1] != '\0')
+		if (v && !(c->p = malloc((size_t)v * c->elem)))
+			goto out;
+		c->len = c->cap = (size_t)v;
+		if (cs_get(&s, c->p, c->len * c->elem))
+			goto out;
+	}
+	/* the metrics state fills what is left before the trailer */
+	free(buf);
+	buf = NULL;
+	if (cs_get_u64(&s, &v) || v != s.left || !(buf = malloc(v ? (size_t)v : 1)) ||
+		cs_get(&s, buf, (size_t)v))
 		goto out;
-	if (omen_cursor_u64le(&c, &v) || v != c.n || omen_cursor_bytes(&c, &p, (size_t)v))
+	crc = s.crc;
+	if (fread(tail, 1, 4, s.fp) != 4 ||
+		crc != ((uint32_t)tail[0] | (uint32_t)tail[1] << 8 | (uint32_t)tail[2] << 16 |
+			(uint32_t)tail[3] << 24))
 		goto out;
-	if (v && omen_metrics_load(&d->metrics, p, (size_t)v))
-		goto out;
-	if (ds_finish(d))
+	if (!cache_consistent(d) || (v && omen_metrics_load(&d->metrics, buf, (size_t)v)) ||
+		ds_finish(d))
 		goto out;
 	*out = d;
 	d = NULL;
 	ok = 1;
 out:
+	if (s.fp)
+		fclose(s.fp);
+	free(buf);
 	omen_dataset_free(d);
-	omen_buf_free(&b);
 	omen_error_clear();
 	return ok;
 }
@@ -479,6 +574,7 @@ int omen_dataset_build(omen_dataset **out, omen_repo *r, const omen_dataset_opts
 	x.d->metrics = x.m;
 	x.m = NULL;
 	set_tip(x.d, r, o->revs);
+	ds_shrink(x.d);
 	if ((e = ds_finish(x.d)))
 		goto out;
 	if (o->use_cache && cache_path) {

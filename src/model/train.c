@@ -110,11 +110,17 @@ static void step_worker(int tid, void *payload)
 		chunk_run(x, c);
 }
 
+#define EVAL_BATCH 64   /* samples per forward-only step */
+
+/* Workspaces, gradients and sample lists for batches of up to `batch`
+ * samples (and of EVAL_BATCH, for ctx_logits). */
 static int ctx_init(step_ctx *x, const omen_model *m, const omen_dataset *ds, int batch,
 	int threads, int need_grad)
 {
 	int c;
 	memset(x, 0, sizeof(*x));
+	if (batch < EVAL_BATCH)
+		batch = EVAL_BATCH;
 	x->m = m;
 	x->ds = ds;
 	x->nthreads = threads < 1 ? 1 : threads > OMEN_TRAIN_CHUNKS ? OMEN_TRAIN_CHUNKS : threads;
@@ -156,23 +162,31 @@ static int run_chunks(step_ctx *x)
 	return 0;
 }
 
-/* Raw logits of samples idx[0..n). */
+/* Raw logits of samples idx[0..n) through x's workspaces, which training
+ * keeps between its validation passes (freeing and growing them again every
+ * epoch left the allocator holding far more than they need). */
+static int ctx_logits(step_ctx *x, float *out, const size_t *idx, size_t n)
+{
+	size_t i;
+	int e = 0, train = x->train;
+	x->train = 0;
+	for (i = 0; i < n && !e; i += EVAL_BATCH) {
+		x->idx = idx + i;
+		x->nb = (int)(n - i < EVAL_BATCH ? n - i : EVAL_BATCH);
+		x->logits = out + i;
+		e = run_chunks(x);
+	}
+	x->train = train;
+	return e;
+}
+
 static int eval_logits(float *out, const omen_model *m, const omen_dataset *ds, const size_t *idx,
 	size_t n, int threads)
 {
 	step_ctx x;
-	size_t i;
-	int e, bs = 64;
-	if ((e = ctx_init(&x, m, ds, bs, threads, 0)))
-		goto out;
-	for (i = 0; i < n; i += (size_t)bs) {
-		x.idx = idx + i;
-		x.nb = (int)(n - i < (size_t)bs ? n - i : (size_t)bs);
-		x.logits = out + i;
-		if ((e = run_chunks(&x)))
-			goto out;
-	}
-out:
+	int e;
+	if (!(e = ctx_init(&x, m, ds, EVAL_BATCH, threads, 0)))
+		e = ctx_logits(&x, out, idx, n);
 	ctx_free(&x);
 	return e;
 }
@@ -417,7 +431,7 @@ static int fit(omen_model *m, fit_info *fi, const omen_dataset *ds, const size_t
 	memcpy(best, m->params, m->nparams * sizeof(float));
 	if (use_valid && o->warm_start) {
 		/* epoch 0 (the warm start) is a candidate too */
-		if ((e = eval_logits(vz, m, ds, valid_idx, n_valid, threads)))
+		if ((e = ctx_logits(&x, vz, valid_idx, n_valid)))
 			goto out;
 		fi->best_auc = auc_of(vz, ds, valid_idx, n_valid);
 		fi->best_epoch = 0;
@@ -461,7 +475,7 @@ static int fit(omen_model *m, fit_info *fi, const omen_dataset *ds, const size_t
 		fi->epochs_run = ep;
 		if (use_valid) {
 			double auc;
-			if ((e = eval_logits(vz, m, ds, valid_idx, n_valid, threads)))
+			if ((e = ctx_logits(&x, vz, valid_idx, n_valid)))
 				goto out;
 			auc = auc_of(vz, ds, valid_idx, n_valid);
 			if (auc > fi->best_auc + 1e-4) {
