@@ -63,10 +63,16 @@ _git_omen ()
 	--format)
 		__gitcomp "$(__git_omen_formats "$subcommand")"
 		return ;;
+	--sort)
+		__gitcomp "history risk per-line"
+		return ;;
 	esac
 	case "$cur" in
 	--format=*)
 		__gitcomp "$(__git_omen_formats "$subcommand")" "" "${cur#--format=}"
+		return ;;
+	--sort=*)
+		__gitcomp "history risk per-line" "" "${cur#--sort=}"
 		return ;;
 	--labels=*|--model=*|--fix-list=*|--html=*)
 		local pfx="${cur%%=*}="

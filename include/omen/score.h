@@ -212,6 +212,17 @@ int omen_score_explain(omen_explanation *out, omen_scorer *s, omen_repo *r,
 	const git_oid *id, int top_n);
 void omen_explanation_free(omen_explanation *e);
 
+/* ---- order ------------------------------------------------------------------ */
+typedef enum {
+	OMEN_SORT_HISTORY,   /* as scored: the range oldest first */
+	OMEN_SORT_RISK,      /* probability, highest first */
+	OMEN_SORT_PER_LINE   /* probability per changed line (la + ld, at least 1),
+	                      * highest first: the order to review on a budget of
+	                      * lines (Mende & Koschke, CSMR 2010) */
+} omen_sort_key;
+/* Reorders s->v; ties keep the history order. OMEN_ENOMEM only. */
+int omen_score_set_sort(omen_score_set *s, omen_sort_key key);
+
 /* ---- writers (append to out) ---------------------------------------------- */
 /* One JSON object per commit, one per line (see git-omen-score(1)). */
 int omen_score_write_json(omen_buf *out, const omen_score_set *s, const char *model_path);

@@ -16,6 +16,9 @@ static const char score_usage[] =
 	"  --model <file>      model file (default: omen.model, else $GIT_DIR/omen/model.omen)\n"
 	"  --format <fmt>      text (default), json (JSON Lines) or sarif (SARIF 2.1.0)\n"
 	"  --fail-above <p>    exit 1 when a scored commit's probability is above p\n"
+	"  --sort <key>        history (default, oldest first), risk (highest first) or\n"
+	"                      per-line (risk per changed line: the order to review on a\n"
+	"                      budget of lines)\n"
 	"  -o <file>           write to <file> instead of standard output\n"
 	"  -h, --help          show this help\n";
 
@@ -47,6 +50,8 @@ static int parse_prob(double *out, const char *s)
 int cmd_score(int argc, char **argv)
 {
 	const char *model = NULL, *format = "text", *outpath = NULL, *fail_s = NULL, *msg = NULL;
+	const char *sort_s = "history";
+	omen_sort_key sort = OMEN_SORT_HISTORY;
 	const char **revs = NULL;
 	size_t nrevs = 0, i, nids = 0;
 	int staged = 0, rc = EXIT_OK, e, k, color;
@@ -74,6 +79,7 @@ int cmd_score(int argc, char **argv)
 		    (m = cli_opt_value(argc, argv, &k, "--format", &format)) ||
 		    (m = cli_opt_value(argc, argv, &k, "--fail-above", &fail_s)) ||
 		    (m = cli_opt_value(argc, argv, &k, "--message", &msg)) ||
+		    (m = cli_opt_value(argc, argv, &k, "--sort", &sort_s)) ||
 		    (m = cli_opt_value(argc, argv, &k, "-o", &outpath))) {
 			if (m < 0) {
 				rc = cli_usage("score", "option '%s' needs a value", a);
@@ -94,6 +100,14 @@ int cmd_score(int argc, char **argv)
 	}
 	if (strcmp(format, "text") && strcmp(format, "json") && strcmp(format, "sarif")) {
 		rc = cli_usage("score", "bad --format '%s': use text, json or sarif", format);
+		goto done;
+	}
+	if (!strcmp(sort_s, "risk")) {
+		sort = OMEN_SORT_RISK;
+	} else if (!strcmp(sort_s, "per-line")) {
+		sort = OMEN_SORT_PER_LINE;
+	} else if (strcmp(sort_s, "history")) {
+		rc = cli_usage("score", "bad --sort '%s': use history, risk or per-line", sort_s);
 		goto done;
 	}
 	if (fail_s && parse_prob(&fail_above, fail_s)) {
@@ -138,6 +152,10 @@ int cmd_score(int argc, char **argv)
 				nids - set.n, nids - set.n == 1 ? "" : "s");
 	}
 	set.threshold = omen_scorer_threshold(sc);
+	if ((e = omen_score_set_sort(&set, sort))) {
+		rc = cli_fatal(NULL);
+		goto done;
+	}
 	for (i = 0; i < set.n; i++) {
 		const omen_score_result *r = &set.v[i];
 		int st = strspn(r->id, "0") == strlen(r->id);

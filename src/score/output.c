@@ -8,6 +8,48 @@
 #include "omen/score.h"
 
 const char *const omen_band_names[3] = {"low", "medium", "high"};
+
+typedef struct {
+	double key;
+	size_t i;
+} sort_item;
+
+static int by_key_desc(const void *a, const void *b)
+{
+	const sort_item *x = a, *y = b;
+	if (x->key != y->key)
+		return x->key > y->key ? -1 : 1;
+	return x->i < y->i ? -1 : x->i > y->i;
+}
+
+int omen_score_set_sort(omen_score_set *s, omen_sort_key key)
+{
+	sort_item *it;
+	omen_score_result *v;
+	size_t i;
+	if (key == OMEN_SORT_HISTORY || s->n < 2)
+		return 0;
+	it = malloc(s->n * sizeof(*it));
+	v = malloc(s->n * sizeof(*v));
+	if (!it || !v) {
+		free(it);
+		free(v);
+		return omen_error_set(OMEN_ENOMEM, "out of memory");
+	}
+	for (i = 0; i < s->n; i++) {
+		const omen_score_result *r = &s->v[i];
+		double lines = (double)r->la + (double)r->ld;
+		it[i].key = key == OMEN_SORT_RISK ? (double)r->prob : (double)r->prob / (lines > 1 ? lines : 1);
+		it[i].i = i;
+	}
+	qsort(it, s->n, sizeof(*it), by_key_desc);
+	for (i = 0; i < s->n; i++)
+		v[i] = s->v[it[i].i];
+	memcpy(s->v, v, s->n * sizeof(*v));
+	free(it);
+	free(v);
+	return 0;
+}
 const char *const omen_reason_names[5] = {"hunk", "large", "diffuse", "fix-history", "metric"};
 
 void omen_score_set_init(omen_score_set *s)

@@ -87,6 +87,24 @@ one_line err "bad --fail-above"
 [ "$rc" -eq 129 ] || fail "--format xml exit $rc"
 "$OMEN" score HEAD --bogus 2>err; rc=$?
 [ "$rc" -eq 129 ] || fail "unknown option exit $rc"
+"$OMEN" score HEAD --sort size 2>err; rc=$?
+[ "$rc" -eq 129 ] || fail "--sort size exit $rc"
+one_line err "bad --sort"
+set -e
+# --sort: the same commits, reordered; ties keep the history order
+"$OMEN" score HEAD~8..HEAD --format json >h.jsonl
+"$OMEN" score HEAD~8..HEAD --format json --sort risk >r.jsonl
+"$OMEN" score HEAD~8..HEAD --format json --sort per-line >l.jsonl
+$PY - h.jsonl r.jsonl l.jsonl <<'PY' || fail "--sort order"
+import json, sys
+h, r, l = ([json.loads(x) for x in open(p)] for p in sys.argv[1:])
+pos = {c["id"]: i for i, c in enumerate(h)}
+assert len(h) >= 5 and sorted(pos) == sorted(c["id"] for c in r) == sorted(c["id"] for c in l)
+line = lambda c: c["probability"] / max(1, c["lines_added"] + c["lines_deleted"])
+assert [c["id"] for c in r] == [c["id"] for c in sorted(h, key=lambda c: (-c["probability"], pos[c["id"]]))]
+assert [c["id"] for c in l] == [c["id"] for c in sorted(h, key=lambda c: (-line(c), pos[c["id"]]))]
+PY
+set +e
 # the threshold of a JSON line agrees with --fail-above at that probability
 p=$($PY -c 'import json; print(json.loads(open("d.jsonl").readline())["probability"])')
 "$OMEN" score HEAD --fail-above "$p" >/dev/null; rc=$?

@@ -161,6 +161,49 @@ static char *get(const char *name)
 	return buf;
 }
 
+/* --sort: risk and per-line orders, ties in history order, each result
+ * still pointing at its own hunks. */
+static void test_sort(void **st)
+{
+	omen_score_set s;
+	static const float p[5] = {0.2f, 0.8f, 0.2f, 0.5f, 0.8f};
+	static const int32_t la[5] = {10, 100, 0, 4, 400};
+	static const char *const rank_risk = "14302", *const rank_line = "23014";
+	char id[41];
+	size_t i;
+	int k;
+	(void)st;
+	for (k = 0; k < 3; k++) {
+		omen_score_set_init(&s);
+		s.threshold = 0.5f;
+		for (i = 0; i < 5; i++) {
+			char path[8];
+			snprintf(id, sizeof(id), "%040zu", i);
+			snprintf(path, sizeof(path), "f%zu.c", i);
+			add(&s, id, p[i], (int)i + 1, strdup(path));
+			s.v[i].la = la[i];
+			s.v[i].ld = i == 2 ? 1 : 0;
+		}
+		/* per line: 0.02, 0.008, 0.2, 0.125, 0.002 */
+		assert_int_equal(omen_score_set_sort(&s, k == 0 ? OMEN_SORT_HISTORY :
+			k == 1 ? OMEN_SORT_RISK : OMEN_SORT_PER_LINE), 0);
+		for (i = 0; i < 5; i++) {
+			size_t was = k == 0 ? i : (size_t)((k == 1 ? rank_risk : rank_line)[i] - '0');
+			const omen_hunk_score *h = &s.hunks[s.v[i].hunk_off];
+			char want[8];
+			snprintf(id, sizeof(id), "%040zu", was);
+			assert_string_equal(s.v[i].id, id);
+			assert_int_equal(s.v[i].nhunk_scores, was + 1);
+			snprintf(want, sizeof(want), "f%zu.c", was);
+			assert_string_equal(h->path, want);
+		}
+		for (i = 0; i < s.nhunks; i++)
+			if (i == 0 || s.hunks[i].path != s.hunks[i - 1].path)
+				free((char *)s.hunks[i].path);
+		omen_score_set_free(&s);
+	}
+}
+
 static void test_hook_states(void **st)
 {
 	int s;
@@ -213,6 +256,7 @@ int main(void)
 	const struct CMUnitTest tests[] = {
 		cmocka_unit_test(test_json_lines),
 		cmocka_unit_test(test_sarif),
+		cmocka_unit_test(test_sort),
 		cmocka_unit_test(test_hook_states),
 	};
 	return cmocka_run_group_tests_name("score_output", tests, NULL, NULL);
