@@ -1,54 +1,47 @@
-/* Score sets and their writers: JSON Lines (fields in git-omen-score(1)) and
+/* Score sets: their order (--sort) and their writers: JSON Lines (fields in git-omen-score(1)) and
  * SARIF 2.1.0 (OASIS Static Analysis Results Interchange Format, version
  * 2.1.0, 2020: one result per risky hunk with a file and line region). */
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
 #include "omen/error.h"
+#include "omen/eval.h"
 #include "omen/score.h"
 
 const char *const omen_band_names[3] = {"low", "medium", "high"};
 
-typedef struct {
-	double key;
-	size_t i;
-} sort_item;
-
-static int by_key_desc(const void *a, const void *b)
-{
-	const sort_item *x = a, *y = b;
-	if (x->key != y->key)
-		return x->key > y->key ? -1 : 1;
-	return x->i < y->i ? -1 : x->i > y->i;
-}
-
 int omen_score_set_sort(omen_score_set *s, omen_sort_key key)
 {
-	sort_item *it;
+	double *neg;
+	size_t *order = NULL, i;
 	omen_score_result *v;
-	size_t i;
+	int e;
 	if (key == OMEN_SORT_HISTORY || s->n < 2)
 		return 0;
-	it = malloc(s->n * sizeof(*it));
+	neg = malloc(s->n * sizeof(*neg));
 	v = malloc(s->n * sizeof(*v));
-	if (!it || !v) {
-		free(it);
-		free(v);
-		return omen_error_set(OMEN_ENOMEM, "out of memory");
+	if (!neg || !v) {
+		e = omen_error_set(OMEN_ENOMEM, "out of memory");
+		goto out;
 	}
+	/* ascending order of the negated key, ties by index: highest first,
+	 * ties in history order */
 	for (i = 0; i < s->n; i++) {
 		const omen_score_result *r = &s->v[i];
 		double lines = (double)r->la + (double)r->ld;
-		it[i].key = key == OMEN_SORT_RISK ? (double)r->prob : (double)r->prob / (lines > 1 ? lines : 1);
-		it[i].i = i;
+		neg[i] = -(key == OMEN_SORT_RISK ? (double)r->prob :
+			(double)r->prob / (lines > 1 ? lines : 1));
 	}
-	qsort(it, s->n, sizeof(*it), by_key_desc);
+	if ((e = omen_sort_scores(&order, neg, s->n)))
+		goto out;
 	for (i = 0; i < s->n; i++)
-		v[i] = s->v[it[i].i];
+		v[i] = s->v[order[i]];
 	memcpy(s->v, v, s->n * sizeof(*v));
-	free(it);
+out:
+	free(neg);
 	free(v);
-	return 0;
+	free(order);
+	return e;
 }
 const char *const omen_reason_names[5] = {"hunk", "large", "diffuse", "fix-history", "metric"};
 
