@@ -1,6 +1,7 @@
-/* Score sets: their order (--sort) and their writers: JSON Lines (fields in git-omen-score(1)) and
- * SARIF 2.1.0 (OASIS Static Analysis Results Interchange Format, version
- * 2.1.0, 2020: one result per risky hunk with a file and line region). */
+/* Score sets: their order (--sort) and their writers, JSON Lines (fields in
+ * git-omen-score(1)) and SARIF 2.1.0 (OASIS Static Analysis Results
+ * Interchange Format, version 2.1.0, 2020: one result per risky hunk with a
+ * file and line region). */
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
