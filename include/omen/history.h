@@ -156,6 +156,11 @@ typedef int (*omen_change_cb)(const omen_change *c, void *payload);
  * NOT produced: their files are listed as added). */
 int omen_history_walk(omen_repo *r, const omen_walk_opts *o, omen_change_cb cb, void *payload);
 
+/* The same stream for the given commits, in the given order (for example a
+ * part of what omen_history_list returned). */
+int omen_history_walk_ids(omen_repo *r, const omen_walk_opts *o, const git_oid *ids, size_t n,
+	omen_change_cb cb, void *payload);
+
 /* Commit ids only, in walk order (cheap: no diffs). *out malloc'd. */
 int omen_history_list(git_oid **out, size_t *n, omen_repo *r, const omen_walk_opts *o);
 

@@ -484,9 +484,20 @@ static int put_vec(omen_buf *b, const u32vec *v)
 	return 0;
 }
 
+typedef struct {
+	const char *path;
+	const mfile *f;
+} file_entry;
+
+static int by_file_path(const void *a, const void *b)
+{
+	return strcmp(((const file_entry *)a)->path, ((const file_entry *)b)->path);
+}
+
 int omen_metrics_save(const omen_metrics *m, omen_buf *out)
 {
 	size_t start = out->len, nfiles = 0;
+	file_entry *fe;
 	int e = 0;
 	e |= omen_buf_put(out, MAGIC, 4);
 	e |= omen_buf_put_u32le(out, VERSION);
@@ -515,20 +526,30 @@ int omen_metrics_save(const omen_metrics *m, omen_buf *out)
 		}
 		free(keys);
 	}
+	/* files in path order, not the hash table's: the same state saves to the
+	 * same bytes however it was reached (built, or loaded and extended) */
 	for (size_t i = 0; i < m->files.cap; i++)
 		nfiles += m->files.keys[i] && m->files.vals[i];
 	e |= omen_buf_put_u32le(out, (uint32_t)nfiles);
-	for (size_t i = 0; i < m->files.cap && !e; i++) {
-		const mfile *f = m->files.vals[i];
-		if (!m->files.keys[i] || !f)
-			continue;
-		e |= put_str(out, m->files.keys[i]);
+	if (!(fe = malloc((nfiles ? nfiles : 1) * sizeof(*fe))))
+		return oom();
+	nfiles = 0;
+	for (size_t i = 0; i < m->files.cap; i++)
+		if (m->files.keys[i] && m->files.vals[i]) {
+			fe[nfiles].path = m->files.keys[i];
+			fe[nfiles++].f = m->files.vals[i];
+		}
+	qsort(fe, nfiles, sizeof(*fe), by_file_path);
+	for (size_t k = 0; k < nfiles && !e; k++) {
+		const mfile *f = fe[k].f;
+		e |= put_str(out, fe[k].path);
 		e |= omen_buf_put_u64le(out, (uint64_t)f->last_time);
 		e |= omen_buf_put_u32le(out, f->nchanges);
 		e |= omen_buf_put_u32le(out, f->nfixes);
 		e |= put_vec(out, &f->devs);
 		e |= put_vec(out, &f->seqs);
 	}
+	free(fe);
 	if (e)
 		return oom();
 	return omen_buf_put_u32le(out, omen_crc32(0, out->ptr + start, out->len - start)) ? oom() : 0;

@@ -701,12 +701,24 @@ int omen_history_walk(omen_repo *r, const omen_walk_opts *o, omen_change_cb cb, 
 	omen_walk_opts ro;
 	git_oid *ids = NULL;
 	size_t n = 0;
+	int rc;
+	if ((rc = hist_resolve_opts(&ro, r, o)) < 0)
+		return rc;
+	if ((rc = omen_history_list(&ids, &n, r, &ro)) < 0)
+		return rc;
+	rc = omen_history_walk_ids(r, &ro, ids, n, cb, payload);
+	free(ids);
+	return rc;
+}
+
+int omen_history_walk_ids(omen_repo *r, const omen_walk_opts *o, const git_oid *ids, size_t n,
+	omen_change_cb cb, void *payload)
+{
+	omen_walk_opts ro;
 	int rc, nth;
 	if ((rc = hist_resolve_opts(&ro, r, o)) < 0)
 		return rc;
 	o = &ro;
-	if ((rc = omen_history_list(&ids, &n, r, o)) < 0)
-		return rc;
 	nth = o->threads > 0 ? o->threads : default_threads();
 	if (nth > 16)
 		nth = 16;
@@ -790,6 +802,5 @@ int omen_history_walk(omen_repo *r, const omen_walk_opts *o, omen_change_cb cb, 
 		pthread_mutex_destroy(&w.mu);
 	}
 out:
-	free(ids);
 	return rc;
 }
