@@ -121,6 +121,9 @@ const omen_sample *omen_dataset_get(const omen_dataset *d, size_t i);
 const omen_metrics *omen_dataset_metrics(const omen_dataset *d);
 /* Commits whose sample was capped. */
 size_t omen_dataset_capped(const omen_dataset *d);
+/* Samples taken from the dataset cache rather than read from history: all
+ * of them when it matched, the older ones when it was extended, else 0. */
+size_t omen_dataset_reused(const omen_dataset *d);
 /* The commit the history was read from (HEAD or the one revision given),
  * NULL for a range, several revisions or an in-memory dataset. Its
  * non-merge ancestors are the samples and what the metrics state counts. */

@@ -60,8 +60,16 @@ static void print_row(const char *name, const omen_slice_scores *s)
 	printf("  %-16s %7s %7s %7s %10s\n", name, a, b, c, d);
 }
 
-static void print_text(const omen_train_report *r, const char *path)
+static void print_text(const omen_train_report *r, const omen_dataset *ds, const char *path)
 {
+	size_t n = omen_dataset_size(ds), reused = omen_dataset_reused(ds);
+	if (reused == n)
+		printf("dataset: %zu commits, from the dataset cache\n", n);
+	else if (reused)
+		printf("dataset: %zu commits, %zu from the dataset cache and %zu read from history\n", n,
+			reused, n - reused);
+	else
+		printf("dataset: %zu commits, read from history\n", n);
 	printf("split (time-ordered): train %zu (%zu inducing), validation %zu (%zu), test %zu (%zu)\n",
 		r->n_train, r->pos_train, r->n_valid, r->pos_valid, r->n_test, r->pos_test);
 	printf("epochs: %d run, best %d by validation AUC; %zu commits capped (largest files and "
@@ -94,11 +102,13 @@ static void json_scores(omen_buf *b, const char *name, const omen_slice_scores *
 	omen_buf_puts(b, "}");
 }
 
-static void print_json(const omen_train_report *r, const char *path)
+static void print_json(const omen_train_report *r, const omen_dataset *ds, const char *path)
 {
 	omen_buf b = OMEN_BUF_INIT;
 	omen_buf_printf(&b, "{\"model\":");
 	omen_buf_put_json_string(&b, path, strlen(path));
+	omen_buf_printf(&b, ",\"dataset\":{\"commits\":%zu,\"from_cache\":%zu}",
+		omen_dataset_size(ds), omen_dataset_reused(ds));
 	omen_buf_printf(&b, ",\"n_train\":%zu,\"n_valid\":%zu,\"n_test\":%zu,\"pos_train\":%zu,"
 		"\"pos_valid\":%zu,\"pos_test\":%zu,\"capped_commits\":%zu,\"epochs_run\":%d,"
 		"\"best_epoch\":%d,\"threshold\":%.6f,\"seconds\":%.3f,\"test\":{",
@@ -357,9 +367,9 @@ int cmd_train(int argc, char **argv)
 		goto out;
 	}
 	if (!strcmp(format, "json"))
-		print_json(&rep, model_path);
+		print_json(&rep, ds, model_path);
 	else
-		print_text(&rep, model_path);
+		print_text(&rep, ds, model_path);
 out:
 	if (lock_fd >= 0)
 		omen_lock_release(lock_fd);

@@ -46,6 +46,7 @@ struct omen_dataset {
 	const char **paths;
 	omen_metrics *metrics;
 	size_t capped;
+	size_t reused;              /* samples from the cache (omen_dataset_reused) */
 	char tip[OMEN_OID_HEX + 1]; /* the commit the walk started from, "" if not one */
 };
 
@@ -105,6 +106,7 @@ const omen_sample *omen_dataset_get(const omen_dataset *d, size_t i)
 }
 const omen_metrics *omen_dataset_metrics(const omen_dataset *d) { return d ? d->metrics : NULL; }
 size_t omen_dataset_capped(const omen_dataset *d) { return d ? d->capped : 0; }
+size_t omen_dataset_reused(const omen_dataset *d) { return d ? d->reused : 0; }
 const char *omen_dataset_tip(const omen_dataset *d) { return d && d->tip[0] ? d->tip : NULL; }
 
 /* The one commit a walk of revs starts from: HEAD, or a single revision
@@ -235,24 +237,22 @@ int omen_dataset_from_samples(omen_dataset **out, const omen_sample *s, size_t n
 }
 
 /* ---- cache --------------------------------------------------------------- */
-static int cache_key(omen_buf *key, omen_repo *r, const omen_dataset_opts *o,
-	const omen_buf *labels_bytes)
+/* The cache key: what the samples depend on besides the history (format,
+ * caps, vocabularies) first, *static_len bytes; then the history itself (the
+ * walked commit ids) and the label file's bytes. A cache whose first part
+ * matches can be extended (ds_extend); only a whole match is loaded as is. */
+static int cache_key(omen_buf *key, size_t *static_len, const git_oid *ids, size_t n,
+	const omen_dataset_opts *o, const omen_buf *labels_bytes)
 {
-	omen_walk_opts wo = OMEN_WALK_OPTS_INIT;
-	git_oid *ids = NULL;
-	size_t n = 0;
-	int e;
-	wo.revs = o->revs;
-	wo.with_lines = 0;
-	if ((e = omen_history_list(&ids, &n, r, &wo)))
-		return e;
-	e = omen_buf_printf(key, "omen dataset v%u rec%zu commits=%zu ids=%08x labels=%zu:%08x "
-		"caps=%d,%d,%d,%d budget=%d vocab=%u,%u", DS_VERSION, sizeof(ds_rec), n,
-		omen_crc32(0, ids, n * sizeof(*ids)), labels_bytes->len,
-		omen_crc32(0, labels_bytes->ptr, labels_bytes->len), o->caps.max_files,
-		o->caps.max_hunks_per_file, o->caps.max_tokens_per_hunk, o->caps.max_msg_tokens,
-		OMEN_SAMPLE_TOKEN_BUDGET, OMEN_VOCAB, OMEN_MSG_VOCAB);
-	free(ids);
+	int e = omen_buf_printf(key, "omen dataset v%u rec%zu caps=%d,%d,%d,%d budget=%d vocab=%u,%u;",
+		DS_VERSION, sizeof(ds_rec), o->caps.max_files, o->caps.max_hunks_per_file,
+		o->caps.max_tokens_per_hunk, o->caps.max_msg_tokens, OMEN_SAMPLE_TOKEN_BUDGET,
+		OMEN_VOCAB, OMEN_MSG_VOCAB);
+	*static_len = key->len;
+	if (!e)
+		e = omen_buf_printf(key, " commits=%zu ids=%08x labels=%zu:%08x", n,
+			omen_crc32(0, ids, n * sizeof(*ids)), labels_bytes->len,
+			omen_crc32(0, labels_bytes->ptr, labels_bytes->len));
 	return e;
 }
 
@@ -390,8 +390,9 @@ static int cache_consistent(omen_dataset *d)
 
 /* Returns 1 when the cache matched and *out was loaded, 0 when it did not
  * match, is unreadable or cannot be held in memory (then it is simply
- * rebuilt). */
-static int cache_read(omen_dataset **out, const char *path, const omen_buf *key)
+ * rebuilt). With match_len > 0 only the key's first match_len bytes must
+ * match (a cache of other commits or labels, to extend). */
+static int cache_read(omen_dataset **out, const char *path, const omen_buf *key, size_t match_len)
 {
 	omen_dataset *d = NULL;
 	cstream s;
@@ -405,10 +406,15 @@ static int cache_read(omen_dataset **out, const char *path, const omen_buf *key)
 	if (!(s.fp = fopen(path, "rb")) || fstat(fileno(s.fp), &st) || st.st_size < 12)
 		goto out;
 	s.left = (uint64_t)st.st_size - 4;
-	if (!(buf = malloc(key->len > 8 ? key->len : 8)) || cs_get(&s, buf, 8) ||
-		memcmp(buf, DS_MAGIC, 8) || cs_get_u64(&s, &v) || v != DS_VERSION ||
-		cs_get_u64(&s, &v) || v != key->len || cs_get(&s, buf, key->len) ||
-		memcmp(buf, key->ptr, key->len))
+	if (!match_len)
+		match_len = key->len;
+	if (!(buf = malloc(8)) || cs_get(&s, buf, 8) || memcmp(buf, DS_MAGIC, 8) ||
+		cs_get_u64(&s, &v) || v != DS_VERSION || cs_get_u64(&s, &v) || v < match_len ||
+		v > s.left || (match_len == key->len && v != key->len))
+		goto out;
+	free(buf);
+	if (!(buf = malloc((size_t)v)) || cs_get(&s, buf, (size_t)v) ||
+		memcmp(buf, key->ptr, match_len))
 		goto out;
 	if (ds_new(&d) || cs_get_u64(&s, &n) || n > s.left / sizeof(ds_rec))
 		goto out;
@@ -441,6 +447,7 @@ static int cache_read(omen_dataset **out, const char *path, const omen_buf *key)
 	if (!cache_consistent(d) || (v && omen_metrics_load(&d->metrics, buf, (size_t)v)) ||
 		ds_finish(d))
 		goto out;
+	d->reused = d->n;
 	*out = d;
 	d = NULL;
 	ok = 1;
@@ -513,13 +520,52 @@ fail:
 	return 1;
 }
 
+/* A cache of an older state of the history, in x->d, made into the dataset
+ * of ids[0..n): when its records are the first of ids (the history only
+ * grew) and every one is a fix exactly when the new labels say so (the
+ * metrics depend on that), the labels are joined again and only the new
+ * commits are read, from the cache's metrics state. Returns 1 when that was
+ * done, 0 when it does not apply (x->d is then of no use), negative on an
+ * error of reading the new commits. */
+static int ds_extend(build_ctx *x, omen_repo *r, const omen_walk_opts *wo, const git_oid *ids,
+	size_t n)
+{
+	omen_dataset *d = x->d;
+	size_t i, old = d->n;
+	char hex[OMEN_OID_HEX + 1];
+	int e;
+	if (old > n || !d->metrics)
+		return 0;
+	for (i = 0; i < old; i++) {
+		ds_rec *q = &d->rec[i];
+		const omen_label_rec *lr;
+		git_oid_tostr(hex, sizeof(hex), &ids[i]);
+		if (memcmp(q->id, hex, OMEN_OID_HEX + 1))
+			return 0;
+		lr = omen_labels_get(x->labels, hex);
+		if ((lr ? lr->is_fix != 0 : 0) != q->is_fix)
+			return 0;
+		q->label = (int8_t)(lr ? lr->label : -1);
+	}
+	x->m = d->metrics;
+	d->metrics = NULL;
+	d->reused = old;
+	x->done = old;
+	e = omen_history_walk_ids(r, wo, ids + old, n - old, on_change, x);
+	if (x->err)
+		e = x->err;
+	return e ? e : 1;
+}
+
 int omen_dataset_build(omen_dataset **out, omen_repo *r, const omen_dataset_opts *o)
 {
 	omen_buf lb = OMEN_BUF_INIT, key = OMEN_BUF_INIT;
 	char *labels_path = NULL, *cache_path = NULL;
 	omen_walk_opts wo = OMEN_WALK_OPTS_INIT;
+	git_oid *ids = NULL;
+	size_t nids = 0, static_len = 0;
 	build_ctx x;
-	int e;
+	int e, extended = 0;
 
 	*out = NULL;
 	memset(&x, 0, sizeof(x));
@@ -537,11 +583,15 @@ int omen_dataset_build(omen_dataset **out, omen_repo *r, const omen_dataset_opts
 				labels_path);
 		goto out;
 	}
+	wo.revs = o->revs;
+	wo.with_lines = 1;
+	if ((e = omen_history_list(&ids, &nids, r, &wo)))
+		goto out;
 	if (o->use_cache) {
 		if ((e = omen_repo_omen_path(&cache_path, r, "dataset.cache")) ||
-			(e = cache_key(&key, r, o, &lb)))
+			(e = cache_key(&key, &static_len, ids, nids, o, &lb)))
 			goto out;
-		if (cache_read(out, cache_path, &key)) {
+		if (cache_read(out, cache_path, &key, 0)) {
 			if ((e = check_limit(*out, o->max_bytes, "load"))) {
 				omen_dataset_free(*out);
 				*out = NULL;
@@ -558,17 +608,34 @@ int omen_dataset_build(omen_dataset **out, omen_repo *r, const omen_dataset_opts
 	if ((e = omen_labels_parse(&x.labels, labels_path, lb.ptr, lb.len)))
 		goto out;
 	omen_buf_free(&lb);
-	if ((e = ds_new(&x.d)) || (e = omen_metrics_new(&x.m)) || (e = omen_sample_buf_new(&x.sb)))
+	if ((e = omen_sample_buf_new(&x.sb)))
 		goto out;
 	x.caps = &o->caps;
 	x.max_bytes = o->max_bytes;
 	omen_progress_start(&x.prog, "features", omen_labels_count(x.labels));
-	wo.revs = o->revs;
-	wo.with_lines = 1;
-	e = omen_history_walk(r, &wo, on_change, &x);
+	if (o->use_cache && cache_read(&x.d, cache_path, &key, static_len)) {
+		if ((extended = ds_extend(&x, r, &wo, ids, nids)) < 0) {
+			e = extended;
+			goto out;
+		}
+		if (!extended) {   /* of no use: build it all */
+			omen_dataset_free(x.d);
+			omen_metrics_free(x.m);
+			x.d = NULL;
+			x.m = NULL;
+			x.done = 0;
+		}
+	}
+	if (!extended) {
+		if ((e = ds_new(&x.d)) || (e = omen_metrics_new(&x.m)))
+			goto out;
+		e = omen_history_walk_ids(r, &wo, ids, nids, on_change, &x);
+		if (x.err)
+			e = x.err;
+	}
 	omen_progress_end(&x.prog);
-	if (x.err)
-		e = x.err;
+	if (!e && extended)   /* a cache that matched whole was weighed when loaded */
+		e = check_limit(x.d, o->max_bytes, "load");
 	if (e)
 		goto out;
 	x.d->metrics = x.m;
@@ -591,6 +658,7 @@ out:
 	omen_labels_free(x.labels);
 	omen_buf_free(&lb);
 	omen_buf_free(&key);
+	free(ids);
 	free(labels_path);
 	free(cache_path);
 	return e;

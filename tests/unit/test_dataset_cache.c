@@ -4,7 +4,10 @@
  * sample for sample, and a damaged cache (truncated, a flipped byte, or a
  * count that disagrees with the columns under a recomputed CRC) must never
  * be loaded: cache_only builds report it missing, ordinary builds rebuild it
- * from history and write it again byte for byte. */
+ * from history and write it again byte for byte. A cache of an older
+ * history or other labels is extended instead (ds_extend) when the history
+ * only grew and no commit changed its fix status: the reference for that
+ * is the same build from history, and the same cache bytes. */
 #include <stdarg.h>
 #include <stddef.h>
 #include <setjmp.h>
@@ -182,10 +185,73 @@ static void test_cache_round_trip_and_damage(void **st)
 	omen_dataset_free(ref);
 }
 
+static void relabel(const char *fix_pattern, int64_t window_days)
+{
+	omen_label_opts lo;
+	omen_label_summary sum;
+	omen_label_opts_init(&lo);
+	lo.fix_pattern = fix_pattern;
+	lo.window_days = window_days;
+	assert_int_equal(omen_label_run(&sum, repo, &lo, NULL), 0);
+}
+
+/* The cache of the history before (the key's first part, ds_extend) serves
+ * a grown history and new labels; the result, and the cache written from
+ * it, are what a build from history gives, byte for byte. */
+static void extended_equals_full(size_t want_reused, size_t want_n)
+{
+	omen_dataset *ext = NULL, *ref = NULL, *again = NULL;
+	omen_buf a = OMEN_BUF_INIT, b = OMEN_BUF_INIT;
+	assert_int_equal(build(&ext, 1, 0), 0);
+	assert_int_equal(omen_dataset_size(ext), want_n);
+	assert_int_equal(omen_dataset_reused(ext), want_reused);
+	assert_int_equal(omen_file_read(&a, cache_path, 0), 0);
+	assert_int_equal(build(&ref, 0, 0), 0);
+	assert_int_equal(omen_dataset_reused(ref), 0);
+	same_dataset(ref, ext);
+	assert_int_equal(unlink(cache_path), 0);
+	assert_int_equal(build(&again, 1, 0), 0);   /* from history, cache written */
+	assert_int_equal(omen_dataset_reused(again), 0);
+	assert_int_equal(omen_file_read(&b, cache_path, 0), 0);
+	assert_int_equal(a.len, b.len);
+	assert_memory_equal(a.ptr, b.ptr, a.len);
+	omen_dataset_free(ext);
+	omen_dataset_free(ref);
+	omen_dataset_free(again);
+	omen_buf_free(&a);
+	omen_buf_free(&b);
+}
+
+static void test_cache_extended(void **st)
+{
+	omen_dataset *d = NULL;
+	size_t n;
+	(void)st;
+	relabel(NULL, -1);
+	assert_int_equal(build(&d, 1, 0), 0);   /* a cache of this history and labels */
+	n = omen_dataset_size(d);
+	omen_dataset_free(d);
+	/* new labels only (another verification window): all samples reused */
+	relabel(NULL, 30);
+	extended_equals_full(n, n);
+	/* six more commits, one of them a fix of a line of the old history */
+	sh("cd '%s' && for i in $(seq 41 46); do d=\"@$((1600000000 + i * 604800)) +0000\"; "
+		"if [ $i -eq 44 ]; then sed -i 's/^int v2 = /int v2 = 2 + /' src/m2.c; m='fix v2 again'; "
+		"else printf 'int v%%d = %%d;\\n' $i $i >>src/m$((i %% 4)).c; m=\"add v$i\"; fi; "
+		"git add -A && GIT_AUTHOR_DATE=\"$d\" GIT_COMMITTER_DATE=\"$d\" git commit -q -m \"$m\"; done",
+		dir);
+	relabel(NULL, 30);
+	extended_equals_full(n, n + 6);
+	/* other fix rules: old commits change fix status, so the metrics do: rebuilt */
+	relabel("\\badd\\b", 30);
+	extended_equals_full(0, n + 6);
+}
+
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
 		cmocka_unit_test(test_cache_round_trip_and_damage),
+		cmocka_unit_test(test_cache_extended),   /* last: it adds commits */
 	};
 	return cmocka_run_group_tests_name("dataset_cache", tests, setup, test_repo_drop);
 }
