@@ -279,11 +279,16 @@ static void cs_put(cstream *s, const void *p, size_t n)
 		s->crc = omen_crc32(s->crc, p, n);
 }
 
+static void put_le(unsigned char *b, uint64_t v, int n)
+{
+	for (int i = 0; i < n; i++)
+		b[i] = (unsigned char)(v >> (8 * i));
+}
+
 static void cs_put_u64(cstream *s, uint64_t v)
 {
 	unsigned char b[8];
-	for (int i = 0; i < 8; i++)
-		b[i] = (unsigned char)(v >> (8 * i));
+	put_le(b, v, 8);
 	cs_put(s, b, 8);
 }
 
@@ -301,12 +306,11 @@ static int cs_get(cstream *s, void *p, size_t n)
 static int cs_get_u64(cstream *s, uint64_t *v)
 {
 	unsigned char b[8];
+	omen_cursor c;
 	if (cs_get(s, b, 8))
 		return -1;
-	*v = 0;
-	for (int i = 7; i >= 0; i--)
-		*v = *v << 8 | b[i];
-	return 0;
+	omen_cursor_init(&c, b, 8);
+	return omen_cursor_u64le(&c, v);
 }
 
 static int cache_write(const omen_dataset *d, const char *path, const omen_buf *key)
@@ -334,8 +338,7 @@ static int cache_write(const omen_dataset *d, const char *path, const omen_buf *
 	}
 	cs_put_u64(&s, ms.len);
 	cs_put(&s, ms.ptr, ms.len);
-	for (i = 0; i < 4; i++)
-		tail[i] = (unsigned char)(s.crc >> (8 * i));
+	put_le(tail, s.crc, 4);
 	if (!s.err && fwrite(tail, 1, 4, f.fp) != 4)
 		s.err = errno ? errno : EIO;
 	if (s.err) {
@@ -397,9 +400,10 @@ static int cache_read(omen_dataset **out, const char *path, const omen_buf *key,
 	omen_dataset *d = NULL;
 	cstream s;
 	struct stat st;
-	unsigned char *buf = NULL, tail[4];
+	unsigned char *buf = NULL, magic[8], tail[4];
 	uint64_t v, n;
-	uint32_t crc;
+	uint32_t stored;
+	omen_cursor tc;
 	int ok = 0, i;
 	*out = NULL;
 	memset(&s, 0, sizeof(s));
@@ -408,11 +412,10 @@ static int cache_read(omen_dataset **out, const char *path, const omen_buf *key,
 	s.left = (uint64_t)st.st_size - 4;
 	if (!match_len)
 		match_len = key->len;
-	if (!(buf = malloc(8)) || cs_get(&s, buf, 8) || memcmp(buf, DS_MAGIC, 8) ||
+	if (cs_get(&s, magic, 8) || memcmp(magic, DS_MAGIC, 8) ||
 		cs_get_u64(&s, &v) || v != DS_VERSION || cs_get_u64(&s, &v) || v < match_len ||
 		v > s.left || (match_len == key->len && v != key->len))
 		goto out;
-	free(buf);
 	if (!(buf = malloc((size_t)v)) || cs_get(&s, buf, (size_t)v) ||
 		memcmp(buf, key->ptr, match_len))
 		goto out;
@@ -439,10 +442,8 @@ static int cache_read(omen_dataset **out, const char *path, const omen_buf *key,
 	if (cs_get_u64(&s, &v) || v != s.left || !(buf = malloc(v ? (size_t)v : 1)) ||
 		cs_get(&s, buf, (size_t)v))
 		goto out;
-	crc = s.crc;
-	if (fread(tail, 1, 4, s.fp) != 4 ||
-		crc != ((uint32_t)tail[0] | (uint32_t)tail[1] << 8 | (uint32_t)tail[2] << 16 |
-			(uint32_t)tail[3] << 24))
+	omen_cursor_init(&tc, tail, 4);
+	if (fread(tail, 1, 4, s.fp) != 4 || omen_cursor_u32le(&tc, &stored) || stored != s.crc)
 		goto out;
 	if (!cache_consistent(d) || (v && omen_metrics_load(&d->metrics, buf, (size_t)v)) ||
 		ds_finish(d))
