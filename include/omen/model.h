@@ -25,6 +25,8 @@ typedef struct {
 	int channels;            /* C hidden width (default 32) */
 	omen_caps caps;          /* the caps the dataset was built with (stored in the model) */
 	int warm_start;          /* start from the metrics logistic regression (default 1) */
+	double warn_share;       /* the model's threshold fires on this share of the
+	                          * calibration slice (default OMEN_WARN_SHARE_DEFAULT) */
 	/* per epoch; valid_auc is NaN during the refit on train+validation */
 	void (*progress)(void *payload, int epoch, int epochs, float loss, float valid_auc, double eta_s);
 	void *payload;
@@ -43,7 +45,9 @@ typedef struct {
 	int epochs_run, best_epoch;
 	double seconds;
 	omen_slice_scores model, lr_metrics, lines_added;
-	float threshold;         /* chosen on validation (max F1) */
+	float threshold;         /* fires on warn_share of the calibration slice */
+	float threshold_f1;      /* max F1 on the same slice, for reference */
+	double warn_share;       /* the share it was chosen for */
 } omen_train_report;
 
 /* Trains on the labelled samples of ds (label >= 0), time ordered.
@@ -113,6 +117,35 @@ int omen_platt_fit(double *out_a, double *out_b, const double *f, const int *y, 
 double omen_platt_apply(double a, double b, double f);
 /* Threshold of maximal F1 (prob >= t is positive); 0.5 without positives. */
 double omen_threshold_max_f1(const double *prob, const int *y, size_t n);
+
+/* Warning budget (issue 12): per share of the calibration slice (1%, 2%,
+ * ... 100%), the threshold that fires on it and the precision and recall
+ * there. Saved in the model metadata as "warn_curve". */
+#define OMEN_WARN_POINTS 100
+#define OMEN_WARN_SHARE_DEFAULT 0.10
+typedef struct {
+	int npoints;            /* 0: none (a model from before issue 12) */
+	size_t n_slice, positives;
+	double thr[OMEN_WARN_POINTS];        /* non-increasing */
+	double fired[OMEN_WARN_POINTS];      /* share at or above thr (ties count) */
+	double precision[OMEN_WARN_POINTS], recall[OMEN_WARN_POINTS];
+} omen_warn_curve;
+typedef struct {
+	double threshold, share, precision, recall;
+	int point;
+	int unmet;              /* the precision target is out of reach: the most precise point */
+} omen_warn_choice;
+int omen_warn_curve_build(omen_warn_curve *out, const double *prob, const int *y, size_t n);
+/* By precision when precision_target > 0 (the largest share reaching it),
+ * else by share in (0, 1). Out of range: OMEN_EINVAL naming the setting. */
+int omen_warn_pick(omen_warn_choice *out, const omen_warn_curve *c, double share,
+	double precision_target);
+/* About how often a given threshold fires on the calibration slice. */
+double omen_warn_share_at(const omen_warn_curve *c, double threshold);
+cJSON *omen_warn_curve_json(const omen_warn_curve *c);
+int omen_warn_curve_parse(omen_warn_curve *out, const cJSON *j);
+/* The curve saved with m (OMEN_ENOTFOUND when it has none). */
+int omen_model_warn_curve(omen_warn_curve *out, const omen_model *m);
 
 /* Raw logits of the samples idx[0..n) of ds, batched over threads (0 = the
  * online cores, at most 2). */

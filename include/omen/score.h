@@ -142,6 +142,17 @@ int omen_scorer_open(omen_scorer **out, omen_repo *r, const omen_score_opts *o);
 void omen_scorer_free(omen_scorer *s);
 const omen_model *omen_scorer_model(const omen_scorer *s);
 float omen_scorer_threshold(const omen_scorer *s);
+/* About which share of commits the threshold fires on (the model's
+ * calibration slice), NAN for a model without a warning curve. */
+double omen_scorer_fires(const omen_scorer *s);
+/* Notices for the user (one line each, "git omen: notice: ..."), NULL if none. */
+const char *omen_scorer_notices(const omen_scorer *s);
+/* The warning budget settings: omen.warnShare (default
+ * OMEN_WARN_SHARE_DEFAULT) and omen.warnPrecision (-1 unset); a value
+ * outside (0, 1) is OMEN_EINVAL naming the setting. */
+int omen_warn_config(double *share, double *precision, omen_repo *r);
+/* "1 in 10" style rate of a share (buf of at least 32 bytes). */
+const char *omen_warn_rate_text(char *buf, size_t n, double share);
 const char *omen_scorer_model_path(const omen_scorer *s);
 /* Scores ids (results come oldest first). The metrics state is the
  * model's, then fed every commit between the model's head and each scored

@@ -189,6 +189,14 @@ int cmd_eval(int argc, char **argv)
 		}
 		o.train.threads = (int)t;
 	}
+	{
+		/* the model's threshold fires on omen.warnShare of each fold's validation slice */
+		double prec;
+		if (omen_warn_config(&o.train.warn_share, &prec, repo) < 0) {
+			rc = cli_fatal(NULL);
+			goto done;
+		}
+	}
 	if (omen_config_string(&excl_text, repo, "omen.effortExclude") < 0) {
 		rc = cli_fatal(NULL);
 		goto done;
@@ -252,6 +260,21 @@ int cmd_eval(int argc, char **argv)
 		goto done;
 	}
 	fwrite(b.ptr, 1, b.len, stdout);
+	{
+		/* the last figures, for 'git omen health' (issue 12): the JSON
+		 * report beside the model's default place, written atomically */
+		char *sum = NULL;
+		omen_buf j = OMEN_BUF_INIT;
+		if (omen_repo_omen_path(&sum, repo, "eval.json") < 0 ||
+		    omen_eval_write_json(&j, &res) < 0 ||
+		    omen_file_write_atomic(sum, j.ptr, j.len) < 0) {
+			fprintf(stderr, "git omen: notice: could not save the evaluation summary: %s\n",
+				omen_error_last());
+			omen_error_clear();
+		}
+		omen_buf_free(&j);
+		free(sum);
+	}
 	if (html) {
 		omen_buf_clear(&b);
 		if (omen_eval_write_html(&b, &res, "omen walk-forward evaluation") < 0 ||

@@ -164,6 +164,8 @@ static int hook_run(int argc, char **argv)
 		goto done;
 	}
 	disarm_alarm();
+	if (omen_scorer_notices(sc))
+		fputs(omen_scorer_notices(sc), stderr);
 	for (i = 0; i < set.n; i++) {
 		const omen_score_result *r = &set.v[i];
 		if (r->prob < set.threshold)
@@ -181,8 +183,10 @@ static int hook_run(int argc, char **argv)
 			risky, set.n, (double)set.threshold);
 		rc = EXIT_RISK;
 	} else if (risky) {
-		fprintf(stderr, "git omen: %zu of %zu commits look risky; scores are advisory, the push goes on\n",
-			risky, set.n);
+		char rate[64];
+		fprintf(stderr, "git omen: %zu of %zu commits look risky (the threshold %.2f fires on %s); "
+			"scores are advisory, the push goes on\n", risky, set.n, (double)set.threshold,
+			omen_warn_rate_text(rate, sizeof(rate), omen_scorer_fires(sc)));
 	}
 done:
 	disarm_alarm();

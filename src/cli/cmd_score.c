@@ -152,6 +152,8 @@ int cmd_score(int argc, char **argv)
 				nids - set.n, nids - set.n == 1 ? "" : "s");
 	}
 	set.threshold = omen_scorer_threshold(sc);
+	if (omen_scorer_notices(sc))
+		fputs(omen_scorer_notices(sc), stderr);
 	if ((e = omen_score_set_sort(&set, sort))) {
 		rc = cli_fatal(NULL);
 		goto done;
@@ -178,8 +180,10 @@ int cmd_score(int argc, char **argv)
 				"reasons | summary");
 			for (i = 0; i < set.n; i++)
 				text_line(&out, &set, &set.v[i], color);
-			omen_buf_printf(&out, "%zu scored; risky at %.2f or more; scores are advisory\n",
-				set.n, (double)set.threshold);
+			char rate[64];
+			omen_buf_printf(&out, "%zu scored; risky at %.2f or more (%s); scores are advisory\n",
+				set.n, (double)set.threshold,
+				omen_warn_rate_text(rate, sizeof(rate), omen_scorer_fires(sc)));
 		}
 		e = 0;
 	}

@@ -36,6 +36,7 @@ void omen_train_opts_init(omen_train_opts *o)
 	o->test_frac = 0.15;
 	o->refit = 1;
 	o->warm_start = 1;
+	o->warn_share = OMEN_WARN_SHARE_DEFAULT;
 	o->dim = 32;
 	o->channels = 32;
 	{
@@ -510,8 +511,9 @@ out:
 	return e;
 }
 
-/* Platt scaling and the max-F1 threshold of m on idx. */
-static int calibrate(omen_model *m, const omen_dataset *ds, const size_t *idx, size_t n, int threads)
+/* Platt scaling and the threshold (warning budget, calib.c) of m on idx. */
+static int calibrate(omen_model *m, const omen_dataset *ds, const size_t *idx, size_t n, int threads,
+	double share)
 {
 	float *z = malloc((n + 1) * sizeof(float));
 	double *f = malloc((n + 1) * sizeof(double)), *p = malloc((n + 1) * sizeof(double));
@@ -540,7 +542,7 @@ static int calibrate(omen_model *m, const omen_dataset *ds, const size_t *idx, s
 	}
 	for (i = 0; i < n; i++)
 		p[i] = omen_platt_apply(m->platt_a, m->platt_b, f[i]);
-	m->threshold = (float)omen_threshold_max_f1(p, y, n);
+	e = omen_calib_threshold(m, p, y, n, share);
 out:
 	free(z); free(f); free(p); free(y);
 	return e;
@@ -591,7 +593,7 @@ static int train_core(omen_model **out, fit_info *fi, const omen_dataset *ds,
 		warm_start(m, ds, train_idx, n_train);
 	if ((e = fit(m, fi, ds, train_idx, n_train, valid_idx, n_valid, o, epochs, report)))
 		goto out;
-	if (n_valid && (e = calibrate(m, ds, valid_idx, n_valid, train_threads(o))))
+	if (n_valid && (e = calibrate(m, ds, valid_idx, n_valid, train_threads(o), o->warn_share)))
 		goto out;
 	*out = m;
 	m = NULL;
@@ -730,13 +732,15 @@ int omen_model_train(omen_model **out, omen_train_report *rep, const omen_datase
 	slice_scores(&rep->lr_metrics, lrp, lrp, y, ef, n_test);
 	slice_scores(&rep->lines_added, la, NULL, y, ef, n_test);
 	rep->threshold = eval_m->threshold;
+	rep->threshold_f1 = eval_m->threshold_f1;
+	rep->warn_share = o->warn_share;
 	/* 3. shipped model: refit on train+valid for the chosen epoch count,
 	 * calibrated on the test slice it has not seen */
 	if (o->refit) {
 		if ((e = train_core(&m, &fi2, ds, idx, n_train + n_valid, NULL, 0, o,
 				fi.best_epoch > 0 ? fi.best_epoch : 1, 1)))
 			goto out;
-		if ((e = calibrate(m, ds, idx + n_train + n_valid, n_test, threads)))
+		if ((e = calibrate(m, ds, idx + n_train + n_valid, n_test, threads, o->warn_share)))
 			goto out;
 		omen_model_free(eval_m);
 		eval_m = NULL;
