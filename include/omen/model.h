@@ -147,6 +147,18 @@ int omen_warn_curve_parse(omen_warn_curve *out, const cJSON *j);
 /* The curve saved with m (OMEN_ENOTFOUND when it has none). */
 int omen_model_warn_curve(omen_warn_curve *out, const omen_model *m);
 
+/* Drift reference (issue 12, src/model/drift.c): per metric, up to
+ * OMEN_DRIFT_BINS - 1 decile edges of the training slice (bin b holds
+ * edges[b-1] < x <= edges[b]), its shares per bin, and the bin of each of
+ * the newest `recent` samples, one digit each; saved as "drift" in the
+ * model metadata. */
+#define OMEN_DRIFT_BINS 10
+#define OMEN_DRIFT_RECENT 500
+int omen_drift_edges(double *edges, const float *v, size_t n);   /* count, or OMEN_ENOMEM */
+int omen_drift_bin(const double *edges, int ne, double x);
+cJSON *omen_drift_ref_json(const omen_dataset *ds, const size_t *train_idx, size_t n_train,
+	size_t recent);
+
 /* Raw logits of the samples idx[0..n) of ds, batched over threads (0 = the
  * online cores, at most 2). */
 int omen_model_logits(float *out, const omen_model *m, const omen_dataset *ds, const size_t *idx,

@@ -11,6 +11,7 @@
 #include "omen/history.h"
 #include "omen/features.h"
 #include "omen/model.h"
+#include "omen/label.h"
 
 /* ---- pre-push protocol ----------------------------------------------------
  * git feeds a pre-push hook one line per ref to update (githooks(5)):
@@ -168,6 +169,49 @@ int omen_scorer_commits(omen_score_set *out, omen_scorer *s, const git_oid *ids,
 int omen_scorer_staged(omen_score_set *out, omen_scorer *s, const char *msg);
 /* Per-commit explanation of the last sample scored by the calls above is
  * not kept; explain uses omen_score_explain below. */
+
+/* ---- freshness and drift (issue 12, src/score/health.c) ------------------ */
+#define OMEN_STALE_DAYS_DEFAULT 90
+#define OMEN_STALE_COMMITS_DEFAULT 1000
+enum { OMEN_STALE_AGE = 1, OMEN_STALE_BEHIND = 2, OMEN_STALE_FOREIGN = 4 };
+typedef struct {
+	int64_t trained_at;           /* training date (seconds, UTC), 0 unknown */
+	double age_days;              /* NAN unknown */
+	int head_known;               /* the model's head is a commit of this repository */
+	int is_base;                  /* the base model (issue 11): no notice for a foreign head */
+	int64_t behind;               /* non-merge commits of HEAD after the model's head, -1 unknown */
+	int64_t stale_days, stale_commits;   /* omen.staleDays, omen.staleCommits (0 = off) */
+	unsigned stale;               /* OMEN_STALE_* */
+} omen_freshness;
+/* The model says it is the base model ("base_model": true in its metadata). */
+int omen_model_is_base(const omen_model *m);
+/* The training date from the metadata, 0 when unknown. */
+int64_t omen_model_trained_at(const omen_model *m);
+int omen_freshness_check(omen_freshness *out, omen_scorer *s, int64_t now);
+/* One notice line for a stale or foreign model, nothing otherwise. */
+void omen_freshness_text(omen_buf *out, const omen_freshness *f);
+/* Non-merge commits of HEAD that commit hex does not reach; OMEN_ENOTFOUND
+ * when hex is not a commit here. */
+int omen_commits_since(int64_t *out, omen_repo *r, const char *hex);
+/* omen_freshness_check now, its notice added to omen_scorer_notices. */
+int omen_scorer_check_fresh(omen_scorer *s);
+
+typedef struct {
+	int have;                     /* the model carries a drift reference */
+	size_t window;                /* commits compared */
+	size_t from_history;          /* of them, read after the model's head */
+	size_t replay_skipped;        /* commits after the head not read: over max_replay */
+	double psi[OMEN_NMETRICS];    /* NAN without a reference */
+	double base_train;            /* inducing share of the training slice */
+	double base_recent;           /* of the newest labelled commits (NAN without labels) */
+	size_t recent_labelled;
+} omen_drift;
+/* PSI of each metric, training slice against the last `window` commits:
+ * those after the model's head (read from history and fed to the model's
+ * metrics state, at most max_replay of them, else none) and before them the
+ * newest training commits from the reference. labels may be NULL. */
+int omen_drift_measure(omen_drift *out, omen_scorer *s, const omen_labels *labels, size_t window,
+	size_t max_replay);
 
 /* ---- explanation --------------------------------------------------------- */
 typedef struct {

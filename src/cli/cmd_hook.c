@@ -164,6 +164,10 @@ static int hook_run(int argc, char **argv)
 		goto done;
 	}
 	disarm_alarm();
+	if (omen_scorer_check_fresh(sc)) {
+		rc = hook_error(block_error, NULL);
+		goto done;
+	}
 	if (omen_scorer_notices(sc))
 		fputs(omen_scorer_notices(sc), stderr);
 	for (i = 0; i < set.n; i++) {

@@ -152,6 +152,10 @@ int cmd_score(int argc, char **argv)
 				nids - set.n, nids - set.n == 1 ? "" : "s");
 	}
 	set.threshold = omen_scorer_threshold(sc);
+	if ((e = omen_scorer_check_fresh(sc))) {
+		rc = cli_fatal(NULL);
+		goto done;
+	}
 	if (omen_scorer_notices(sc))
 		fputs(omen_scorer_notices(sc), stderr);
 	if ((e = omen_score_set_sort(&set, sort))) {

@@ -804,6 +804,11 @@ int omen_model_train(omen_model **out, omen_train_report *rep, const omen_datase
 	cJSON_AddItemToObject(te, "lines_added", scores_json(&rep->lines_added));
 	cJSON_AddNumberToObject(te, "threshold", rep->threshold);
 	cJSON_AddItemToObject(meta, "test", te);
+	{
+		cJSON *dr = omen_drift_ref_json(ds, idx, n_train, OMEN_DRIFT_RECENT);
+		if (dr)
+			cJSON_AddItemToObject(meta, "drift", dr);
+	}
 	m->meta = meta;
 	meta = NULL;
 	*out = m;

@@ -271,6 +271,11 @@ void omen_scorer_free(omen_scorer *s)
 }
 
 /* A fresh copy of the metrics state at the model's head. */
+static int state_clone(omen_metrics **out, const omen_scorer *s);
+int score_state_clone(omen_metrics **out, const omen_scorer *s) { return state_clone(out, s); }
+const git_oid *score_head(const omen_scorer *s) { return s->head_known ? &s->head : NULL; }
+omen_buf *score_notices(omen_scorer *s) { return &s->notices; }
+
 static int state_clone(omen_metrics **out, const omen_scorer *s)
 {
 	if (!s->state.len)
