@@ -123,9 +123,15 @@ double omen_threshold_max_f1(const double *prob, const int *y, size_t n);
  * there. Saved in the model metadata as "warn_curve". */
 #define OMEN_WARN_POINTS 100
 #define OMEN_WARN_SHARE_DEFAULT 0.10
+/* the shipped model's thresholds fire on a share of the newest commits of
+ * the history (at least this many, or the test slice's size) */
+#ifndef OMEN_WARN_FIRE_COMMITS
+#define OMEN_WARN_FIRE_COMMITS 300
+#endif
 typedef struct {
 	int npoints;            /* 0: none (a model from before issue 12) */
-	size_t n_slice, positives;
+	size_t n_slice, positives;   /* calibration slice: precision and recall */
+	size_t n_fire;               /* firing slice: thresholds and shares fired */
 	double thr[OMEN_WARN_POINTS];        /* non-increasing */
 	double fired[OMEN_WARN_POINTS];      /* share at or above thr (ties count) */
 	double precision[OMEN_WARN_POINTS], recall[OMEN_WARN_POINTS];
@@ -136,6 +142,10 @@ typedef struct {
 	int unmet;              /* the precision target is out of reach: the most precise point */
 } omen_warn_choice;
 int omen_warn_curve_build(omen_warn_curve *out, const double *prob, const int *y, size_t n);
+/* The same with thresholds and shares fired counted on other commits
+ * (fire[nfire], any label) and precision and recall on prob, y. */
+int omen_warn_curve_build_on(omen_warn_curve *out, const double *fire, size_t nfire,
+	const double *prob, const int *y, size_t n);
 /* By precision when precision_target > 0 (the largest share reaching it),
  * else by share in (0, 1). Out of range: OMEN_EINVAL naming the setting. */
 int omen_warn_pick(omen_warn_choice *out, const omen_warn_curve *c, double share,

@@ -314,5 +314,15 @@ int omen_hook_install(int *out, const char *dir);
 /* Removes our shim and renames a chained hook back, byte for byte. A
  * foreign hook is left alone (OMEN_EUSAGE). */
 int omen_hook_uninstall(int *out, const char *dir);
+/* The same for either hook: the pre-push shim, or the post-merge shim that
+ * starts 'git omen refresh' in the background (issue 12), chained the same
+ * way under OMEN_REFRESH_CHAINED_NAME. */
+enum { OMEN_HOOK_KIND_PUSH, OMEN_HOOK_KIND_REFRESH };
+extern const char omen_refresh_shim[];
+#define OMEN_REFRESH_MARK "# git-omen post-merge shim"
+#define OMEN_REFRESH_CHAINED_NAME "post-merge.omen-chained"
+int omen_hook_status_as(int *out, const char *dir, int kind);
+int omen_hook_install_as(int *out, const char *dir, int kind);
+int omen_hook_uninstall_as(int *out, const char *dir, int kind);
 
 #endif

@@ -16,6 +16,7 @@ int cmd_eval(int argc, char **argv);
 int cmd_features(int argc, char **argv);
 int cmd_hook(int argc, char **argv);
 int cmd_health(int argc, char **argv);
+int cmd_refresh(int argc, char **argv);
 int cmd_version(int argc, char **argv);
 
 /* "git omen: <message>" on stderr for the last library error; returns 128. */

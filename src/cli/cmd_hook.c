@@ -9,12 +9,14 @@
 #include "cli/cli.h"
 
 static const char hook_usage[] =
-	"usage: git omen hook install | uninstall | status\n"
+	"usage: git omen hook install [--refresh] | uninstall | status\n"
 	"   or: git omen hook run <remote-name> <remote-url>\n"
 	"\n"
 	"install     put the pre-push shim in the hooks directory (core.hooksPath honoured);\n"
-	"            an existing pre-push hook is kept and runs after ours\n"
-	"uninstall   remove the shim and restore the kept hook byte for byte\n"
+	"            an existing pre-push hook is kept and runs after ours; --refresh also\n"
+	"            puts a post-merge shim that starts 'git omen refresh' in the background\n"
+	"            after a merge or pull (an existing post-merge hook is kept the same way)\n"
+	"uninstall   remove the shims and restore the kept hooks byte for byte\n"
 	"status      say whether the hook is installed\n"
 	"run         score the commits a push sends (git's pre-push lines on standard input)\n"
 	"\n"
@@ -210,7 +212,7 @@ int cmd_hook(int argc, char **argv)
 	omen_repo *repo = NULL;
 	char *dir = NULL;
 	const char *sub = argc > 1 ? argv[1] : NULL;
-	int rc = EXIT_OK, st = 0;
+	int rc = EXIT_OK, st = 0, refresh = 0, rst = 0;
 
 	if (!sub || !strcmp(sub, "-h") || !strcmp(sub, "--help")) {
 		fputs(hook_usage, sub ? stdout : stderr);
@@ -224,8 +226,11 @@ int cmd_hook(int argc, char **argv)
 		return hook_run(argc, argv);
 	if (strcmp(sub, "install") && strcmp(sub, "uninstall") && strcmp(sub, "status"))
 		return cli_usage("hook", "unknown subcommand '%s'; use install, uninstall, status or run", sub);
-	if (argc > 2)
-		return cli_usage("hook", "'%s' takes no arguments", sub);
+	if (argc > 2 && !strcmp(sub, "install") && !strcmp(argv[2], "--refresh") && argc == 3)
+		refresh = 1;
+	else if (argc > 2)
+		return cli_usage("hook", "'%s' takes no arguments%s", sub,
+			strcmp(sub, "install") ? "" : " but --refresh");
 	if (omen_repo_open(&repo, NULL) || omen_hook_dir(&dir, repo)) {
 		rc = cli_fatal(NULL);
 		goto done;
@@ -237,7 +242,29 @@ int cmd_hook(int argc, char **argv)
 		}
 		printf("installed the pre-push hook in '%s'%s\n", dir,
 			st == OMEN_HOOK_CHAINED ? "; the existing hook is kept and runs after it" : "");
+		if (refresh) {
+			if (omen_hook_install_as(&rst, dir, OMEN_HOOK_KIND_REFRESH)) {
+				rc = cli_fatal(NULL);
+				goto done;
+			}
+			printf("installed the post-merge hook in '%s': 'git omen refresh' runs in the "
+				"background after a merge or pull%s\n", dir, rst == OMEN_HOOK_CHAINED ?
+				"; the existing hook is kept and runs after it" : "");
+		}
 	} else if (!strcmp(sub, "uninstall")) {
+		/* the post-merge shim goes too, when it is ours */
+		if (omen_hook_status_as(&rst, dir, OMEN_HOOK_KIND_REFRESH)) {
+			rc = cli_fatal(NULL);
+			goto done;
+		}
+		if (rst == OMEN_HOOK_OURS || rst == OMEN_HOOK_CHAINED) {
+			if (omen_hook_uninstall_as(&rst, dir, OMEN_HOOK_KIND_REFRESH)) {
+				rc = cli_fatal(NULL);
+				goto done;
+			}
+			printf("removed the post-merge hook from '%s'%s\n", dir,
+				rst == OMEN_HOOK_FOREIGN ? "; the previous hook is back" : "");
+		}
 		if (omen_hook_status(&st, dir)) {
 			rc = cli_fatal(NULL);
 			goto done;
@@ -261,6 +288,15 @@ int cmd_hook(int argc, char **argv)
 			st == OMEN_HOOK_OURS ? "installed" :
 			st == OMEN_HOOK_CHAINED ? "installed, the previous hook runs after it" :
 			"not installed; another pre-push hook is there", dir);
+		if (omen_hook_status_as(&rst, dir, OMEN_HOOK_KIND_REFRESH)) {
+			rc = cli_fatal(NULL);
+			goto done;
+		}
+		if (rst != OMEN_HOOK_ABSENT)
+			printf("post-merge refresh hook: %s (%s/post-merge)\n",
+				rst == OMEN_HOOK_OURS ? "installed" :
+				rst == OMEN_HOOK_CHAINED ? "installed, the previous hook runs after it" :
+				"not installed; another post-merge hook is there", dir);
 	}
 done:
 	free(dir);

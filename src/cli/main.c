@@ -21,6 +21,7 @@ static const struct {
 	{"eval", cmd_eval, "walk-forward evaluation of the model against baselines"},
 	{"features", cmd_features, "export per-commit change metrics as CSV or JSON Lines"},
 	{"hook", cmd_hook, "install, remove or run the pre-push hook"},
+	{"refresh", cmd_refresh, "relabel, and retrain when enough new labels exist (cron, timer, hook)"},
 	{"health", cmd_health, "labels, model, their ages, last evaluation and drift on one screen"},
 	{"version", cmd_version, "print the version"},
 };

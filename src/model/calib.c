@@ -100,44 +100,52 @@ static int cmp_desc(const void *a, const void *b)
 	return x < y ? 1 : x > y ? -1 : 0;
 }
 
-int omen_warn_curve_build(omen_warn_curve *out, const double *prob, const int *y, size_t n)
+int omen_warn_curve_build_on(omen_warn_curve *out, const double *fire, size_t nfire,
+	const double *prob, const int *y, size_t n)
 {
 	double *s;
 	size_t i, pos = 0;
 	int k;
 	memset(out, 0, sizeof(*out));
-	if (!n)
+	if (!nfire || !n)
 		return 0;
-	if (!(s = malloc(n * sizeof(double))))
+	if (!(s = malloc(nfire * sizeof(double))))
 		return omen_error_set(OMEN_ENOMEM, "out of memory");
-	for (i = 0; i < n; i++) {
-		s[i] = prob[i];
+	memcpy(s, fire, nfire * sizeof(double));
+	for (i = 0; i < n; i++)
 		pos += y[i] != 0;
-	}
-	qsort(s, n, sizeof(double), cmp_desc);
+	qsort(s, nfire, sizeof(double), cmp_desc);
 	out->n_slice = n;
+	out->n_fire = nfire;
 	out->positives = pos;
 	for (k = 0; k < OMEN_WARN_POINTS; k++) {
-		size_t want = (size_t)ceil((double)(k + 1) * (double)n / OMEN_WARN_POINTS - 1e-9);
-		size_t fired = 0, tp = 0;
+		size_t want = (size_t)ceil((double)(k + 1) * (double)nfire / OMEN_WARN_POINTS - 1e-9);
+		size_t fired = 0, flagged = 0, tp = 0;
 		double t;
 		if (want < 1) want = 1;
-		if (want > n) want = n;
+		if (want > nfire) want = nfire;
 		t = s[want - 1];
+		for (i = 0; i < nfire; i++)
+			fired += fire[i] >= t;
 		for (i = 0; i < n; i++) {
 			if (prob[i] >= t) {
-				fired++;
+				flagged++;
 				tp += y[i] != 0;
 			}
 		}
 		out->thr[k] = t;
-		out->fired[k] = (double)fired / (double)n;
-		out->precision[k] = fired ? (double)tp / (double)fired : 0;
+		out->fired[k] = (double)fired / (double)nfire;
+		out->precision[k] = flagged ? (double)tp / (double)flagged : 0;
 		out->recall[k] = pos ? (double)tp / (double)pos : 0;
 	}
 	out->npoints = OMEN_WARN_POINTS;
 	free(s);
 	return 0;
+}
+
+int omen_warn_curve_build(omen_warn_curve *out, const double *prob, const int *y, size_t n)
+{
+	return omen_warn_curve_build_on(out, prob, n, prob, y, n);
 }
 
 /* The grid point of share s: the nearest k with (k + 1) / POINTS >= s. */
@@ -208,6 +216,7 @@ cJSON *omen_warn_curve_json(const omen_warn_curve *c)
 	cJSON_AddNumberToObject(o, "points", c->npoints);
 	cJSON_AddNumberToObject(o, "n", (double)c->n_slice);
 	cJSON_AddNumberToObject(o, "positives", (double)c->positives);
+	cJSON_AddNumberToObject(o, "n_fire", (double)c->n_fire);
 	for (k = 0; k < c->npoints; k++) {
 		cJSON_AddItemToArray(t, cJSON_CreateNumber(c->thr[k]));
 		cJSON_AddItemToArray(f, cJSON_CreateNumber(c->fired[k]));
@@ -260,16 +269,23 @@ int omen_warn_curve_parse(omen_warn_curve *out, const cJSON *j)
 		out->n_slice = (size_t)v->valuedouble;
 	if ((v = cJSON_GetObjectItemCaseSensitive(j, "positives")) && cJSON_IsNumber(v) && v->valuedouble >= 0)
 		out->positives = (size_t)v->valuedouble;
+	if ((v = cJSON_GetObjectItemCaseSensitive(j, "n_fire")) && cJSON_IsNumber(v) && v->valuedouble >= 0)
+		out->n_fire = (size_t)v->valuedouble;
 	out->npoints = OMEN_WARN_POINTS;
 	return 0;
 }
 
-int omen_calib_threshold(omen_model *m, const double *p, const int *y, size_t n, double share)
+int omen_calib_threshold(omen_model *m, const double *p, const int *y, size_t n,
+	const double *fire, size_t nfire, double share)
 {
 	omen_warn_choice ch;
 	int e;
 	m->threshold_f1 = (float)omen_threshold_max_f1(p, y, n);
-	if ((e = omen_warn_curve_build(&m->warn, p, y, n)))
+	if (!fire) {
+		fire = p;
+		nfire = n;
+	}
+	if ((e = omen_warn_curve_build_on(&m->warn, fire, nfire, p, y, n)))
 		return e;
 	if ((e = omen_warn_pick(&ch, &m->warn, share, 0)))
 		return e;

@@ -77,9 +77,12 @@ struct omen_model {
 };
 
 /* The threshold from the calibrated probabilities p of the calibration
- * slice (calib.c): the warning curve, the threshold firing on share of it,
- * and the max-F1 threshold for reference. */
-int omen_calib_threshold(omen_model *m, const double *p, const int *y, size_t n, double share);
+ * slice (calib.c): the warning curve, the threshold firing on share of the
+ * firing slice (fire, nfire: the newest commits of the history, whatever
+ * their label; NULL = the calibration slice), precision and recall on the
+ * calibration slice, and the max-F1 threshold for reference. */
+int omen_calib_threshold(omen_model *m, const double *p, const int *y, size_t n,
+	const double *fire, size_t nfire, double share);
 
 /* Builds the parameter table for the dims already set in m and allocates
  * the (zeroed) block. */

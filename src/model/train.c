@@ -513,13 +513,15 @@ out:
 
 /* Platt scaling and the threshold (warning budget, calib.c) of m on idx. */
 static int calibrate(omen_model *m, const omen_dataset *ds, const size_t *idx, size_t n, int threads,
-	double share)
+	double share, const size_t *fire_idx, size_t nfire)
 {
-	float *z = malloc((n + 1) * sizeof(float));
+	size_t nz = n > nfire ? n : nfire;
+	float *z = malloc((nz + 1) * sizeof(float));
 	double *f = malloc((n + 1) * sizeof(double)), *p = malloc((n + 1) * sizeof(double));
+	double *q = malloc((nfire + 1) * sizeof(double));
 	int *y = malloc((n + 1) * sizeof(int)), e = 0;
 	size_t i, pos = 0;
-	if (!z || !f || !p || !y) {
+	if (!z || !f || !p || !y || !q) {
 		e = omen_error_set(OMEN_ENOMEM, "out of memory");
 		goto out;
 	}
@@ -542,9 +544,13 @@ static int calibrate(omen_model *m, const omen_dataset *ds, const size_t *idx, s
 	}
 	for (i = 0; i < n; i++)
 		p[i] = omen_platt_apply(m->platt_a, m->platt_b, f[i]);
-	e = omen_calib_threshold(m, p, y, n, share);
+	if (nfire && (e = eval_logits(z, m, ds, fire_idx, nfire, threads)))
+		goto out;
+	for (i = 0; i < nfire; i++)
+		q[i] = omen_platt_apply(m->platt_a, m->platt_b, z[i]);
+	e = omen_calib_threshold(m, p, y, n, nfire ? q : NULL, nfire, share);
 out:
-	free(z); free(f); free(p); free(y);
+	free(z); free(f); free(p); free(y); free(q);
 	return e;
 }
 
@@ -593,7 +599,7 @@ static int train_core(omen_model **out, fit_info *fi, const omen_dataset *ds,
 		warm_start(m, ds, train_idx, n_train);
 	if ((e = fit(m, fi, ds, train_idx, n_train, valid_idx, n_valid, o, epochs, report)))
 		goto out;
-	if (n_valid && (e = calibrate(m, ds, valid_idx, n_valid, train_threads(o), o->warn_share)))
+	if (n_valid && (e = calibrate(m, ds, valid_idx, n_valid, train_threads(o), o->warn_share, NULL, 0)))
 		goto out;
 	*out = m;
 	m = NULL;
@@ -740,7 +746,20 @@ int omen_model_train(omen_model **out, omen_train_report *rep, const omen_datase
 		if ((e = train_core(&m, &fi2, ds, idx, n_train + n_valid, NULL, 0, o,
 				fi.best_epoch > 0 ? fi.best_epoch : 1, 1)))
 			goto out;
-		if ((e = calibrate(m, ds, idx + n_train + n_valid, n_test, threads, o->warn_share)))
+		/* the warning budget counts its share on the newest commits,
+		 * labelled or not: what the hook sees next (issue 12) */
+		size_t nfire = n < OMEN_WARN_FIRE_COMMITS ? n : OMEN_WARN_FIRE_COMMITS, *fire;
+		if (nfire < n_test && n_test <= n)
+			nfire = n_test;
+		if (!(fire = malloc((nfire + 1) * sizeof(size_t)))) {
+			e = omen_error_set(OMEN_ENOMEM, "out of memory");
+			goto out;
+		}
+		for (i = 0; i < nfire; i++)
+			fire[i] = n - nfire + i;
+		e = calibrate(m, ds, idx + n_train + n_valid, n_test, threads, o->warn_share, fire, nfire);
+		free(fire);
+		if (e)
 			goto out;
 		omen_model_free(eval_m);
 		eval_m = NULL;
