@@ -123,11 +123,6 @@ double omen_threshold_max_f1(const double *prob, const int *y, size_t n);
  * there. Saved in the model metadata as "warn_curve". */
 #define OMEN_WARN_POINTS 100
 #define OMEN_WARN_SHARE_DEFAULT 0.10
-/* the shipped model's thresholds fire on a share of the newest commits of
- * the history (at least this many, or the test slice's size) */
-#ifndef OMEN_WARN_FIRE_COMMITS
-#define OMEN_WARN_FIRE_COMMITS 300
-#endif
 typedef struct {
 	int npoints;            /* 0: none (a model from before issue 12) */
 	size_t n_slice, positives;   /* calibration slice: precision and recall */

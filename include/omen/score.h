@@ -202,6 +202,7 @@ typedef struct {
 	size_t from_history;          /* of them, read after the model's head */
 	size_t replay_skipped;        /* commits after the head not read: over max_replay */
 	double psi[OMEN_NMETRICS];    /* NAN without a reference */
+	size_t n_train;               /* commits of the training slice */
 	double base_train;            /* inducing share of the training slice */
 	double base_recent;           /* of the newest labelled commits (NAN without labels) */
 	size_t recent_labelled;

@@ -299,8 +299,8 @@ int cmd_health(int argc, char **argv)
 		}
 		omen_buf_puts(&out, ",\"drift\":");
 		if (have_model) {
-			omen_buf_printf(&out, "{\"window\":%zu,\"from_history\":%zu,\"replay_skipped\":%zu,",
-				dr.window, dr.from_history, dr.replay_skipped);
+			omen_buf_printf(&out, "{\"window\":%zu,\"from_history\":%zu,\"replay_skipped\":%zu,"
+				"\"training_commits\":%zu,", dr.window, dr.from_history, dr.replay_skipped, dr.n_train);
 			json_num(&out, "base_rate_training", dr.base_train);
 			json_num(&out, "base_rate_recent", dr.base_recent);
 			omen_buf_printf(&out, "\"recent_labelled\":%zu,\"psi\":", dr.recent_labelled);

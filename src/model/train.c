@@ -746,17 +746,17 @@ int omen_model_train(omen_model **out, omen_train_report *rep, const omen_datase
 		if ((e = train_core(&m, &fi2, ds, idx, n_train + n_valid, NULL, 0, o,
 				fi.best_epoch > 0 ? fi.best_epoch : 1, 1)))
 			goto out;
-		/* the warning budget counts its share on the newest commits,
-		 * labelled or not: what the hook sees next (issue 12) */
-		size_t nfire = n < OMEN_WARN_FIRE_COMMITS ? n : OMEN_WARN_FIRE_COMMITS, *fire;
-		if (nfire < n_test && n_test <= n)
-			nfire = n_test;
+		/* the warning budget counts its share on every commit newer than
+		 * the last one this model trained on, labelled or not: the test
+		 * slice and the unlabelled newest commits, what the hook sees
+		 * next (issue 12) */
+		size_t first = idx[n_train + n_valid - 1] + 1, nfire = n - first, *fire;
 		if (!(fire = malloc((nfire + 1) * sizeof(size_t)))) {
 			e = omen_error_set(OMEN_ENOMEM, "out of memory");
 			goto out;
 		}
 		for (i = 0; i < nfire; i++)
-			fire[i] = n - nfire + i;
+			fire[i] = first + i;
 		e = calibrate(m, ds, idx + n_train + n_valid, n_test, threads, o->warn_share, fire, nfire);
 		free(fire);
 		if (e)

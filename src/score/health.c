@@ -206,10 +206,12 @@ static int on_change(const omen_change *c, void *payload)
 	return 0;
 }
 
-static int read_ref(ref_metric *rm, double *base, size_t *nrecent, const cJSON *dr)
+static int read_ref(ref_metric *rm, double *base, size_t *ntrain, size_t *nrecent, const cJSON *dr)
 {
 	const cJSON *ms, *v;
 	int j;
+	v = cJSON_GetObjectItemCaseSensitive(dr, "n_train");
+	*ntrain = cJSON_IsNumber(v) && v->valuedouble >= 0 ? (size_t)v->valuedouble : 0;
 	v = cJSON_GetObjectItemCaseSensitive(dr, "base_rate");
 	*base = cJSON_IsNumber(v) ? v->valuedouble : NAN;
 	ms = cJSON_GetObjectItemCaseSensitive(dr, "metrics");
@@ -285,7 +287,7 @@ int omen_drift_measure(omen_drift *out, omen_scorer *s, const omen_labels *label
 	dr = meta ? cJSON_GetObjectItemCaseSensitive(meta, "drift") : NULL;
 	if (!cJSON_IsObject(dr))
 		return 0;   /* a model from before issue 12 */
-	if (read_ref(rm, &out->base_train, &nrecent, dr))
+	if (read_ref(rm, &out->base_train, &out->n_train, &nrecent, dr))
 		return omen_error_set(OMEN_ECORRUPT, "bad drift reference in the model metadata");
 	out->have = 1;
 	/* the commits after the model's head, fed to its metrics state */
