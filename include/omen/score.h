@@ -210,9 +210,10 @@ typedef struct {
 /* PSI of each metric, training slice against the last `window` commits:
  * those after the model's head (read from history and fed to the model's
  * metrics state, at most max_replay of them, else none) and before them the
- * newest training commits from the reference. labels may be NULL. */
-int omen_drift_measure(omen_drift *out, omen_scorer *s, const omen_labels *labels, size_t window,
-	size_t max_replay);
+ * newest training commits from the reference. labels (may be NULL) read
+ * with omen_labels_brief_read for the newest `window` labelled commits. */
+int omen_drift_measure(omen_drift *out, omen_scorer *s, const omen_labels_brief *labels,
+	size_t window, size_t max_replay);
 
 /* ---- explanation --------------------------------------------------------- */
 typedef struct {

@@ -32,7 +32,7 @@ typedef struct {
 	size_t commits, inducing, clean, unknown;
 	char head[OMEN_OID_HEX + 1];
 	int64_t since;          /* -1 unknown (head not here) */
-	omen_labels *labels;
+	omen_labels_brief brief;
 } labels_info;
 
 typedef struct {
@@ -56,30 +56,23 @@ static double jget(const cJSON *o, const char *k)
 	return cJSON_IsNumber(v) ? v->valuedouble : NAN;
 }
 
-static void read_labels(labels_info *li, omen_repo *repo, time_t now)
+static void read_labels(labels_info *li, omen_repo *repo, time_t now, size_t window)
 {
-	size_t i;
 	memset(li, 0, sizeof(*li));
 	li->since = -1;
-	if (omen_labels_path(&li->path, repo, NULL) || access(li->path, R_OK) != 0) {
-		omen_error_clear();
-		return;
-	}
-	if (omen_labels_load(&li->labels, li->path)) {
+	if (omen_labels_path(&li->path, repo, NULL) || access(li->path, R_OK) != 0 ||
+	    omen_labels_brief_read(&li->brief, li->path, window)) {
 		omen_error_clear();
 		return;
 	}
 	li->have = 1;
 	li->age_days = file_age_days(li->path, now);
-	li->commits = omen_labels_count(li->labels);
-	for (i = 0; i < li->commits; i++) {
-		int l = omen_labels_at(li->labels, i)->label;
-		if (l > 0) li->inducing++;
-		else if (l == 0) li->clean++;
-		else li->unknown++;
-	}
-	if (omen_labels_head(li->labels)) {
-		snprintf(li->head, sizeof(li->head), "%s", omen_labels_head(li->labels));
+	li->commits = li->brief.commits;
+	li->inducing = li->brief.inducing;
+	li->clean = li->brief.clean;
+	li->unknown = li->brief.unknown;
+	if (li->brief.head[0]) {
+		snprintf(li->head, sizeof(li->head), "%s", li->brief.head);
 		if (omen_commits_since(&li->since, repo, li->head)) {
 			omen_error_clear();
 			li->since = -1;
@@ -208,7 +201,7 @@ int cmd_health(int argc, char **argv)
 		rc = cli_fatal(NULL);
 		goto done;
 	}
-	read_labels(&li, repo, now);
+	read_labels(&li, repo, now, (size_t)window);
 	read_eval(&ev, repo, now);
 	if (omen_score_model_path(&model_path, repo, NULL)) {
 		rc = cli_fatal(NULL);
@@ -221,7 +214,7 @@ int cmd_health(int argc, char **argv)
 		}
 		have_model = 1;
 		if (omen_freshness_check(&fr, sc, (int64_t)now) ||
-		    omen_drift_measure(&dr, sc, li.labels, (size_t)window, DRIFT_MAX_REPLAY)) {
+		    omen_drift_measure(&dr, sc, li.have ? &li.brief : NULL, (size_t)window, DRIFT_MAX_REPLAY)) {
 			rc = cli_fatal(NULL);
 			goto done;
 		}
@@ -421,7 +414,6 @@ done:
 	omen_buf_free(&out);
 	omen_buf_free(&notice);
 	omen_scorer_free(sc);
-	omen_labels_free(li.labels);
 	free(li.path);
 	free(ev.path);
 	cJSON_Delete(ev.json);

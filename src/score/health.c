@@ -251,8 +251,8 @@ static int read_ref(ref_metric *rm, double *base, size_t *ntrain, size_t *nrecen
 	return 0;
 }
 
-int omen_drift_measure(omen_drift *out, omen_scorer *s, const omen_labels *labels, size_t window,
-	size_t max_replay)
+int omen_drift_measure(omen_drift *out, omen_scorer *s, const omen_labels_brief *labels,
+	size_t window, size_t max_replay)
 {
 	const cJSON *meta = omen_model_meta(omen_scorer_model(s)), *dr;
 	ref_metric rm[OMEN_NMETRICS];
@@ -271,18 +271,9 @@ int omen_drift_measure(omen_drift *out, omen_scorer *s, const omen_labels *label
 	if (window < 1)
 		return omen_error_set(OMEN_EINVAL, "bad drift window: %zu commits", window);
 	/* base rate of the newest labelled commits, from the label file */
-	if (labels) {
-		size_t k = omen_labels_count(labels), got = 0, pos = 0;
-		while (k-- > 0 && got < window) {
-			const omen_label_rec *lr = omen_labels_at(labels, k);
-			if (lr->label < 0)
-				continue;
-			got++;
-			pos += lr->label > 0;
-		}
-		out->recent_labelled = got;
-		if (got)
-			out->base_recent = (double)pos / (double)got;
+	if (labels && labels->recent) {
+		out->recent_labelled = labels->recent;
+		out->base_recent = (double)labels->recent_inducing / (double)labels->recent;
 	}
 	dr = meta ? cJSON_GetObjectItemCaseSensitive(meta, "drift") : NULL;
 	if (!cJSON_IsObject(dr))
