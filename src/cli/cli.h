@@ -29,6 +29,13 @@ int cmd_version(int argc, char **argv);
 /* "git omen: error: <what>: <last library error>" (either part may be
  * absent) on stderr; returns 128. */
 int cli_fatal(const char *what);
+/* "git omen: error: <message>" on stderr; returns 128. The one writer of
+ * error lines (cli_fatal and the hook's push-not-checked lines use it). */
+int cli_error(const char *fmt, ...)
+#if defined(__GNUC__)
+	__attribute__((format(printf, 1, 2)))
+#endif
+	;
 /* "git omen <cmd>: <message>" usage error on stderr; returns 129. */
 int cli_usage(const char *cmd, const char *fmt, ...)
 #if defined(__GNUC__)

@@ -27,6 +27,8 @@ static const cli_command hook_cmd = {"hook", hook_usage, hook_footer, NULL, 0};
 #define HOOK_MAX_COMMITS 200
 
 /* ---- time limit: a hard stop that lets the push through ----------------- */
+/* The "error:" line is made ahead and written with write(2): a signal
+ * handler may not call stdio (so not cli_error). */
 static char alarm_msg[256];
 static size_t alarm_len;
 static volatile int alarm_exit;
@@ -72,7 +74,7 @@ static void disarm_alarm(void)
 static int hook_error(int block, const char *what)
 {
 	const char *msg = what ? what : omen_error_last();
-	fprintf(stderr, "git omen: error: %s; %s\n", *msg ? msg : "unknown error",
+	cli_error("%s; %s", *msg ? msg : "unknown error",
 		block ? "push stopped (omen.onError=block)" : "push not checked (scores are advisory)");
 	return block ? EXIT_RISK : EXIT_OK;
 }

@@ -35,14 +35,28 @@ static void usage(FILE *fp)
 		"'git omen <command> --help' shows a command's options; 'man git-omen' the manual.\n");
 }
 
+static void tagged(const char *tag, const char *fmt, va_list ap)
+{
+	fprintf(stderr, "git omen: %s: ", tag);
+	vfprintf(stderr, fmt, ap);
+	fputc('\n', stderr);
+}
+
+int cli_error(const char *fmt, ...)
+{
+	va_list ap;
+	va_start(ap, fmt);
+	tagged("error", fmt, ap);
+	va_end(ap);
+	return EXIT_FATAL;
+}
+
 int cli_fatal(const char *what)
 {
 	const char *msg = omen_error_last();
 	if (what && *what)
-		fprintf(stderr, "git omen: error: %s%s%s\n", what, *msg ? ": " : "", msg);
-	else
-		fprintf(stderr, "git omen: error: %s\n", *msg ? msg : "unknown error");
-	return EXIT_FATAL;
+		return cli_error("%s%s%s", what, *msg ? ": " : "", msg);
+	return cli_error("%s", *msg ? msg : "unknown error");
 }
 
 int cli_usage(const char *cmd, const char *fmt, ...)
@@ -54,13 +68,6 @@ int cli_usage(const char *cmd, const char *fmt, ...)
 	va_end(ap);
 	fprintf(stderr, "\n");
 	return EXIT_USAGE;
-}
-
-static void tagged(const char *tag, const char *fmt, va_list ap)
-{
-	fprintf(stderr, "git omen: %s: ", tag);
-	vfprintf(stderr, fmt, ap);
-	fputc('\n', stderr);
 }
 
 void cli_warning(const char *fmt, ...)
