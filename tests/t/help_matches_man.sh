@@ -5,7 +5,8 @@
 # with "-"), and every number in a help line's "(default ...)" appears in
 # that option's paragraph of the page. The subcommands are the ones
 # `git-omen --help` lists. The man pages are rendered with mandoc
-# (mandoc(1)), so man(7) and mdoc(7) sources both work. Run by tests/run-shell.sh with $OMEN and $ROOT.
+# (mandoc(1)), so man(7) and mdoc(7) sources both work. Run by
+# tests/run-shell.sh with $OMEN and $ROOT.
 set -u
 : "${OMEN:?}" "${ROOT:?}"
 command -v mandoc >/dev/null || { echo "help_matches_man: mandoc is not installed" >&2; exit 1; }
