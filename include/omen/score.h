@@ -146,7 +146,8 @@ float omen_scorer_threshold(const omen_scorer *s);
 /* About which share of commits the threshold fires on (the model's
  * calibration slice), NAN for a model without a warning curve. */
 double omen_scorer_fires(const omen_scorer *s);
-/* Notices for the user (one line each, "git omen: notice: ..."), NULL if none. */
+/* Notices for the user, one line each (without the "git omen: notice: "
+ * tag the command adds), NULL if none. */
 const char *omen_scorer_notices(const omen_scorer *s);
 /* The warning budget settings: omen.warnShare (default
  * OMEN_WARN_SHARE_DEFAULT) and omen.warnPrecision (-1 unset); a value

@@ -10,18 +10,16 @@
 #include <unistd.h>
 #include <cjson/cJSON.h>
 #include "cli/cli.h"
+#include "cli/options.h"
 
 static const char health_usage[] =
-	"usage: git omen health [--format text|json]\n"
+	"usage: git omen health [--format <fmt>]\n"
 	"\n"
 	"Shows the labels, the model, their ages and the commits since each, the\n"
 	"last evaluation, the warning budget, and drift: the base rate of recent\n"
 	"labelled commits and the population stability index of each change metric\n"
 	"between the training slice and the last omen.driftCommits commits (default\n"
-	"300). Adds a notice when the model is stale (omen.staleDays, omen.staleCommits).\n"
-	"\n"
-	"  --format <fmt>      text (default) or json\n"
-	"  -h, --help          show this help\n";
+	"300). Adds a notice when the model is stale (omen.staleDays, omen.staleCommits).\n";
 
 #define DRIFT_MAX_REPLAY 5000
 
@@ -148,7 +146,7 @@ static void json_num(omen_buf *b, const char *k, double v)
 
 int cmd_health(int argc, char **argv)
 {
-	const char *format = "text", *val;
+	const char *format = "text";
 	omen_repo *repo = NULL;
 	omen_scorer *sc = NULL;
 	labels_info li;
@@ -158,7 +156,7 @@ int cmd_health(int argc, char **argv)
 	omen_buf out = OMEN_BUF_INIT, notice = OMEN_BUF_INIT;
 	omen_score_opts so = OMEN_SCORE_OPTS_INIT;
 	char *base_path = NULL, *model_path = NULL;
-	int i, r, rc = EXIT_OK, json, have_model = 0, j;
+	int rc = EXIT_OK, json, have_model = 0, j;
 	int64_t window = 300;
 	time_t now = time(NULL);
 	double prec = NAN, rec = NAN;
@@ -167,20 +165,22 @@ int cmd_health(int argc, char **argv)
 	memset(&ev, 0, sizeof(ev));
 	memset(&fr, 0, sizeof(fr));
 	memset(&dr, 0, sizeof(dr));
-	for (i = 1; i < argc; i++) {
-		const char *a = argv[i];
-		if (!strcmp(a, "-h") || !strcmp(a, "--help")) {
-			fputs(health_usage, stdout);
-			return EXIT_OK;
-		} else if ((r = cli_opt_value(argc, argv, &i, "--format", &val))) {
-			if (r < 0)
-				return cli_usage("health", "option '%s' needs a value", argv[i]);
-			if (strcmp(val, "text") && strcmp(val, "json"))
-				return cli_usage("health", "--format: '%s' is not text or json", val);
-			format = val;
-		} else {
-			return cli_usage("health", "unknown argument '%s'", a);
+	{
+		const cli_use uses[] = {
+			{&cli_opt_format, &format, cli_formats_text_json, NULL, NULL},
+		};
+		const cli_command cmd = {"health", health_usage, NULL, uses, 1};
+		const char **pos = NULL;
+		size_t npos = 0;
+		if ((rc = cli_parse(&cmd, argc, argv, &pos, &npos)) >= 0)
+			return rc;
+		rc = EXIT_OK;
+		if (npos) {
+			rc = cli_usage("health", "takes no arguments ('%s')", pos[0]);
+			free(pos);
+			return rc;
 		}
+		free(pos);
 	}
 	json = !strcmp(format, "json");
 	if (omen_repo_open(&repo, NULL)) {
@@ -192,9 +192,8 @@ int cmd_health(int argc, char **argv)
 		goto done;
 	}
 	if (window < 1 || window > 100000) {
-		fprintf(stderr, "git omen: bad config value 'omen.driftCommits': '%lld' is not a count "
-			"from 1 to 100000\n", (long long)window);
-		rc = EXIT_FATAL;
+		rc = cli_error("bad config value 'omen.driftCommits': '%lld' is not a count from 1 "
+			"to 100000", (long long)window);
 		goto done;
 	}
 	if (omen_config_string(&base_path, repo, "omen.baseModel")) {
@@ -311,15 +310,12 @@ int cmd_health(int argc, char **argv)
 		}
 		omen_buf_puts(&out, ",\"notices\":[");
 		{
-			/* one string per notice line, without the "git omen: notice: " */
+			/* one string per notice line */
 			const char *p = notice.ptr ? notice.ptr : "", *nl;
 			int first = 1;
 			while (*p && (nl = strchr(p, '\n'))) {
-				const char *t = p;
-				if (!strncmp(t, "git omen: notice: ", 18))
-					t += 18;
 				omen_buf_puts(&out, first ? "" : ",");
-				omen_buf_put_json_string(&out, t, (size_t)(nl - t));
+				omen_buf_put_json_string(&out, p, (size_t)(nl - p));
 				first = 0;
 				p = nl + 1;
 			}
@@ -407,7 +403,7 @@ int cmd_health(int argc, char **argv)
 		omen_buf_puts(&out, "scores are advisory\n");
 	}
 	if (notice.len && !json)
-		fwrite(notice.ptr, 1, notice.len, stderr);
+		cli_notices(notice.ptr);
 	if (out.len && fwrite(out.ptr, 1, out.len, stdout) != out.len)
 		rc = cli_fatal("cannot write standard output");
 done:

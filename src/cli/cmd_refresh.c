@@ -21,21 +21,27 @@
 #include <unistd.h>
 #include <cjson/cJSON.h>
 #include "cli/cli.h"
+#include "cli/options.h"
 
 static const char refresh_usage[] =
-	"usage: git omen refresh [--budget <seconds>] [--min-new <n>] [--wait] [--verbose]\n"
+	"usage: git omen refresh [<options>]\n"
 	"\n"
 	"Relabels incrementally and retrains only when at least omen.refreshMinLabels\n"
 	"(default 50) commits were newly labelled since the model was trained. Runs at\n"
-	"low priority and prints nothing unless it retrained or failed, so it is safe\n"
-	"from cron, a systemd timer or a git hook ('git omen hook install --refresh').\n"
-	"\n"
-	"  --budget <s>        stop after s seconds (default omen.refreshBudget, 3600);\n"
-	"                      what was not finished keeps its old files\n"
-	"  --min-new <n>       new labelled commits needed to retrain\n"
-	"  --wait              wait for a running 'git omen train' instead of skipping\n"
-	"  --verbose           also say why nothing was done\n"
-	"  -h, --help          show this help\n";
+	"low priority and prints nothing unless it retrained, skipped or failed, so it\n"
+	"is safe from cron, a systemd timer or a git hook (the post-merge hook of\n"
+	"'git omen hook install --refresh').\n";
+
+static const cli_option opt_budget = {
+	"--budget", CLI_INT, "<s>", 1, 7 * 86400, "a number of seconds from 1 to 604800",
+	"stop after s seconds (default omen.refreshBudget, 3600)"};
+static const cli_option opt_min_new = {
+	"--min-new", CLI_INT, "<n>", 1, 100000000, "a count of at least 1",
+	"new labelled commits needed to retrain (default omen.refreshMinLabels, 50)"};
+static const cli_option opt_wait = {
+	"--wait", CLI_FLAG, NULL, 0, 0, NULL, "wait for a running 'git omen train' instead of skipping"};
+static const cli_option opt_verbose = {
+	"--verbose", CLI_FLAG, NULL, 0, 0, NULL, "also say why nothing was done"};
 
 #define REFRESH_NICE 10
 #define REFRESH_OUTPUT_MAX (1u << 20)
@@ -171,49 +177,44 @@ static void print_tail(const omen_buf *b)
 
 int cmd_refresh(int argc, char **argv)
 {
-	const char *val;
 	omen_repo *repo = NULL;
 	omen_buf out = OMEN_BUF_INIT;
 	char *lock_path = NULL;
-	int i, r, rc = EXIT_OK, wait = 0, verbose = 0, lock_fd = -1, e, budget_set = 0, min_set = 0;
-	long long n;
+	int r, rc = EXIT_OK, wait = 0, verbose = 0, lock_fd = -1, e, budget_set = 0, min_set = 0;
 	int64_t budget = 3600, min_new = 50;
 	long before, after, trained;
 	double t0 = omen_now(), deadline, waited = 0;
 
-	for (i = 1; i < argc; i++) {
-		const char *a = argv[i];
-		if (!strcmp(a, "-h") || !strcmp(a, "--help")) {
-			fputs(refresh_usage, stdout);
-			return EXIT_OK;
-		} else if (!strcmp(a, "--wait")) {
-			wait = 1;
-		} else if (!strcmp(a, "--verbose") || !strcmp(a, "-v")) {
-			verbose = 1;
-		} else if ((r = cli_opt_value(argc, argv, &i, "--budget", &val))) {
-			if (r < 0)
-				return cli_usage("refresh", "option '%s' needs a value", argv[i]);
-			if (cli_parse_int(&n, val, 1, 7 * 86400))
-				return cli_usage("refresh", "--budget: '%s' is not a number of seconds from 1 "
-					"to 604800", val);
-			budget = n;
-			budget_set = 1;
-		} else if ((r = cli_opt_value(argc, argv, &i, "--min-new", &val))) {
-			if (r < 0)
-				return cli_usage("refresh", "option '%s' needs a value", argv[i]);
-			if (cli_parse_int(&n, val, 1, 100000000))
-				return cli_usage("refresh", "--min-new: '%s' is not a count of at least 1", val);
-			min_new = n;
-			min_set = 1;
-		} else {
-			return cli_usage("refresh", "unknown argument '%s'", a);
+	{
+		long long bud = 0, mn = 0;
+		const cli_use uses[] = {
+			{&opt_budget, &bud, NULL, NULL, &budget_set},
+			{&opt_min_new, &mn, NULL, NULL, &min_set},
+			{&opt_wait, &wait, NULL, NULL, NULL},
+			{&opt_verbose, &verbose, NULL, NULL, NULL},
+		};
+		const cli_command cmd = {"refresh", refresh_usage, NULL, uses, sizeof(uses) / sizeof(uses[0])};
+		const char **pos = NULL;
+		size_t npos = 0;
+		if ((rc = cli_parse(&cmd, argc, argv, &pos, &npos)) >= 0)
+			return rc;
+		rc = EXIT_OK;
+		if (npos) {
+			rc = cli_usage("refresh", "takes no arguments ('%s')", pos[0]);
+			free(pos);
+			return rc;
 		}
+		free(pos);
+		if (budget_set)
+			budget = bud;
+		if (min_set)
+			min_new = mn;
 	}
 	/* low priority for us and the children (never raised back) */
 	errno = 0;
 	r = getpriority(PRIO_PROCESS, 0);
 	if (!(r == -1 && errno) && r < REFRESH_NICE && setpriority(PRIO_PROCESS, 0, REFRESH_NICE))
-		fprintf(stderr, "git omen: notice: cannot lower the priority: %s\n", strerror(errno));
+		cli_notice("cannot lower the priority: %s", strerror(errno));
 	if (omen_repo_open(&repo, NULL)) {
 		rc = cli_fatal(NULL);
 		goto done;
@@ -224,10 +225,9 @@ int cmd_refresh(int argc, char **argv)
 		goto done;
 	}
 	if (budget < 1 || min_new < 1) {
-		fprintf(stderr, "git omen: bad config value '%s': '%lld' is not a positive number\n",
+		rc = cli_error("bad config value '%s': '%lld' is not a positive number",
 			budget < 1 ? "omen.refreshBudget" : "omen.refreshMinLabels",
 			(long long)(budget < 1 ? budget : min_new));
-		rc = EXIT_FATAL;
 		goto done;
 	}
 	deadline = t0 + (double)budget;
@@ -272,15 +272,13 @@ int cmd_refresh(int argc, char **argv)
 	}
 	if (r != 0) {
 		print_tail(&out);
-		fprintf(stderr, "git omen: refresh: 'git omen label' failed (exit %d)\n", r);
-		rc = EXIT_FATAL;
+		rc = cli_error("refresh: 'git omen label' failed (exit %d)", r);
 		goto done;
 	}
 	after = labelled_count(repo);
 	trained = model_labelled(repo);
 	if (after < 0) {
-		fprintf(stderr, "git omen: refresh: cannot read the labels after labelling\n");
-		rc = EXIT_FATAL;
+		rc = cli_error("refresh: cannot read the labels after labelling");
 		goto done;
 	}
 	if (trained >= 0 && after - trained < min_new) {
@@ -310,8 +308,7 @@ int cmd_refresh(int argc, char **argv)
 				goto done;
 			}
 			print_tail(&out);
-			fprintf(stderr, "git omen: refresh: 'git omen train' failed (exit %d)\n", r);
-			rc = EXIT_FATAL;
+			rc = cli_error("refresh: 'git omen train' failed (exit %d)", r);
 			goto done;
 		}
 		{

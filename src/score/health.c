@@ -146,13 +146,13 @@ int omen_freshness_check(omen_freshness *out, omen_scorer *s, int64_t now)
 void omen_freshness_text(omen_buf *out, const omen_freshness *f)
 {
 	if (f->stale & OMEN_STALE_FOREIGN) {
-		omen_buf_puts(out, "git omen: notice: the model was trained on another history (its head "
+		omen_buf_puts(out, "the model was trained on another history (its head "
 			"is not in this repository); run 'git omen label' and 'git omen train' here\n");
 		return;
 	}
 	if (!(f->stale & (OMEN_STALE_AGE | OMEN_STALE_BEHIND)))
 		return;
-	omen_buf_puts(out, "git omen: notice: the model is stale: ");
+	omen_buf_puts(out, "the model is stale: ");
 	if (f->stale & OMEN_STALE_AGE)
 		omen_buf_printf(out, "trained %.0f days ago (omen.staleDays %lld)", floor(f->age_days),
 			(long long)f->stale_days);

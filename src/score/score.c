@@ -172,7 +172,7 @@ static int warn_budget(omen_scorer *s, omen_repo *r, int explicit_thr)
 			return e;
 		s->threshold = (float)ch.threshold;
 		if (ch.unmet)
-			omen_buf_printf(&s->notices, "git omen: notice: the precision target %g "
+			omen_buf_printf(&s->notices, "the precision target %g "
 				"(omen.warnPrecision) is out of reach on the model's calibration slice; "
 				"warning on the riskiest %.0f%% of commits instead (precision %.2f there)\n",
 				prec, 100.0 * ch.share, ch.precision);
