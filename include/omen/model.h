@@ -128,6 +128,9 @@ double omen_threshold_max_f1(const double *prob, const int *y, size_t n);
  * there. Saved in the model metadata as "warn_curve". */
 #define OMEN_WARN_POINTS 100
 #define OMEN_WARN_SHARE_DEFAULT 0.10
+/* the shipped model's firing slice: the commits newer than its training,
+ * at most this many of the newest */
+#define OMEN_WARN_FIRE_MAX 1000
 typedef struct {
 	int npoints;            /* 0: none (a model from before issue 12) */
 	size_t n_slice, positives;   /* calibration slice: precision and recall */

@@ -750,7 +750,10 @@ int omen_model_train(omen_model **out, omen_train_report *rep, const omen_datase
 		 * the last one this model trained on, labelled or not: the test
 		 * slice and the unlabelled newest commits, what the hook sees
 		 * next (issue 12) */
-		size_t first = idx[n_train + n_valid - 1] + 1, nfire = n - first, *fire;
+		size_t first = idx[n_train + n_valid - 1] + 1, nfire, *fire;
+		if (n - first > OMEN_WARN_FIRE_MAX)
+			first = n - OMEN_WARN_FIRE_MAX;   /* the newest of them */
+		nfire = n - first;
 		if (!(fire = malloc((nfire + 1) * sizeof(size_t)))) {
 			e = omen_error_set(OMEN_ENOMEM, "out of memory");
 			goto out;
