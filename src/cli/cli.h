@@ -32,6 +32,9 @@ int cli_opt_value(int argc, char **argv, int *i, const char *name, const char **
 /* A decimal integer from lo to hi, the whole of v; 0, or -1 when v is not one. */
 int cli_parse_int(long long *out, const char *v, long long lo, long long hi);
 /* Whether standard output should get colour (a terminal, NO_COLOR unset). */
+/* Absent blobs (issue 12): the fetch notice and the count of file changes
+ * read without lines, on stderr, once at the end of a command. */
+void cli_blob_notice(omen_repo *r);
 int cli_use_color(FILE *fp);
 
 #endif

@@ -76,6 +76,16 @@ static void print_text(const omen_label_summary *s, const char *path)
 	}
 	if (s->shallow)
 		printf("shallow history: %zu boundary commits are unknown\n", s->boundary);
+	if (s->blobs.wanted)
+		printf("blobs       %zu absent in %zu commits (found in %.1f s); %zu fetched from '%s' "
+			"in %zu batches (%.1f s)\n", s->blobs.wanted, s->blobs.scanned, s->blobs.scan_seconds,
+			s->blobs.fetched, s->blobs.remote[0] ? s->blobs.remote : "-", s->blobs.batches,
+			s->blobs.fetch_seconds);
+	if (s->files_absent)
+		printf("absent      %zu of %zu file changes (%.1f%%) had a blob missing: no lines, their "
+			"commits never clean, origins in those files unknown from there on; %zu fixes "
+			"unreadable\n", s->files_absent, s->file_changes,
+			100.0 * share(s->files_absent, s->file_changes), s->fixes_absent);
 	if (path)
 		printf("wrote %s\n", path);
 }
@@ -88,13 +98,19 @@ static void print_json(const omen_label_summary *s)
 		"\"fixes_add_only\":%zu,\"add_only_share\":%.4f,\"fixes_skipped_large\":%zu,"
 		"\"named_links\":%zu,\"latency_days\":[%.3f,%.3f,%.3f],\"shallow\":%s,\"boundary\":%zu,"
 		"\"list_entries\":%zu,\"list_unmatched\":%zu,\"new_commits\":%zu,\"reused_commits\":%zu,"
-		"\"state_peak_bytes\":%zu,\"seconds\":%.3f}\n",
+		"\"state_peak_bytes\":%zu,\"blobs\":{\"partial\":%s,\"scanned_commits\":%zu,"
+		"\"absent\":%zu,\"fetched\":%zu,\"batches\":%zu,\"scan_seconds\":%.3f,"
+		"\"fetch_seconds\":%.3f,\"skipped_files\":%zu,\"file_changes\":%zu,"
+		"\"fixes_unreadable\":%zu},\"seconds\":%.3f}\n",
 		mode_name(s->mode), s->head, s->commits, s->merges, s->inducing, s->clean, s->unknown,
 		s->fixes, s->fixes_by_pattern, s->fixes_by_list, s->fixes_by_issue, s->fixes_by_named,
 		s->fixes_traced, s->traced_lines, s->fixes_add_only, share(s->fixes_add_only, s->fixes),
 		s->fixes_skipped_large, s->named_links, s->latency_days_q[0], s->latency_days_q[1],
 		s->latency_days_q[2], s->shallow ? "true" : "false", s->boundary, s->list_entries,
-		s->list_unmatched, s->new_commits, s->reused_commits, s->state_peak_bytes, s->seconds);
+		s->list_unmatched, s->new_commits, s->reused_commits, s->state_peak_bytes,
+		s->blobs.partial ? "true" : "false", s->blobs.scanned, s->blobs.wanted, s->blobs.fetched,
+		s->blobs.batches, s->blobs.scan_seconds, s->blobs.fetch_seconds, s->files_absent,
+		s->file_changes, s->fixes_absent, s->seconds);
 }
 
 int cmd_label(int argc, char **argv)
@@ -188,7 +204,12 @@ int cmd_label(int argc, char **argv)
 	if (s.list_unmatched)
 		fprintf(stderr, "git omen: warning: %zu of %zu fix list entries matched no commit\n",
 			s.list_unmatched, s.list_entries);
-	if (s.untraced_missing)
+	if (s.blobs.notice[0])
+		fprintf(stderr, "git omen: notice: %s\n", s.blobs.notice);
+	if (s.untraced_missing && s.files_absent)
+		fprintf(stderr, "git omen: notice: %zu deleted lines of fixes have unknown origins "
+			"(files with absent blobs)\n", s.untraced_missing);
+	else if (s.untraced_missing)
 		fprintf(stderr, "git omen: warning: %zu deleted lines had no origin state\n", s.untraced_missing);
 	if (!strcmp(format, "json"))
 		print_json(&s);

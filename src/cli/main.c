@@ -144,3 +144,16 @@ int main(int argc, char **argv)
 	fprintf(stderr, "git omen: '%s' is not an omen command; see 'git omen --help'\n", argv[1]);
 	return EXIT_USAGE;
 }
+
+void cli_blob_notice(omen_repo *r)
+{
+	const omen_blob_stats *st;
+	if (!r)
+		return;
+	st = omen_repo_blob_stats(r);
+	if (st->notice[0])
+		fprintf(stderr, "git omen: notice: %s\n", st->notice);
+	if (st->skipped_files)
+		fprintf(stderr, "git omen: notice: %zu file changes with an absent blob were read "
+			"without lines (omen.missingBlobs)\n", st->skipped_files);
+}
