@@ -176,6 +176,8 @@ typedef struct {
 	size_t scanned;           /* commits the pre-passes looked at */
 	size_t wanted;            /* absent blobs they found (distinct) */
 	size_t fetched;           /* of those, present after the fetches */
+	size_t trees_wanted;      /* absent root trees (a --filter=tree:0 clone), fetched first */
+	size_t trees_fetched;
 	size_t batches;           /* git fetch runs */
 	double scan_seconds;      /* pre-pass time */
 	double fetch_seconds;     /* git fetch time */

@@ -81,6 +81,9 @@ static void print_text(const omen_label_summary *s, const char *path)
 			"in %zu batches (%.1f s)\n", s->blobs.wanted, s->blobs.scanned, s->blobs.scan_seconds,
 			s->blobs.fetched, s->blobs.remote[0] ? s->blobs.remote : "-", s->blobs.batches,
 			s->blobs.fetch_seconds);
+	if (s->blobs.trees_wanted)
+		printf("trees       %zu absent root trees (a tree-less clone), %zu fetched first\n",
+			s->blobs.trees_wanted, s->blobs.trees_fetched);
 	if (s->files_absent)
 		printf("absent      %zu of %zu file changes (%.1f%%) had a blob missing: no lines, their "
 			"commits never clean, origins in those files unknown from there on; %zu fixes "
@@ -99,7 +102,7 @@ static void print_json(const omen_label_summary *s)
 		"\"named_links\":%zu,\"latency_days\":[%.3f,%.3f,%.3f],\"shallow\":%s,\"boundary\":%zu,"
 		"\"list_entries\":%zu,\"list_unmatched\":%zu,\"new_commits\":%zu,\"reused_commits\":%zu,"
 		"\"state_peak_bytes\":%zu,\"blobs\":{\"partial\":%s,\"scanned_commits\":%zu,"
-		"\"absent\":%zu,\"fetched\":%zu,\"batches\":%zu,\"scan_seconds\":%.3f,"
+		"\"absent\":%zu,\"fetched\":%zu,\"trees_absent\":%zu,\"trees_fetched\":%zu,\"batches\":%zu,\"scan_seconds\":%.3f,"
 		"\"fetch_seconds\":%.3f,\"skipped_files\":%zu,\"file_changes\":%zu,"
 		"\"fixes_unreadable\":%zu},\"seconds\":%.3f}\n",
 		mode_name(s->mode), s->head, s->commits, s->merges, s->inducing, s->clean, s->unknown,
@@ -109,7 +112,7 @@ static void print_json(const omen_label_summary *s)
 		s->latency_days_q[2], s->shallow ? "true" : "false", s->boundary, s->list_entries,
 		s->list_unmatched, s->new_commits, s->reused_commits, s->state_peak_bytes,
 		s->blobs.partial ? "true" : "false", s->blobs.scanned, s->blobs.wanted, s->blobs.fetched,
-		s->blobs.batches, s->blobs.scan_seconds, s->blobs.fetch_seconds, s->files_absent,
+		s->blobs.trees_wanted, s->blobs.trees_fetched, s->blobs.batches, s->blobs.scan_seconds, s->blobs.fetch_seconds, s->files_absent,
 		s->file_changes, s->fixes_absent, s->seconds);
 }
 

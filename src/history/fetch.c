@@ -123,17 +123,15 @@ static int scan_commit(hist_differ *d, omen_change *scratch, oid_set *s, const g
 	}
 	if (git_commit_parentcount(cm) && git_odb_exists(d->odb, git_commit_parent_id(cm, 0)) &&
 	    (git_commit_parent(&parent, cm, 0) < 0 || git_commit_tree(&ta, parent) < 0)) {
-		git_oid_tostr(hex, sizeof(hex), id);
-		rc = hist_git_fail("cannot read parent of commit", hex);
+		git_error_clear();
 		goto out;
 	}
-	if (git_commit_tree(&tb, cm) < 0) {
-		git_oid_tostr(hex, sizeof(hex), id);
-		rc = hist_git_fail("cannot read tree of commit", hex);
+	if (git_commit_tree(&tb, cm) < 0 || hist_list_trees(d, scratch, ta, tb) < 0) {
+		/* a tree still absent: the walk reports it, with its path */
+		git_error_clear();
+		omen_error_clear();
 		goto out;
 	}
-	if ((rc = hist_list_trees(d, scratch, ta, tb)) < 0)
-		goto out;
 	for (size_t i = 0; i < d->nents && !rc; i++) {
 		const hist_entry *e = &d->ents[i];
 		if (e->old_mode && blob_side(e->old_mode))
@@ -280,25 +278,29 @@ static int usable_remote(const char *name)
 	return 1;
 }
 
-/* Fetches s's ids, batch by batch, from the promisor remotes in order; a
- * remote that fails is dropped for the rest (one line in the notice). */
-static int fetch_all(omen_repo *r, hist_differ *d, const oid_set *s, omen_blob_stats *st)
+/* Fetches s's ids (what: "blobs" or "trees"), batch by batch, from the
+ * promisor remotes in order; a remote that fails is dropped for the rest
+ * (one line in st->notice). *got: how many of them are present after. */
+static int fetch_all(omen_repo *r, hist_differ *d, const oid_set *s, const char *what,
+	omen_blob_stats *st, size_t *got)
 {
-	char **remotes = NULL, err[400];
+	char **remotes = NULL, err[400], label[32];
 	size_t nr = 0, ri = 0, done = 0;
 	omen_progress prog;
 	double t0 = omen_now();
 	int rc;
+	*got = 0;
 	if ((rc = hist_repo_promisors(&remotes, &nr, r)) < 0)
 		return rc;
 	while (ri < nr && !usable_remote(remotes[ri]))
 		ri++;
 	if (ri == nr) {
-		snprintf(st->notice, sizeof(st->notice), "%zu blobs are absent and no promisor remote "
-			"is configured to fetch them from; skipping them", s->n);
+		snprintf(st->notice, sizeof(st->notice), "%zu %s are absent and no promisor remote "
+			"is configured to fetch them from; skipping them", s->n, what);
 		goto out;
 	}
-	omen_progress_start(&prog, "fetch absent blobs", s->n);
+	snprintf(label, sizeof(label), "fetch absent %s", what);
+	omen_progress_start(&prog, label, s->n);
 	omen_progress_update(&prog, 0, NULL);
 	while (done < s->n && ri < nr) {
 		size_t k = s->n - done < FETCH_BATCH ? s->n - done : FETCH_BATCH;
@@ -310,15 +312,15 @@ static int fetch_all(omen_repo *r, hist_differ *d, const oid_set *s, omen_blob_s
 		if (rc) {
 			/* this remote cannot serve: the next one, or the skip path */
 			rc = 0;
-			snprintf(st->notice, sizeof(st->notice), "cannot fetch absent blobs from promisor "
-				"remote '%s': %s; skipping %zu absent blobs", remotes[ri], err, s->n - done);
+			snprintf(st->notice, sizeof(st->notice), "cannot fetch absent %s from promisor "
+				"remote '%s': %s; skipping %zu absent %s", what, remotes[ri], err, s->n - done, what);
 			do
 				ri++;
 			while (ri < nr && !usable_remote(remotes[ri]));
 			continue;
 		}
 		done += k;
-		omen_progress_update(&prog, done, "blobs");
+		omen_progress_update(&prog, done, what);
 	}
 	omen_progress_end(&prog);
 	if (rc < 0)
@@ -326,18 +328,51 @@ static int fetch_all(omen_repo *r, hist_differ *d, const oid_set *s, omen_blob_s
 	/* what arrived: the packs are new, so look again after a refresh */
 	git_odb_refresh(d->odb);
 	for (size_t i = 0; i < s->n; i++)
-		st->fetched += git_odb_exists_ext(d->odb, &s->ids[i], GIT_ODB_LOOKUP_NO_REFRESH) != 0;
-	if (done == s->n && st->fetched < s->n)
+		*got += git_odb_exists_ext(d->odb, &s->ids[i], GIT_ODB_LOOKUP_NO_REFRESH) != 0;
+	if (done == s->n && *got < s->n)
 		snprintf(st->notice, sizeof(st->notice), "promisor remote '%s' did not send %zu of %zu "
-			"absent blobs; skipping them", st->remote, s->n - st->fetched, s->n);
-	else if (st->notice[0] && st->fetched)
+			"absent %s; skipping them", st->remote, s->n - *got, s->n, what);
+	else if (st->notice[0] && *got)
 		/* a later remote served what the first one could not */
 		snprintf(st->notice + strlen(st->notice), sizeof(st->notice) - strlen(st->notice),
-			" (%zu fetched from '%s')", st->fetched, st->remote);
+			" (%zu fetched from '%s')", *got, st->remote);
 out:
 	st->fetch_seconds += omen_now() - t0;
 	hist_strs_free(remotes, nr);
 	return rc;
+}
+
+/* The root trees of the commits (and of their first parents) that the
+ * object database lacks: a tree-less partial clone (--filter=tree:0).
+ * A fetch of a root tree with --filter=blob:none brings its subtrees. */
+static int absent_trees(hist_differ *d, oid_set *t, const git_oid *ids, size_t n)
+{
+	int rc = 0;
+	for (size_t i = 0; i < n && !rc; i++) {
+		git_commit *cm = NULL, *parent = NULL;
+		if (git_commit_lookup(&cm, d->repo, &ids[i]) < 0) {
+			git_error_clear();
+			continue; /* the walk reports it */
+		}
+		if (!git_odb_exists_ext(d->odb, git_commit_tree_id(cm), GIT_ODB_LOOKUP_NO_REFRESH))
+			rc = set_add(t, git_commit_tree_id(cm));
+		if (!rc && git_commit_parentcount(cm) && git_commit_parent(&parent, cm, 0) == 0 &&
+		    !git_odb_exists_ext(d->odb, git_commit_tree_id(parent), GIT_ODB_LOOKUP_NO_REFRESH))
+			rc = set_add(t, git_commit_tree_id(parent));
+		git_error_clear();
+		git_commit_free(parent);
+		git_commit_free(cm);
+	}
+	return rc;
+}
+
+static void refresh_repo(omen_repo *r)
+{
+	git_odb *odb = NULL;
+	/* the walk's own handle must see the new packs too */
+	if (git_repository_odb(&odb, omen_repo_git(r)) == 0)
+		git_odb_refresh(odb);
+	git_odb_free(odb);
 }
 
 int omen_history_prefetch(omen_repo *r, const omen_walk_opts *o, const git_oid *ids, size_t n)
@@ -346,9 +381,10 @@ int omen_history_prefetch(omen_repo *r, const omen_walk_opts *o, const git_oid *
 	omen_blob_stats *st = hist_repo_stats(r);
 	hist_differ d;
 	omen_change scratch;
-	oid_set s = {0};
+	oid_set s = {0}, t = {0};
 	omen_progress prog;
 	double t0;
+	size_t got = 0;
 	int rc;
 	if ((rc = hist_resolve_opts(&ro, r, o)) < 0)
 		return rc;
@@ -359,6 +395,17 @@ int omen_history_prefetch(omen_repo *r, const omen_walk_opts *o, const git_oid *
 	d.detect_renames = 0;
 	omen_change_init(&scratch);
 	t0 = omen_now();
+	if ((rc = absent_trees(&d, &t, ids, n)) < 0)
+		goto out;
+	if (t.n) {
+		st->scan_seconds += omen_now() - t0;
+		if ((rc = fetch_all(r, &d, &t, "trees", st, &got)) < 0)
+			goto out;
+		st->trees_wanted += t.n;
+		st->trees_fetched += got;
+		refresh_repo(r);
+		t0 = omen_now();
+	}
 	omen_progress_start(&prog, "find absent blobs", n);
 	for (size_t i = 0; i < n && !rc; i++) {
 		rc = scan_commit(&d, &scratch, &s, &ids[i]);
@@ -367,28 +414,24 @@ int omen_history_prefetch(omen_repo *r, const omen_walk_opts *o, const git_oid *
 	omen_progress_end(&prog);
 	st->scanned += n;
 	st->scan_seconds += omen_now() - t0;
-	if (!rc && s.n) {
-		size_t before = st->fetched;
-		omen_blob_stats one = *st;
-		one.fetched = 0;
-		one.notice[0] = '\0';
-		rc = fetch_all(r, &d, &s, &one);
-		/* counts add up over the handle's life; the notice is the last one */
-		one.wanted = st->wanted + s.n;
-		one.fetched = before + one.fetched;
-		if (!one.notice[0])
-			snprintf(one.notice, sizeof(one.notice), "%s", st->notice);
-		*st = one;
-		/* the walk's own handle must see the new packs too */
-		if (!rc) {
-			git_odb *odb = NULL;
-			if (git_repository_odb(&odb, omen_repo_git(r)) == 0)
-				git_odb_refresh(odb);
-			git_odb_free(odb);
-		}
+	if (rc < 0)
+		goto out;
+	if (s.n) {
+		char tree_notice[sizeof(st->notice)];
+		snprintf(tree_notice, sizeof(tree_notice), "%s", st->notice);
+		st->notice[0] = '\0';
+		if ((rc = fetch_all(r, &d, &s, "blobs", st, &got)) < 0)
+			goto out;
+		st->wanted += s.n;
+		st->fetched += got;
+		if (!st->notice[0])
+			snprintf(st->notice, sizeof(st->notice), "%s", tree_notice);
+		refresh_repo(r);
 	}
+out:
 	omen_change_free(&scratch);
 	hist_differ_free(&d);
 	set_free(&s);
+	set_free(&t);
 	return rc;
 }

@@ -40,6 +40,14 @@ grep -q '"partial":true' part.json || fail "not seen as partial"
 (cd part && "$OMEN" label --window 0 --format json >../part2.json)
 [ "$(num part2.json absent)" = 0 ] || fail "second run found absent blobs"
 
+# a tree-less clone: root trees first (with their subtrees), then blobs
+git clone -q --filter=tree:0 "$url" treeless
+(cd treeless && "$OMEN" label --window 0 --format json >../treeless.json 2>../treeless.err) ||
+	fail "label on a tree-less clone: $(cat treeless.err)"
+[ "$(num treeless.json trees_absent)" -gt 0 ] || fail "no absent trees in a tree-less clone"
+[ "$(num treeless.json batches)" = 2 ] || fail "$(num treeless.json batches) fetches, expected trees then blobs"
+cmp full/.git/omen/labels.jsonl treeless/.git/omen/labels.jsonl || fail "tree-less clone labels differ"
+
 # features, train and score on blobless clones read the same changes
 blobless feat
 mkdir -p feat/.git/omen
