@@ -180,7 +180,8 @@ typedef struct {
 	size_t trees_fetched;
 	size_t batches;           /* git fetch runs */
 	double scan_seconds;      /* pre-pass time */
-	double fetch_seconds;     /* git fetch time */
+	double fetch_seconds;     /* git fetch time (wall) */
+	double fetch_cpu_seconds; /* CPU time of git fetch and the processes it waited for */
 	size_t skipped_files;     /* file changes read with a blob skipped (OMEN_FILE_MISSING) */
 	char notice[512];         /* why fetching could not work, one line; "" none */
 } omen_blob_stats;

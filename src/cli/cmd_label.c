@@ -103,7 +103,7 @@ static void print_json(const omen_label_summary *s)
 		"\"list_entries\":%zu,\"list_unmatched\":%zu,\"new_commits\":%zu,\"reused_commits\":%zu,"
 		"\"state_peak_bytes\":%zu,\"blobs\":{\"partial\":%s,\"scanned_commits\":%zu,"
 		"\"absent\":%zu,\"fetched\":%zu,\"trees_absent\":%zu,\"trees_fetched\":%zu,\"batches\":%zu,\"scan_seconds\":%.3f,"
-		"\"fetch_seconds\":%.3f,\"skipped_files\":%zu,\"file_changes\":%zu,"
+		"\"fetch_seconds\":%.3f,\"fetch_cpu_seconds\":%.3f,\"skipped_files\":%zu,\"file_changes\":%zu,"
 		"\"fixes_unreadable\":%zu},\"seconds\":%.3f}\n",
 		mode_name(s->mode), s->head, s->commits, s->merges, s->inducing, s->clean, s->unknown,
 		s->fixes, s->fixes_by_pattern, s->fixes_by_list, s->fixes_by_issue, s->fixes_by_named,
@@ -112,7 +112,8 @@ static void print_json(const omen_label_summary *s)
 		s->latency_days_q[2], s->shallow ? "true" : "false", s->boundary, s->list_entries,
 		s->list_unmatched, s->new_commits, s->reused_commits, s->state_peak_bytes,
 		s->blobs.partial ? "true" : "false", s->blobs.scanned, s->blobs.wanted, s->blobs.fetched,
-		s->blobs.trees_wanted, s->blobs.trees_fetched, s->blobs.batches, s->blobs.scan_seconds, s->blobs.fetch_seconds, s->files_absent,
+		s->blobs.trees_wanted, s->blobs.trees_fetched, s->blobs.batches, s->blobs.scan_seconds,
+		s->blobs.fetch_seconds, s->blobs.fetch_cpu_seconds, s->files_absent,
 		s->file_changes, s->fixes_absent, s->seconds);
 }
 

@@ -23,6 +23,8 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/resource.h>
+#include <sys/time.h>
 #include <sys/wait.h>
 #include <fcntl.h>
 #include <unistd.h>
@@ -170,8 +172,9 @@ static void first_line(char *out, size_t cap, FILE *f)
 /* Runs the fetch of ids[0..n) from remote; 0 when git exited 0, else 1
  * with why (one line) in err. Only running out of resources is < 0. */
 static int run_fetch(const char *gitdir, const char *remote, const git_oid *ids, size_t n,
-	char *err, size_t errcap)
+	char *err, size_t errcap, double *cpu)
 {
+	struct rusage ru;
 	FILE *in = tmpfile(), *errf = tmpfile();
 	posix_spawn_file_actions_t fa;
 	char **envp = NULL, *dirarg = NULL;
@@ -239,12 +242,17 @@ static int run_fetch(const char *gitdir, const char *remote, const git_oid *ids,
 			goto out;
 		}
 	}
-	while (waitpid(pid, &status, 0) < 0)
+	/* wait4: git's CPU time with that of the processes it waited for
+	 * (upload-pack and pack-objects on a file:// remote, index-pack) */
+	memset(&ru, 0, sizeof(ru));
+	while (wait4(pid, &status, 0, &ru) < 0)
 		if (errno != EINTR) {
 			snprintf(err, errcap, "cannot wait for git: %s", strerror(errno));
 			rc = 1;
 			goto out;
 		}
+	*cpu += (double)ru.ru_utime.tv_sec + ru.ru_utime.tv_usec / 1e6 + (double)ru.ru_stime.tv_sec +
+		ru.ru_stime.tv_usec / 1e6;
 	if (!WIFEXITED(status) || WEXITSTATUS(status)) {
 		first_line(err, errcap, errf);
 		if (!err[0])
@@ -306,7 +314,7 @@ static int fetch_all(omen_repo *r, hist_differ *d, const oid_set *s, const char 
 		size_t k = s->n - done < FETCH_BATCH ? s->n - done : FETCH_BATCH;
 		snprintf(st->remote, sizeof(st->remote), "%s", remotes[ri]);
 		if ((rc = run_fetch(git_repository_path(d->repo), remotes[ri], s->ids + done, k, err,
-				sizeof(err))) < 0)
+				sizeof(err), &st->fetch_cpu_seconds)) < 0)
 			break;
 		st->batches++;
 		if (rc) {

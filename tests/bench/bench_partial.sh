@@ -59,9 +59,11 @@ print("label, full clone: %.1f s wall, %.1f s cpu, peak RSS %.0f MB" % (full[0],
 print("label, blobless clone: %.1f s wall, %.1f s cpu, peak RSS %.0f MB; of it: pre-pass %.2f s (%d commits), "
       "fetch %.1f s (%d of %d absent blobs, %d batches)" % (lp[0], lp[1], lp[2] / 1024, js["scan_seconds"],
       js["scanned_commits"], js["fetch_seconds"], js["fetched"], js["absent"], js["batches"]))
-rest = lp[0] - js["fetch_seconds"]
-print("  without the fetch: %.1f s wall = %.2fx the full clone's (target <= 2x); labels %s" %
-      (rest, rest / full[0], "byte-identical" if same else "DIFFER"))
+rest, rest_cpu = lp[0] - js["fetch_seconds"], lp[1] - js["fetch_cpu_seconds"]
+print("  without the fetch (%.1f s wall, %.1f s cpu of git and the processes it ran): %.1f s wall, %.1f s cpu "
+      "= %.2fx wall, %.2fx cpu the full clone's (target <= 2x); labels %s" %
+      (js["fetch_seconds"], js["fetch_cpu_seconds"], rest, rest_cpu, rest / full[0],
+       rest_cpu / max(full[1], 1e-9), "byte-identical" if same else "DIFFER"))
 print("label again on the blobless clone (blobs now in promisor packs): %.1f s wall, %.1f s cpu = %.2fx wall, "
       "%.2fx cpu; pre-pass %.2f s, %d absent" % (lp2[0], lp2[1], lp2[0] / full[0], lp2[1] / max(full[1], 1e-9),
       js2["scan_seconds"], js2["absent"]))
