@@ -102,9 +102,9 @@ static void print_json(const omen_label_summary *s)
 		"\"named_links\":%zu,\"latency_days\":[%.3f,%.3f,%.3f],\"shallow\":%s,\"boundary\":%zu,"
 		"\"list_entries\":%zu,\"list_unmatched\":%zu,\"new_commits\":%zu,\"reused_commits\":%zu,"
 		"\"state_peak_bytes\":%zu,\"blobs\":{\"partial\":%s,\"scanned_commits\":%zu,"
-		"\"absent\":%zu,\"fetched\":%zu,\"trees_absent\":%zu,\"trees_fetched\":%zu,\"batches\":%zu,\"scan_seconds\":%.3f,"
-		"\"fetch_seconds\":%.3f,\"fetch_cpu_seconds\":%.3f,\"skipped_files\":%zu,\"file_changes\":%zu,"
-		"\"fixes_unreadable\":%zu},\"seconds\":%.3f}\n",
+		"\"absent\":%zu,\"fetched\":%zu,\"trees_absent\":%zu,\"trees_fetched\":%zu,"
+		"\"batches\":%zu,\"scan_seconds\":%.3f,\"fetch_seconds\":%.3f,\"fetch_cpu_seconds\":%.3f,"
+		"\"skipped_files\":%zu,\"file_changes\":%zu,\"fixes_unreadable\":%zu},\"seconds\":%.3f}\n",
 		mode_name(s->mode), s->head, s->commits, s->merges, s->inducing, s->clean, s->unknown,
 		s->fixes, s->fixes_by_pattern, s->fixes_by_list, s->fixes_by_issue, s->fixes_by_named,
 		s->fixes_traced, s->traced_lines, s->fixes_add_only, share(s->fixes_add_only, s->fixes),
