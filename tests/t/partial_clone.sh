@@ -5,6 +5,8 @@
 # repository with one deleted blob fails as git does, and labels with a count
 # when told to skip. fixtures/label/churn.sh (130 commits, 5 merges).
 . "$ROOT/fixtures/label/check.sh"
+export HOME="$PWD/home" GIT_CONFIG_NOSYSTEM=1 OMEN_NO_PROGRESS=1
+mkdir -p "$HOME"
 sh "$ROOT/fixtures/label/churn.sh" server >/dev/null
 git -C server config uploadpack.allowFilter true
 url="file://$PWD/server"
@@ -67,6 +69,24 @@ cp full/.git/omen/labels.jsonl full/.git/omen/model.omen scr/.git/omen/
 same_scores full.score scr.score || fail "scores differ"
 (cd trn && "$OMEN" score HEAD~5..HEAD --format json >../trn.score)
 same_scores full.score trn.score || fail "a model trained on the blobless clone scores differently"
+
+# the history grows on the server; a pull brings commits and trees, and only
+# the new tip's blobs: the incremental run fetches the others
+export GIT_AUTHOR_NAME="Robin Quill" GIT_AUTHOR_EMAIL="robin@example.invalid"
+export GIT_COMMITTER_NAME="Robin Quill" GIT_COMMITTER_EMAIL="robin@example.invalid"
+for i in 1 2 3; do
+	printf 'grown %s\n' "$i" >>server/util.c
+	git -C server commit -qam "Change util.c again ($i)" --date="2021-01-0${i}T12:00:00Z"
+done
+for d in full part; do git -C "$d" pull -q --ff-only; done
+[ "$(absent part)" -gt 0 ] || fail "the pull brought every blob"
+(cd full && "$OMEN" label --window 0 >/dev/null)
+(cd part && "$OMEN" label --window 0 --format json >../grown.json 2>../grown.err)
+[ -s grown.err ] && fail "incremental label printed: $(cat grown.err)"
+grep -q '"mode":"grew"' grown.json || fail "not an incremental run: $(cat grown.json)"
+[ "$(num grown.json scanned_commits)" = 3 ] || fail "pre-pass over $(num grown.json scanned_commits) commits, not the 3 new"
+[ "$(num grown.json fetched)" -gt 0 ] || fail "nothing fetched for the new commits"
+cmp full/.git/omen/labels.jsonl part/.git/omen/labels.jsonl || fail "labels differ after the pull"
 
 # an unreachable promisor: one notice, the skip path, and a full relabel
 # once the remote is back
