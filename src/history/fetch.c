@@ -303,8 +303,8 @@ static int fetch_all(omen_repo *r, hist_differ *d, const oid_set *s, const char 
 	while (ri < nr && !usable_remote(remotes[ri]))
 		ri++;
 	if (ri == nr) {
-		snprintf(st->notice, sizeof(st->notice), "%zu %s are absent and no promisor remote "
-			"is configured to fetch them from; skipping them", s->n, what);
+		snprintf(st->notice, sizeof(st->notice), "no usable promisor remote to fetch %zu absent "
+			"%s from; skipping them", s->n, what);
 		goto out;
 	}
 	snprintf(label, sizeof(label), "fetch absent %s", what);

@@ -130,6 +130,15 @@ expect "$c" unknown
 full_ind=$(grep -c '"label":"inducing"' ../full/.git/omen/labels.jsonl)
 ind=$(grep -c '"label":"inducing"' "$LF")
 [ "$ind" -gt $((full_ind / 2)) ] || fail "only $ind inducing of $full_ind"
+# a promisor remote whose name git would take as an option is never run:
+# the repository counts as partial (fetch by default), the fetch cannot
+# work, one notice, the skip path
+git config remote.-x.url "$url"
+git config remote.-x.promisor true
+"$OMEN" label --window 0 --full >/dev/null 2>../dash.err || fail "label with an unusable promisor: $(cat ../dash.err)"
+[ "$(grep -c . ../dash.err)" = 1 ] && grep -q "^git omen: notice: no usable promisor remote to fetch 1 absent blobs from; skipping them$" ../dash.err ||
+	fail "unusable promisor: $(cat ../dash.err)"
+git config --remove-section remote.-x
 GIT_CONFIG_PARAMETERS="'omen.missingblobs'='later'" "$OMEN" label >/dev/null 2>../bad.err && fail "bad setting accepted"
 grep -q "bad config value 'omen.missingBlobs': 'later' is not error, skip or fetch" ../bad.err || fail "$(cat ../bad.err)"
 echo ok
