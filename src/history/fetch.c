@@ -151,22 +151,36 @@ out:
 }
 
 /* ---- one git fetch ------------------------------------------------------------- */
-/* First line of f (from the start), without control characters, in out. */
-static void first_line(char *out, size_t cap, FILE *f)
+/* Why git failed, from its standard error f: the first "fatal:" or
+ * "error:" line without that tag (git may warn first), else the first line;
+ * control characters dropped. */
+static void why_failed(char *out, size_t cap, FILE *f)
 {
-	size_t k = 0;
-	int ch;
+	char line[400];
+	int have = 0;
 	out[0] = '\0';
 	if (!f || fseek(f, 0, SEEK_SET) != 0)
 		return;
-	while ((ch = fgetc(f)) != EOF && ch != '\n' && k + 1 < cap)
-		if (ch >= 0x20 && ch != 0x7f)
-			out[k++] = (char)ch;
-	out[k] = '\0';
-	if (k >= 7 && !strncmp(out, "fatal: ", 7))
-		memmove(out, out + 7, k - 6);
-	else if (k >= 7 && !strncmp(out, "error: ", 7))
-		memmove(out, out + 7, k - 6);
+	for (;;) {
+		size_t k = 0;
+		int ch;
+		while ((ch = fgetc(f)) != EOF && ch != '\n')
+			if (ch >= 0x20 && ch != 0x7f && k + 1 < sizeof(line))
+				line[k++] = (char)ch;
+		line[k] = '\0';
+		if (ch == EOF && !k)
+			break;
+		if (!strncmp(line, "fatal: ", 7) || !strncmp(line, "error: ", 7)) {
+			snprintf(out, cap, "%s", line + 7);
+			return;
+		}
+		if (!have && k) {
+			snprintf(out, cap, "%s", line);
+			have = 1;
+		}
+		if (ch == EOF)
+			break;
+	}
 }
 
 /* Runs the fetch of ids[0..n) from remote; 0 when git exited 0, else 1
@@ -254,7 +268,7 @@ static int run_fetch(const char *gitdir, const char *remote, const git_oid *ids,
 	*cpu += (double)ru.ru_utime.tv_sec + ru.ru_utime.tv_usec / 1e6 + (double)ru.ru_stime.tv_sec +
 		ru.ru_stime.tv_usec / 1e6;
 	if (!WIFEXITED(status) || WEXITSTATUS(status)) {
-		first_line(err, errcap, errf);
+		why_failed(err, errcap, errf);
 		if (!err[0])
 			snprintf(err, errcap, "git fetch exited with status %d",
 				WIFEXITED(status) ? WEXITSTATUS(status) : 128 + WTERMSIG(status));
