@@ -300,6 +300,14 @@ static int usable_remote(const char *name)
 	return 1;
 }
 
+/* "blob" for one, what ("blobs", "trees") otherwise. */
+static const char *noun(const char *what, size_t n)
+{
+	if (n != 1)
+		return what;
+	return !strcmp(what, "trees") ? "tree" : "blob";
+}
+
 /* Fetches s's ids (what: "blobs" or "trees"), batch by batch, from the
  * promisor remotes in order; a remote that fails is dropped for the rest
  * (one line in st->notice). *got: how many of them are present after. */
@@ -318,7 +326,7 @@ static int fetch_all(omen_repo *r, hist_differ *d, const oid_set *s, const char 
 		ri++;
 	if (ri == nr) {
 		snprintf(st->notice, sizeof(st->notice), "no usable promisor remote to fetch %zu absent "
-			"%s from; skipping them", s->n, what);
+			"%s from; skipping %s", s->n, noun(what, s->n), s->n == 1 ? "it" : "them");
 		goto out;
 	}
 	snprintf(label, sizeof(label), "fetch absent %s", what);
@@ -335,7 +343,8 @@ static int fetch_all(omen_repo *r, hist_differ *d, const oid_set *s, const char 
 			/* this remote cannot serve: the next one, or the skip path */
 			rc = 0;
 			snprintf(st->notice, sizeof(st->notice), "cannot fetch absent %s from promisor "
-				"remote '%s': %s; skipping %zu absent %s", what, remotes[ri], err, s->n - done, what);
+				"remote '%s': %s; skipping %zu absent %s", what, remotes[ri], err, s->n - done,
+				noun(what, s->n - done));
 			do
 				ri++;
 			while (ri < nr && !usable_remote(remotes[ri]));
@@ -353,7 +362,7 @@ static int fetch_all(omen_repo *r, hist_differ *d, const oid_set *s, const char 
 		*got += git_odb_exists_ext(d->odb, &s->ids[i], GIT_ODB_LOOKUP_NO_REFRESH) != 0;
 	if (done == s->n && *got < s->n)
 		snprintf(st->notice, sizeof(st->notice), "promisor remote '%s' did not send %zu of %zu "
-			"absent %s; skipping them", st->remote, s->n - *got, s->n, what);
+			"absent %s; skipping them", st->remote, s->n - *got, s->n, noun(what, s->n));
 	else if (st->notice[0] && *got)
 		/* a later remote served what the first one could not */
 		snprintf(st->notice + strlen(st->notice), sizeof(st->notice) - strlen(st->notice),

@@ -136,7 +136,7 @@ ind=$(grep -c '"label":"inducing"' "$LF")
 git config remote.-x.url "$url"
 git config remote.-x.promisor true
 "$OMEN" label --window 0 --full >/dev/null 2>../dash.err || fail "label with an unusable promisor: $(cat ../dash.err)"
-[ "$(grep -c . ../dash.err)" = 1 ] && grep -q "^git omen: notice: no usable promisor remote to fetch 1 absent blobs from; skipping them$" ../dash.err ||
+[ "$(grep -c . ../dash.err)" = 1 ] && grep -q "^git omen: notice: no usable promisor remote to fetch 1 absent blob from; skipping it$" ../dash.err ||
 	fail "unusable promisor: $(cat ../dash.err)"
 git config --remove-section remote.-x
 GIT_CONFIG_PARAMETERS="'omen.missingblobs'='later'" "$OMEN" label >/dev/null 2>../bad.err && fail "bad setting accepted"
