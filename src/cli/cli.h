@@ -58,6 +58,9 @@ void cli_notice(const char *fmt, ...)
 	;
 /* cli_notice for each line of lines (NULL or "" prints nothing). */
 void cli_notices(const char *lines);
+/* Absent blobs (issue 12): the fetch notice and the count of file changes
+ * read without lines, on stderr, once at the end of a command. */
+void cli_blob_notice(omen_repo *r);
 /* Whether standard output should get colour (a terminal, NO_COLOR unset). */
 int cli_use_color(FILE *fp);
 
