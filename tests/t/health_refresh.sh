@@ -28,7 +28,8 @@ since=$(git rev-list --no-merges --count "$base..HEAD")
 "$OMEN" label >/dev/null
 "$OMEN" train "$base" >/dev/null 2>&1 || fail "training failed"
 
-# 1. stale: one notice past omen.staleCommits, none under the default (1000)
+# 1. stale: one notice past omen.staleCommits, none under the default (1000);
+# one past omen.staleDays (default 90) for a model dated 2020
 "$OMEN" score HEAD >out 2>err || fail "score: $(cat err)"
 [ ! -s err ] || fail "a fresh model got a notice: $(cat err)"
 git -c omen.staleCommits=50 omen score HEAD >out 2>err || fail "score: $(cat err)"
@@ -53,6 +54,23 @@ assert all(v >= 0 for v in d["psi"].values()) and len(d["psi"]) == 14
 PYEOF
 set +e; git -c omen.staleDays=-3 omen score HEAD >out 2>err; rc=$?; set -e
 [ "$rc" -eq 128 ] && [ "$(wc -l <err)" -eq 1 ] && grep -q "omen.staleDays" err || fail "staleDays=-3: $rc $(cat err)"
+
+# an old model: its training date set back to 2020 (same length, CRC-32 of
+# the file recomputed with Python's zlib, the format's own checksum)
+$PY - .git/omen/model.omen "$top/aged.omen" <<'PYEOF'
+import re, struct, sys, zlib
+b = open(sys.argv[1], "rb").read()
+b2 = re.sub(rb'"date":"[0-9T:Z-]{20}"', b'"date":"2020-01-01T00:00:00Z"', b[:-4], count=1)
+assert len(b2) == len(b) - 4 and b2 != b[:-4]
+open(sys.argv[2], "wb").write(b2 + struct.pack("<I", zlib.crc32(b2)))
+PYEOF
+days=$($PY -c 'import time; print(int((time.time() - 1577836800) // 86400))')
+git -c omen.model="$top/aged.omen" omen score HEAD >out 2>err || fail "aged model: $(cat err)"
+[ "$(wc -l <err)" -eq 1 ] || fail "aged model: not one notice: $(cat err)"
+grep -q "^git omen: notice: the model is stale: trained \($days\|$((days - 1))\) days ago (omen.staleDays 90)" err ||
+	fail "age notice: $(cat err)"
+git -c omen.model="$top/aged.omen" -c omen.staleDays=0 omen score HEAD >out 2>err || fail "staleDays=0: $(cat err)"
+[ ! -s err ] || fail "omen.staleDays=0 still noticed: $(cat err)"
 
 # 2. a model of another history: one notice, named so
 git -c omen.model="$top/other/.git/omen/model.omen" omen score HEAD >out 2>err || fail "foreign: $(cat err)"
