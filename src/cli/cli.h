@@ -16,6 +16,8 @@ int cmd_eval(int argc, char **argv);
 int cmd_features(int argc, char **argv);
 int cmd_hook(int argc, char **argv);
 int cmd_version(int argc, char **argv);
+/* train --base <dir> (src/cli/cmd_train_base.c) */
+int cmd_train_base(const char *dir, const char *out_path, omen_train_opts *o, const char *format);
 
 /* "git omen: <message>" on stderr for the last library error; returns 128. */
 int cli_fatal(const char *what);

@@ -7,6 +7,7 @@
 #include <string.h>
 #include <unistd.h>
 #include "cli/cli.h"
+#include "omen/shard.h"
 
 static const char usage_text[] =
 	"usage: git omen train [<rev>] [<options>]\n"
@@ -20,6 +21,8 @@ static const char usage_text[] =
 	"  --no-cache             rebuild the dataset instead of reusing $GIT_DIR/omen/dataset.cache\n"
 	"  --format <fmt>         summary as text (default) or json\n"
 	"  --info                 print the metadata of a model file and exit\n"
+	"  --shard <file>         write the dataset as a shard of the base model's corpus instead of training\n"
+	"  --base <dir>           train the base model from every *.shard in <dir> (needs -o)\n"
 	"  -h, --help             show this help\n";
 
 typedef struct {
@@ -239,6 +242,7 @@ int cmd_train(int argc, char **argv)
 	omen_model *m = NULL;
 	progress_state ps;
 	const char *out_path = NULL, *labels = NULL, *format = "text", *rev = NULL, *val;
+	const char *shard_path = NULL, *base_dir = NULL;
 	const char *revs[2] = {NULL, NULL};
 	char *model_path = NULL, *lock_path = NULL;
 	int i, r, rc = EXIT_OK, info = 0, no_cache = 0, lock_fd = -1, e;
@@ -261,6 +265,12 @@ int cmd_train(int argc, char **argv)
 		} else if ((r = cli_opt_value(argc, argv, &i, "--labels", &val))) {
 			if (r < 0) goto missing;
 			labels = val;
+		} else if ((r = cli_opt_value(argc, argv, &i, "--shard", &val))) {
+			if (r < 0) goto missing;
+			shard_path = val;
+		} else if ((r = cli_opt_value(argc, argv, &i, "--base", &val))) {
+			if (r < 0) goto missing;
+			base_dir = val;
 		} else if ((r = cli_opt_value(argc, argv, &i, "--epochs", &val))) {
 			if (r < 0) goto missing;
 			if (cli_parse_int(&n, val, 1, 10000))
@@ -291,6 +301,10 @@ int cmd_train(int argc, char **argv)
 	}
 	if (info)
 		return cmd_info(rev, format);
+	if (base_dir && (shard_path || rev))
+		return cli_usage("train", "--base reads shards: no revision or --shard with it");
+	if (base_dir)
+		return cmd_train_base(base_dir, out_path, &o, format);
 
 	if (omen_repo_open(&repo, NULL)) {
 		rc = cli_fatal(NULL);
@@ -351,6 +365,20 @@ int cmd_train(int argc, char **argv)
 		goto out;
 	}
 	o.caps = dopt.caps;
+	if (shard_path) {
+		size_t k, nl = 0, np = 0;
+		if (omen_shard_write(ds, &dopt.caps, shard_path)) {
+			rc = cli_fatal(NULL);
+			goto out;
+		}
+		for (k = 0; k < omen_dataset_size(ds); k++) {
+			nl += omen_dataset_get(ds, k)->label >= 0;
+			np += omen_dataset_get(ds, k)->label > 0;
+		}
+		printf("wrote shard %s: %zu commits, %zu labelled (%zu inducing), %zu capped\n",
+			shard_path, omen_dataset_size(ds), nl, np, omen_dataset_capped(ds));
+		goto out;
+	}
 	ps.tty = isatty(2);
 	ps.start = omen_now();
 	o.progress = on_progress;

@@ -1,0 +1,62 @@
+#!/bin/sh
+# fixtures/corpus/build.sh (issue 11) on a manifest of three generated
+# histories, one of whose snapshots is missing: the build stops before any
+# work with one line naming that entry; --keep-going labels and shards the
+# other two and lists what it left out. An entry on the leave-out list is
+# refused. The shards train a base model through `git omen train --base`,
+# and the same SOURCE_DATE_EPOCH gives the same bytes twice.
+set -eu
+fail() { echo "FAIL: $*" >&2; exit 1; }
+export HOME="$PWD/home" GIT_CONFIG_NOSYSTEM=1 GIT_CONFIG_GLOBAL=/dev/null
+mkdir -p "$HOME" snap
+top=$PWD
+/usr/bin/python3 "$ROOT/fixtures/demo/gen.py" --seed 3 --commits 160 --out "$top/snap/example+one" --bare --quiet
+/usr/bin/python3 "$ROOT/fixtures/demo/gen.py" --seed 4 --commits 140 --out "$top/snap/example+two" --bare --quiet
+h1=$(git --git-dir=snap/example+one rev-parse HEAD)
+h2=$(git --git-dir=snap/example+two rev-parse HEAD)
+printf '# test corpus\nname\thead\tlanguage\tcommits\nexample/one\t%s\tPython\t160\nexample/three\t%s\tC\t10\nexample/two\t%s\tGo\t140\n' \
+	"$h1" "$h1" "$h2" >m.tsv
+export OMEN_CORPUS_DIR="$top/snap" OMEN_CORPUS_WORK="$top/work"
+
+rc=0; sh "$ROOT/fixtures/corpus/build.sh" --manifest m.tsv --no-train >out 2>err || rc=$?
+[ "$rc" -eq 1 ] || fail "missing snapshot: exit $rc"
+grep -q "^build.sh: corpus entry 'example/three': no snapshot at '$top/snap/example+three'$" err ||
+	fail "missing snapshot not named: $(cat err)"
+[ ! -e work/shards/example+one.shard ] || fail "work done before the missing entry stopped it"
+
+sh "$ROOT/fixtures/corpus/build.sh" --manifest m.tsv --no-train --keep-going >out 2>err ||
+	fail "--keep-going: $(cat err)"
+[ -s work/shards/example+one.shard ] && [ -s work/shards/example+two.shard ] ||
+	fail "--keep-going: shards missing"
+grep -q "^left out: 1 of 3 corpus entries: example/three$" err || fail "left-out list: $(cat err)"
+grep -q "wrote shard .*example+one.shard: [0-9]* commits, [0-9]* labelled" out || fail "$(cat out)"
+# the snapshots were only read
+[ ! -d snap/example+one/omen ] || fail "a snapshot was written to"
+
+# a snapshot without the manifest's head is named too
+printf 'name\thead\tlanguage\tcommits\nexample/one\t%s\tPython\t1\n' "$(echo "$h1" | tr 0-9a-f 1-9a-f0)" >bad.tsv
+rc=0; sh "$ROOT/fixtures/corpus/build.sh" --manifest bad.tsv --no-train >out 2>err || rc=$?
+[ "$rc" -eq 1 ] && grep -q "corpus entry 'example/one': snapshot .* lacks its head" err ||
+	fail "head check: exit $rc: $(cat err)"
+# an entry of the leave-out list is refused
+printf 'name\thead\tlanguage\tcommits\npallets/click\t%s\tPython\t1\n' "$h1" >lo.tsv
+rc=0; sh "$ROOT/fixtures/corpus/build.sh" --manifest lo.tsv --no-train >out 2>err || rc=$?
+[ "$rc" -eq 1 ] && grep -q "corpus entry 'pallets/click' is on the leave-out list" err ||
+	fail "leave-out entry: exit $rc: $(cat err)"
+
+# the base model from the two shards, twice: the same bytes
+for k in 1 2; do
+	SOURCE_DATE_EPOCH=1700000000 "$OMEN" train --base work/shards -o "b$k.omen" --epochs 2 \
+		--threads $k >out 2>err || fail "train --base: $(cat err)"
+done
+cmp -s b1.omen b2.omen || fail "base model differs between runs at 1 and 2 threads"
+grep -q "^corpus: 2 histories; train [0-9]* commits" out || fail "summary: $(cat out)"
+"$OMEN" train --info b1.omen --format json >info
+grep -q '"metrics":[[:space:]]*"relative"' info || fail "info: $(cat info)"
+grep -q '"name":[[:space:]]*"example/one"' info || fail "corpus not listed: $(cat info)"
+grep -q '"date":[[:space:]]*"2023-11-14T22:13:20Z"' info || fail "date: $(cat info)"
+rc=0; "$OMEN" train --base work/shards >out 2>err || rc=$?
+[ "$rc" -eq 129 ] || fail "--base without -o: exit $rc"
+rc=0; "$OMEN" train --base "$top/none" -o x.omen >out 2>err || rc=$?
+[ "$rc" -eq 128 ] && grep -q "^git omen: cannot read shard directory '$top/none'" err ||
+	fail "no directory: exit $rc: $(cat err)"
