@@ -78,4 +78,10 @@ typedef struct {
 int omen_base_train(omen_model **out, omen_base_report *rep, const omen_corpus *c,
 	const omen_train_opts *o, int64_t built_at);
 
+/* Raw logits of a base model on samples idx[0..n) of history h of c,
+ * reading the comparable metrics as training did (the model's own
+ * omen_model_logits reads raw ones). */
+int omen_base_logits(float *out, const omen_model *m, const omen_corpus *c, size_t h,
+	const size_t *idx, size_t n, int threads);
+
 #endif

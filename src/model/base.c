@@ -282,6 +282,34 @@ static int base_threads(int t)
 	return n < 1 ? 1 : n > BASE_CHUNKS ? BASE_CHUNKS : (int)n;
 }
 
+int omen_base_logits(float *out, const omen_model *m, const omen_corpus *c, size_t h,
+	const size_t *idx, size_t n, int threads)
+{
+	omen_corpus_ref *refs = malloc((n + 1) * sizeof(*refs));
+	size_t i;
+	bctx x;
+	int e;
+	if (!refs)
+		return omen_error_set(OMEN_ENOMEM, "out of memory");
+	if (h >= omen_corpus_histories(c)) {
+		free(refs);
+		return omen_error_set(OMEN_EINVAL, "no history %zu in the corpus", h);
+	}
+	for (i = 0; i < n; i++) {
+		if (idx[i] >= omen_shard_size(omen_corpus_shard(c, h))) {
+			free(refs);
+			return omen_error_set(OMEN_EINVAL, "sample %zu out of range", idx[i]);
+		}
+		refs[i].h = (uint32_t)h;
+		refs[i].i = (uint32_t)idx[i];
+	}
+	if (!(e = bctx_init(&x, m, c, BASE_EVAL_BATCH, base_threads(threads))))
+		e = blogits(&x, out, refs, n);
+	bctx_free(&x);
+	free(refs);
+	return e;
+}
+
 static cJSON *base_meta(const omen_corpus *c, const omen_base_report *rep,
 	const omen_train_opts *o, int64_t built_at, size_t *const *tr, const size_t *ntr)
 {

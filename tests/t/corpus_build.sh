@@ -44,6 +44,11 @@ rc=0; sh "$ROOT/fixtures/corpus/build.sh" --manifest lo.tsv --no-train >out 2>er
 [ "$rc" -eq 1 ] && grep -q "corpus entry 'pallets/click' is on the leave-out list" err ||
 	fail "leave-out entry: exit $rc: $(cat err)"
 
+# --leave-out reads the leave-out list (none of whose snapshots is here)
+rc=0; sh "$ROOT/fixtures/corpus/build.sh" --leave-out >out 2>err || rc=$?
+[ "$rc" -eq 1 ] && grep -q "^build.sh: corpus entry 'pallets/click': no snapshot at" err ||
+	fail "--leave-out: exit $rc: $(cat err)"
+
 # the base model from the two shards, twice: the same bytes
 for k in 1 2; do
 	SOURCE_DATE_EPOCH=1700000000 "$OMEN" train --base work/shards -o "b$k.omen" --epochs 2 \
