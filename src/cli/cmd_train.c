@@ -21,6 +21,8 @@ static const char usage_text[] =
 	"  --no-cache             rebuild the dataset instead of reusing $GIT_DIR/omen/dataset.cache\n"
 	"  --format <fmt>         summary as text (default) or json\n"
 	"  --info                 print the metadata of a model file and exit\n"
+	"  --from <file>          fine-tune from this base model (default omen.baseModel, if set)\n"
+	"  --scratch              train from fresh weights even when a base model is set\n"
 	"  --shard <file>         write the dataset as a shard of the base model's corpus instead of training\n"
 	"  --base <dir>           train the base model from every *.shard in <dir> (needs -o)\n"
 	"  -h, --help             show this help\n";
@@ -242,7 +244,10 @@ int cmd_train(int argc, char **argv)
 	omen_model *m = NULL;
 	progress_state ps;
 	const char *out_path = NULL, *labels = NULL, *format = "text", *rev = NULL, *val;
-	const char *shard_path = NULL, *base_dir = NULL;
+	const char *shard_path = NULL, *base_dir = NULL, *from = NULL;
+	char *from_cfg = NULL;
+	omen_model *base = NULL;
+	int scratch = 0;
 	const char *revs[2] = {NULL, NULL};
 	char *model_path = NULL, *lock_path = NULL;
 	int i, r, rc = EXIT_OK, info = 0, no_cache = 0, lock_fd = -1, e;
@@ -265,6 +270,11 @@ int cmd_train(int argc, char **argv)
 		} else if ((r = cli_opt_value(argc, argv, &i, "--labels", &val))) {
 			if (r < 0) goto missing;
 			labels = val;
+		} else if (!strcmp(a, "--scratch")) {
+			scratch = 1;
+		} else if ((r = cli_opt_value(argc, argv, &i, "--from", &val))) {
+			if (r < 0) goto missing;
+			from = val;
 		} else if ((r = cli_opt_value(argc, argv, &i, "--shard", &val))) {
 			if (r < 0) goto missing;
 			shard_path = val;
@@ -379,6 +389,28 @@ int cmd_train(int argc, char **argv)
 			shard_path, omen_dataset_size(ds), nl, np, omen_dataset_capped(ds));
 		goto out;
 	}
+	/* fine-tuning: the base model named, else omen.baseModel; one that
+	 * cannot be used is a notice, and training starts from scratch */
+	if (!scratch && !from) {
+		if (omen_config_string(&from_cfg, repo, "omen.baseModel")) {
+			rc = cli_fatal(NULL);
+			goto out;
+		}
+		if (from_cfg && *from_cfg)
+			from = from_cfg;
+	}
+	if (!scratch && from) {
+		omen_model *probe = NULL;
+		if (omen_model_load(&base, from) || omen_model_new(&probe, o.dim, o.channels, 0) ||
+			omen_model_copy_weights(probe, base)) {
+			fprintf(stderr, "git omen: notice: cannot use base model '%s': %s; training from "
+				"scratch\n", from, omen_error_last());
+			omen_model_free(base);
+			base = NULL;
+		}
+		omen_model_free(probe);
+		o.init = base;
+	}
 	ps.tty = isatty(2);
 	ps.start = omen_now();
 	o.progress = on_progress;
@@ -398,10 +430,14 @@ int cmd_train(int argc, char **argv)
 		print_json(&rep, ds, model_path);
 	else
 		print_text(&rep, ds, model_path);
+	if (base && strcmp(format, "json"))
+		printf("fine-tuned from base model %s\n", from);
 out:
 	if (lock_fd >= 0)
 		omen_lock_release(lock_fd);
 	omen_model_free(m);
+	omen_model_free(base);
+	free(from_cfg);
 	omen_dataset_free(ds);
 	omen_repo_free(repo);
 	free(model_path);

@@ -282,6 +282,17 @@ static int base_threads(int t)
 	return n < 1 ? 1 : n > BASE_CHUNKS ? BASE_CHUNKS : (int)n;
 }
 
+int omen_model_copy_weights(omen_model *dst, const omen_model *src)
+{
+	if (dst->D != src->D || dst->C != src->C || dst->V != src->V || dst->VM != src->VM ||
+		dst->NE != src->NE || dst->NM != src->NM || dst->NFN != src->NFN ||
+		dst->nparams != src->nparams)
+		return omen_error_set(OMEN_EINVAL, "base model has D=%d C=%d V=%d, this training "
+			"D=%d C=%d V=%d", src->D, src->C, src->V, dst->D, dst->C, dst->V);
+	memcpy(dst->params, src->params, dst->nparams * sizeof(float));
+	return 0;
+}
+
 int omen_base_logits(float *out, const omen_model *m, const omen_corpus *c, size_t h,
 	const size_t *idx, size_t n, int threads)
 {

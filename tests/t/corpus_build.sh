@@ -65,3 +65,23 @@ rc=0; "$OMEN" train --base work/shards >out 2>err || rc=$?
 rc=0; "$OMEN" train --base "$top/none" -o x.omen >out 2>err || rc=$?
 [ "$rc" -eq 128 ] && grep -q "^git omen: cannot read shard directory '$top/none'" err ||
 	fail "no directory: exit $rc: $(cat err)"
+
+# fine-tuning: --from starts from the base model; a damaged base model is a
+# notice and training goes on from scratch; --scratch ignores omen.baseModel
+git clone -q snap/example+one r1
+cd r1
+"$OMEN" label >/dev/null
+"$OMEN" train --from ../b1.omen --epochs 2 -o ft.omen >out 2>err || fail "--from: $(cat err)"
+grep -q "^fine-tuned from base model \.\./b1\.omen$" out || fail "--from: $(cat out)"
+"$OMEN" train --info ft.omen --format json | grep -q '"from_base"' || fail "no from_base in metadata"
+cp ../b1.omen flipped.omen
+printf 'X' | dd of=flipped.omen bs=1 seek=300 conv=notrunc 2>/dev/null
+"$OMEN" train --from flipped.omen --epochs 2 -o ft2.omen >out 2>err || fail "flipped base: $(cat err)"
+[ "$(wc -l <err)" -eq 1 ] && grep -q "^git omen: notice: cannot use base model 'flipped.omen': .*; training from scratch$" err ||
+	fail "flipped base notice: $(cat err)"
+! grep -q "fine-tuned" out || fail "flipped base was used"
+git config omen.baseModel ../b1.omen
+"$OMEN" train --scratch --epochs 2 -o ft3.omen >out 2>err || fail "--scratch: $(cat err)"
+! grep -q "fine-tuned" out || fail "--scratch used the base model"
+"$OMEN" train --info ft3.omen --format json | grep -q '"from_base"' && fail "--scratch: from_base in metadata"
+exit 0

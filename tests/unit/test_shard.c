@@ -33,7 +33,7 @@
 static omen_repo *repo_b;
 static char shard_a[600], shard_b[600];
 
-#define HIST_A "git init -q -b main . && mkdir src && for i in $(seq 1 40); do " \
+#define HIST_A "git init -q -b main . && mkdir src && for i in $(seq 1 90); do " \
 	"d=\"@$((1600000000 + i * 604800)) +0000\"; " \
 	"if [ $((i % 3)) -eq 0 ]; then p=$((i - 1)); " \
 	"sed -i \"s/^int v$p = /int v$p = 1 + /\" src/m$((p % 4)).c; m=\"fix overflow in v$p\"; " \
@@ -378,6 +378,50 @@ static void test_base_train_reproducible(void **st)
 	omen_buf_free(&b2);
 }
 
+/* Fine-tuning starts from the base model's weights: with a zero learning
+ * rate (AdamW then moves nothing) the trained weights are the base's, bit
+ * for bit, and the metadata names the base; from scratch they are not. */
+static void test_fine_tune_starts_from_base(void **st)
+{
+	char p[700];
+	omen_base_report rep;
+	omen_model *base, *m;
+	omen_dataset *d;
+	omen_train_report tr;
+	omen_train_opts o;
+	(void)st;
+	snprintf(p, sizeof(p), "%s/base-ft.omen", dir);
+	base_train_to(p, 1, &rep);
+	assert_int_equal(omen_model_load(&base, p), 0);
+	build_ds(&d, repo);
+	omen_train_opts_init(&o);
+	o.dim = 8;
+	o.channels = 8;
+	o.epochs = 2;
+	o.lr = 0;
+	o.init = base;
+	o.threads = 1;
+	assert_int_equal(omen_model_train(&m, &tr, d, &o), 0);
+	assert_int_equal(omen_model_nparams(m), omen_model_nparams(base));
+	assert_memory_equal(omen_model_params(m), omen_model_params(base),
+		omen_model_nparams(m) * sizeof(float));
+	assert_non_null(cJSON_GetObjectItem(omen_model_meta(m), "from_base"));
+	omen_model_free(m);
+	o.init = NULL;
+	assert_int_equal(omen_model_train(&m, &tr, d, &o), 0);
+	assert_true(memcmp(omen_model_params(m), omen_model_params(base),
+		omen_model_nparams(m) * sizeof(float)) != 0);
+	assert_null(cJSON_GetObjectItem(omen_model_meta(m), "from_base"));
+	omen_model_free(m);
+	/* other dimensions: refused, saying which */
+	o.dim = 16;
+	o.init = base;
+	assert_int_equal(omen_model_train(&m, &tr, d, &o), OMEN_EINVAL);
+	assert_non_null(strstr(omen_error_last(), "base model has D=8 C=8"));
+	omen_dataset_free(d);
+	omen_model_free(base);
+}
+
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
@@ -386,6 +430,7 @@ int main(void)
 		cmocka_unit_test(test_damaged_shard_refused),
 		cmocka_unit_test(test_balancer),
 		cmocka_unit_test(test_base_train_reproducible),
+		cmocka_unit_test(test_fine_tune_starts_from_base),
 	};
 	return cmocka_run_group_tests(tests, setup, teardown);
 }
