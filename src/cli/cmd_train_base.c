@@ -22,12 +22,15 @@ static int name_cmp(const void *a, const void *b)
 static int build_time(int64_t *out)
 {
 	const char *v = getenv("SOURCE_DATE_EPOCH");
+	char *end;
 	long long n;
 	if (!v || !*v) {
 		*out = (int64_t)time(NULL);
 		return 0;
 	}
-	if (cli_parse_int(&n, v, 0, 253402300799LL))
+	errno = 0;
+	n = strtoll(v, &end, 10);
+	if (errno || *end || n < 0 || n > 253402300799LL || v[0] < '0' || v[0] > '9')
 		return -1;
 	*out = (int64_t)n;
 	return 0;
@@ -56,13 +59,12 @@ int cmd_train_base(const char *dir, const char *out_path, omen_train_opts *o, co
 	double t0 = omen_now();
 
 	if (!out_path)
-		return cli_usage("train", "--base needs -o <file> for the base model");
+		return cli_usage("train", "--base needs --model <file> for the base model");
 	if (build_time(&when))
 		return cli_usage("train", "SOURCE_DATE_EPOCH: '%s' is not seconds since the epoch",
 			getenv("SOURCE_DATE_EPOCH"));
 	if (!(d = opendir(dir))) {
-		fprintf(stderr, "git omen: cannot read shard directory '%s': %s\n", dir, strerror(errno));
-		return EXIT_FATAL;
+		return cli_error("cannot read shard directory '%s': %s", dir, strerror(errno));
 	}
 	while ((de = readdir(d))) {
 		size_t len = strlen(de->d_name);
@@ -79,8 +81,7 @@ int cmd_train_base(const char *dir, const char *out_path, omen_train_opts *o, co
 	closedir(d);
 	d = NULL;
 	if (!n) {
-		fprintf(stderr, "git omen: cannot train the base model: no '*.shard' file in '%s'\n", dir);
-		rc = EXIT_FATAL;
+		rc = cli_error("cannot train the base model: no '*.shard' file in '%s'", dir);
 		goto out;
 	}
 	qsort(paths, n, sizeof(*paths), name_cmp);

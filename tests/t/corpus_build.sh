@@ -51,19 +51,19 @@ rc=0; sh "$ROOT/fixtures/corpus/build.sh" --leave-out >out 2>err || rc=$?
 
 # the base model from the two shards, twice: the same bytes
 for k in 1 2; do
-	SOURCE_DATE_EPOCH=1700000000 "$OMEN" train --base work/shards -o "b$k.omen" --epochs 2 \
+	SOURCE_DATE_EPOCH=1700000000 "$OMEN" train --base work/shards --model "b$k.omen" --epochs 2 \
 		--threads $k >out 2>err || fail "train --base: $(cat err)"
 done
 cmp -s b1.omen b2.omen || fail "base model differs between runs at 1 and 2 threads"
 grep -q "^corpus: 2 histories; train [0-9]* commits" out || fail "summary: $(cat out)"
-"$OMEN" train --info b1.omen --format json >info
+"$OMEN" train --info --model b1.omen --format json >info
 grep -q '"metrics":[[:space:]]*"relative"' info || fail "info: $(cat info)"
 grep -q '"name":[[:space:]]*"example/one"' info || fail "corpus not listed: $(cat info)"
 grep -q '"date":[[:space:]]*"2023-11-14T22:13:20Z"' info || fail "date: $(cat info)"
 rc=0; "$OMEN" train --base work/shards >out 2>err || rc=$?
 [ "$rc" -eq 129 ] || fail "--base without -o: exit $rc"
-rc=0; "$OMEN" train --base "$top/none" -o x.omen >out 2>err || rc=$?
-[ "$rc" -eq 128 ] && grep -q "^git omen: cannot read shard directory '$top/none'" err ||
+rc=0; "$OMEN" train --base "$top/none" --model x.omen >out 2>err || rc=$?
+[ "$rc" -eq 128 ] && grep -q "^git omen: error: cannot read shard directory '$top/none'" err ||
 	fail "no directory: exit $rc: $(cat err)"
 
 # fine-tuning: --from starts from the base model; a damaged base model is a
@@ -71,17 +71,17 @@ rc=0; "$OMEN" train --base "$top/none" -o x.omen >out 2>err || rc=$?
 git clone -q snap/example+one r1
 cd r1
 "$OMEN" label >/dev/null
-"$OMEN" train --from ../b1.omen --epochs 2 -o ft.omen >out 2>err || fail "--from: $(cat err)"
+"$OMEN" train --from ../b1.omen --epochs 2 --model ft.omen >out 2>err || fail "--from: $(cat err)"
 grep -q "^fine-tuned from base model \.\./b1\.omen$" out || fail "--from: $(cat out)"
-"$OMEN" train --info ft.omen --format json | grep -q '"from_base"' || fail "no from_base in metadata"
+"$OMEN" train --info --model ft.omen --format json | grep -q '"from_base"' || fail "no from_base in metadata"
 cp ../b1.omen flipped.omen
 printf 'X' | dd of=flipped.omen bs=1 seek=300 conv=notrunc 2>/dev/null
-"$OMEN" train --from flipped.omen --epochs 2 -o ft2.omen >out 2>err || fail "flipped base: $(cat err)"
+"$OMEN" train --from flipped.omen --epochs 2 --model ft2.omen >out 2>err || fail "flipped base: $(cat err)"
 [ "$(wc -l <err)" -eq 1 ] && grep -q "^git omen: notice: cannot use base model 'flipped.omen': .*; training from scratch$" err ||
 	fail "flipped base notice: $(cat err)"
 ! grep -q "fine-tuned" out || fail "flipped base was used"
 git config omen.baseModel ../b1.omen
-"$OMEN" train --scratch --epochs 2 -o ft3.omen >out 2>err || fail "--scratch: $(cat err)"
+"$OMEN" train --scratch --epochs 2 --model ft3.omen >out 2>err || fail "--scratch: $(cat err)"
 ! grep -q "fine-tuned" out || fail "--scratch used the base model"
-"$OMEN" train --info ft3.omen --format json | grep -q '"from_base"' && fail "--scratch: from_base in metadata"
+"$OMEN" train --info --model ft3.omen --format json | grep -q '"from_base"' && fail "--scratch: from_base in metadata"
 exit 0
