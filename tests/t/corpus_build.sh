@@ -44,6 +44,30 @@ rc=0; sh "$ROOT/fixtures/corpus/build.sh" --manifest lo.tsv --no-train >out 2>er
 [ "$rc" -eq 1 ] && grep -q "corpus entry 'pallets/click' is on the leave-out list" err ||
 	fail "leave-out entry: exit $rc: $(cat err)"
 
+# a snapshot that lacks one blob: its labelling fails; --keep-going leaves
+# it out and goes on, without it the build stops there naming it
+git init -q --bare snap/example+four
+git --git-dir=snap/example+four unpack-objects -q <"$(ls snap/example+two/objects/pack/*.pack)"
+git --git-dir=snap/example+two for-each-ref --format='%(refname) %(objectname)' |
+	while read -r ref id; do git --git-dir=snap/example+four update-ref "$ref" "$id"; done
+git --git-dir=snap/example+four symbolic-ref HEAD "$(git --git-dir=snap/example+two symbolic-ref HEAD)"
+blob=$(git --git-dir=snap/example+four ls-tree -r HEAD~30 | awk '$2 == "blob" { print $3; exit }')
+rm -f "snap/example+four/objects/$(echo "$blob" | cut -c1-2)/$(echo "$blob" | cut -c3-)"
+printf 'name\thead\tlanguage\tcommits\nexample/four\t%s\tGo\t140\nexample/one\t%s\tPython\t160\n' "$h2" "$h1" >m2.tsv
+rc=0; sh "$ROOT/fixtures/corpus/build.sh" --manifest m2.tsv --no-train >out 2>err || rc=$?
+[ "$rc" -eq 1 ] && grep -q "^build.sh: corpus entry 'example/four': labelling failed$" err ||
+	fail "missing blob: exit $rc: $(cat err)"
+sh "$ROOT/fixtures/corpus/build.sh" --manifest m2.tsv --no-train --keep-going >out 2>err ||
+	fail "missing blob, --keep-going: $(cat err)"
+grep -q "^build.sh: corpus entry 'example/four': labelling failed; left out$" err &&
+	grep -q "^left out: 1 of 2 corpus entries: example/four$" err ||
+	fail "missing blob, --keep-going: $(cat err)"
+[ ! -e work/shards/example+four.shard ] && [ -s work/shards/example+one.shard ] ||
+	fail "missing blob, --keep-going: shards"
+# back to the first manifest's shards for what follows
+sh "$ROOT/fixtures/corpus/build.sh" --manifest m.tsv --no-train --keep-going >out 2>err ||
+	fail "rebuild: $(cat err)"
+
 # --leave-out reads the leave-out list (none of whose snapshots is here)
 rc=0; sh "$ROOT/fixtures/corpus/build.sh" --leave-out >out 2>err || rc=$?
 [ "$rc" -eq 1 ] && grep -q "^build.sh: corpus entry 'pallets/click': no snapshot at" err ||
