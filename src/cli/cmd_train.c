@@ -120,6 +120,18 @@ static void print_info_text(const cJSON *j, const char *path)
 	const cJSON *te = cJSON_GetObjectItemCaseSensitive(j, "test");
 	const cJSON *v;
 	printf("model       %s\n", path);
+	/* a base model (issue 11), or a model fine-tuned from one */
+	for (int k = 0; k < 2; k++) {
+		const cJSON *b = cJSON_GetObjectItemCaseSensitive(j, k ? "from_base" : "base");
+		const cJSON *dt = cJSON_GetObjectItemCaseSensitive(b, "date");
+		if (!cJSON_IsObject(b))
+			continue;
+		printf("%s%.0f histories, %.0f training commits, built %s\n",
+			k ? "from base   " : "base model  ",
+			cJSON_GetNumberValue(cJSON_GetObjectItemCaseSensitive(b, "histories")),
+			cJSON_GetNumberValue(cJSON_GetObjectItemCaseSensitive(b, "n_train")),
+			cJSON_IsString(dt) ? dt->valuestring : "?");
+	}
 	if ((v = cJSON_GetObjectItemCaseSensitive(j, "arch")) && cJSON_IsString(v))
 		printf("arch        %s, format version %d\n", v->valuestring,
 			cJSON_GetObjectItemCaseSensitive(j, "version")

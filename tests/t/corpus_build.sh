@@ -84,6 +84,8 @@ grep -q "^corpus: 2 histories; train [0-9]* commits" out || fail "summary: $(cat
 grep -q '"metrics":[[:space:]]*"relative"' info || fail "info: $(cat info)"
 grep -q '"name":[[:space:]]*"example/one"' info || fail "corpus not listed: $(cat info)"
 grep -q '"date":[[:space:]]*"2023-11-14T22:13:20Z"' info || fail "date: $(cat info)"
+"$OMEN" train --info --model b1.omen | grep -q "^base model  2 histories, [0-9]* training commits, built 2023-11-14T22:13:20Z$" ||
+	fail "info text: $("$OMEN" train --info --model b1.omen)"
 rc=0; "$OMEN" train --base work/shards >out 2>err || rc=$?
 [ "$rc" -eq 129 ] || fail "--base without -o: exit $rc"
 rc=0; "$OMEN" train --base "$top/none" --model x.omen >out 2>err || rc=$?
@@ -98,6 +100,7 @@ cd r1
 "$OMEN" train --from ../b1.omen --epochs 2 --model ft.omen >out 2>err || fail "--from: $(cat err)"
 grep -q "^fine-tuned from base model \.\./b1\.omen$" out || fail "--from: $(cat out)"
 "$OMEN" train --info --model ft.omen --format json | grep -q '"from_base"' || fail "no from_base in metadata"
+"$OMEN" train --info --model ft.omen | grep -q "^from base   2 histories" || fail "info text: no from base line"
 cp ../b1.omen flipped.omen
 printf 'X' | dd of=flipped.omen bs=1 seek=300 conv=notrunc 2>/dev/null
 "$OMEN" train --from flipped.omen --epochs 2 --model ft2.omen >out 2>err || fail "flipped base: $(cat err)"
