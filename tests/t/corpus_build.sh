@@ -4,7 +4,9 @@
 # work with one line naming that entry; --keep-going labels and shards the
 # other two and lists what it left out. An entry on the leave-out list is
 # refused. The shards train a base model through `git omen train --base`,
-# and the same SOURCE_DATE_EPOCH gives the same bytes twice.
+# and the same SOURCE_DATE_EPOCH gives the same bytes twice; the file holds
+# none of the corpus's authors, paths or messages; fine-tuning starts from
+# it, a damaged one is a notice.
 set -eu
 fail() { echo "FAIL: $*" >&2; exit 1; }
 export HOME="$PWD/home" GIT_CONFIG_NOSYSTEM=1 GIT_CONFIG_GLOBAL=/dev/null
@@ -84,6 +86,20 @@ grep -q "^corpus: 2 histories; train [0-9]* commits" out || fail "summary: $(cat
 grep -q '"metrics":[[:space:]]*"relative"' info || fail "info: $(cat info)"
 grep -q '"name":[[:space:]]*"example/one"' info || fail "corpus not listed: $(cat info)"
 grep -q '"date":[[:space:]]*"2023-11-14T22:13:20Z"' info || fail "date: $(cat info)"
+# weights and statistics only: no author name or address, no path, no
+# message of the corpus in the file (strings(1) of binutils)
+if command -v strings >/dev/null; then
+	strings -n 4 b1.omen >strs
+	for g in snap/example+one snap/example+two; do
+		git --git-dir="$g" log --format='%ae%n%an' | sort -u >who
+		git --git-dir="$g" ls-tree -r --name-only HEAD | grep '/' | sort -u >paths
+		git --git-dir="$g" log --format='%s' | awk 'length($0) >= 12' | sort -u >subjects
+		[ -s who ] && [ -s paths ] && [ -s subjects ] || fail "no names to look for in $g"
+		! grep -F -f who strs >/dev/null || fail "an author of $g is in the base model"
+		! grep -F -f paths strs >/dev/null || fail "a path of $g is in the base model"
+		! grep -F -f subjects strs >/dev/null || fail "a commit message of $g is in the base model"
+	done
+fi
 "$OMEN" train --info --model b1.omen | grep -q "^base model  2 histories, [0-9]* training commits, built 2023-11-14T22:13:20Z$" ||
 	fail "info text: $("$OMEN" train --info --model b1.omen)"
 rc=0; "$OMEN" train --base work/shards >out 2>err || rc=$?
