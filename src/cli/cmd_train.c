@@ -366,8 +366,9 @@ int cmd_train(int argc, char **argv)
 		return rc;
 	if (a.info)
 		return cmd_info(a.model, a.format);
-	if (a.base_dir && (a.shard || a.rev))
-		return cli_usage("train", "--base reads shards: no revision or --shard with it");
+	if (a.base_dir && (a.shard || a.rev || a.labels || a.no_cache || a.from || a.scratch))
+		return cli_usage("train", "--base reads shards: no revision, --shard, --labels, "
+			"--no-cache, --from or --scratch with it");
 	if (a.base_dir)
 		return cmd_train_base(a.base_dir, a.model, &o, a.format);
 	rc = EXIT_OK;

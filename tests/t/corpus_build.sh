@@ -103,7 +103,9 @@ fi
 "$OMEN" train --info --model b1.omen | grep -q "^base model  2 histories, [0-9]* training commits, built 2023-11-14T22:13:20Z$" ||
 	fail "info text: $("$OMEN" train --info --model b1.omen)"
 rc=0; "$OMEN" train --base work/shards >out 2>err || rc=$?
-[ "$rc" -eq 129 ] || fail "--base without -o: exit $rc"
+[ "$rc" -eq 129 ] || fail "--base without --model: exit $rc"
+rc=0; "$OMEN" train --base work/shards --model x.omen --from b1.omen >out 2>err || rc=$?
+[ "$rc" -eq 129 ] && grep -q "^git omen train: --base reads shards" err || fail "--base --from: exit $rc: $(cat err)"
 rc=0; "$OMEN" train --base "$top/none" --model x.omen >out 2>err || rc=$?
 [ "$rc" -eq 128 ] && grep -q "^git omen: error: cannot read shard directory '$top/none'" err ||
 	fail "no directory: exit $rc: $(cat err)"
