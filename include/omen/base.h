@@ -84,4 +84,11 @@ int omen_base_train(omen_model **out, omen_base_report *rep, const omen_corpus *
 int omen_base_logits(float *out, const omen_model *m, const omen_corpus *c, size_t h,
 	const size_t *idx, size_t n, int threads);
 
+/* A young repository (too few labelled commits to train): the base model's
+ * weights, calibration and threshold, with the metrics and file facts
+ * standardized on every commit of ds (no labels needed), and ds's metrics
+ * state and head, so that scoring resumes from it like from a trained
+ * model. The metadata says so ("young") and names the base ("from_base"). */
+int omen_model_adopt_base(omen_model **out, const omen_model *base, const omen_dataset *ds);
+
 #endif

@@ -8,6 +8,7 @@
 #include <unistd.h>
 #include "cli/cli.h"
 #include "cli/options.h"
+#include "omen/base.h"
 #include "omen/shard.h"
 
 typedef struct {
@@ -432,6 +433,25 @@ int cmd_train(int argc, char **argv)
 	e = omen_model_train(&m, &rep, ds, &o);
 	if (ps.tty)
 		fputs("\r\033[K", stderr);
+	if (e == OMEN_EINVAL && base && !strncmp(omen_error_last(), "too few", 7)) {
+		/* a young repository: the base model, standardized on its commits */
+		char why[512];
+		snprintf(why, sizeof(why), "%s", omen_error_last());
+		if (omen_model_adopt_base(&m, base, ds) || omen_model_save(m, model_path))
+			goto fatal;
+		cli_notice("%s: keeping the base model '%s', standardized on this repository's %zu "
+			"commits", why, a.from, omen_dataset_size(ds));
+		if (!strcmp(a.format, "json")) {
+			omen_buf jb = OMEN_BUF_INIT;
+			omen_buf_put_json_string(&jb, model_path, strlen(model_path));
+			printf("{\"model\":%s,\"base_kept\":true,\"commits\":%zu}\n",
+				jb.ptr ? jb.ptr : "\"\"", omen_dataset_size(ds));
+			omen_buf_free(&jb);
+		} else
+			printf("wrote %s (the base model, not trained on this repository; scores are "
+				"advisory)\n", model_path);
+		goto out;
+	}
 	if (e || omen_model_save(m, model_path))
 		goto fatal;
 	if (!strcmp(a.format, "json"))

@@ -293,6 +293,60 @@ int omen_model_copy_weights(omen_model *dst, const omen_model *src)
 	return 0;
 }
 
+int omen_model_adopt_base(omen_model **out, const omen_model *base, const omen_dataset *ds)
+{
+	size_t n = omen_dataset_size(ds), i, nl = 0, pos = 0, *idx = NULL;
+	omen_model *m = NULL;
+	cJSON *meta, *y;
+	int e;
+	*out = NULL;
+	if (!n)
+		return omen_error_set(OMEN_EINVAL, "cannot adopt the base model: no commits");
+	if ((e = omen_model_alloc(&m, base->D, base->C)))
+		return e;
+	if ((e = omen_model_copy_weights(m, base)))
+		goto out;
+	if (!(idx = malloc(n * sizeof(*idx)))) {
+		e = omen_error_set(OMEN_ENOMEM, "out of memory");
+		goto out;
+	}
+	for (i = 0; i < n; i++) {
+		const omen_sample *s = omen_dataset_get(ds, i);
+		idx[i] = i;
+		nl += s->label >= 0;
+		pos += s->label > 0;
+	}
+	omen_model_fit_standardization(m, ds, idx, n);
+	m->caps = base->caps;
+	m->platt_a = base->platt_a;
+	m->platt_b = base->platt_b;
+	m->threshold = base->threshold;
+	if (omen_dataset_tip(ds))
+		memcpy(m->head, omen_dataset_tip(ds), sizeof(m->head));
+	else
+		memcpy(m->head, omen_dataset_get(ds, n - 1)->id, sizeof(m->head));
+	if (omen_dataset_metrics(ds) &&
+		((e = omen_metrics_save(omen_dataset_metrics(ds), &m->mstate_blob)) ||
+		(e = omen_metrics_load(&m->mstate, m->mstate_blob.ptr, m->mstate_blob.len))))
+		goto out;
+	meta = cJSON_CreateObject();
+	y = cJSON_CreateObject();
+	cJSON_AddNumberToObject(y, "commits", (double)n);
+	cJSON_AddNumberToObject(y, "labelled", (double)nl);
+	cJSON_AddNumberToObject(y, "inducing", (double)pos);
+	cJSON_AddItemToObject(meta, "young", y);
+	if (base->meta && cJSON_GetObjectItemCaseSensitive(base->meta, "base"))
+		cJSON_AddItemToObject(meta, "from_base",
+			cJSON_Duplicate(cJSON_GetObjectItemCaseSensitive(base->meta, "base"), 1));
+	m->meta = meta;
+	*out = m;
+	m = NULL;
+out:
+	free(idx);
+	omen_model_free(m);
+	return e;
+}
+
 int omen_base_logits(float *out, const omen_model *m, const omen_corpus *c, size_t h,
 	const size_t *idx, size_t n, int threads)
 {

@@ -257,6 +257,14 @@ static void fit_standardization(omen_model *m, const omen_dataset *ds, const siz
 	}
 }
 
+/* The standardization of m fitted on samples idx[0..n) of ds (shared with
+ * src/model/base.c, which adopts a base model for a young repository). */
+void omen_model_fit_standardization(omen_model *m, const omen_dataset *ds, const size_t *idx,
+	size_t n)
+{
+	fit_standardization(m, ds, idx, n);
+}
+
 static int fit_lr(omen_logreg *out, const omen_dataset *ds, const size_t *idx, size_t n)
 {
 	double *X = malloc((n + 1) * OMEN_NMETRICS * sizeof(double)), *y = malloc((n + 1) * sizeof(double));

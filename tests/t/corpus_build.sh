@@ -129,4 +129,23 @@ git config omen.baseModel ../b1.omen
 "$OMEN" train --scratch --epochs 2 --model ft3.omen >out 2>err || fail "--scratch: $(cat err)"
 ! grep -q "fine-tuned" out || fail "--scratch used the base model"
 "$OMEN" train --info --model ft3.omen --format json | grep -q '"from_base"' && fail "--scratch: from_base in metadata"
+
+# a young repository (too few labelled commits): without a base model train
+# stops with the figure; with one it keeps the base model, says so once with
+# the figure, and score uses it
+cd "$top"
+/usr/bin/python3 "$ROOT/fixtures/demo/gen.py" --seed 9 --commits 45 --out "$top/young" --quiet
+cd young
+"$OMEN" label >/dev/null
+rc=0; "$OMEN" train >out 2>err || rc=$?
+[ "$rc" -eq 128 ] && grep -q "^git omen: error: too few labelled commits to train: [0-9]* labelled" err ||
+	fail "young, no base: exit $rc: $(cat err)"
+"$OMEN" train --from ../b1.omen >out 2>err || fail "young, base: $(cat err)"
+[ "$(wc -l <err)" -eq 1 ] &&
+	grep -q "^git omen: notice: too few labelled commits to train: [0-9]* labelled .*: keeping the base model '../b1.omen', standardized on this repository's [0-9]* commits$" err ||
+	fail "young, base notice: $(cat err)"
+grep -q "the base model, not trained on this repository; scores are advisory" out || fail "$(cat out)"
+"$OMEN" train --info --format json | grep -q '"young"' || fail "young: metadata"
+"$OMEN" score HEAD >out 2>err || fail "young: score: $(cat err)"
+grep -q "advisory" out || fail "young: score output: $(cat out)"
 exit 0
