@@ -470,6 +470,7 @@ out:
 	omen_model_free(base);
 	free(from_cfg);
 	omen_dataset_free(ds);
+	cli_blob_notice(repo);
 	omen_repo_free(repo);
 	free(model_path);
 	free(lock_path);
