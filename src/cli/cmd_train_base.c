@@ -12,6 +12,16 @@
 #include "cli/cli.h"
 #include "omen/base.h"
 
+void cli_note_base_model(const omen_scorer *sc)
+{
+	const cJSON *y = cJSON_GetObjectItemCaseSensitive(omen_model_meta(omen_scorer_model(sc)),
+		"young");
+	if (cJSON_IsObject(y))
+		cli_notice("scored with a base model: this repository had %.0f labelled commits, too "
+			"few to train its own model; scores are advisory",
+			cJSON_GetNumberValue(cJSON_GetObjectItemCaseSensitive(y, "labelled")));
+}
+
 static int name_cmp(const void *a, const void *b)
 {
 	return strcmp(*(char *const *)a, *(char *const *)b);

@@ -148,4 +148,10 @@ grep -q "the base model, not trained on this repository; scores are advisory" ou
 "$OMEN" train --info --format json | grep -q '"young"' || fail "young: metadata"
 "$OMEN" score HEAD >out 2>err || fail "young: score: $(cat err)"
 grep -q "advisory" out || fail "young: score output: $(cat out)"
+[ "$(grep -c "^git omen: notice: scored with a base model: this repository had [0-9]* labelled commits, too few to train its own model; scores are advisory$" err)" -eq 1 ] ||
+	fail "young: score notice: $(cat err)"
+# a model trained on the repository itself gives no such notice
+cd "$top/r1"
+"$OMEN" score --model ft3.omen HEAD >out 2>err || fail "r1: score: $(cat err)"
+! grep -q "base model" err || fail "r1: base-model notice on its own model: $(cat err)"
 exit 0
