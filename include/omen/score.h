@@ -184,7 +184,8 @@ typedef struct {
 	int64_t stale_days, stale_commits;   /* omen.staleDays, omen.staleCommits (0 = off) */
 	unsigned stale;               /* OMEN_STALE_* */
 } omen_freshness;
-/* The model says it is the base model ("base_model": true in its metadata). */
+/* The model says it is a base model: a "base" section in its metadata (as
+ * src/model/base.c writes it) or "base_model": true. */
 int omen_model_is_base(const omen_model *m);
 /* The training date from the metadata, 0 when unknown. */
 int64_t omen_model_trained_at(const omen_model *m);

@@ -20,11 +20,12 @@
 
 int omen_model_is_base(const omen_model *m)
 {
-	/* the base model (issue 11) says so in its metadata; it is trained on
-	 * other histories, so its head is never in this repository */
-	const cJSON *meta = omen_model_meta(m), *v;
-	v = meta ? cJSON_GetObjectItemCaseSensitive(meta, "base_model") : NULL;
-	return cJSON_IsTrue(v);
+	/* the base model (issue 11) says so in its metadata (its "base"
+	 * section, as src/model/base.c writes it); it is trained on other
+	 * histories, so its head is never in this repository */
+	const cJSON *meta = omen_model_meta(m);
+	return meta && (cJSON_IsObject(cJSON_GetObjectItemCaseSensitive(meta, "base")) ||
+		cJSON_IsTrue(cJSON_GetObjectItemCaseSensitive(meta, "base_model")));
 }
 
 /* "YYYY-MM-DDTHH:MM:SSZ" as written by training; 0 when it is not that. */
