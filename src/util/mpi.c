@@ -17,6 +17,10 @@
 static int g_on, g_rank, g_size = 1;
 static float *g_buf;
 static size_t g_cap;
+/* OMEN_MPI_LOG=1: each rank writes one line at the end (exchanges, bytes,
+ * time in them), the figures of tests/bench/bench_mpi.sh */
+static size_t g_nx, g_xfloats;
+static double g_xsec, g_t0;
 
 /* Set by mpirun in every process it starts; a plain run has neither. */
 static int launched_by_mpirun(void)
@@ -64,6 +68,7 @@ int omen_mpi_init(int *argc, char ***argv)
 		return omen_error_set(OMEN_ERROR, "cannot start MPI (MPI_Init_thread failed)");
 	MPI_Comm_rank(MPI_COMM_WORLD, &g_rank);
 	MPI_Comm_size(MPI_COMM_WORLD, &g_size);
+	g_t0 = MPI_Wtime();
 	g_on = 1;
 	if (g_size > 1)
 		term_setup();
@@ -72,8 +77,13 @@ int omen_mpi_init(int *argc, char ***argv)
 
 void omen_mpi_finalize(void)
 {
+	const char *lg = getenv("OMEN_MPI_LOG");
 	if (!g_on)
 		return;
+	if (lg && *lg && strcmp(lg, "0"))
+		fprintf(stderr, "git omen: notice: rank %d of %d: %zu gradient exchanges of %.1f MiB in "
+			"all, %.3f s in MPI_Allreduce of %.3f s since MPI_Init\n", g_rank, g_size, g_nx,
+			(double)g_xfloats * sizeof(float) / 1048576.0, g_xsec, MPI_Wtime() - g_t0);
 	free(g_buf);
 	g_buf = NULL;
 	g_cap = 0;
@@ -120,6 +130,7 @@ int omen_mpi_grad_exchange(void *ctx, float *const *grad, float *loss, int nchun
 {
 	size_t tot = 0, i, k, need;
 	float *p;
+	double t;
 	int c, parts = g_size;
 	(void)ctx;
 	maybe_die();
@@ -150,9 +161,13 @@ int omen_mpi_grad_exchange(void *ctx, float *const *grad, float *loss, int nchun
 	}
 	for (c = 0; c < nchunks; c++)
 		p[c] = c % parts == g_rank ? loss[c] : 0.0f;
+	t = MPI_Wtime();
 	if (MPI_Allreduce(MPI_IN_PLACE, g_buf, (int)need, MPI_FLOAT, MPI_SUM, MPI_COMM_WORLD)
 	    != MPI_SUCCESS)
 		return omen_error_set(OMEN_ERROR, "rank %d: MPI_Allreduce of the gradients failed", g_rank);
+	g_xsec += MPI_Wtime() - t;
+	g_nx++;
+	g_xfloats += need;
 	p = g_buf;
 	for (c = 0; c < nchunks; c++)
 		for (i = 0; i < nspans; i++) {
