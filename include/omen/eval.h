@@ -41,7 +41,7 @@ typedef struct {
 omen_effort_scores omen_effort(const double *score, const int *y, const double *effort, size_t n);
 
 /* ---- additions for walk-forward evaluation and the report ----------------
- * (owned by src/eval/; the functions above are the original contract) */
+ * (owned by src/eval/) */
 
 /* Bin edges as scikit-learn's calibration_curve(strategy="uniform"):
  * edges j * (1.0 / nbins); a value on an inner edge goes to the lower bin

@@ -1,6 +1,6 @@
 /* Labeller: fix-commit identification, one oldest-first line-origin pass
- * (SZZ, Sliwerski, Zimmermann & Zeller, MSR 2005, with the refinements of
- * DESIGN.md "Labels"), label file I/O. */
+ * (SZZ, Sliwerski, Zimmermann & Zeller, MSR 2005, with the refinements in
+ * DEVELOPERS.md "Labeller"), label file I/O. */
 #ifndef OMEN_LABEL_H
 #define OMEN_LABEL_H
 

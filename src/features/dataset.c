@@ -14,7 +14,7 @@
 #include "omen/error.h"
 #include "omen/features.h"
 #include "omen/label.h"
-#include "features/sample_int.h"
+#include "features/internal.h"
 
 #define DS_MAGIC "OMENDSET"
 #define DS_VERSION 2u

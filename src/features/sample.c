@@ -6,7 +6,7 @@
 #include <string.h>
 #include "omen/error.h"
 #include "omen/features.h"
-#include "features/sample_int.h"
+#include "features/internal.h"
 
 int omen_sample_buf_new(omen_sample_buf **out)
 {
@@ -19,7 +19,7 @@ void omen_sample_buf_free(omen_sample_buf *b)
 	if (!b)
 		return;
 	free(b->file_off); free(b->hunk_off); free(b->tok); free(b->tok_line); free(b->msg);
-	free(b->facts); free(b->hs); free(b->paths); free(b->order); free(b->keep);
+	free(b->facts); free(b->hs); free(b->paths); free(b->order); free(b->path_ptr);
 	free(b->hunk_new_start); free(b->hunk_new_lines); free(b->hunk_old_start); free(b->hunk_old_lines);
 	omen_buf_free(&b->names);
 	free(b);
@@ -257,16 +257,16 @@ int omen_sample_build(omen_sample *out, omen_sample_buf *b, const omen_change *c
 			out->metrics[j] = (float)met[j];
 	}
 	/* views */
-	if (OMEN_ARRAY_RESERVE(b->keep, b->keep_cap, (size_t)b->nfiles + 1)) {
+	if (OMEN_ARRAY_RESERVE(b->path_ptr, b->path_ptr_cap, (size_t)b->nfiles + 1)) {
 		e = omen_error_set(OMEN_ENOMEM, "out of memory");
 		goto out;
 	}
 	for (i = 0; i < b->nfiles; i++)
-		b->keep[i] = b->names.ptr + b->paths[i];
-	if (OMEN_ARRAY_RESERVE(b->hunk_new_start, b->hcols_cap, (size_t)b->nhunks + 1) ||
-		OMEN_ARRAY_RESERVE(b->hunk_new_lines, b->hcols_cap2, (size_t)b->nhunks + 1) ||
-		OMEN_ARRAY_RESERVE(b->hunk_old_start, b->hcols_cap3, (size_t)b->nhunks + 1) ||
-		OMEN_ARRAY_RESERVE(b->hunk_old_lines, b->hcols_cap4, (size_t)b->nhunks + 1)) {
+		b->path_ptr[i] = b->names.ptr + b->paths[i];
+	if (OMEN_ARRAY_RESERVE(b->hunk_new_start, b->hunk_new_start_cap, (size_t)b->nhunks + 1) ||
+		OMEN_ARRAY_RESERVE(b->hunk_new_lines, b->hunk_new_lines_cap, (size_t)b->nhunks + 1) ||
+		OMEN_ARRAY_RESERVE(b->hunk_old_start, b->hunk_old_start_cap, (size_t)b->nhunks + 1) ||
+		OMEN_ARRAY_RESERVE(b->hunk_old_lines, b->hunk_old_lines_cap, (size_t)b->nhunks + 1)) {
 		e = omen_error_set(OMEN_ENOMEM, "out of memory");
 		goto out;
 	}
@@ -291,7 +291,7 @@ int omen_sample_build(omen_sample *out, omen_sample_buf *b, const omen_change *c
 	out->hunk_new_lines = b->hunk_new_lines;
 	out->hunk_old_start = b->hunk_old_start;
 	out->hunk_old_lines = b->hunk_old_lines;
-	out->file_path = (const char *const *)b->keep;
+	out->file_path = (const char *const *)b->path_ptr;
 out:
 	free(sizes);
 	free(fsel);

@@ -7,7 +7,7 @@
 #include "omen/error.h"
 #include "omen/eval.h"
 #include "omen/model.h"
-#include "model/model_int.h"
+#include "model/internal.h"
 
 double omen_platt_apply(double a, double b, double f)
 {

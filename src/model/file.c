@@ -1,4 +1,4 @@
-/* Model file format (DESIGN.md "Files"), little-endian:
+/* Model file format (DEVELOPERS.md "Model file (file.c)"), little-endian:
  *
  *   0   8  magic "OMENMODL"
  *   8   4  u32 format version (OMEN_MODEL_VERSION)
@@ -20,7 +20,7 @@
 #include <stdlib.h>
 #include <string.h>
 #include "omen/error.h"
-#include "model/model_int.h"
+#include "model/internal.h"
 
 #define OMEN_MODEL_MAGIC "OMENMODL"
 #define OMEN_MODEL_VERSION 1u

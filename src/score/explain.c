@@ -8,7 +8,7 @@
 #include "omen/error.h"
 #include "omen/label.h"
 #include "omen/score.h"
-#include "score/score_int.h"
+#include "score/internal.h"
 
 typedef struct {
 	omen_explanation *x;

@@ -12,7 +12,7 @@
 #include "omen/error.h"
 #include "omen/label.h"
 #include "omen/score.h"
-#include "score/score_int.h"
+#include "score/internal.h"
 
 struct omen_scorer {
 	omen_repo *repo;
