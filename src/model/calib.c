@@ -5,7 +5,7 @@
 #include <math.h>
 #include <stdlib.h>
 #include "omen/error.h"
-#include "omen/eval.h"
+#include "omen/rank.h"
 #include "omen/model.h"
 #include "model/internal.h"
 

@@ -13,7 +13,7 @@
 #include <time.h>
 #include <unistd.h>
 #include "omen/error.h"
-#include "omen/eval.h"
+#include "omen/rank.h"
 #include "model/internal.h"
 
 #define OMEN_TRAIN_CHUNKS 2

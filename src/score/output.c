@@ -6,7 +6,7 @@
 #include <stdlib.h>
 #include <string.h>
 #include "omen/error.h"
-#include "omen/eval.h"
+#include "omen/rank.h"
 #include "omen/score.h"
 
 const char *const omen_band_names[3] = {"low", "medium", "high"};

@@ -15,7 +15,8 @@
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
-#include "omen/eval.h"
+#include "omen/rank.h"
+#include "omen/util.h"
 #include "omen/error.h"
 
 /* ---- sorting --------------------------------------------------------------- */
