@@ -208,6 +208,17 @@ int omen_history_upstream(git_oid *out, omen_repo *r);
  * joined by spaces, leading blank lines dropped). *out malloc'd.
  * OMEN_ENOTFOUND "cannot read commit '<id>': ..." when it is not there. */
 int omen_history_subject(char **out, omen_repo *r, const git_oid *id);
+/* How many parents a commit has (a merge has two or more). OMEN_ENOTFOUND
+ * "cannot read commit '<id>': ..." when it is not there. */
+int omen_history_parent_count(size_t *out, omen_repo *r, const git_oid *id);
+
+/* ---- object ids: the stages above history/ use these, never libgit2 ------ */
+/* The id's hex digits, at most n - 1 of them, NUL-terminated (n >= 1). */
+void omen_oid_hex(char *out, size_t n, const git_oid *id);
+/* A full 40-digit hex id. OMEN_EINVAL "bad commit id '<text>'" otherwise. */
+int omen_oid_parse(git_oid *out, const char *hex);
+/* 1 when the ids are the same, else 0. */
+int omen_oid_equal(const git_oid *a, const git_oid *b);
 
 /* ---- line classes (src/history/lines.c) --------------------------------- */
 /* Whether a line is blank/whitespace-only, or a comment only line in the

@@ -120,7 +120,7 @@ static void set_tip(omen_dataset *d, omen_repo *r, const char *const *revs)
 	if (!spec || (revs && revs[1]) || spec[0] == '^' || strstr(spec, ".."))
 		return;
 	if (omen_history_resolve(&id, r, spec) == 0)
-		git_oid_tostr(d->tip, sizeof(d->tip), &id);
+		omen_oid_hex(d->tip, sizeof(d->tip), &id);
 	omen_error_clear();
 }
 
@@ -540,7 +540,7 @@ static int ds_extend(build_ctx *x, omen_repo *r, const omen_walk_opts *wo, const
 	for (i = 0; i < old; i++) {
 		ds_rec *q = &d->rec[i];
 		const omen_label_rec *lr;
-		git_oid_tostr(hex, sizeof(hex), &ids[i]);
+		omen_oid_hex(hex, sizeof(hex), &ids[i]);
 		if (memcmp(q->id, hex, OMEN_OID_HEX + 1))
 			return 0;
 		lr = omen_labels_get(x->labels, hex);

@@ -498,7 +498,7 @@ static int find_id(const git_oid *ids, size_t n, const git_oid *id)
 {
 	size_t i;
 	for (i = 0; i < n; i++)
-		if (git_oid_equal(&ids[i], id))
+		if (omen_oid_equal(&ids[i], id))
 			return (int)i;
 	return -1;
 }
@@ -543,7 +543,7 @@ static int push_hex(char **revs, size_t *nr, const char *prefix, const git_oid *
 	char hex[GIT_OID_HEXSZ + 2];
 	size_t k = strlen(prefix);
 	memcpy(hex, prefix, k);
-	git_oid_tostr(hex + k, sizeof(hex) - k, id);
+	omen_oid_hex(hex + k, sizeof(hex) - k, id);
 	if (!(revs[(*nr)++] = strdup(hex)))
 		return omen_error_set(OMEN_ENOMEM, "out of memory");
 	return 0;
@@ -562,12 +562,8 @@ void score_load_labels(omen_labels **out, omen_repo *r)
 /* Merges are never scored: one left over needs no replay. */
 static int is_merge(omen_repo *r, const git_oid *id)
 {
-	git_commit *c = NULL;
-	int m = 0;
-	if (git_commit_lookup(&c, omen_repo_git(r), id) == 0)
-		m = git_commit_parentcount(c) > 1;
-	git_commit_free(c);
-	return m;
+	size_t np;
+	return omen_history_parent_count(&np, r, id) == 0 && np > 1;
 }
 
 /* 2a. commits of the training history: their samples, built when training
@@ -587,7 +583,7 @@ static int score_cached(walk_ctx *w, const omen_walk_opts *wo)
 	int e = 0, k;
 
 	memset(&dopt, 0, sizeof(dopt));
-	git_oid_tostr(head, sizeof(head), &w->s->head);
+	omen_oid_hex(head, sizeof(head), &w->s->head);
 	dopt.revs = revs;
 	dopt.caps = w->s->caps;
 	dopt.use_cache = 1;
@@ -602,7 +598,7 @@ static int score_cached(walk_ctx *w, const omen_walk_opts *wo)
 	for (i = 0; i < nd && !e; i++) {
 		const omen_sample *sm = omen_dataset_get(ds, i);
 		git_oid id;
-		if (git_oid_fromstr(&id, sm->id) || (k = find_id(w->ids, w->n, &id)) < 0 || w->done[k])
+		if (omen_oid_parse(&id, sm->id) || (k = find_id(w->ids, w->n, &id)) < 0 || w->done[k])
 			continue;
 		if ((e = past_deadline(w)) || (e = omen_history_change(&c, w->s->repo, &id, wo)))
 			break;
@@ -766,10 +762,10 @@ int omen_scorer_staged(omen_score_set *out, omen_scorer *s, const char *msg)
 	have_head = omen_history_resolve(&headid, s->repo, "HEAD") == 0;
 	if (!have_head)
 		omen_error_clear();
-	if (have_head && s->head_known && !git_oid_equal(&headid, &s->head)) {
+	if (have_head && s->head_known && !omen_oid_equal(&headid, &s->head)) {
 		revs[0] = "HEAD";
 		hex[0] = '^';
-		git_oid_tostr(hex + 1, sizeof(hex) - 1, &s->head);
+		omen_oid_hex(hex + 1, sizeof(hex) - 1, &s->head);
 		revs[1] = hex;
 		wo.revs = (const char *const *)revs;
 		if ((e = omen_history_walk(s->repo, &wo, feed_only, &w)))
