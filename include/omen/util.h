@@ -1,5 +1,5 @@
 /* Small shared helpers: growable buffers, arenas, hashing, a seeded RNG,
- * atomic file writes, bounded cursors, progress output. No git, no models. */
+ * atomic file writes, bounded cursors, progress through a callback. No git, no models. */
 #ifndef OMEN_UTIL_H
 #define OMEN_UTIL_H
 
@@ -124,7 +124,14 @@ int omen_cursor_line(omen_cursor *c, const char **out, size_t *len);
 double omen_now(void);  /* monotonic seconds */
 /* UTC date of t (seconds since the epoch) as YYYY-MM-DD, "?" if out of range. */
 void omen_format_date(char out[16], int64_t t);
-/* Progress to stderr when it is a terminal: "label: 1234/5678 commits". */
+/* Progress of long work ("label: 1234/5678"). The library never prints it:
+ * it calls the sink the program installed (the command line installs one
+ * that writes to a terminal's stderr), at most every 0.2 s and at the end
+ * of the total. No sink, no progress. done/total: total 0 when unknown;
+ * extra may be NULL; finished: 1 once, when the work ends (clear the line). */
+typedef void (*omen_progress_fn)(const char *what, uint64_t done, uint64_t total,
+	const char *extra, int finished, void *payload);
+void omen_progress_set_sink(omen_progress_fn fn, void *payload);
 typedef struct {
 	const char *what;
 	uint64_t total;
