@@ -8,13 +8,21 @@
 #include <stdio.h>
 
 /* ---- growable byte buffer ------------------------------------------------ */
+/* A buffer remembers its first error: once an append fails, every later
+ * append is a no-op that returns the same code, and omen_buf_error() gives
+ * it. A writer of many pieces may then check once, at the end, and a
+ * failure partway never reads as success. omen_buf_clear, _free and _detach
+ * forget it. */
 typedef struct {
 	char *ptr;   /* always NUL-terminated when non-NULL */
 	size_t len;
 	size_t cap;
+	int err;     /* first failed append's OMEN_E* code, 0 when none */
 } omen_buf;
 
-#define OMEN_BUF_INIT {NULL, 0, 0}
+#define OMEN_BUF_INIT {NULL, 0, 0, 0}
+/* 0, or the code of the buffer's first failed append. */
+int omen_buf_error(const omen_buf *b);
 int omen_buf_grow(omen_buf *b, size_t extra);
 int omen_buf_put(omen_buf *b, const void *data, size_t n);
 int omen_buf_puts(omen_buf *b, const char *s);

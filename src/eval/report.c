@@ -1,6 +1,9 @@
 /* Writers of a walk-forward result: JSON, text tables and one
  * self-contained HTML page with inline SVG plots (no scripts, no outside
- * resources). Undefined figures are JSON null and "n/a" in text. */
+ * resources). Undefined figures are JSON null and "n/a" in text. The many
+ * appends do not check their results one by one: the buffer remembers its
+ * first failed append (omen_buf_error), and each writer checks that once at
+ * its end, so a failure anywhere fails the whole write. */
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
@@ -146,7 +149,7 @@ int omen_eval_write_json(omen_buf *out, const omen_eval_result *r)
 		s = *e ? e + 1 : e;
 	}
 	omen_buf_puts(b, "]}\n");
-	return b->ptr ? 0 : omen_error_set(OMEN_ENOMEM, "cannot write the evaluation: out of memory");
+	return omen_buf_error(b) ? omen_error_set(OMEN_ENOMEM, "cannot write the evaluation: out of memory") : 0;
 }
 
 /* ---- text ---------------------------------------------------------------------- */
@@ -245,7 +248,7 @@ int omen_eval_write_text(omen_buf *out, const omen_eval_result *r)
 	}
 	if (r->notes.len)
 		omen_buf_printf(b, "\nnotes:\n%s", r->notes.ptr);
-	return b->ptr ? 0 : omen_error_set(OMEN_ENOMEM, "cannot write the evaluation: out of memory");
+	return omen_buf_error(b) ? omen_error_set(OMEN_ENOMEM, "cannot write the evaluation: out of memory") : 0;
 }
 
 /* ---- HTML -------------------------------------------------------------------------- */
@@ -600,5 +603,5 @@ out:
 	pooled_free(&p);
 	if (rc < 0)
 		return omen_error_set(OMEN_ENOMEM, "cannot write the report: out of memory");
-	return b->ptr ? 0 : omen_error_set(OMEN_ENOMEM, "cannot write the report: out of memory");
+	return omen_buf_error(b) ? omen_error_set(OMEN_ENOMEM, "cannot write the report: out of memory") : 0;
 }

@@ -5,12 +5,24 @@
 #include "omen/error.h"
 #include "omen/util.h"
 
+int omen_buf_error(const omen_buf *b) { return b->err; }
+
+/* Records the first error of b and returns it. */
+static int buf_fail(omen_buf *b, int e)
+{
+	if (!b->err)
+		b->err = e;
+	return e;
+}
+
 int omen_buf_grow(omen_buf *b, size_t extra)
 {
 	size_t need = b->len + extra + 1, cap;
 	char *p;
+	if (b->err)
+		return b->err;
 	if (need < b->len)
-		return omen_error_set(OMEN_ENOMEM, "out of memory");
+		return buf_fail(b, omen_error_set(OMEN_ENOMEM, "out of memory"));
 	if (need <= b->cap)
 		return 0;
 	cap = b->cap ? b->cap : 64;
@@ -18,7 +30,7 @@ int omen_buf_grow(omen_buf *b, size_t extra)
 		cap = cap * 2 > cap ? cap * 2 : need;
 	p = realloc(b->ptr, cap);
 	if (!p)
-		return omen_error_set(OMEN_ENOMEM, "out of memory (%zu bytes)", cap);
+		return buf_fail(b, omen_error_set(OMEN_ENOMEM, "out of memory (%zu bytes)", cap));
 	p[b->len] = '\0';  /* keeps "always NUL-terminated" true for a fresh buffer */
 	b->ptr = p;
 	b->cap = cap;
@@ -59,8 +71,10 @@ int omen_buf_printf(omen_buf *b, const char *fmt, ...)
 	va_start(ap, fmt);
 	n = vsnprintf(NULL, 0, fmt, ap);
 	va_end(ap);
+	if (b->err)
+		return b->err;
 	if (n < 0)
-		return omen_error_set(OMEN_EINVAL, "bad format");
+		return buf_fail(b, omen_error_set(OMEN_EINVAL, "bad format"));
 	if ((e = omen_buf_grow(b, (size_t)n)))
 		return e;
 	va_start(ap, fmt);
@@ -131,13 +145,13 @@ int omen_buf_put_json_string(omen_buf *b, const char *s, size_t n)
 	return e ? e : omen_buf_put(b, "\"", 1);
 }
 
-void omen_buf_clear(omen_buf *b) { b->len = 0; if (b->ptr) b->ptr[0] = '\0'; }
-void omen_buf_free(omen_buf *b) { free(b->ptr); b->ptr = NULL; b->len = b->cap = 0; }
+void omen_buf_clear(omen_buf *b) { b->len = 0; b->err = 0; if (b->ptr) b->ptr[0] = '\0'; }
+void omen_buf_free(omen_buf *b) { free(b->ptr); b->ptr = NULL; b->len = b->cap = 0; b->err = 0; }
 char *omen_buf_detach(omen_buf *b)
 {
 	char *p = b->ptr;
 	if (!p) p = calloc(1, 1);
-	b->ptr = NULL; b->len = b->cap = 0;
+	b->ptr = NULL; b->len = b->cap = 0; b->err = 0;
 	return p;
 }
 

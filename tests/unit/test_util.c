@@ -50,6 +50,34 @@ static void test_buf_basic(void **st)
 
 /* Regression: grow on a fresh buffer must leave "" (util.h: ptr is always
  * NUL-terminated when non-NULL); it returned uninitialised memory. */
+/* The buffer remembers its first failed append: later appends change
+ * nothing and return the same code, so a writer that checks only at its end
+ * still sees the failure. The failure is a length that wraps size_t (the
+ * overflow guard in omen_buf_grow), which no allocator can meet. */
+static void test_buf_first_error_sticks(void **st)
+{
+	omen_buf b = OMEN_BUF_INIT;
+	(void)st;
+	assert_int_equal(omen_buf_puts(&b, "ab"), 0);
+	assert_int_equal(omen_buf_error(&b), 0);
+	assert_int_equal(omen_buf_put(&b, "x", SIZE_MAX - 2), OMEN_ENOMEM);
+	assert_int_equal(omen_buf_error(&b), OMEN_ENOMEM);
+	assert_int_equal(omen_buf_puts(&b, "cd"), OMEN_ENOMEM);
+	assert_int_equal(omen_buf_printf(&b, "%d", 7), OMEN_ENOMEM);
+	assert_int_equal(omen_buf_put_u32le(&b, 1), OMEN_ENOMEM);
+	assert_int_equal(omen_buf_put_json_string(&b, "e", 1), OMEN_ENOMEM);
+	assert_int_equal(b.len, 2);
+	assert_string_equal(b.ptr, "ab");
+	omen_buf_clear(&b);  /* a cleared buffer starts again */
+	assert_int_equal(omen_buf_error(&b), 0);
+	assert_int_equal(omen_buf_puts(&b, "ok"), 0);
+	assert_string_equal(b.ptr, "ok");
+	assert_int_equal(omen_buf_put(&b, "x", SIZE_MAX - 2), OMEN_ENOMEM);
+	omen_buf_free(&b);
+	assert_int_equal(omen_buf_error(&b), 0);
+	omen_buf_free(&b);
+}
+
 static void test_buf_grow_fresh_is_terminated(void **st)
 {
 	omen_buf b = OMEN_BUF_INIT;
@@ -581,6 +609,7 @@ int main(void)
 {
 	const struct CMUnitTest tests[] = {
 		cmocka_unit_test(test_buf_basic),
+		cmocka_unit_test(test_buf_first_error_sticks),
 		cmocka_unit_test(test_buf_grow_fresh_is_terminated),
 		cmocka_unit_test(test_json_string_escapes),
 		cmocka_unit_test(test_json_string_utf8),
