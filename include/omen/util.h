@@ -34,6 +34,12 @@ int omen_buf_printf(omen_buf *b, const char *fmt, ...)
 /* Appends s as a JSON string literal (quotes included). Invalid UTF-8 bytes
  * become U+FFFD so the output is always valid JSON. */
 int omen_buf_put_json_string(omen_buf *b, const char *s, size_t n);
+/* omen_buf_put_json_string of a NUL-terminated string; NULL writes "". */
+int omen_buf_put_json_cstr(omen_buf *b, const char *s);
+/* Appends v as a JSON number with printf's "%.*g" at the given significant
+ * digits (6: a figure to read, 9: round-trips a float), or null when v is
+ * NaN or infinite (JSON has neither). */
+int omen_buf_put_json_number(omen_buf *b, double v, int digits);
 /* Append v as 4 or 8 little-endian bytes: the byte order of every binary file
  * omen writes, whatever the host's (read back with omen_cursor_u32le/u64le). */
 int omen_buf_put_u32le(omen_buf *b, uint32_t v);

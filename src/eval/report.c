@@ -24,20 +24,10 @@ static const char advisory[] = "scores are advisory: a probability learned from 
 	"repository's own fixes, not a verdict";
 
 /* ---- JSON ---------------------------------------------------------------------- */
-static void jval(omen_buf *b, double v)
-{
-	if (isnan(v) || isinf(v))
-		omen_buf_puts(b, "null");
-	else
-		omen_buf_printf(b, "%.6g", v);
-}
-
 static void jnum(omen_buf *b, const char *key, double v, int comma)
 {
-	if (isnan(v) || isinf(v))
-		omen_buf_printf(b, "\"%s\":null", key);
-	else
-		omen_buf_printf(b, "\"%s\":%.6g", key, v);
+	omen_buf_printf(b, "\"%s\":", key);
+	omen_buf_put_json_number(b, v, 6);
 	if (comma)
 		omen_buf_puts(b, ",");
 }
@@ -49,9 +39,9 @@ static void json_method(omen_buf *b, const omen_method_scores *m)
 	omen_buf_printf(b, "\"n\":%zu,\"positives\":%zu,", m->n, m->positives);
 	jnum(b, "auc", m->auc, 1);
 	omen_buf_puts(b, "\"auc_ci95\":[");
-	jval(b, m->auc_lo);
+	omen_buf_put_json_number(b, m->auc_lo, 6);
 	omen_buf_puts(b, ",");
-	jval(b, m->auc_hi);
+	omen_buf_put_json_number(b, m->auc_hi, 6);
 	omen_buf_puts(b, "],");
 	jnum(b, "ap", m->ap, 1);
 	jnum(b, "brier", m->brier, 1);

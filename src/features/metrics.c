@@ -498,14 +498,13 @@ int omen_metrics_save(const omen_metrics *m, omen_buf *out)
 {
 	size_t start = out->len, nfiles = 0;
 	file_entry *fe;
-	int e = 0;
-	e |= omen_buf_put(out, MAGIC, 4);
-	e |= omen_buf_put_u32le(out, VERSION);
-	e |= omen_buf_put_u32le(out, m->seq);
-	e |= omen_buf_put_u32le(out, (uint32_t)m->nsubs);
-	for (size_t i = 0; i < m->nsubs && !e; i++)
-		e |= put_str(out, m->subname[i]);
-	e |= omen_buf_put_u32le(out, (uint32_t)m->ndev);
+	omen_buf_put(out, MAGIC, 4);
+	omen_buf_put_u32le(out, VERSION);
+	omen_buf_put_u32le(out, m->seq);
+	omen_buf_put_u32le(out, (uint32_t)m->nsubs);
+	for (size_t i = 0; i < m->nsubs; i++)
+		put_str(out, m->subname[i]);
+	omen_buf_put_u32le(out, (uint32_t)m->ndev);
 	/* developer keys in id order */
 	{
 		const char **keys = calloc(m->ndev + 1, sizeof(*keys));
@@ -514,15 +513,15 @@ int omen_metrics_save(const omen_metrics *m, omen_buf *out)
 		for (size_t i = 0; i < m->devs.cap; i++)
 			if (m->devs.keys[i])
 				keys[(uintptr_t)m->devs.vals[i] - 1] = m->devs.keys[i];
-		for (size_t i = 0; i < m->ndev && !e; i++) {
+		for (size_t i = 0; i < m->ndev; i++) {
 			const mdev *d = &m->dv[i];
-			e |= put_str(out, keys[i] ? keys[i] : "");
-			e |= omen_buf_put_u32le(out, (uint32_t)d->ntimes);
-			for (size_t j = 0; j < d->ntimes && !e; j++)
-				e |= omen_buf_put_u64le(out, (uint64_t)d->times[j]);
-			e |= omen_buf_put_u32le(out, (uint32_t)d->nsub);
-			for (size_t j = 0; j < d->nsub && !e; j++)
-				e |= put_vec(out, &d->sub[j]);
+			put_str(out, keys[i] ? keys[i] : "");
+			omen_buf_put_u32le(out, (uint32_t)d->ntimes);
+			for (size_t j = 0; j < d->ntimes; j++)
+				omen_buf_put_u64le(out, (uint64_t)d->times[j]);
+			omen_buf_put_u32le(out, (uint32_t)d->nsub);
+			for (size_t j = 0; j < d->nsub; j++)
+				put_vec(out, &d->sub[j]);
 		}
 		free(keys);
 	}
@@ -530,7 +529,7 @@ int omen_metrics_save(const omen_metrics *m, omen_buf *out)
 	 * same bytes however it was reached (built, or loaded and extended) */
 	for (size_t i = 0; i < m->files.cap; i++)
 		nfiles += m->files.keys[i] && m->files.vals[i];
-	e |= omen_buf_put_u32le(out, (uint32_t)nfiles);
+	omen_buf_put_u32le(out, (uint32_t)nfiles);
 	if (!(fe = malloc((nfiles ? nfiles : 1) * sizeof(*fe))))
 		return oom();
 	nfiles = 0;
@@ -540,17 +539,18 @@ int omen_metrics_save(const omen_metrics *m, omen_buf *out)
 			fe[nfiles++].f = m->files.vals[i];
 		}
 	qsort(fe, nfiles, sizeof(*fe), by_file_path);
-	for (size_t k = 0; k < nfiles && !e; k++) {
+	for (size_t k = 0; k < nfiles; k++) {
 		const mfile *f = fe[k].f;
-		e |= put_str(out, fe[k].path);
-		e |= omen_buf_put_u64le(out, (uint64_t)f->last_time);
-		e |= omen_buf_put_u32le(out, f->nchanges);
-		e |= omen_buf_put_u32le(out, f->nfixes);
-		e |= put_vec(out, &f->devs);
-		e |= put_vec(out, &f->seqs);
+		put_str(out, fe[k].path);
+		omen_buf_put_u64le(out, (uint64_t)f->last_time);
+		omen_buf_put_u32le(out, f->nchanges);
+		omen_buf_put_u32le(out, f->nfixes);
+		put_vec(out, &f->devs);
+		put_vec(out, &f->seqs);
 	}
 	free(fe);
-	if (e)
+	/* the buffer remembers its first failed append: one check for all */
+	if (omen_buf_error(out))
 		return oom();
 	return omen_buf_put_u32le(out, omen_crc32(0, out->ptr + start, out->len - start)) ? oom() : 0;
 }

@@ -1,4 +1,5 @@
 /* Growable buffers, typed arrays and arenas. */
+#include <math.h>
 #include <stdarg.h>
 #include <stdlib.h>
 #include <string.h>
@@ -116,6 +117,18 @@ int omen_utf8_valid(const char *s, size_t n)
 		i += k;
 	}
 	return 1;
+}
+
+int omen_buf_put_json_cstr(omen_buf *b, const char *s)
+{
+	return omen_buf_put_json_string(b, s ? s : "", s ? strlen(s) : 0);
+}
+
+int omen_buf_put_json_number(omen_buf *b, double v, int digits)
+{
+	if (!isfinite(v))
+		return omen_buf_puts(b, "null");
+	return omen_buf_printf(b, "%.*g", digits, v);
 }
 
 int omen_buf_put_json_string(omen_buf *b, const char *s, size_t n)
