@@ -12,6 +12,9 @@ typedef enum {
 	OMEN_LABEL_CLEAN = 0,
 	OMEN_LABEL_INDUCING = 1
 } omen_label_value;
+/* The label's name in every file and output: "inducing", "clean", else
+ * "unknown". */
+const char *omen_label_name(int label);
 
 /* How a commit was identified as a fix (bit set). */
 enum {

@@ -9,6 +9,7 @@
 #include <string.h>
 #include <time.h>
 #include "omen/eval.h"
+#include "omen/label.h"
 #include "omen/error.h"
 #include "eval/svg.h"
 
@@ -233,7 +234,7 @@ int omen_eval_write_text(omen_buf *out, const omen_eval_result *r)
 			const omen_risky *x = &r->risky[i];
 			omen_format_date(d1, x->time);
 			omen_buf_printf(b, "  %.12s %s p=%.3f %-8s %s\n", x->id, d1, x->prob,
-				x->label ? "inducing" : "clean", x->why);
+				omen_label_name(x->label ? OMEN_LABEL_INDUCING : OMEN_LABEL_CLEAN), x->why);
 		}
 	}
 	if (r->notes.len)
@@ -582,7 +583,7 @@ int omen_eval_write_html(omen_buf *out, const omen_eval_result *r, const char *t
 			omen_format_date(d1, x->time);
 			omen_buf_printf(b, "<tr><td><code>%.12s</code></td><td>%s</td><td>%.3f</td>"
 				"<td>%s</td><td>%.0f</td><td class=\"why\">", x->id, d1, x->prob,
-				x->label ? "inducing" : "clean", x->effort);
+				omen_label_name(x->label ? OMEN_LABEL_INDUCING : OMEN_LABEL_CLEAN), x->effort);
 			svg_text_esc(b, x->why);
 			omen_buf_puts(b, "</td></tr>\n");
 		}

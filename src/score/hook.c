@@ -11,54 +11,8 @@
 #include "omen/error.h"
 #include "omen/score.h"
 
-/* Keep identical to hooks/pre-push (tests/t/hook_install.sh compares them). */
-const char omen_hook_shim[] =
-	"#!/bin/sh\n"
-	"# git-omen pre-push shim\n"
-	"# Installed by 'git omen hook install'. It scores the commits this push would\n"
-	"# send (the scores are advisory) and then runs the pre-push hook that was here\n"
-	"# before, if any: ours first, theirs always. It only stops a push when asked\n"
-	"# to (omen.onRisk=block, omen.onError=block). 'git push --no-verify' skips\n"
-	"# every pre-push hook, this one included.\n"
-	"chained=\"$(dirname \"$0\")/pre-push.omen-chained\"\n"
-	"input=$(mktemp \"${TMPDIR:-/tmp}/omen-push.XXXXXX\" 2>/dev/null) || input=\n"
-	"if [ -z \"$input\" ]; then\n"
-	"	echo \"git omen: cannot make a temporary file; push not checked (advisory)\" >&2\n"
-	"	if [ -x \"$chained\" ]; then exec \"$chained\" \"$@\"; fi\n"
-	"	exit 0\n"
-	"fi\n"
-	"trap 'rm -f \"$input\"' 0\n"
-	"cat >\"$input\"\n"
-	"ours=0\n"
-	"if command -v git-omen >/dev/null 2>&1 || [ -x \"$(git --exec-path 2>/dev/null)/git-omen\" ]; then\n"
-	"	git omen hook run \"$@\" <\"$input\"\n"
-	"	ours=$?\n"
-	"else\n"
-	"	ours=127\n"
-	"fi\n"
-	"case $ours in\n"
-	"0|1) ;;\n"
-	"*)\n"
-	"	if [ \"$ours\" -eq 127 ]; then why=\"git-omen is not on PATH\"; else why=\"the hook failed (exit $ours)\"; fi\n"
-	"	if [ \"$(git config --get omen.onError 2>/dev/null)\" = block ]; then\n"
-	"		echo \"git omen: $why and omen.onError=block: push stopped\" >&2\n"
-	"		ours=1\n"
-	"	else\n"
-	"		echo \"git omen: $why; push not checked (scores are advisory)\" >&2\n"
-	"		ours=0\n"
-	"	fi\n"
-	"	;;\n"
-	"esac\n"
-	"theirs=0\n"
-	"if [ -f \"$chained\" ] && [ -x \"$chained\" ]; then\n"
-	"	\"$chained\" \"$@\" <\"$input\"\n"
-	"	theirs=$?\n"
-	"fi\n"
-	"if [ \"$theirs\" -ne 0 ]; then exit \"$theirs\"; fi\n"
-	"exit \"$ours\"\n"
-;
-
-const char *const omen_hook_state_names[4] = {"absent", "installed", "installed, chained", "foreign"};
+/* omen_hook_shim (the bytes of hooks/pre-push) is generated at build time:
+ * the Makefile's rule for $(BUILD)/gen/hook_shim.c. */
 
 static int join(char **out, const char *dir, const char *name)
 {
