@@ -77,4 +77,11 @@ size_t omen_roc_curve(double *out_fpr, double *out_tpr, const double *score,
 size_t omen_effort_curve(double *out_x, double *out_y, const double *score,
 	const int *y, const double *effort, size_t n, int order_kind);
 
+/* ---- order statistics ---------------------------------------------------- */
+/* qsort comparator of doubles, ascending. */
+int omen_cmp_double(const void *a, const void *b);
+/* The q-quantile (0 <= q <= 1) of n ascending values, linear between order
+ * statistics (numpy.percentile's default, "linear"); 0 when n is 0. */
+double omen_quantile_sorted(const double *v, size_t n, double q);
+
 #endif
