@@ -49,6 +49,17 @@ void omen_buf_free(omen_buf *b);
 /* Detaches the memory; caller frees. */
 char *omen_buf_detach(omen_buf *b);
 
+/* ---- binary heap of int32 items ------------------------------------------
+ * The caller owns the array and its count; before(a, b, ctx) is a strict
+ * order saying whether a leaves the heap before b (break ties in it, e.g. by
+ * index, so that the order is total and the pops are deterministic). */
+typedef int (*omen_heap_before_fn)(int32_t a, int32_t b, const void *ctx);
+/* h[0..n-1] is a heap: puts v at h[n] and sifts it up (n + 1 items then;
+ * the caller makes room). */
+void omen_heap_push(int32_t *h, size_t n, int32_t v, omen_heap_before_fn before, const void *ctx);
+/* Takes h[0] off a heap of n >= 1 items (n - 1 left) and returns it. */
+int32_t omen_heap_pop(int32_t *h, size_t n, omen_heap_before_fn before, const void *ctx);
+
 /* ---- growable typed arrays ---------------------------------------------- */
 /* Grows *ptr (elements of size elem) so that at least need elements fit. */
 int omen_array_reserve(void **ptr, size_t *cap, size_t need, size_t elem);

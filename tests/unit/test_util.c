@@ -50,6 +50,58 @@ static void test_buf_basic(void **st)
 
 /* Regression: grow on a fresh buffer must leave "" (util.h: ptr is always
  * NUL-terminated when non-NULL); it returned uninitialised memory. */
+/* ---- heap ------------------------------------------------------------------ */
+/* Items are indices into keys; ties broken by index, as the walk does. */
+static int before_key(int32_t a, int32_t b, const void *ctx)
+{
+	const int *k = ctx;
+	return k[a] != k[b] ? k[a] < k[b] : a < b;
+}
+
+static int cmp_key_idx(const void *x, const void *y, const int *k)
+{
+	int32_t a = *(const int32_t *)x, b = *(const int32_t *)y;
+	return before_key(a, b, k) ? -1 : before_key(b, a, k) ? 1 : 0;
+}
+
+static const int *sort_keys;
+static int cmp_sorted(const void *x, const void *y) { return cmp_key_idx(x, y, sort_keys); }
+
+/* Pushing n items and popping them gives the order qsort gives under the
+ * same relation (keys with many ties), with pushes and pops interleaved. */
+static void test_heap_order(void **st)
+{
+	enum { N = 2000 };
+	static int keys[N];
+	static int32_t heap[N], got[N], want[N];
+	size_t hn = 0, k = 0;
+	uint64_t x = 88172645463325252ULL;
+	(void)st;
+	for (int i = 0; i < N; i++) {
+		x ^= x << 13; x ^= x >> 7; x ^= x << 17;   /* xorshift64 */
+		keys[i] = (int)(x % 50);
+		want[i] = i;
+	}
+	sort_keys = keys;
+	qsort(want, N, sizeof(*want), cmp_sorted);
+	for (int i = 0; i < N; i++)
+		omen_heap_push(heap, hn++, i, before_key, keys);
+	while (hn)
+		got[k++] = omen_heap_pop(heap, hn--, before_key, keys);
+	assert_int_equal(k, N);
+	assert_memory_equal(got, want, sizeof(got));
+	/* interleaved: every pop returns the least of what is in the heap */
+	hn = 0;
+	for (int i = 0; i < N; i++) {
+		omen_heap_push(heap, hn++, i, before_key, keys);
+		if (i % 3 == 2) {
+			int32_t top = omen_heap_pop(heap, hn--, before_key, keys);
+			for (size_t j = 0; j < hn; j++)
+				assert_false(before_key(heap[j], top, keys));
+		}
+	}
+}
+
 /* The buffer remembers its first failed append: later appends change
  * nothing and return the same code, so a writer that checks only at its end
  * still sees the failure. The failure is a length that wraps size_t (the
@@ -610,6 +662,7 @@ int main(void)
 	const struct CMUnitTest tests[] = {
 		cmocka_unit_test(test_buf_basic),
 		cmocka_unit_test(test_buf_first_error_sticks),
+		cmocka_unit_test(test_heap_order),
 		cmocka_unit_test(test_buf_grow_fresh_is_terminated),
 		cmocka_unit_test(test_json_string_escapes),
 		cmocka_unit_test(test_json_string_utf8),
