@@ -134,7 +134,7 @@ enum {
 int omen_label_run(omen_label_summary *sum, omen_repo *r, const omen_label_opts *o,
 	const char *out_path);
 
-/* ---- where the label file is (src/label/path.c) ------------------------ */
+/* ---- where the label file is (src/label/location.c) ------------------------ */
 /* The label file every stage reads unless told otherwise: omen.labels when
  * set and not empty, else $GIT_DIR/omen/labels.jsonl. *configured (may be
  * NULL) says which. Caller frees. */
