@@ -190,16 +190,71 @@ static size_t count_distinct(span *v, size_t n)
 	return k;
 }
 
+/* Normalised Shannon entropy of the change over its files (Hassan, ICSE
+ * 2009; Kamei et al. 2013): 0 for one file or no changed lines. */
+static double change_entropy(const omen_change *c, double total)
+{
+	size_t nf = c->nfiles;
+	double h = 0;
+	if (nf > 1 && total > 0) {
+		for (size_t i = 0; i < nf; i++) {
+			double x = (double)c->files[i].added + (double)c->files[i].deleted;
+			if (x > 0)
+				h -= (x / total) * log2(x / total);
+		}
+		h /= log2((double)nf);
+	}
+	return h;
+}
+
+/* The developer's experience metrics EXP, REXP and SEXP; sids are the
+ * developer's subsystem ids of the change's files (sorted here). */
+static int experience(double out[OMEN_NMETRICS], const mdev *dv, int64_t now, uint32_t *sids,
+	size_t nsids)
+{
+	uint32_t *sexp = NULL;
+	size_t sexp_n = 0;
+	double rexp = 0;
+	size_t tot = 0;
+	out[OMEN_M_EXP] = (double)dv->ntimes;
+	for (size_t i = 0; i < dv->ntimes; i++) {
+		double y = (double)(now - dv->times[i]) / YEAR;
+		rexp += 1.0 / ((y > 0 ? y : 0) + 1.0);
+	}
+	out[OMEN_M_REXP] = rexp;
+	/* SEXP: distinct prior commits of the developer that touched
+	 * any subsystem this change touches */
+	qsort(sids, nsids, sizeof(*sids), cmp_u32);
+	for (size_t i = 0; i < nsids; i++)
+		if (!i || sids[i] != sids[i - 1])
+			tot += dv->sub[sids[i]].n;
+	if (tot) {
+		if (!(sexp = malloc(tot * sizeof(*sexp))))
+			return oom();
+		for (size_t i = 0; i < nsids; i++) {
+			const u32vec *v = &dv->sub[sids[i]];
+			if (i && sids[i] == sids[i - 1])
+				continue;
+			if (v->n)  /* v->v is NULL when empty: memcpy(NULL) is UB */
+				memcpy(sexp + sexp_n, v->v, v->n * sizeof(*sexp));
+			sexp_n += v->n;
+		}
+		out[OMEN_M_SEXP] = (double)count_unique(sexp, sexp_n);
+	}
+	free(sexp);
+	return 0;
+}
+
 /* ---- compute ------------------------------------------------------------ */
 int omen_metrics_compute(double out[OMEN_NMETRICS], const omen_metrics *m,
 	const omen_change *c, int is_fix)
 {
-	size_t nf = c->nfiles, nuc_n = 0, dev_n = 0, sexp_n = 0;
+	size_t nf = c->nfiles, nuc_n = 0, dev_n = 0;
 	span *ss = NULL, *ds = NULL;
 	uint32_t *sids = NULL;
 	size_t nsids = 0;
-	uint32_t *nuc = NULL, *devs = NULL, *sexp = NULL;
-	double la = 0, ld = 0, lt = 0, total = 0, h = 0, age_sum = 0;
+	uint32_t *nuc = NULL, *devs = NULL;
+	double la = 0, ld = 0, lt = 0, total = 0, h, age_sum = 0;
 	size_t age_n = 0;
 	const mdev *dv = dev_find(m, &c->commit);
 	int64_t now = c->commit.author_time;
@@ -263,14 +318,7 @@ int omen_metrics_compute(double out[OMEN_NMETRICS], const omen_metrics *m,
 		}
 	}
 	total = la + ld;
-	if (nf > 1 && total > 0) {
-		for (size_t i = 0; i < nf; i++) {
-			double x = (double)c->files[i].added + (double)c->files[i].deleted;
-			if (x > 0)
-				h -= (x / total) * log2(x / total);
-		}
-		h /= log2((double)nf);
-	}
+	h = change_entropy(c, total);
 	out[OMEN_M_NS] = (double)count_distinct(ss, nf);
 	out[OMEN_M_ND] = (double)count_distinct(ds, nf);
 	out[OMEN_M_NF] = (double)nf;
@@ -282,44 +330,14 @@ int omen_metrics_compute(double out[OMEN_NMETRICS], const omen_metrics *m,
 	out[OMEN_M_NDEV] = (double)count_unique(devs, dev_n);
 	out[OMEN_M_AGE] = age_n ? age_sum / (double)age_n : 0;
 	out[OMEN_M_NUC] = (double)count_unique(nuc, nuc_n);
-	if (dv) {
-		double rexp = 0;
-		size_t tot = 0;
-		out[OMEN_M_EXP] = (double)dv->ntimes;
-		for (size_t i = 0; i < dv->ntimes; i++) {
-			double y = (double)(now - dv->times[i]) / YEAR;
-			rexp += 1.0 / ((y > 0 ? y : 0) + 1.0);
-		}
-		out[OMEN_M_REXP] = rexp;
-		/* SEXP: distinct prior commits of the developer that touched
-		 * any subsystem this change touches */
-		qsort(sids, nsids, sizeof(*sids), cmp_u32);
-		for (size_t i = 0; i < nsids; i++)
-			if (!i || sids[i] != sids[i - 1])
-				tot += dv->sub[sids[i]].n;
-		if (tot) {
-			if (!(sexp = malloc(tot * sizeof(*sexp)))) {
-				rc = oom();
-				goto out;
-			}
-			for (size_t i = 0; i < nsids; i++) {
-				const u32vec *v = &dv->sub[sids[i]];
-				if (i && sids[i] == sids[i - 1])
-					continue;
-				if (v->n)  /* v->v is NULL when empty: memcpy(NULL) is UB */
-					memcpy(sexp + sexp_n, v->v, v->n * sizeof(*sexp));
-				sexp_n += v->n;
-			}
-			out[OMEN_M_SEXP] = (double)count_unique(sexp, sexp_n);
-		}
-	}
+	if (dv)
+		rc = experience(out, dv, now, sids, nsids);
 out:
 	free(ss);
 	free(ds);
 	free(sids);
 	free(nuc);
 	free(devs);
-	free(sexp);
 	return rc;
 }
 
