@@ -611,6 +611,71 @@ static int get_vec(omen_cursor *c, u32vec *v, uint32_t limit)
 	return 0;
 }
 
+/* Reads developer i of the state: key, commit times, subsystem vectors. */
+static int load_dev(omen_metrics *m, omen_cursor *c, uint32_t i, uint32_t nsubs)
+{
+	uint32_t id, nt, ns;
+	mdev *d;
+	char *s = NULL;
+	int rc;
+	if ((rc = get_str(c, &s)) < 0 || (rc = dev_get(m, s, &id)) < 0) {
+		free(s);
+		return rc;
+	}
+	free(s);
+	if (id != i)
+		return corrupt("duplicate developer");
+	d = &m->dv[id];
+	if (omen_cursor_u32le(c, &nt) || (uint64_t)nt * 8 > c->n)
+		return corrupt("truncated developer");
+	if (nt && !(d->times = malloc((size_t)nt * sizeof(*d->times))))
+		return oom();
+	d->tcap = nt;
+	for (uint32_t j = 0; j < nt; j++) {
+		uint64_t t;
+		omen_cursor_u64le(c, &t);
+		d->times[d->ntimes++] = (int64_t)t;
+	}
+	if (omen_cursor_u32le(c, &ns) || ns > nsubs || (uint64_t)ns * 4 > c->n)
+		return corrupt("bad developer subsystems");
+	if (ns && !(d->sub = calloc(ns, sizeof(*d->sub))))
+		return oom();
+	d->nsub = ns;
+	for (uint32_t j = 0; j < ns; j++)
+		if ((rc = get_vec(c, &d->sub[j], m->seq)) < 0)
+			return rc;
+	return 0;
+}
+
+/* Reads one file of the state: path, last change, counts, developer and
+ * commit vectors. */
+static int load_file(omen_metrics *m, omen_cursor *c, uint32_t ndev)
+{
+	mfile *f;
+	uint64_t t;
+	void **slot;
+	char *s = NULL;
+	int created, rc;
+	if ((rc = get_str(c, &s)) < 0)
+		return rc;
+	slot = omen_strmap_slot(&m->files, s, &created);
+	free(s);
+	if (!slot)
+		return OMEN_ENOMEM;
+	if (!created)
+		return corrupt("duplicate file");
+	if (!(f = calloc(1, sizeof(*f))))
+		return oom();
+	*slot = f;
+	if (omen_cursor_u64le(c, &t) || omen_cursor_u32le(c, &f->nchanges) ||
+	    omen_cursor_u32le(c, &f->nfixes))
+		return corrupt("truncated file");
+	f->last_time = (int64_t)t;
+	if ((rc = get_vec(c, &f->devs, ndev)) < 0 || (rc = get_vec(c, &f->seqs, m->seq)) < 0)
+		return rc;
+	return 0;
+}
+
 int omen_metrics_load(omen_metrics **out, const void *data, size_t n)
 {
 	omen_metrics *m = NULL;
@@ -652,80 +717,16 @@ int omen_metrics_load(omen_metrics **out, const void *data, size_t n)
 		rc = corrupt("truncated developers");
 		goto out;
 	}
-	for (uint32_t i = 0; i < ndev; i++) {
-		uint32_t id, nt, ns;
-		mdev *d;
-		if ((rc = get_str(&c, &s)) < 0 || (rc = dev_get(m, s, &id)) < 0)
+	for (uint32_t i = 0; i < ndev; i++)
+		if ((rc = load_dev(m, &c, i, nsubs)) < 0)
 			goto out;
-		free(s);
-		s = NULL;
-		if (id != i) {
-			rc = corrupt("duplicate developer");
-			goto out;
-		}
-		d = &m->dv[id];
-		if (omen_cursor_u32le(&c, &nt) || (uint64_t)nt * 8 > c.n) {
-			rc = corrupt("truncated developer");
-			goto out;
-		}
-		if (nt && !(d->times = malloc((size_t)nt * sizeof(*d->times)))) {
-			rc = oom();
-			goto out;
-		}
-		d->tcap = nt;
-		for (uint32_t j = 0; j < nt; j++) {
-			uint64_t t;
-			omen_cursor_u64le(&c, &t);
-			d->times[d->ntimes++] = (int64_t)t;
-		}
-		if (omen_cursor_u32le(&c, &ns) || ns > nsubs || (uint64_t)ns * 4 > c.n) {
-			rc = corrupt("bad developer subsystems");
-			goto out;
-		}
-		if (ns && !(d->sub = calloc(ns, sizeof(*d->sub)))) {
-			rc = oom();
-			goto out;
-		}
-		d->nsub = ns;
-		for (uint32_t j = 0; j < ns; j++)
-			if ((rc = get_vec(&c, &d->sub[j], m->seq)) < 0)
-				goto out;
-	}
 	if (omen_cursor_u32le(&c, &nfiles) || nfiles > c.n / 16) {
 		rc = corrupt("truncated files");
 		goto out;
 	}
-	for (uint32_t i = 0; i < nfiles; i++) {
-		mfile *f;
-		uint64_t t;
-		void **slot;
-		int created;
-		if ((rc = get_str(&c, &s)) < 0)
+	for (uint32_t i = 0; i < nfiles; i++)
+		if ((rc = load_file(m, &c, ndev)) < 0)
 			goto out;
-		if (!(slot = omen_strmap_slot(&m->files, s, &created))) {
-			rc = OMEN_ENOMEM;
-			goto out;
-		}
-		free(s);
-		s = NULL;
-		if (!created) {
-			rc = corrupt("duplicate file");
-			goto out;
-		}
-		if (!(f = calloc(1, sizeof(*f)))) {
-			rc = oom();
-			goto out;
-		}
-		*slot = f;
-		if (omen_cursor_u64le(&c, &t) || omen_cursor_u32le(&c, &f->nchanges) ||
-		    omen_cursor_u32le(&c, &f->nfixes)) {
-			rc = corrupt("truncated file");
-			goto out;
-		}
-		f->last_time = (int64_t)t;
-		if ((rc = get_vec(&c, &f->devs, ndev)) < 0 || (rc = get_vec(&c, &f->seqs, m->seq)) < 0)
-			goto out;
-	}
 	if (c.err || c.n) {
 		rc = corrupt(c.err ? "truncated" : "trailing bytes");
 		goto out;
