@@ -208,7 +208,10 @@ static int get_int(int *out, const cJSON *o, const char *k, int lo, int hi)
 	return 0;
 }
 
-static int farray(float *out, const cJSON *o, const char *k, int n)
+/* The n finite numbers of array k of o, to fout as floats or dout as
+ * doubles (the other NULL). -1 when absent, of another length or not
+ * finite numbers. */
+static int num_array(float *fout, double *dout, const cJSON *o, const char *k, int n)
 {
 	const cJSON *a = cJSON_GetObjectItemCaseSensitive(o, k), *v;
 	int i = 0;
@@ -217,23 +220,22 @@ static int farray(float *out, const cJSON *o, const char *k, int n)
 	cJSON_ArrayForEach(v, a) {
 		if (!cJSON_IsNumber(v) || !isfinite(v->valuedouble))
 			return -1;
-		out[i++] = (float)v->valuedouble;
+		if (fout)
+			fout[i++] = (float)v->valuedouble;
+		else
+			dout[i++] = v->valuedouble;
 	}
 	return 0;
 }
 
+static int farray(float *out, const cJSON *o, const char *k, int n)
+{
+	return num_array(out, NULL, o, k, n);
+}
+
 static int darray(double *out, const cJSON *o, const char *k, int n)
 {
-	const cJSON *a = cJSON_GetObjectItemCaseSensitive(o, k), *v;
-	int i = 0;
-	if (!cJSON_IsArray(a) || cJSON_GetArraySize(a) != n)
-		return -1;
-	cJSON_ArrayForEach(v, a) {
-		if (!cJSON_IsNumber(v) || !isfinite(v->valuedouble))
-			return -1;
-		out[i++] = v->valuedouble;
-	}
-	return 0;
+	return num_array(NULL, out, o, k, n);
 }
 
 #define BAD(...) do { e = omen_error_set(OMEN_ECORRUPT, __VA_ARGS__); goto out; } while (0)
