@@ -44,6 +44,9 @@ int omen_buf_put_json_number(omen_buf *b, double v, int digits);
  * omen writes, whatever the host's (read back with omen_cursor_u32le/u64le). */
 int omen_buf_put_u32le(omen_buf *b, uint32_t v);
 int omen_buf_put_u64le(omen_buf *b, uint64_t v);
+/* The encoder under them: the low n bytes of v (n <= 8), least significant
+ * first, to out. Writers that stream to a file use it directly. */
+void omen_le_encode(unsigned char *out, uint64_t v, size_t n);
 void omen_buf_clear(omen_buf *b);
 void omen_buf_free(omen_buf *b);
 /* Detaches the memory; caller frees. */

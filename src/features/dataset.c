@@ -279,16 +279,10 @@ static void cs_put(cstream *s, const void *p, size_t n)
 		s->crc = omen_crc32(s->crc, p, n);
 }
 
-static void put_le(unsigned char *b, uint64_t v, int n)
-{
-	for (int i = 0; i < n; i++)
-		b[i] = (unsigned char)(v >> (8 * i));
-}
-
 static void cs_put_u64(cstream *s, uint64_t v)
 {
 	unsigned char b[8];
-	put_le(b, v, 8);
+	omen_le_encode(b, v, 8);
 	cs_put(s, b, 8);
 }
 
@@ -338,7 +332,7 @@ static int cache_write(const omen_dataset *d, const char *path, const omen_buf *
 	}
 	cs_put_u64(&s, ms.len);
 	cs_put(&s, ms.ptr, ms.len);
-	put_le(tail, s.crc, 4);
+	omen_le_encode(tail, s.crc, 4);
 	if (!s.err && fwrite(tail, 1, 4, f.fp) != 4)
 		s.err = errno ? errno : EIO;
 	if (s.err) {

@@ -52,17 +52,24 @@ int omen_buf_put(omen_buf *b, const void *data, size_t n)
 
 int omen_buf_puts(omen_buf *b, const char *s) { return omen_buf_put(b, s, strlen(s)); }
 
+void omen_le_encode(unsigned char *out, uint64_t v, size_t n)
+{
+	for (size_t i = 0; i < n; i++)
+		out[i] = (unsigned char)(v >> (8 * i));
+}
+
 int omen_buf_put_u32le(omen_buf *b, uint32_t v)
 {
-	unsigned char x[4] = {(unsigned char)v, (unsigned char)(v >> 8), (unsigned char)(v >> 16),
-		(unsigned char)(v >> 24)};
+	unsigned char x[4];
+	omen_le_encode(x, v, 4);
 	return omen_buf_put(b, x, 4);
 }
 
 int omen_buf_put_u64le(omen_buf *b, uint64_t v)
 {
-	int e = omen_buf_put_u32le(b, (uint32_t)v);
-	return e ? e : omen_buf_put_u32le(b, (uint32_t)(v >> 32));
+	unsigned char x[8];
+	omen_le_encode(x, v, 8);
+	return omen_buf_put(b, x, 8);
 }
 
 int omen_buf_printf(omen_buf *b, const char *fmt, ...)
