@@ -38,7 +38,7 @@ FUZZ_LF  := $(FUZZ_SRC:tests/fuzz/%.c=$(BUILD)/fuzz/%-libfuzzer)
 MANS     := $(sort $(wildcard man/*.1))
 OMEN     := $(BUILD)/git-omen
 
-.PHONY: all deps deps-test check unit shell ref fuzz-replay manlint asan valgrind \
+.PHONY: all deps deps-test check unit shell layers ref fuzz-replay manlint asan valgrind \
 	bench fuzz demo install uninstall clean
 
 all: deps $(OMEN)
@@ -100,6 +100,10 @@ check: deps deps-test $(OMEN) unit shell ref fuzz-replay manlint asan valgrind
 
 unit: $(UNIT_BIN)
 	@sh tests/run-unit.sh $(UNIT_BIN)
+
+# the layer check alone (it is also one of the shell tests)
+layers:
+	@t=$$(mktemp -d) && ROOT="$(CURDIR)" TMPDIR="$$t" sh tests/t/layers.sh; rc=$$?; rm -rf "$$t"; exit $$rc
 
 shell: $(OMEN)
 	@OMEN="$(abspath $(OMEN))" sh tests/run-shell.sh
