@@ -52,6 +52,28 @@ void omen_buf_free(omen_buf *b);
 /* Detaches the memory; caller frees. */
 char *omen_buf_detach(omen_buf *b);
 
+/* ---- index over a caller's items -------------------------------------------
+ * Open addressing (linear probing, power-of-two capacity, at most half full)
+ * from a key to the int32 index of the caller's item that holds it: the map
+ * keeps only indices, the keys stay in the caller's array (the revision
+ * walk's object ids: an id is not stored twice). ops->hash gives an item's
+ * key hash (to rehash when growing), ops->is whether an item holds a key. */
+typedef struct {
+	int32_t *slots;   /* -1: empty */
+	size_t cap, n;
+} omen_index;
+typedef struct {
+	uint64_t (*hash)(int32_t item, const void *ctx);
+	int (*is)(int32_t item, const void *key, const void *ctx);
+} omen_index_ops;
+/* The item holding key (h: its hash, as ops->hash gives), else -1. */
+int32_t omen_index_find(const omen_index *x, const void *key, uint64_t h,
+	const omen_index_ops *ops, const void *ctx);
+/* Adds item, whose key (hash h) the index does not hold yet. */
+int omen_index_add(omen_index *x, int32_t item, uint64_t h, const omen_index_ops *ops,
+	const void *ctx);
+void omen_index_free(omen_index *x);
+
 /* ---- binary heap of int32 items ------------------------------------------
  * The caller owns the array and its count; before(a, b, ctx) is a strict
  * order saying whether a leaves the heap before b (break ties in it, e.g. by

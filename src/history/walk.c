@@ -37,58 +37,46 @@ typedef struct {
 	git_repository *repo;
 	node *nodes; size_t n, cap;
 	git_oid *pids; size_t npids, pids_cap;
-	int32_t *slots; size_t nslots;   /* open addressing oid -> node index */
+	omen_index index;   /* oid -> node index */
 	int32_t *heap; size_t hn, hcap;
 	size_t interesting_in_queue;
 	int first_parent;
 } lister;
 
-static size_t oid_hash(const git_oid *id)
+static uint64_t oid_hash(const git_oid *id)
 {
-	size_t h;
+	uint64_t h;
 	memcpy(&h, id->id, sizeof(h));
 	return h;
 }
 
-static int map_grow(lister *l)
+static uint64_t node_hash(int32_t v, const void *ctx)
 {
-	size_t cap = l->nslots ? l->nslots * 2 : 1024;
-	int32_t *s = malloc(cap * sizeof(*s));
-	if (!s)
-		return omen_error_set(OMEN_ENOMEM, "out of memory");
-	memset(s, 0xff, cap * sizeof(*s));
-	for (size_t i = 0; i < l->n; i++) {
-		size_t k = oid_hash(&l->nodes[i].id) & (cap - 1);
-		while (s[k] >= 0)
-			k = (k + 1) & (cap - 1);
-		s[k] = (int32_t)i;
-	}
-	free(l->slots);
-	l->slots = s;
-	l->nslots = cap;
-	return 0;
+	return oid_hash(&((const lister *)ctx)->nodes[v].id);
 }
+
+static int node_is(int32_t v, const void *key, const void *ctx)
+{
+	return git_oid_equal(&((const lister *)ctx)->nodes[v].id, key);
+}
+
+static const omen_index_ops node_ops = {node_hash, node_is};
 
 /* Node index of id, created (unloaded) when absent. */
 static int node_get(lister *l, const git_oid *id, int32_t *out)
 {
-	size_t k;
-	if ((l->n + 1) * 2 > l->nslots && map_grow(l) < 0)
-		return OMEN_ENOMEM;
-	k = oid_hash(id) & (l->nslots - 1);
-	while (l->slots[k] >= 0) {
-		if (git_oid_equal(&l->nodes[l->slots[k]].id, id)) {
-			*out = l->slots[k];
-			return 0;
-		}
-		k = (k + 1) & (l->nslots - 1);
+	int32_t v = omen_index_find(&l->index, id, oid_hash(id), &node_ops, l);
+	if (v >= 0) {
+		*out = v;
+		return 0;
 	}
 	if (OMEN_ARRAY_RESERVE(l->nodes, l->cap, l->n + 1) < 0)
 		return OMEN_ENOMEM;
 	memset(&l->nodes[l->n], 0, sizeof(node));
 	git_oid_cpy(&l->nodes[l->n].id, id);
 	l->nodes[l->n].seq = (uint32_t)l->n;
-	l->slots[k] = (int32_t)l->n;
+	if (omen_index_add(&l->index, (int32_t)l->n, oid_hash(id), &node_ops, l) < 0)
+		return OMEN_ENOMEM;
 	*out = (int32_t)l->n++;
 	return 0;
 }
@@ -347,7 +335,7 @@ static void lister_free(lister *l)
 {
 	free(l->nodes);
 	free(l->pids);
-	free(l->slots);
+	omen_index_free(&l->index);
 	free(l->heap);
 }
 

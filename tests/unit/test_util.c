@@ -50,6 +50,43 @@ static void test_buf_basic(void **st)
 
 /* Regression: grow on a fresh buffer must leave "" (util.h: ptr is always
  * NUL-terminated when non-NULL); it returned uninitialised memory. */
+/* ---- index over a caller's items ------------------------------------------- */
+/* Keys are strings in an array; the hash takes only the first byte, so most
+ * keys collide and the probing is what is tested. A linear search over the
+ * same array is the reference. */
+static uint64_t first_byte(const char *s) { return (unsigned char)s[0]; }
+static uint64_t item_hash(int32_t v, const void *ctx) { return first_byte(((char *const *)ctx)[v]); }
+static int item_is(int32_t v, const void *key, const void *ctx)
+{
+	return !strcmp(((char *const *)ctx)[v], key);
+}
+
+static void test_index_find_add(void **st)
+{
+	enum { N = 3000 };
+	static char buf[N][12];
+	static char *keys[N];
+	const omen_index_ops ops = {item_hash, item_is};
+	omen_index x = {NULL, 0, 0};
+	(void)st;
+	assert_int_equal(omen_index_find(&x, "a", 'a', &ops, keys), -1);  /* empty, no table yet */
+	for (int i = 0; i < N; i++) {
+		snprintf(buf[i], sizeof(buf[i]), "%c%d", 'a' + i % 7, i);
+		keys[i] = buf[i];
+		assert_int_equal(omen_index_find(&x, keys[i], first_byte(keys[i]), &ops, keys), -1);
+		assert_int_equal(omen_index_add(&x, i, first_byte(keys[i]), &ops, keys), 0);
+	}
+	assert_int_equal(x.n, N);
+	assert_true(x.cap >= 2 * N);   /* grown through several rehashes, half full at most */
+	for (int i = 0; i < N; i++)
+		assert_int_equal(omen_index_find(&x, keys[i], first_byte(keys[i]), &ops, keys), i);
+	assert_int_equal(omen_index_find(&x, "a-1", 'a', &ops, keys), -1);
+	assert_int_equal(omen_index_find(&x, "z0", 'z', &ops, keys), -1);
+	omen_index_free(&x);
+	omen_index_free(&x);
+	assert_int_equal(omen_index_find(&x, keys[0], 'a', &ops, keys), -1);
+}
+
 /* ---- heap ------------------------------------------------------------------ */
 /* Items are indices into keys; ties broken by index, as the walk does. */
 static int before_key(int32_t a, int32_t b, const void *ctx)
@@ -663,6 +700,7 @@ int main(void)
 		cmocka_unit_test(test_buf_basic),
 		cmocka_unit_test(test_buf_first_error_sticks),
 		cmocka_unit_test(test_heap_order),
+		cmocka_unit_test(test_index_find_add),
 		cmocka_unit_test(test_buf_grow_fresh_is_terminated),
 		cmocka_unit_test(test_json_string_escapes),
 		cmocka_unit_test(test_json_string_utf8),
