@@ -484,6 +484,7 @@ typedef struct {
 	omen_metrics *state;
 	const git_oid *ids;
 	size_t n;
+	omen_index idx;          /* ids -> position (find_id) */
 	unsigned char *done;
 	omen_sample_buf *sb;
 	omen_explain ex;
@@ -494,13 +495,43 @@ typedef struct {
 	void *payload;
 } walk_ctx;
 
-static int find_id(const git_oid *ids, size_t n, const git_oid *id)
+/* ---- the scored ids: an index, so a replay of the whole history looks each
+ * walked commit up in constant time ------------------------------------------ */
+static uint64_t oid_key_hash(const git_oid *id)
 {
-	size_t i;
-	for (i = 0; i < n; i++)
-		if (omen_oid_equal(&ids[i], id))
-			return (int)i;
-	return -1;
+	uint64_t h;
+	memcpy(&h, id->id, sizeof(h));
+	return h;
+}
+
+static uint64_t id_hash(int32_t v, const void *ctx)
+{
+	return oid_key_hash(&((const walk_ctx *)ctx)->ids[v]);
+}
+
+static int id_is(int32_t v, const void *key, const void *ctx)
+{
+	return omen_oid_equal(&((const walk_ctx *)ctx)->ids[v], key);
+}
+
+static const omen_index_ops id_ops = {id_hash, id_is};
+
+/* Indexes w->ids; a repeated id keeps its first position. */
+static int index_ids(walk_ctx *w)
+{
+	for (size_t i = 0; i < w->n; i++) {
+		uint64_t h = oid_key_hash(&w->ids[i]);
+		if (omen_index_find(&w->idx, &w->ids[i], h, &id_ops, w) < 0 &&
+			omen_index_add(&w->idx, (int32_t)i, h, &id_ops, w) < 0)
+			return OMEN_ENOMEM;
+	}
+	return 0;
+}
+
+/* Position of id among the scored ids (its first), else -1. */
+static int find_id(const walk_ctx *w, const git_oid *id)
+{
+	return omen_index_find(&w->idx, id, oid_key_hash(id), &id_ops, w);
 }
 
 static int past_deadline(walk_ctx *w)
@@ -521,7 +552,7 @@ static int on_change(const omen_change *c, void *payload)
 		return e;
 	lr = w->labels ? omen_labels_get(w->labels, c->commit.hex) : NULL;
 	is_fix = lr ? lr->is_fix != 0 : score_is_fix(w->s, &c->commit);
-	k = find_id(w->ids, w->n, &c->commit.id);
+	k = find_id(w, &c->commit.id);
 	if (k >= 0 && !w->done[k]) {
 		omen_sample sm;
 		w->done[k] = 1;
@@ -598,7 +629,7 @@ static int score_cached(walk_ctx *w, const omen_walk_opts *wo)
 	for (i = 0; i < nd && !e; i++) {
 		const omen_sample *sm = omen_dataset_get(ds, i);
 		git_oid id;
-		if (omen_oid_parse(&id, sm->id) || (k = find_id(w->ids, w->n, &id)) < 0 || w->done[k])
+		if (omen_oid_parse(&id, sm->id) || (k = find_id(w, &id)) < 0 || w->done[k])
 			continue;
 		if ((e = past_deadline(w)) || (e = omen_history_change(&c, w->s->repo, &id, wo)))
 			break;
@@ -638,6 +669,8 @@ int score_walk(omen_score_set *set, omen_scorer *s, const git_oid *ids, size_t n
 		e = omen_error_set(OMEN_ENOMEM, "out of memory");
 		goto out;
 	}
+	if ((e = index_ids(&w)))
+		goto out;
 	if ((e = omen_sample_buf_new(&w.sb)))
 		goto out;
 	/* absent blobs of a partial clone (issue 12): the scored commits' in
@@ -729,6 +762,7 @@ out:
 		free(revs[i]);
 	free(revs);
 	free(w.done);
+	omen_index_free(&w.idx);
 	omen_sample_buf_free(w.sb);
 	omen_metrics_free(w.state);
 	omen_labels_free(w.labels);
