@@ -19,6 +19,13 @@ static const char usage_text[] =
 	"  --no-ws-origin         a whitespace-only rewrite takes a new origin\n"
 	"  --no-renames           a renamed file starts with new origins\n"
 	"  --no-issue-dates       keep candidates newer than the fix's issue date\n"
+	"  --horizon <days>       inducing = fixed within this many days; 0 = no horizon\n"
+	"  --cosmetic-pattern <re> fixes that are cosmetic: recorded, not traced ('' = off)\n"
+	"  --non-code-paths <globs> paths never traced (docs, tests, build, CI, vendored; '' = off)\n"
+	"  --closing-refs         'closes #12' alone makes a fix\n"
+	"  --whole-message        trailers, quoted text and revert subjects count as fix words\n"
+	"  --feature-subjects     'Add crash recovery' may be a fix without the word fix or bug\n"
+	"  --keep-other-candidates a fix that names its commit keeps its other traced commits\n"
 	"  --full                 relabel even when the previous labels are up to date\n"
 	"  --format <fmt>         summary as text (default) or json\n"
 	"  --dump-origins <file>  testing: write the origin of every line a fix deletes\n"
@@ -60,13 +67,21 @@ static void print_text(const omen_label_summary *s, const char *path)
 	printf("commits     %zu (%zu merges, never candidates)\n", s->commits, s->merges);
 	printf("inducing    %zu\n", s->inducing);
 	printf("clean       %zu\n", s->clean);
-	printf("unknown     %zu (newer than the window, merges, shallow boundary)\n", s->unknown);
+	if (s->horizon_days > 0)
+		printf("unknown     %zu (newer than the %lld-day horizon, merges, shallow boundary)\n", s->unknown,
+			(long long)s->horizon_days);
+	else
+		printf("unknown     %zu (newer than the window, merges, shallow boundary)\n", s->unknown);
 	if (!s->fixes) {
 		printf("no fix commits found: nothing is inducing; every commit is clean or unknown\n");
 	} else {
 		printf("fixes       %zu (pattern %zu, list %zu, issue %zu, named %zu)\n", s->fixes,
 			s->fixes_by_pattern, s->fixes_by_list, s->fixes_by_issue, s->fixes_by_named);
 		printf("traced      %zu fixes, %zu lines\n", s->fixes_traced, s->traced_lines);
+		printf("not traced  %zu cosmetic, %zu non-code only; %zu non-code lines left out\n",
+			s->fixes_cosmetic, s->fixes_noncode, s->noncode_lines);
+		if (s->named_dropped)
+			printf("named       %zu other candidates dropped (the named commit decides)\n", s->named_dropped);
 		printf("add-only    %zu fixes (%.1f%%, untraceable)\n", s->fixes_add_only,
 			100.0 * share(s->fixes_add_only, s->fixes));
 		if (s->fixes_skipped_large)
@@ -74,6 +89,13 @@ static void print_text(const omen_label_summary *s, const char *path)
 		printf("latency     %.1f / %.1f / %.1f days (quartiles, inducing to fix)\n",
 			s->latency_days_q[0], s->latency_days_q[1], s->latency_days_q[2]);
 	}
+	if (s->closing_only || s->outside_only || s->feature_only)
+		printf("not fixes   %zu with only a closing word and number, %zu with fix words only in "
+			"trailers or quotes, %zu announcing new work\n", s->closing_only, s->outside_only,
+			s->feature_only);
+	if (s->horizon_days > 0)
+		printf("horizon     %lld days: inducing = needs a fix within %lld days; %zu commits fixed only "
+			"later\n", (long long)s->horizon_days, (long long)s->horizon_days, s->beyond_horizon);
 	if (s->shallow)
 		printf("shallow history: %zu boundary commits are unknown\n", s->boundary);
 	if (path)
@@ -88,13 +110,19 @@ static void print_json(const omen_label_summary *s)
 		"\"fixes_add_only\":%zu,\"add_only_share\":%.4f,\"fixes_skipped_large\":%zu,"
 		"\"named_links\":%zu,\"latency_days\":[%.3f,%.3f,%.3f],\"shallow\":%s,\"boundary\":%zu,"
 		"\"list_entries\":%zu,\"list_unmatched\":%zu,\"new_commits\":%zu,\"reused_commits\":%zu,"
-		"\"state_peak_bytes\":%zu,\"seconds\":%.3f}\n",
+		"\"state_peak_bytes\":%zu,\"horizon_days\":%lld,\"beyond_horizon\":%zu,"
+		"\"rules\":{\"closing_only\":%zu,\"outside_only\":%zu,\"feature_only\":%zu,\"fixes_cosmetic\":%zu,"
+		"\"fixes_non_code\":%zu,\"non_code_lines\":%zu,\"non_code_patterns\":%zu,"
+		"\"named_dropped\":%zu},\"seconds\":%.3f}\n",
 		mode_name(s->mode), s->head, s->commits, s->merges, s->inducing, s->clean, s->unknown,
 		s->fixes, s->fixes_by_pattern, s->fixes_by_list, s->fixes_by_issue, s->fixes_by_named,
 		s->fixes_traced, s->traced_lines, s->fixes_add_only, share(s->fixes_add_only, s->fixes),
 		s->fixes_skipped_large, s->named_links, s->latency_days_q[0], s->latency_days_q[1],
 		s->latency_days_q[2], s->shallow ? "true" : "false", s->boundary, s->list_entries,
-		s->list_unmatched, s->new_commits, s->reused_commits, s->state_peak_bytes, s->seconds);
+		s->list_unmatched, s->new_commits, s->reused_commits, s->state_peak_bytes,
+		(long long)s->horizon_days, s->beyond_horizon, s->closing_only, s->outside_only, s->feature_only,
+		s->fixes_cosmetic, s->fixes_noncode, s->noncode_lines, s->noncode_patterns, s->named_dropped,
+		s->seconds);
 }
 
 int cmd_label(int argc, char **argv)
@@ -143,6 +171,31 @@ int cmd_label(int argc, char **argv)
 				goto done;
 			}
 			o.max_fix_files = (int)n;
+		} else if ((r = cli_opt_value(argc, argv, &i, "--horizon", &val))) {
+			if (r < 0)
+				goto missing;
+			if (cli_parse_int(&n, val, 0, 1000000)) {
+				fprintf(stderr, "git omen: bad horizon '%s': not a number of days (0 = no horizon)\n", val);
+				rc = EXIT_FATAL;
+				goto done;
+			}
+			o.horizon_days = n;
+		} else if ((r = cli_opt_value(argc, argv, &i, "--cosmetic-pattern", &val))) {
+			if (r < 0)
+				goto missing;
+			o.cosmetic_pattern = val;
+		} else if ((r = cli_opt_value(argc, argv, &i, "--non-code-paths", &val))) {
+			if (r < 0)
+				goto missing;
+			o.noncode_paths = val;
+		} else if (!strcmp(a, "--closing-refs")) {
+			o.closing_refs = 1;
+		} else if (!strcmp(a, "--feature-subjects")) {
+			o.feature_subjects = 1;
+		} else if (!strcmp(a, "--whole-message")) {
+			o.whole_message = 1;
+		} else if (!strcmp(a, "--keep-other-candidates")) {
+			o.named_decides = 0;
 		} else if ((r = cli_opt_value(argc, argv, &i, "--format", &val))) {
 			if (r < 0)
 				goto missing;
@@ -188,6 +241,9 @@ int cmd_label(int argc, char **argv)
 	if (s.list_unmatched)
 		fprintf(stderr, "git omen: warning: %zu of %zu fix list entries matched no commit\n",
 			s.list_unmatched, s.list_entries);
+	if (s.fixes && !s.traced_lines && s.noncode_lines)
+		fprintf(stderr, "git omen: notice: nothing was traced: every line the fixes changed is in a "
+			"non-code path (omen.nonCodePaths / --non-code-paths)\n");
 	if (s.untraced_missing)
 		fprintf(stderr, "git omen: warning: %zu deleted lines had no origin state\n", s.untraced_missing);
 	if (!strcmp(format, "json"))
