@@ -26,6 +26,7 @@ static const char usage_text[] =
 	"  --whole-message        trailers, quoted text and revert subjects count as fix words\n"
 	"  --feature-subjects     'Add crash recovery' may be a fix without the word fix or bug\n"
 	"  --keep-other-candidates a fix that names its commit keeps its other traced commits\n"
+	"  --no-insertion-context an add-only fix is not traced through the lines around it\n"
 	"  --full                 relabel even when the previous labels are up to date\n"
 	"  --format <fmt>         summary as text (default) or json\n"
 	"  --dump-origins <file>  testing: write the origin of every line a fix deletes\n"
@@ -82,8 +83,9 @@ static void print_text(const omen_label_summary *s, const char *path)
 			s->fixes_cosmetic, s->fixes_noncode, s->noncode_lines);
 		if (s->named_dropped)
 			printf("named       %zu other candidates dropped (the named commit decides)\n", s->named_dropped);
-		printf("add-only    %zu fixes (%.1f%%, untraceable)\n", s->fixes_add_only,
-			100.0 * share(s->fixes_add_only, s->fixes));
+		printf("add-only    %zu fixes (%.1f%%), %zu of them traced through the lines around their "
+			"insertions\n", s->fixes_add_only, 100.0 * share(s->fixes_add_only, s->fixes),
+			s->fixes_insertion);
 		if (s->fixes_skipped_large)
 			printf("skipped     %zu fixes touching too many files\n", s->fixes_skipped_large);
 		printf("latency     %.1f / %.1f / %.1f days (quartiles, inducing to fix)\n",
@@ -113,7 +115,7 @@ static void print_json(const omen_label_summary *s)
 		"\"state_peak_bytes\":%zu,\"horizon_days\":%lld,\"beyond_horizon\":%zu,"
 		"\"rules\":{\"closing_only\":%zu,\"outside_only\":%zu,\"feature_only\":%zu,\"fixes_cosmetic\":%zu,"
 		"\"fixes_non_code\":%zu,\"non_code_lines\":%zu,\"non_code_patterns\":%zu,"
-		"\"named_dropped\":%zu},\"seconds\":%.3f}\n",
+		"\"named_dropped\":%zu,\"fixes_insertion\":%zu},\"seconds\":%.3f}\n",
 		mode_name(s->mode), s->head, s->commits, s->merges, s->inducing, s->clean, s->unknown,
 		s->fixes, s->fixes_by_pattern, s->fixes_by_list, s->fixes_by_issue, s->fixes_by_named,
 		s->fixes_traced, s->traced_lines, s->fixes_add_only, share(s->fixes_add_only, s->fixes),
@@ -121,7 +123,7 @@ static void print_json(const omen_label_summary *s)
 		s->latency_days_q[2], s->shallow ? "true" : "false", s->boundary, s->list_entries,
 		s->list_unmatched, s->new_commits, s->reused_commits, s->state_peak_bytes,
 		(long long)s->horizon_days, s->beyond_horizon, s->closing_only, s->outside_only, s->feature_only,
-		s->fixes_cosmetic, s->fixes_noncode, s->noncode_lines, s->noncode_patterns, s->named_dropped,
+		s->fixes_cosmetic, s->fixes_noncode, s->noncode_lines, s->noncode_patterns, s->named_dropped, s->fixes_insertion,
 		s->seconds);
 }
 
@@ -194,6 +196,8 @@ int cmd_label(int argc, char **argv)
 			o.feature_subjects = 1;
 		} else if (!strcmp(a, "--whole-message")) {
 			o.whole_message = 1;
+		} else if (!strcmp(a, "--no-insertion-context")) {
+			o.insertion_context = 0;
 		} else if (!strcmp(a, "--keep-other-candidates")) {
 			o.named_decides = 0;
 		} else if ((r = cli_opt_value(argc, argv, &i, "--format", &val))) {
@@ -241,7 +245,7 @@ int cmd_label(int argc, char **argv)
 	if (s.list_unmatched)
 		fprintf(stderr, "git omen: warning: %zu of %zu fix list entries matched no commit\n",
 			s.list_unmatched, s.list_entries);
-	if (s.fixes && !s.traced_lines && s.noncode_lines)
+	if (s.fixes && !s.traced_lines && (s.fixes_noncode || s.noncode_lines))
 		fprintf(stderr, "git omen: notice: nothing was traced: every line the fixes changed is in a "
 			"non-code path (omen.nonCodePaths / --non-code-paths)\n");
 	if (s.untraced_missing)

@@ -85,6 +85,7 @@ void omen_label_opts_init(omen_label_opts *o)
 	o->whole_message = -1;
 	o->feature_subjects = -1;
 	o->named_decides = -1;
+	o->insertion_context = -1;
 	o->horizon_days = -1;
 }
 
@@ -193,6 +194,95 @@ static int line_cb(const omen_change *c, const omen_file *f, const omen_line *l,
 		return 0;
 	}
 	return add_cand(R, origin);
+}
+
+/* A line with nothing but braces, parentheses and separators. */
+static int trivial_line(const char *s, size_t n)
+{
+	size_t i;
+	for (i = 0; i < n; i++)
+		if (!strchr(" \t\r{}();,", s[i]))
+			return 0;
+	return 1;
+}
+
+/* An add-only fix (a missing check, a missing call) deletes nothing for
+ * SZZ to trace. Its insertions sit where the old code was incomplete, so
+ * the code lines just above and below each insertion point (in the fix's
+ * parent; blank, comment-only and brace-only lines left out) are traced
+ * instead (issue 10, measured against developer-named links in README
+ * "Labels that mark real repairs"). Code files only. */
+static int trace_insertions(lbl_run *R, const omen_change *c)
+{
+	size_t fi;
+	int e = 0;
+	for (fi = 0; fi < c->nfiles && !e; fi++) {
+		const omen_file *f = &c->files[fi];
+		const uint32_t *orig;
+		git_blob *blob = NULL;
+		const char *data, *p, *end;
+		uint32_t n = 0, hi, ln, cur = 0;
+		int any = 0;
+		if (!f->old_path || f->status == OMEN_FILE_ADDED || !f->new_path ||
+		    (f->flags & (OMEN_FILE_BINARY | OMEN_FILE_TOO_LARGE | OMEN_FILE_SUBMODULE)) ||
+		    omen_pathset_match(R->nc, f->old_path))
+			continue;
+		for (hi = 0; hi < f->nhunks; hi++)
+			any |= c->hunks[f->hunk_off + hi].old_lines == 0 && c->hunks[f->hunk_off + hi].new_lines > 0;
+		if (!any || !(orig = lbl_tracer_get(R->tr, f->old_path, &f->old_blob, &n)) || !n)
+			continue;
+		if (git_blob_lookup(&blob, omen_repo_git(R->repo), &f->old_blob))
+			continue; /* unreadable: nothing to trace, as for a missing version */
+		data = git_blob_rawcontent(blob);
+		end = data + git_blob_rawsize(blob);
+		p = data;
+		cur = 1; /* p is at the start of line cur */
+		for (hi = 0; hi < f->nhunks && !e; hi++) {
+			const omen_hunk *h = &c->hunks[f->hunk_off + hi];
+			if (h->old_lines != 0 || h->new_lines <= 0)
+				continue;
+			/* -U0: an insertion after old line a shows "-a,0" */
+			for (ln = (uint32_t)(h->old_start > 0 ? h->old_start : 1); ln <= (uint32_t)h->old_start + 1; ln++) {
+				const char *eol;
+				uint32_t origin;
+				if (ln < 1 || ln > n)
+					continue;
+				if (ln < cur) { /* hunks ascend; a line may serve two */
+					p = data;
+					cur = 1;
+				}
+				while (cur < ln && p < end) {
+					const char *nl = memchr(p, '\n', (size_t)(end - p));
+					p = nl ? nl + 1 : end;
+					cur++;
+				}
+				if (p >= end)
+					break;
+				eol = memchr(p, '\n', (size_t)(end - p));
+				if (!eol)
+					eol = end;
+				if (omen_line_is_blank(p, (size_t)(eol - p)) || trivial_line(p, (size_t)(eol - p)) ||
+				    (R->o->skip_comments && omen_line_is_comment(p, (size_t)(eol - p))))
+					continue;
+				origin = orig[ln - 1];
+				if (R->dump) {
+					char hex[OMEN_OID_HEX + 1] = "-";
+					if (origin != LBL_NONE)
+						git_oid_tostr(hex, sizeof(hex), &R->ids[origin]);
+					fprintf(R->dump, "%s %u %s %d %s\n", c->commit.hex, (unsigned)ln, hex, LBL_TRACED,
+						f->old_path);
+				}
+				if (origin == LBL_NONE || origin >= R->n || R->cs[origin].merge || R->cs[origin].boundary)
+					continue;
+				if (R->o->use_issue_dates && R->cs[R->cur_fix].issue_date &&
+				    R->cs[origin].time > R->cs[R->cur_fix].issue_date)
+					continue;
+				e = add_cand(R, origin);
+			}
+		}
+		git_blob_free(blob);
+	}
+	return e;
 }
 
 /* Resolves an abbreviated id named by a fix to an earlier walked commit. */
@@ -399,8 +489,12 @@ static int walk_cb(const omen_change *c, void *payload)
 		R->sum->fixes_skipped_large += cm->scope == OMEN_FIXSCOPE_LARGE;
 		R->sum->fixes_cosmetic += cm->scope == OMEN_FIXSCOPE_COSMETIC;
 		R->sum->fixes_noncode += cm->scope == OMEN_FIXSCOPE_NONCODE;
-		if (!cm->skipped && R->fix_lines_total == before)
-			R->sum->fixes_add_only += !R->ncand;
+		if (!cm->skipped && R->fix_lines_total == before && !R->ncand) {
+			R->sum->fixes_add_only++;
+			if (R->o->insertion_context && (e = trace_insertions(R, c)))
+				return e;
+			R->sum->fixes_insertion += R->ncand > 0;
+		}
 		if (nat && R->o->named_decides) {
 			/* the name decides (issue 10): drop the fix's other candidates */
 			size_t keep = 0;
@@ -535,8 +629,9 @@ static int opts_json(omen_buf *b, const omen_label_opts *o, const char *pattern,
 	omen_buf_puts(b, ",\"non_code_paths\":");
 	json_str_or_null(b, o->noncode_paths);
 	return omen_buf_printf(b, ",\"closing_refs\":%d,\"whole_message\":%d,\"feature_subjects\":%d,"
-		"\"named_decides\":%d,\"horizon_days\":%lld}", o->closing_refs, o->whole_message,
-		o->feature_subjects, o->named_decides, (long long)o->horizon_days);
+		"\"named_decides\":%d,\"insertion_context\":%d,\"horizon_days\":%lld}", o->closing_refs,
+		o->whole_message, o->feature_subjects, o->named_decides, o->insertion_context,
+		(long long)o->horizon_days);
 }
 
 static void summary_from_header(omen_label_summary *s, const char *json)
@@ -555,7 +650,7 @@ static void summary_from_header(omen_label_summary *s, const char *json)
 	GETN("fixes_traced", fixes_traced); GETN("closing_only", closing_only);
 	GETN("outside_only", outside_only); GETN("feature_only", feature_only); GETN("fixes_cosmetic", fixes_cosmetic);
 	GETN("fixes_non_code", fixes_noncode); GETN("non_code_lines", noncode_lines);
-	GETN("named_dropped", named_dropped); GETN("beyond_horizon", beyond_horizon);
+	GETN("named_dropped", named_dropped); GETN("fixes_insertion", fixes_insertion); GETN("beyond_horizon", beyond_horizon);
 #undef GETN
 	if ((v = cJSON_GetObjectItemCaseSensitive(j, "options")) &&
 	    (v = cJSON_GetObjectItemCaseSensitive(v, "horizon_days")) && cJSON_IsNumber(v))
@@ -618,7 +713,7 @@ static int previous_run(omen_label_summary *sum, lbl_run *R, const char *path, c
 
 /* ---- pass state, saved beside the labels for incremental runs ----------------
  * "OMENLBS1", u32 version (2), head hex[40], u32 len + options JSON, summary
- * counters (u64 x 15), u32 n + commits {oid[20], i64 time, i64 issue date,
+ * counters (u64 x 16), u32 n + commits {oid[20], i64 time, i64 issue date,
  * u32 traced, u32 named, u32 fix_by, u8 flags: fix, merge, boundary,
  * untraced fix, 2 bits fix scope}, u32 n + pairs {u32 x 3},
  * u32 n + tips {u32}, u32 n + versions {u64 path key, oid[20], i32 ref,
@@ -667,10 +762,10 @@ static size_t *counter(omen_label_summary *s, int k)
 {
 	size_t *c[] = {&s->fixes_add_only, &s->fixes_skipped_large, &s->traced_lines, &s->fixes_traced,
 		&s->named_links, &s->untraced_missing, &s->boundary, &s->closing_only, &s->outside_only,
-		&s->fixes_cosmetic, &s->fixes_noncode, &s->noncode_lines, &s->named_dropped, &s->feature_only, NULL};
+		&s->fixes_cosmetic, &s->fixes_noncode, &s->noncode_lines, &s->named_dropped, &s->feature_only, &s->fixes_insertion, NULL};
 	return c[k];
 }
-#define STATE_COUNTERS 14
+#define STATE_COUNTERS 15
 
 static int save_state(lbl_run *R, const char *path, const char *opts, const char *head)
 {
@@ -881,14 +976,14 @@ static int write_labels(lbl_run *R, const char *path, const char *opts, const ch
 		"\"fixes_skipped_large\":%zu,\"traced_lines\":%zu,\"named_links\":%zu,"
 		"\"latency_days\":[%.3f,%.3f,%.3f],\"shallow\":%s,\"closing_only\":%zu,"
 		"\"outside_only\":%zu,\"feature_only\":%zu,\"fixes_cosmetic\":%zu,\"fixes_non_code\":%zu,\"non_code_lines\":%zu,"
-		"\"named_dropped\":%zu,\"beyond_horizon\":%zu}}\n",
+		"\"named_dropped\":%zu,\"fixes_insertion\":%zu,\"beyond_horizon\":%zu}}\n",
 		head, R->n, (long long)s->newest_time, (long long)s->window_cut, opts, s->commits, s->fixes,
 		s->inducing, s->clean, s->unknown, s->merges, s->boundary, s->fixes_by_pattern,
 		s->fixes_by_list, s->fixes_by_issue, s->fixes_by_named, s->fixes_traced, s->fixes_add_only,
 		s->fixes_skipped_large, s->traced_lines, s->named_links, s->latency_days_q[0],
 		s->latency_days_q[1], s->latency_days_q[2], s->shallow ? "true" : "false", s->closing_only,
 		s->outside_only, s->feature_only, s->fixes_cosmetic, s->fixes_noncode, s->noncode_lines, s->named_dropped,
-		s->beyond_horizon);
+		s->fixes_insertion, s->beyond_horizon);
 	if (fwrite(b.ptr, 1, b.len, af.fp) != b.len) {
 		e = omen_error_set(OMEN_EIO, "cannot write '%s'", path);
 		goto out;
@@ -1051,6 +1146,12 @@ static int read_rule_config(omen_label_opts *o, omen_repo *r, char **cos, char *
 		if ((e = omen_config_bool(&b, r, "omen.featureSubjects")))
 			return e;
 		o->feature_subjects = b;
+	}
+	if (o->insertion_context < 0) {
+		b = 1;
+		if ((e = omen_config_bool(&b, r, "omen.insertionContext")))
+			return e;
+		o->insertion_context = b;
 	}
 	if (o->named_decides < 0) {
 		b = 1;
