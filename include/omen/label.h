@@ -113,6 +113,10 @@ void omen_labels_free(omen_labels *l);
 const omen_label_rec *omen_labels_get(const omen_labels *l, const char *hex);
 size_t omen_labels_count(const omen_labels *l);
 const omen_label_rec *omen_labels_at(const omen_labels *l, size_t i); /* file order */
+/* The horizon the label file at path was written with ("horizon_days" of
+ * its header's options; issue 10), reading only the header line; 0 when
+ * none, or when the file is missing or unreadable. */
+int64_t omen_labels_file_horizon(const char *path);
 /* The history the labels cover (newest commit id), for cache keys. */
 const char *omen_labels_head(const omen_labels *l);
 

@@ -178,8 +178,18 @@ int cmd_score(int argc, char **argv)
 				"reasons | summary");
 			for (i = 0; i < set.n; i++)
 				text_line(&out, &set, &set.v[i], color);
-			omen_buf_printf(&out, "%zu scored; risky at %.2f or more; scores are advisory\n",
-				set.n, (double)set.threshold);
+			char *lp = NULL;
+			int64_t hz = omen_labels_path(&lp, repo, NULL) ? 0 : omen_labels_file_horizon(lp);
+			free(lp);
+			omen_error_clear();
+			/* issue 10: with a label horizon, say what the probability is of */
+			if (hz > 0)
+				omen_buf_printf(&out, "%zu scored; risky at %.2f or more; risk = probability that the "
+					"commit needs a fix within %lld days; scores are advisory\n", set.n,
+					(double)set.threshold, (long long)hz);
+			else
+				omen_buf_printf(&out, "%zu scored; risky at %.2f or more; scores are advisory\n",
+					set.n, (double)set.threshold);
 		}
 		e = 0;
 	}

@@ -275,3 +275,25 @@ size_t omen_labels_count(const omen_labels *l) { return l ? l->n : 0; }
 const omen_label_rec *omen_labels_at(const omen_labels *l, size_t i) { return i < l->n ? &l->recs[i] : NULL; }
 const char *omen_labels_head(const omen_labels *l) { return l->head; }
 const char *lbl_labels_header(const omen_labels *l) { return l->header_json; }
+
+int64_t omen_labels_file_horizon(const char *path)
+{
+	char buf[65536];
+	size_t n;
+	FILE *fp = path ? fopen(path, "rb") : NULL;
+	cJSON *j, *v;
+	int64_t h = 0;
+	if (!fp)
+		return 0;
+	n = fread(buf, 1, sizeof(buf) - 1, fp);
+	fclose(fp);
+	buf[n] = '\0';
+	buf[strcspn(buf, "\n")] = '\0';
+	if ((j = cJSON_Parse(buf))) {
+		v = cJSON_GetObjectItemCaseSensitive(cJSON_GetObjectItemCaseSensitive(j, "options"), "horizon_days");
+		if (cJSON_IsNumber(v) && v->valuedouble > 0 && v->valuedouble < 1e7)
+			h = (int64_t)v->valuedouble;
+		cJSON_Delete(j);
+	}
+	return h;
+}
