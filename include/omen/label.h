@@ -142,6 +142,7 @@ typedef struct {
 	int feature_subjects;      /* -1 (init): omen.featureSubjects, else 0 (rule on) */
 	int named_decides;         /* -1 (init): omen.namedDecides, else 1 (rule on) */
 	int insertion_context;     /* -1 (init): omen.insertionContext, else 1 (rule on) */
+	int min_line_share;        /* -1 (init): omen.minLineShare, else 25 (percent); 0 = off */
 	int64_t horizon_days;      /* -1 (init): omen.horizon, else the default; 0 = none */
 } omen_label_opts;
 /* Default horizon in days (README "Labels that mark real repairs"). */
@@ -177,6 +178,7 @@ typedef struct {
 	size_t noncode_lines;      /* deleted lines of non-code paths not traced */
 	size_t named_dropped;      /* candidates dropped because their fix named its commit */
 	size_t fixes_insertion;    /* add-only fixes traced through the lines around their insertions */
+	size_t minor_dropped;      /* candidates under min_line_share of their fix's traced lines */
 	size_t beyond_horizon;     /* commits traced only by fixes later than the horizon */
 	int64_t horizon_days;      /* the horizon used, 0 = none */
 	size_t noncode_patterns;   /* globs in the non-code list */

@@ -27,6 +27,7 @@ static const char usage_text[] =
 	"  --feature-subjects     'Add crash recovery' may be a fix without the word fix or bug\n"
 	"  --keep-other-candidates a fix that names its commit keeps its other traced commits\n"
 	"  --no-insertion-context an add-only fix is not traced through the lines around it\n"
+	"  --min-line-share <pct> drop candidates behind less than this share of a fix's lines (25)\n"
 	"  --full                 relabel even when the previous labels are up to date\n"
 	"  --format <fmt>         summary as text (default) or json\n"
 	"  --dump-origins <file>  testing: write the origin of every line a fix deletes\n"
@@ -81,6 +82,9 @@ static void print_text(const omen_label_summary *s, const char *path)
 		printf("traced      %zu fixes, %zu lines\n", s->fixes_traced, s->traced_lines);
 		printf("not traced  %zu cosmetic, %zu non-code only; %zu non-code lines left out\n",
 			s->fixes_cosmetic, s->fixes_noncode, s->noncode_lines);
+		if (s->minor_dropped)
+			printf("minor       %zu candidates dropped (under the minimum share of their fix's lines)\n",
+				s->minor_dropped);
 		if (s->named_dropped)
 			printf("named       %zu other candidates dropped (the named commit decides)\n", s->named_dropped);
 		printf("add-only    %zu fixes (%.1f%%), %zu of them traced through the lines around their "
@@ -115,7 +119,7 @@ static void print_json(const omen_label_summary *s)
 		"\"state_peak_bytes\":%zu,\"horizon_days\":%lld,\"beyond_horizon\":%zu,"
 		"\"rules\":{\"closing_only\":%zu,\"outside_only\":%zu,\"feature_only\":%zu,\"fixes_cosmetic\":%zu,"
 		"\"fixes_non_code\":%zu,\"non_code_lines\":%zu,\"non_code_patterns\":%zu,"
-		"\"named_dropped\":%zu,\"fixes_insertion\":%zu},\"seconds\":%.3f}\n",
+		"\"named_dropped\":%zu,\"fixes_insertion\":%zu,\"minor_dropped\":%zu},\"seconds\":%.3f}\n",
 		mode_name(s->mode), s->head, s->commits, s->merges, s->inducing, s->clean, s->unknown,
 		s->fixes, s->fixes_by_pattern, s->fixes_by_list, s->fixes_by_issue, s->fixes_by_named,
 		s->fixes_traced, s->traced_lines, s->fixes_add_only, share(s->fixes_add_only, s->fixes),
@@ -123,7 +127,7 @@ static void print_json(const omen_label_summary *s)
 		s->latency_days_q[2], s->shallow ? "true" : "false", s->boundary, s->list_entries,
 		s->list_unmatched, s->new_commits, s->reused_commits, s->state_peak_bytes,
 		(long long)s->horizon_days, s->beyond_horizon, s->closing_only, s->outside_only, s->feature_only,
-		s->fixes_cosmetic, s->fixes_noncode, s->noncode_lines, s->noncode_patterns, s->named_dropped, s->fixes_insertion,
+		s->fixes_cosmetic, s->fixes_noncode, s->noncode_lines, s->noncode_patterns, s->named_dropped, s->fixes_insertion, s->minor_dropped,
 		s->seconds);
 }
 
@@ -196,6 +200,14 @@ int cmd_label(int argc, char **argv)
 			o.feature_subjects = 1;
 		} else if (!strcmp(a, "--whole-message")) {
 			o.whole_message = 1;
+		} else if ((r = cli_opt_value(argc, argv, &i, "--min-line-share", &val))) {
+			if (r < 0)
+				goto missing;
+			if (cli_parse_int(&n, val, 0, 100)) {
+				rc = cli_usage("label", "--min-line-share: '%s' is not a percentage (0 to 100)", val);
+				goto done;
+			}
+			o.min_line_share = (int)n;
 		} else if (!strcmp(a, "--no-insertion-context")) {
 			o.insertion_context = 0;
 		} else if (!strcmp(a, "--keep-other-candidates")) {

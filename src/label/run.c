@@ -39,6 +39,15 @@ typedef struct {
 	uint32_t ind, fix, lines;
 } lbl_pair;
 
+/* One --dump-origins line of the fix being traced, written once the fix's
+ * candidates are final (a minor candidate's lines are marked). */
+typedef struct {
+	uint32_t origin;
+	int32_t lineno;
+	int skip;
+	const char *path;   /* the walk's change, alive until the fix is done */
+} lbl_dump_ent;
+
 typedef struct {
 	omen_repo *repo;
 	const omen_label_opts *o;
@@ -60,6 +69,10 @@ typedef struct {
 	size_t fix_lines_total;
 	size_t dropped_issue_date, dropped_noncand;
 	FILE *dump;
+	lbl_dump_ent *dent;
+	size_t ndent, dent_cap;
+	uint32_t *minor;        /* candidates the line share dropped, this fix */
+	size_t nminor, minor_cap;
 	omen_label_summary *sum;
 	omen_progress prog;
 	omen_buf path;          /* scratch for tree walks */
@@ -86,6 +99,7 @@ void omen_label_opts_init(omen_label_opts *o)
 	o->feature_subjects = -1;
 	o->named_decides = -1;
 	o->insertion_context = -1;
+	o->min_line_share = -1;
 	o->horizon_days = -1;
 }
 
@@ -168,11 +182,10 @@ static int line_cb(const omen_change *c, const omen_file *f, const omen_line *l,
 		R->nc_hit = omen_pathset_match(R->nc, f->old_path);
 	}
 	if (R->dump) {
-		char hex[OMEN_OID_HEX + 1] = "-";
 		int ds = fx->skipped ? LBL_SKIP_FIX : skip == LBL_TRACED && R->nc_hit ? LBL_SKIP_NONCODE : skip;
-		if (origin != LBL_NONE)
-			git_oid_tostr(hex, sizeof(hex), &R->ids[origin]);
-		fprintf(R->dump, "%s %d %s %d %s\n", c->commit.hex, (int)l->old_lineno, hex, ds, f->old_path);
+		if (OMEN_ARRAY_RESERVE(R->dent, R->dent_cap, R->ndent + 1))
+			return omen_error_set(OMEN_ENOMEM, "out of memory");
+		R->dent[R->ndent++] = (lbl_dump_ent){origin, l->old_lineno, ds, f->old_path};
 	}
 	if (fx->skipped)
 		return 0;
@@ -266,11 +279,11 @@ static int trace_insertions(lbl_run *R, const omen_change *c)
 					continue;
 				origin = orig[ln - 1];
 				if (R->dump) {
-					char hex[OMEN_OID_HEX + 1] = "-";
-					if (origin != LBL_NONE)
-						git_oid_tostr(hex, sizeof(hex), &R->ids[origin]);
-					fprintf(R->dump, "%s %u %s %d %s\n", c->commit.hex, (unsigned)ln, hex, LBL_TRACED,
-						f->old_path);
+					if (OMEN_ARRAY_RESERVE(R->dent, R->dent_cap, R->ndent + 1)) {
+						e = omen_error_set(OMEN_ENOMEM, "out of memory");
+						break;
+					}
+					R->dent[R->ndent++] = (lbl_dump_ent){origin, (int32_t)ln, LBL_TRACED, f->old_path};
 				}
 				if (origin == LBL_NONE || origin >= R->n || R->cs[origin].merge || R->cs[origin].boundary)
 					continue;
@@ -283,6 +296,25 @@ static int trace_insertions(lbl_run *R, const omen_change *c)
 		git_blob_free(blob);
 	}
 	return e;
+}
+
+/* Writes the fix's --dump-origins lines; a line whose origin the line
+ * share dropped is marked LBL_SKIP_MINOR. */
+static void flush_dump(lbl_run *R, const char *fix_hex)
+{
+	size_t i, k;
+	for (i = 0; i < R->ndent; i++) {
+		const lbl_dump_ent *d = &R->dent[i];
+		char hex[OMEN_OID_HEX + 1] = "-";
+		int skip = d->skip;
+		if (d->origin != LBL_NONE && d->origin < R->n)
+			git_oid_tostr(hex, sizeof(hex), &R->ids[d->origin]);
+		for (k = 0; skip == LBL_TRACED && k < R->nminor; k++)
+			if (R->minor[k] == d->origin)
+				skip = LBL_SKIP_MINOR;
+		fprintf(R->dump, "%s %d %s %d %s\n", fix_hex, (int)d->lineno, hex, skip, d->path);
+	}
+	R->ndent = 0;
 }
 
 /* Resolves an abbreviated id named by a fix to an earlier walked commit. */
@@ -483,6 +515,7 @@ static int walk_cb(const omen_change *c, void *payload)
 		R->cur_fix = (uint32_t)ci;
 		R->ncand = 0;
 		R->nc_file = NULL;
+		R->ndent = R->nminor = 0;
 		if (!cm->skipped || R->dump)
 			if ((e = lbl_tracer_trace(R->tr, c, line_cb, R)))
 				return e;
@@ -494,6 +527,33 @@ static int walk_cb(const omen_change *c, void *payload)
 			if (R->o->insertion_context && (e = trace_insertions(R, c)))
 				return e;
 			R->sum->fixes_insertion += R->ncand > 0;
+		}
+		if (R->o->min_line_share > 0 && R->ncand > 1) {
+			/* minor candidates: a commit behind less than min_line_share
+			 * percent of the fix's traced lines is dropped (a neighbouring
+			 * line tidied on the way; README "Labels that mark real
+			 * repairs" measures the effect against developer-named links) */
+			size_t tot = 0, keep = 0;
+			uint32_t most = 0;
+			for (k = 0; k < R->ncand; k++) {
+				tot += R->cand_lines[k];
+				if (R->cand_lines[k] > most)
+					most = R->cand_lines[k];
+			}
+			for (k = 0; k < R->ncand; k++) {
+				/* the commit(s) behind the most lines always stay */
+				if ((uint64_t)R->cand_lines[k] * 100 >= (uint64_t)R->o->min_line_share * tot ||
+				    R->cand_lines[k] == most) {
+					R->cand[keep] = R->cand[k];
+					R->cand_lines[keep++] = R->cand_lines[k];
+				} else if (R->dump) {
+					if (OMEN_ARRAY_RESERVE(R->minor, R->minor_cap, R->nminor + 1))
+						return omen_error_set(OMEN_ENOMEM, "out of memory");
+					R->minor[R->nminor++] = R->cand[k];
+				}
+			}
+			R->sum->minor_dropped += R->ncand - keep;
+			R->ncand = keep;
 		}
 		if (nat && R->o->named_decides) {
 			/* the name decides (issue 10): drop the fix's other candidates */
@@ -520,6 +580,8 @@ static int walk_cb(const omen_change *c, void *payload)
 				return omen_error_set(OMEN_ENOMEM, "out of memory");
 			R->pairs[R->npairs++] = (lbl_pair){t, (uint32_t)ci, R->cand_lines[k]};
 		}
+		if (R->dump)
+			flush_dump(R, c->commit.hex);
 	}
 	if (R->o->follow_renames && (e = lbl_rename_pairs(R->tr, R->repo, c, (uint32_t)ci)))
 		return e;
@@ -629,9 +691,9 @@ static int opts_json(omen_buf *b, const omen_label_opts *o, const char *pattern,
 	omen_buf_puts(b, ",\"non_code_paths\":");
 	json_str_or_null(b, o->noncode_paths);
 	return omen_buf_printf(b, ",\"closing_refs\":%d,\"whole_message\":%d,\"feature_subjects\":%d,"
-		"\"named_decides\":%d,\"insertion_context\":%d,\"horizon_days\":%lld}", o->closing_refs,
-		o->whole_message, o->feature_subjects, o->named_decides, o->insertion_context,
-		(long long)o->horizon_days);
+		"\"named_decides\":%d,\"insertion_context\":%d,\"min_line_share\":%d,\"horizon_days\":%lld}",
+		o->closing_refs, o->whole_message, o->feature_subjects, o->named_decides, o->insertion_context,
+		o->min_line_share, (long long)o->horizon_days);
 }
 
 static void summary_from_header(omen_label_summary *s, const char *json)
@@ -650,7 +712,8 @@ static void summary_from_header(omen_label_summary *s, const char *json)
 	GETN("fixes_traced", fixes_traced); GETN("closing_only", closing_only);
 	GETN("outside_only", outside_only); GETN("feature_only", feature_only); GETN("fixes_cosmetic", fixes_cosmetic);
 	GETN("fixes_non_code", fixes_noncode); GETN("non_code_lines", noncode_lines);
-	GETN("named_dropped", named_dropped); GETN("fixes_insertion", fixes_insertion); GETN("beyond_horizon", beyond_horizon);
+	GETN("named_dropped", named_dropped); GETN("fixes_insertion", fixes_insertion);
+	GETN("minor_dropped", minor_dropped); GETN("beyond_horizon", beyond_horizon);
 #undef GETN
 	if ((v = cJSON_GetObjectItemCaseSensitive(j, "options")) &&
 	    (v = cJSON_GetObjectItemCaseSensitive(v, "horizon_days")) && cJSON_IsNumber(v))
@@ -713,7 +776,7 @@ static int previous_run(omen_label_summary *sum, lbl_run *R, const char *path, c
 
 /* ---- pass state, saved beside the labels for incremental runs ----------------
  * "OMENLBS1", u32 version (2), head hex[40], u32 len + options JSON, summary
- * counters (u64 x 16), u32 n + commits {oid[20], i64 time, i64 issue date,
+ * counters (u64 x 17), u32 n + commits {oid[20], i64 time, i64 issue date,
  * u32 traced, u32 named, u32 fix_by, u8 flags: fix, merge, boundary,
  * untraced fix, 2 bits fix scope}, u32 n + pairs {u32 x 3},
  * u32 n + tips {u32}, u32 n + versions {u64 path key, oid[20], i32 ref,
@@ -762,10 +825,10 @@ static size_t *counter(omen_label_summary *s, int k)
 {
 	size_t *c[] = {&s->fixes_add_only, &s->fixes_skipped_large, &s->traced_lines, &s->fixes_traced,
 		&s->named_links, &s->untraced_missing, &s->boundary, &s->closing_only, &s->outside_only,
-		&s->fixes_cosmetic, &s->fixes_noncode, &s->noncode_lines, &s->named_dropped, &s->feature_only, &s->fixes_insertion, NULL};
+		&s->fixes_cosmetic, &s->fixes_noncode, &s->noncode_lines, &s->named_dropped, &s->feature_only, &s->fixes_insertion, &s->minor_dropped, NULL};
 	return c[k];
 }
-#define STATE_COUNTERS 15
+#define STATE_COUNTERS 16
 
 static int save_state(lbl_run *R, const char *path, const char *opts, const char *head)
 {
@@ -976,14 +1039,14 @@ static int write_labels(lbl_run *R, const char *path, const char *opts, const ch
 		"\"fixes_skipped_large\":%zu,\"traced_lines\":%zu,\"named_links\":%zu,"
 		"\"latency_days\":[%.3f,%.3f,%.3f],\"shallow\":%s,\"closing_only\":%zu,"
 		"\"outside_only\":%zu,\"feature_only\":%zu,\"fixes_cosmetic\":%zu,\"fixes_non_code\":%zu,\"non_code_lines\":%zu,"
-		"\"named_dropped\":%zu,\"fixes_insertion\":%zu,\"beyond_horizon\":%zu}}\n",
+		"\"named_dropped\":%zu,\"fixes_insertion\":%zu,\"minor_dropped\":%zu,\"beyond_horizon\":%zu}}\n",
 		head, R->n, (long long)s->newest_time, (long long)s->window_cut, opts, s->commits, s->fixes,
 		s->inducing, s->clean, s->unknown, s->merges, s->boundary, s->fixes_by_pattern,
 		s->fixes_by_list, s->fixes_by_issue, s->fixes_by_named, s->fixes_traced, s->fixes_add_only,
 		s->fixes_skipped_large, s->traced_lines, s->named_links, s->latency_days_q[0],
 		s->latency_days_q[1], s->latency_days_q[2], s->shallow ? "true" : "false", s->closing_only,
 		s->outside_only, s->feature_only, s->fixes_cosmetic, s->fixes_noncode, s->noncode_lines, s->named_dropped,
-		s->fixes_insertion, s->beyond_horizon);
+		s->fixes_insertion, s->minor_dropped, s->beyond_horizon);
 	if (fwrite(b.ptr, 1, b.len, af.fp) != b.len) {
 		e = omen_error_set(OMEN_EIO, "cannot write '%s'", path);
 		goto out;
@@ -1152,6 +1215,15 @@ static int read_rule_config(omen_label_opts *o, omen_repo *r, char **cos, char *
 		if ((e = omen_config_bool(&b, r, "omen.insertionContext")))
 			return e;
 		o->insertion_context = b;
+	}
+	if (o->min_line_share < 0) {
+		v = 25;
+		if ((e = omen_config_int(&v, r, "omen.minLineShare")))
+			return e;
+		if (v < 0 || v > 100)
+			return omen_error_set(OMEN_EINVAL, "bad config value 'omen.minLineShare': '%lld' is not a "
+				"percentage (0 to 100)", (long long)v);
+		o->min_line_share = (int)v;
 	}
 	if (o->named_decides < 0) {
 		b = 1;
@@ -1354,6 +1426,8 @@ out:
 	free(R.pairs);
 	free(R.cand);
 	free(R.cand_lines);
+	free(R.dent);
+	free(R.minor);
 	omen_buf_free(&R.path);
 	omen_buf_free(&ob);
 	omen_buf_free(&sp);

@@ -18,7 +18,7 @@ here=$(cd "$(dirname "$0")/.." && pwd)
 tmp=$(mktemp -d)
 trap 'rm -rf "$tmp"' EXIT
 cd "$repo" || exit 1
-off="--closing-refs --whole-message --feature-subjects --cosmetic-pattern= --non-code-paths= --no-insertion-context --keep-other-candidates --horizon 0"
+off="--closing-refs --whole-message --feature-subjects --cosmetic-pattern= --non-code-paths= --no-insertion-context --min-line-share 0 --keep-other-candidates --horizon 0"
 row() { # name binary options...
 	name=$1 bin=$2
 	shift 2
@@ -44,12 +44,13 @@ echo "history: $(basename "$repo"), $(git rev-list --count HEAD) commits"
 [ -n "$OMEN_BENCH_BASE" ] && row before "$OMEN_BENCH_BASE" --window 90
 # shellcheck disable=SC2086
 row "all rules off" "$OMEN" $off
-row "+closing words" "$OMEN" --whole-message --feature-subjects --cosmetic-pattern= --non-code-paths= --no-insertion-context --keep-other-candidates --horizon 0
-row "+description only" "$OMEN" --feature-subjects --cosmetic-pattern= --non-code-paths= --no-insertion-context --keep-other-candidates --horizon 0
-row "+feature subjects" "$OMEN" --cosmetic-pattern= --non-code-paths= --no-insertion-context --keep-other-candidates --horizon 0
-row "+cosmetic" "$OMEN" --non-code-paths= --no-insertion-context --keep-other-candidates --horizon 0
-row "+non-code paths" "$OMEN" --no-insertion-context --keep-other-candidates --horizon 0
-row "+insertion context" "$OMEN" --keep-other-candidates --horizon 0
+row "+closing words" "$OMEN" --whole-message --feature-subjects --cosmetic-pattern= --non-code-paths= --no-insertion-context --min-line-share 0 --keep-other-candidates --horizon 0
+row "+description only" "$OMEN" --feature-subjects --cosmetic-pattern= --non-code-paths= --no-insertion-context --min-line-share 0 --keep-other-candidates --horizon 0
+row "+feature subjects" "$OMEN" --cosmetic-pattern= --non-code-paths= --no-insertion-context --min-line-share 0 --keep-other-candidates --horizon 0
+row "+cosmetic" "$OMEN" --non-code-paths= --no-insertion-context --min-line-share 0 --keep-other-candidates --horizon 0
+row "+non-code paths" "$OMEN" --no-insertion-context --min-line-share 0 --keep-other-candidates --horizon 0
+row "+insertion context" "$OMEN" --min-line-share 0 --keep-other-candidates --horizon 0
+row "+minor candidates" "$OMEN" --keep-other-candidates --horizon 0
 row "+named decides" "$OMEN" --horizon 0
 for h in ${OMEN_BENCH_HORIZONS:-}; do
 	row "+horizon $h" "$OMEN" --horizon "$h"

@@ -73,3 +73,20 @@ cp "$LF" grown.jsonl
 cmp -s grown.jsonl "$LF" || fail "incremental labels differ from a full run"
 # a changed rule relabels
 "$OMEN" label --window 0 --horizon 30 --format json | grep -q '"mode":"full"' || fail "rule change not relabelled"
+# minor candidates: a fix repairs four lines of wide and one of narrow
+. "$ROOT/fixtures/label/lib.sh"
+printf 'w1();\nw2();\nw3();\nw4();\n' > w.c
+fx_commit 2021-04-01 wide "Add w"
+printf 'w1();\nw2();\nw3();\nw4();\nw5();\n' > w.c
+fx_commit 2021-04-02 narrow "Add w5"
+printf 'w1(0);\nw2(0);\nw3(0);\nw4(0);\nw5(0);\n' > w.c
+fx_commit 2021-04-03 wfix "Fix w calls"
+"$OMEN" label --window 0 --format json >out.json
+expect wide inducing 4
+expect narrow clean
+grep -q '"minor_dropped":1' out.json || fail "minor_dropped: $(cat out.json)"
+"$OMEN" label --window 0 --min-line-share 0 >/dev/null
+expect narrow inducing 1
+"$OMEN" label --window 0 --min-line-share 80 >/dev/null
+expect wide inducing 4
+expect narrow clean
