@@ -143,10 +143,12 @@ typedef struct {
 	int named_decides;         /* -1 (init): omen.namedDecides, else 1 (rule on) */
 	int insertion_context;     /* -1 (init): omen.insertionContext, else 1 (rule on) */
 	int min_line_share;        /* -1 (init): omen.minLineShare, else 25 (percent); 0 = off */
-	int64_t horizon_days;      /* -1 (init): omen.horizon, else the default; 0 = none */
+	int64_t horizon_days;      /* -1 (init): omen.horizon, else the default (below); 0 = none */
 } omen_label_opts;
-/* Default horizon in days (README "Labels that mark real repairs"). */
-#define OMEN_LABEL_HORIZON_DEFAULT 0
+/* Default horizon in days (README "Labels that mark real repairs"): 365
+ * when the labelled history spans at least 5 times that, else none. */
+#define OMEN_LABEL_HORIZON_DEFAULT 365
+#define OMEN_LABEL_HORIZON_MIN_SPANS 5
 void omen_label_opts_init(omen_label_opts *o);
 
 typedef struct {

@@ -1232,15 +1232,39 @@ static int read_rule_config(omen_label_opts *o, omen_repo *r, char **cos, char *
 		o->named_decides = b;
 	}
 	if (o->horizon_days < 0) {
-		v = OMEN_LABEL_HORIZON_DEFAULT;
+		v = INT64_MIN; /* unset: the default, decided by the history's span */
 		if ((e = omen_config_int(&v, r, "omen.horizon")))
 			return e;
-		if (v < 0)
+		if (v < 0 && v != INT64_MIN)
 			return omen_error_set(OMEN_EINVAL, "bad config value 'omen.horizon': '%lld' is not a "
 				"number of days (0 = no horizon)", (long long)v);
-		o->horizon_days = v;
+		o->horizon_days = v == INT64_MIN ? -1 : v;
 	}
 	return 0;
+}
+
+static int64_t author_time(omen_repo *r, const git_oid *id)
+{
+	git_commit *c = NULL;
+	int64_t t = 0;
+	if (git_commit_lookup(&c, omen_repo_git(r), id) == 0)
+		t = git_commit_author(c)->when.time;
+	git_commit_free(c);
+	return t;
+}
+
+/* The default horizon (README "Labels that mark real repairs"): one year
+ * when the history spans at least five of them (the oldest commit of the
+ * walk to its head, author times), else none: a younger history would lose
+ * too large a share of its known labels to the unknown newest year. */
+static int64_t default_horizon(const lbl_run *R)
+{
+	int64_t span;
+	if (!R->n)
+		return 0;
+	span = author_time(R->repo, &R->ids[R->n - 1]) - author_time(R->repo, &R->ids[0]);
+	return span >= (int64_t)OMEN_LABEL_HORIZON_MIN_SPANS * OMEN_LABEL_HORIZON_DEFAULT * 86400 ?
+		OMEN_LABEL_HORIZON_DEFAULT : 0;
 }
 
 int omen_label_run(omen_label_summary *sum, omen_repo *r, const omen_label_opts *opts,
@@ -1334,6 +1358,8 @@ int omen_label_run(omen_label_summary *sum, omen_repo *r, const omen_label_opts 
 	strcpy(sum->head, head);
 	if ((e = load_graph(&R)))
 		goto out;
+	if (o.horizon_days < 0)
+		o.horizon_days = default_horizon(&R);
 	if ((e = opts_json(&ob, &o, pattern, list)))
 		goto out;
 	if (o.incremental && previous_run(sum, &R, path, ob.ptr, head)) {

@@ -90,3 +90,12 @@ expect narrow inducing 1
 "$OMEN" label --window 0 --min-line-share 80 >/dev/null
 expect wide inducing 4
 expect narrow clean
+# the default horizon: none on a history younger than five years, 365 days
+# once it spans five
+head -1 "$LF" | grep -q '"horizon_days":0' || fail "a 1-year history got a horizon"
+echo 'int y = 1;' >> other.c
+fx_commit 2025-06-01 old5 "Add y"
+"$OMEN" label >/dev/null
+head -1 "$LF" | grep -q '"horizon_days":365' || fail "a 5-year history has no default horizon"
+"$OMEN" label --horizon 0 >/dev/null
+head -1 "$LF" | grep -q '"horizon_days":0' || fail "--horizon 0 did not turn it off"
