@@ -120,11 +120,17 @@ int64_t omen_labels_file_horizon(const char *path);
 /* The history the labels cover (newest commit id), for cache keys. */
 const char *omen_labels_head(const omen_labels *l);
 
+/* The verification window, in days: commits newer than this before the
+ * newest stay unknown, and eval leaves this gap between training and test.
+ * omen.window overrides it; `--window` on the command line. A plain integer
+ * (the help text is made from it). */
+#define OMEN_WINDOW_DAYS 90
+
 typedef struct {
 	const char *const *revs;   /* NULL = HEAD */
 	const char *fix_pattern;   /* NULL = omen.fixPattern or default */
 	const char *fix_list;      /* NULL = none */
-	int64_t window_days;       /* -1 (init): omen.window, else 90 */
+	int64_t window_days;       /* -1 (init): omen.window, else OMEN_WINDOW_DAYS */
 	int max_fix_files;         /* -1 (init): omen.maxFixFiles, else 50; 0 = no limit */
 	int skip_blank;            /* refinements: 1 on (default), 0 off */
 	int skip_comments;
@@ -184,6 +190,13 @@ typedef struct {
 	size_t beyond_horizon;     /* commits traced only by fixes later than the horizon */
 	int64_t horizon_days;      /* the horizon used, 0 = none */
 	size_t noncode_patterns;   /* globs in the non-code list */
+	/* absent blobs (issue 12): pre-pass, fetch and skipped file changes;
+	 * with files_absent > 0 the label file's summary says so
+	 * ("missing_blob_files") and the next run relabels in full */
+	omen_blob_stats blobs;
+	size_t file_changes;       /* file changes read (walk, and merges' own diffs) */
+	size_t files_absent;       /* of those, read with an absent blob skipped */
+	size_t fixes_absent;       /* fixes with no traced line whose files had absent blobs */
 } omen_label_summary;
 
 enum {
