@@ -299,7 +299,8 @@ int cmd_label(int argc, char **argv)
 			s.untraced_missing);
 	else if (s.untraced_missing)
 		cli_warning("%zu deleted lines had no origin state", s.untraced_missing);
-	if (s.fixes && !s.traced_lines && (s.fixes_noncode || s.noncode_lines))
+	/* the non-code list took every line (not absent blobs, issue 12) */
+	if (s.fixes && !s.traced_lines && !s.files_absent && (s.fixes_noncode || s.noncode_lines))
 		cli_notice("nothing was traced: every line the fixes changed is in a non-code path "
 			"(omen.nonCodePaths / --non-code-paths)");
 	if (!strcmp(a.format, "json"))
