@@ -10,11 +10,16 @@ fixes the rules trace ("fix_scope" "code"): a fix that changes only
 documentation, tests or build files names a commit the tracer never sees.
 
 usage: named_oracle.py REPO DUMP [LABELS]"""
-import collections, json, re, subprocess, sys
+import collections, json, os, re, subprocess, sys
 
 FORMS = re.compile(r"(?im)^[ \t>]*(?:fixes:?|fixes commit|fix:|reverts:?|revert commit|reverting commit|"
                    r"introduced (?:by|in):?|regressed by:?|broken by:?|caused by:?|follow-?up to)[ \t]*(?:commit )?"
                    r"[ \t]*([0-9a-f]{7,40})\b|reverts commit ([0-9a-f]{7,40})\b")
+
+# OMEN_ORACLE_FORMS=strict leaves "Follow-up to" out: a follow-up often
+# extends the commit it names rather than repairing it.
+if os.environ.get("OMEN_ORACLE_FORMS") == "strict":
+    FORMS = re.compile(FORMS.pattern.replace("|follow-?up to", ""), FORMS.flags)
 
 def git(repo, *a):
     return subprocess.run(["git", "-C", repo] + list(a), capture_output=True, text=True, errors="replace").stdout
