@@ -557,6 +557,44 @@ static void expect_bad(const char *data, const char *msg)
 		fail_msg("got '%s', want '%s'", omen_error_last(), msg);
 }
 
+/* issue 10: "fix_scope" round trip, and the header's horizon read alone */
+static void test_labels_scope_horizon(void **state)
+{
+	static const char hdr[] = "{\"omen_labels\":1,\"head\":\"\",\"options\":{\"horizon_days\":365}}\n";
+	omen_label_rec rec;
+	omen_labels *l;
+	omen_buf b = OMEN_BUF_INIT;
+	char path[] = "/tmp/omen-test-label-XXXXXX";
+	FILE *fp;
+	int fd;
+	(void)state;
+	memset(&rec, 0, sizeof(rec));
+	strcpy(rec.id, "aaaaaaaaaaaaaaaaaaaaaaaaaaaaaaaaaaaaaaaa");
+	rec.is_fix = 1;
+	rec.fix_scope = OMEN_FIXSCOPE_NONCODE;
+	assert_int_equal(omen_buf_puts(&b, hdr), 0);
+	assert_int_equal(lbl_write_record(&b, &rec), 0);
+	assert_non_null(strstr(b.ptr, "\"fix_scope\":\"non-code\""));
+	assert_int_equal(omen_labels_parse(&l, "x.jsonl", b.ptr, b.len), 0);
+	assert_int_equal(omen_labels_get(l, rec.id)->fix_scope, OMEN_FIXSCOPE_NONCODE);
+	omen_labels_free(l);
+	/* not a fix: no scope written */
+	rec.is_fix = 0;
+	omen_buf_clear(&b);
+	assert_int_equal(lbl_write_record(&b, &rec), 0);
+	assert_null(strstr(b.ptr, "fix_scope"));
+	/* the horizon from the header line */
+	assert_true((fd = mkstemp(path)) >= 0);
+	assert_non_null(fp = fdopen(fd, "w"));
+	fputs(hdr, fp);
+	fclose(fp);
+	assert_int_equal(omen_labels_file_horizon(path), 365);
+	unlink(path);
+	assert_int_equal(omen_labels_file_horizon(path), 0);
+	assert_int_equal(omen_labels_file_horizon(NULL), 0);
+	omen_buf_free(&b);
+}
+
 static void test_labels_bad(void **state)
 {
 	(void)state;
@@ -592,6 +630,7 @@ int main(void)
 		cmocka_unit_test(test_tracer_skips_and_rename),
 		cmocka_unit_test(test_comment_lines),
 		cmocka_unit_test(test_labels_parse),
+		cmocka_unit_test(test_labels_scope_horizon),
 		cmocka_unit_test(test_labels_bad),
 	};
 	return cmocka_run_group_tests(tests, NULL, NULL);
