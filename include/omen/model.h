@@ -16,6 +16,15 @@ typedef struct omen_model omen_model;
 #define OMEN_EPOCHS_DEFAULT 30
 #define OMEN_THREADS_MAX 64      /* --threads and omen.threads bound */
 
+/* A range [off, off + n) of the parameter block. */
+typedef struct { size_t off, n; } omen_span;
+
+/* Data-parallel training (issue 13, src/util/mpi.c): fills in the chunk
+ * gradients grad[c] (over spans) and losses loss[c] that other processes
+ * computed, before the fixed-order sum of the chunks. */
+typedef int (*omen_grad_exchange)(void *ctx, float *const *grad, float *loss, int nchunks,
+	const omen_span *spans, size_t nspans);
+
 typedef struct {
 	int epochs;              /* maximum; early stopping may stop sooner (default OMEN_EPOCHS_DEFAULT) */
 	int patience;            /* epochs without validation AUC gain (default 5) */
@@ -37,6 +46,12 @@ typedef struct {
 	/* per epoch; valid_auc is NaN during the refit on train+validation */
 	void (*progress)(void *payload, int epoch, int epochs, float loss, float valid_auc, double eta_s);
 	void *payload;
+	/* data-parallel part (issue 13): with parts > 1 this process computes
+	 * the chunks c of every batch with c % parts == part, and exchange
+	 * brings the others' in; parts <= 1: one process (the default) */
+	int part, parts;
+	omen_grad_exchange exchange;
+	void *exchange_ctx;
 } omen_train_opts;
 void omen_train_opts_init(omen_train_opts *o);
 

@@ -6,7 +6,10 @@
  * whatever the thread count; every chunk has its own gradient buffer and
  * dropout stream (seeded by seed, step and chunk), and the buffers are
  * summed in chunk order (omen_reduce_fixed). So 1 and 2 threads give
- * bit-identical weights. */
+ * bit-identical weights. Data-parallel processes (issue 13) split the same
+ * fixed chunks between them (omen_train_opts.part/parts) and exchange the
+ * chunk gradients before that sum, so any process count gives the weights
+ * of one process too. */
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
@@ -64,7 +67,7 @@ typedef struct {
 	const omen_model *m;
 	const omen_dataset *ds;
 	const size_t *idx;
-	int nb, nthreads, train;
+	int nb, nthreads, train, part, parts;
 	float p, pw;
 	uint64_t seed, step;
 	omen_ws ws[OMEN_TRAIN_CHUNKS];
@@ -82,7 +85,7 @@ static void chunk_run(step_ctx *x, int c)
 	omen_ws *w = &x->ws[c];
 	omen_rng rng;
 	x->loss[c] = 0;
-	if (n <= 0)
+	if (n <= 0 || (x->train && x->parts > 1 && c % x->parts != x->part))
 		return;
 	for (i = 0; i < n; i++)
 		x->sp[c][i] = omen_dataset_get(x->ds, x->idx[lo + i]);
@@ -291,7 +294,7 @@ static int fit_lr(omen_logreg *out, const omen_dataset *ds, const size_t *idx, s
  * row the batch uses. Rows a batch does not use keep their moments as they
  * are (the "lazy" Adam of TensorFlow Addons and torch.optim.SparseAdam);
  * embeddings carry no weight decay, so nothing else differs from AdamW. */
-typedef struct { size_t off, n; } seg;
+typedef omen_span seg;
 
 typedef struct {
 	seg *s;
@@ -434,6 +437,8 @@ static int fit(omen_model *m, fit_info *fi, const omen_dataset *ds, const size_t
 	x.p = o->dropout;
 	x.train = 1;
 	x.seed = o->seed;
+	x.part = o->part;
+	x.parts = o->exchange ? o->parts : 1;
 	aw.lr = o->lr;
 	aw.weight_decay = o->weight_decay;
 	memcpy(best, m->params, m->nparams * sizeof(float));
@@ -462,10 +467,13 @@ static int fit(omen_model *m, fit_info *fi, const omen_dataset *ds, const size_t
 			x.step = ++step;
 			if ((e = run_chunks(&x)))
 				goto out;
-			for (c = 0; c < OMEN_TRAIN_CHUNKS; c++)
-				loss += x.loss[c];
 			if ((e = seg_build(&sl, m, ds, x.idx, x.nb, (uint32_t)step)))
 				goto out;
+			if (x.parts > 1 && (e = o->exchange(o->exchange_ctx, x.grad, x.loss,
+					OMEN_TRAIN_CHUNKS, sl.s, sl.n)))
+				goto out;
+			for (c = 0; c < OMEN_TRAIN_CHUNKS; c++)
+				loss += x.loss[c];
 			norm = seg_reduce_clip(g, x.grad, &sl, o->clip);
 			if (!isfinite(loss) || !isfinite(norm)) {
 				e = omen_error_set(OMEN_ERROR, "training diverged at step %zu (epoch %d): "
