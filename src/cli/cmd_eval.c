@@ -11,10 +11,13 @@ static const char usage_text[] =
 	"  --folds <n>            number of test windows (5)\n"
 	"  --fold-days <d>        width of a test window in days (auto: half the labelled\n"
 	"                         history shared among the folds)\n"
-	"  --gap-days <d>         days left out between training and test (omen.window, 90)\n"
+	"  --gap-days <d>         days left out between training and test (the labels' window,\n"
+	"                         omen.window when they were made, 90)\n"
 	"  --format <fmt>         text (default) or json\n"
 	"  --html <file>          also write a self-contained HTML report with plots\n"
 	"  --seed <n>             seed of the training runs and of the bootstrap (1)\n"
+	"  --seeds <n>            run the folds over n seeds (seed, seed+1, ...) and report the\n"
+	"                         mean and spread of the pooled figures (1)\n"
 	"  --bootstrap <n>        resamples for the AUC intervals (1000)\n"
 	"  --epochs <n>           most training epochs per fold (the trainer's default)\n"
 	"  --threads <n>          training threads (omen.threads, else online cores, max 2)\n"
@@ -131,6 +134,14 @@ int cmd_eval(int argc, char **argv)
 			}
 			o.seed = (uint64_t)n;
 			o.train.seed = (uint64_t)n;
+		} else if ((r = cli_opt_value(argc, argv, &i, "--seeds", &val))) {
+			if (r < 0)
+				goto missing;
+			if (cli_parse_int(&n, val, 1, 100)) {
+				rc = cli_usage("eval", "--seeds: '%s' is not a count from 1 to 100", val);
+				goto done;
+			}
+			o.seeds = (int)n;
 		} else if ((r = cli_opt_value(argc, argv, &i, "--bootstrap", &val))) {
 			if (r < 0)
 				goto missing;
@@ -177,10 +188,9 @@ int cmd_eval(int argc, char **argv)
 		rc = cli_fatal(NULL);
 		goto done;
 	}
-	if (!gap_set && omen_config_int(&o.folds.gap_days, repo, "omen.window") < 0) {
-		rc = cli_fatal(NULL);
-		goto done;
-	}
+	/* without --gap-days the gap is the window the labels were made with
+	 * (their header), which is the rule behind "labels as known at the cut" */
+	(void)gap_set;
 	if (!threads_set) {
 		int64_t t = o.train.threads;
 		if (omen_config_int(&t, repo, "omen.threads") < 0) {

@@ -70,11 +70,27 @@ static void print_text(const omen_train_report *r, const omen_dataset *ds, const
 			reused, n - reused);
 	else
 		printf("dataset: %zu commits, read from history\n", n);
-	printf("split (time-ordered): train %zu (%zu inducing), validation %zu (%zu), test %zu (%zu)\n",
-		r->n_train, r->pos_train, r->n_valid, r->pos_valid, r->n_test, r->pos_test);
+	{
+		char d1[16];
+		omen_format_date(d1, r->labels_known);
+		printf("split (time-ordered): train %zu (%zu inducing), validation %zu (%zu), labels as "
+			"known on %s; a %lld-day gap; test %zu (%zu), labels as known now\n",
+			r->n_train, r->pos_train, r->n_valid, r->pos_valid, d1, (long long)r->gap_days,
+			r->n_test, r->pos_test);
+		if (r->n_relabelled)
+			printf("labels as known on %s: %zu training commits inducing now were still clean "
+				"then (fixed later) and are trained on as clean\n", d1, r->n_relabelled);
+	}
 	printf("epochs: %d run, best %d by validation AUC; %zu commits capped (largest files and "
 		"hunks kept)\n", r->epochs_run, r->best_epoch, r->capped_commits);
-	printf("test slice, newest %zu labelled commits:\n", r->n_test);
+	{
+		char d1[16], d2[16];
+		omen_format_date(d1, r->test_start);
+		omen_format_date(d2, r->test_end);
+		printf("test slice, %zu labelled commits from %s to %s (newer ones are still inside the "
+			"verification window); model trained on labels as known on %s:\n", r->n_test, d1,
+			d2, d1);
+	}
 	printf("  %-16s %7s %7s %7s %10s\n", "", "AUC", "AP", "Brier", "Recall@20%");
 	print_row("model", &r->model);
 	print_row("lr on metrics", &r->lr_metrics);
@@ -88,8 +104,25 @@ static void print_text(const omen_train_report *r, const omen_dataset *ds, const
 				"on small histories the simple baselines are often as good\n",
 				b == &r->lr_metrics ? "lr on metrics" : "lines added", b->auc, r->model.auc);
 	}
-	printf("threshold %.3f (max F1 on validation); %.1f s\n", r->threshold, r->seconds);
-	printf("wrote %s (refit on train+validation; scores are advisory)\n", path);
+	{
+		const omen_ship_check *c = &r->check;
+		char d1[16], p[16], q[16], b1[16], b2[16], e1[16];
+		omen_format_date(d1, c->start);
+		fmt_num(p, sizeof(p), c->precision);
+		fmt_num(q, sizeof(q), c->recall);
+		fmt_num(b1, sizeof(b1), c->brier);
+		fmt_num(b2, sizeof(b2), c->brier_base);
+		fmt_num(e1, sizeof(e1), c->ece);
+		printf("shipped model (%s), calibrated on the test slice's older %zu commits, checked "
+			"on its newest %zu (%zu inducing, from %s; never trained nor calibrated on):\n",
+			r->refit ? "refit on train+validation" : "the evaluation model", c->n_calib, c->n,
+			c->positives, d1);
+		printf("  threshold %.3f: precision %s, recall %s; Brier %s (base rate %s), ECE %s, "
+			"mean probability %.3f\n", c->threshold, p, q, b1, b2, e1, c->mean_prob);
+	}
+	printf("evaluation model threshold %.3f (max F1 on validation); %.1f s\n", r->threshold,
+		r->seconds);
+	printf("wrote %s (scores are advisory)\n", path);
 }
 
 static void json_scores(omen_buf *b, const char *name, const omen_slice_scores *s)
@@ -119,7 +152,24 @@ static void print_json(const omen_train_report *r, const omen_dataset *ds, const
 	json_scores(&b, "lr_metrics", &r->lr_metrics);
 	omen_buf_puts(&b, ",");
 	json_scores(&b, "lines_added", &r->lines_added);
-	omen_buf_puts(&b, "}}\n");
+	omen_buf_puts(&b, "}");
+	{
+		char d1[16], d2[16];
+		const omen_ship_check *c = &r->check;
+		omen_format_date(d1, r->labels_known);
+		omen_format_date(d2, c->start);
+		omen_buf_printf(&b, ",\"labels_known\":\"%s\",\"gap_days\":%lld,"
+			"\"relabelled_clean_at_cut\":%zu,\"check\":{\"start\":\"%s\",\"n\":%zu,"
+			"\"positives\":%zu,\"n_calib\":%zu,\"threshold\":%.6f,\"mean_prob\":%.6f",
+			d1, (long long)r->gap_days, r->n_relabelled, d2, c->n, c->positives, c->n_calib,
+			c->threshold, c->mean_prob);
+		if (isfinite(c->precision)) omen_buf_printf(&b, ",\"precision\":%.6f", c->precision);
+		if (isfinite(c->recall)) omen_buf_printf(&b, ",\"recall\":%.6f", c->recall);
+		if (isfinite(c->brier)) omen_buf_printf(&b, ",\"brier\":%.6f", c->brier);
+		if (isfinite(c->brier_base)) omen_buf_printf(&b, ",\"brier_base\":%.6f", c->brier_base);
+		if (isfinite(c->ece)) omen_buf_printf(&b, ",\"ece\":%.6f", c->ece);
+		omen_buf_puts(&b, "}}\n");
+	}
 	if (b.ptr)
 		fputs(b.ptr, stdout);
 	omen_buf_free(&b);
@@ -233,6 +283,7 @@ int cmd_train(int argc, char **argv)
 {
 	omen_train_opts o;
 	omen_train_report rep;
+	omen_label_clock clock;
 	omen_dataset_opts dopt;
 	omen_repo *repo = NULL;
 	omen_dataset *ds = NULL;
@@ -246,6 +297,7 @@ int cmd_train(int argc, char **argv)
 	int64_t v64;
 
 	omen_train_opts_init(&o);
+	memset(&clock, 0, sizeof(clock));
 	for (i = 1; i < argc; i++) {
 		const char *a = argv[i];
 		if (!strcmp(a, "-h") || !strcmp(a, "--help")) {
@@ -351,6 +403,22 @@ int cmd_train(int argc, char **argv)
 		goto out;
 	}
 	o.caps = dopt.caps;
+	/* the fix times behind "labels as known at the test start" */
+	{
+		char *lp = NULL;
+		int configured = 0;
+		if (!labels && omen_labels_path(&lp, repo, &configured)) {
+			rc = cli_fatal(NULL);
+			goto out;
+		}
+		e = omen_label_clock_load(&clock, ds, labels ? labels : lp);
+		free(lp);
+		if (e) {
+			rc = cli_fatal(NULL);
+			goto out;
+		}
+		o.clock = &clock;
+	}
 	ps.tty = isatty(2);
 	ps.start = omen_now();
 	o.progress = on_progress;
@@ -374,6 +442,7 @@ out:
 	if (lock_fd >= 0)
 		omen_lock_release(lock_fd);
 	omen_model_free(m);
+	omen_label_clock_free(&clock);
 	omen_dataset_free(ds);
 	omen_repo_free(repo);
 	free(model_path);
