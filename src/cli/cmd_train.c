@@ -108,6 +108,14 @@ static void print_text(const omen_train_report *r, const omen_dataset *ds, const
 		const omen_ship_check *c = &r->check;
 		char d1[16], p[16], q[16], b1[16], b2[16], e1[16];
 		omen_format_date(d1, c->start);
+		if (!c->n) {
+			printf("shipped model (%s): %s; too few inducing or clean commits in the test "
+				"slice's older half (%d of each needed) for a held-out check of its "
+				"calibration\n", r->refit ? "refit on train+validation" : "the evaluation model",
+				r->refit ? "calibrated on the whole test slice" : "calibrated on validation",
+				5);
+			goto done;
+		}
 		fmt_num(p, sizeof(p), c->precision);
 		fmt_num(q, sizeof(q), c->recall);
 		fmt_num(b1, sizeof(b1), c->brier);
@@ -117,9 +125,11 @@ static void print_text(const omen_train_report *r, const omen_dataset *ds, const
 			"on its newest %zu (%zu inducing, from %s; never trained nor calibrated on):\n",
 			r->refit ? "refit on train+validation" : "the evaluation model", c->n_calib, c->n,
 			c->positives, d1);
-		printf("  threshold %.3f: precision %s, recall %s; Brier %s (base rate %s), ECE %s, "
-			"mean probability %.3f\n", c->threshold, p, q, b1, b2, e1, c->mean_prob);
+		printf("  threshold %.3f: precision %s, recall %s; Brier %s (%s for the calibration "
+			"part's base rate), ECE %s, mean probability %.3f\n", c->threshold, p, q, b1, b2, e1,
+			c->mean_prob);
 	}
+done:
 	printf("evaluation model threshold %.3f (max F1 on validation); %.1f s\n", r->threshold,
 		r->seconds);
 	printf("wrote %s (scores are advisory)\n", path);
@@ -159,10 +169,14 @@ static void print_json(const omen_train_report *r, const omen_dataset *ds, const
 		omen_format_date(d1, r->labels_known);
 		omen_format_date(d2, c->start);
 		omen_buf_printf(&b, ",\"labels_known\":\"%s\",\"gap_days\":%lld,"
-			"\"relabelled_clean_at_cut\":%zu,\"check\":{\"start\":\"%s\",\"n\":%zu,"
+			"\"relabelled_clean_at_cut\":%zu", d1, (long long)r->gap_days, r->n_relabelled);
+		if (!c->n) {
+			omen_buf_puts(&b, ",\"check\":null}\n");
+			goto print;
+		}
+		omen_buf_printf(&b, ",\"check\":{\"start\":\"%s\",\"n\":%zu,"
 			"\"positives\":%zu,\"n_calib\":%zu,\"threshold\":%.6f,\"mean_prob\":%.6f",
-			d1, (long long)r->gap_days, r->n_relabelled, d2, c->n, c->positives, c->n_calib,
-			c->threshold, c->mean_prob);
+			d2, c->n, c->positives, c->n_calib, c->threshold, c->mean_prob);
 		if (isfinite(c->precision)) omen_buf_printf(&b, ",\"precision\":%.6f", c->precision);
 		if (isfinite(c->recall)) omen_buf_printf(&b, ",\"recall\":%.6f", c->recall);
 		if (isfinite(c->brier)) omen_buf_printf(&b, ",\"brier\":%.6f", c->brier);
@@ -170,6 +184,7 @@ static void print_json(const omen_train_report *r, const omen_dataset *ds, const
 		if (isfinite(c->ece)) omen_buf_printf(&b, ",\"ece\":%.6f", c->ece);
 		omen_buf_puts(&b, "}}\n");
 	}
+print:
 	if (b.ptr)
 		fputs(b.ptr, stdout);
 	omen_buf_free(&b);

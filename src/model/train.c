@@ -19,6 +19,7 @@
 #define OMEN_TRAIN_CHUNKS 2
 #define MIN_LABELLED 50
 #define MIN_POSITIVES 10
+#define MIN_CHECK 5       /* inducing and clean commits the shipped model's calibration needs */
 
 void omen_train_opts_init(omen_train_opts *o)
 {
@@ -730,6 +731,7 @@ int omen_model_train(omen_model **out, omen_train_report *rep, const omen_datase
 {
 	size_t n = omen_dataset_size(ds), nl = 0, pos = 0, i, n_test, n_valid, n_train, ncand;
 	size_t npool = 0, n_calib;
+	int held;
 	size_t *idx = NULL;
 	tkey *ord = NULL;
 	int8_t *cut = NULL, *lnow = NULL;
@@ -895,11 +897,24 @@ int omen_model_train(omen_model **out, omen_train_report *rep, const omen_datase
 	 * calibrated on) */
 	n_calib = n_test / 2;
 	rep->refit = o->refit != 0;
+	for (i = 0; i < n_calib; i++)
+		rep->check.pos_calib += lnow[idx[n - n_test + i]] > 0;
+	for (i = n_calib; i < n_test; i++)
+		rep->check.positives += lnow[idx[n - n_test + i]] > 0;
+	held = rep->check.pos_calib >= MIN_CHECK && n_calib - rep->check.pos_calib >= MIN_CHECK &&
+		rep->check.positives >= 1;
 	if (o->refit) {
 		if ((e = train_core(&m, &fi2, ds, cut, idx, n_train + n_valid, NULL, 0, o,
 				fi.best_epoch > 0 ? fi.best_epoch : 1, 1)))
 			goto out;
-		if ((e = calibrate(m, ds, NULL, idx + n - n_test, n_calib, threads)))
+		if (held && (e = calibrate(m, ds, NULL, idx + n - n_test, n_calib, threads)))
+			goto out;
+		/* a slope <= 0 is a calibration part too small to trust */
+		if (held && m->platt_a <= 0)
+			held = 0;
+		/* too few inducing or clean commits for a held-out check: calibrated
+		 * on the whole test slice, as before issue 16, and no check */
+		if (!held && (e = calibrate(m, ds, NULL, idx + n - n_test, n_test, threads)))
 			goto out;
 		omen_model_free(eval_m);
 		eval_m = NULL;
@@ -907,12 +922,19 @@ int omen_model_train(omen_model **out, omen_train_report *rep, const omen_datase
 		m = eval_m;
 		eval_m = NULL;
 	}
-	rep->check.n_calib = n_calib;
-	for (i = 0; i < n_calib; i++)
-		rep->check.pos_calib += lnow[idx[n - n_test + i]] > 0;
-	if ((e = ship_check(&rep->check, m, ds, idx + n - n_test + n_calib, n_test - n_calib,
-			n_calib ? (double)rep->check.pos_calib / (double)n_calib : 0, threads)))
-		goto out;
+	rep->check.positives = 0;
+	if (held) {
+		rep->check.n_calib = n_calib;
+		if ((e = ship_check(&rep->check, m, ds, idx + n - n_test + n_calib, n_test - n_calib,
+				n_calib ? (double)rep->check.pos_calib / (double)n_calib : 0, threads)))
+			goto out;
+	} else {
+		memset(&rep->check, 0, sizeof(rep->check));
+		rep->check.n_calib = o->refit ? n_test : 0;
+		rep->check.threshold = m->threshold;
+		rep->check.brier = rep->check.brier_base = rep->check.ece = NAN;
+		rep->check.precision = rep->check.recall = rep->check.f1 = NAN;
+	}
 	/* metrics state and head: the whole dataset. The head is the commit
 	 * the history was read from (its state counts every non-merge
 	 * ancestor), which is not the newest sample when it is a merge; a
@@ -961,7 +983,8 @@ int omen_model_train(omen_model **out, omen_train_report *rep, const omen_datase
 	cJSON_AddNumberToObject(tr, "batch", o->batch);
 	cJSON_AddNumberToObject(tr, "seconds", rep->seconds);
 	cJSON_AddBoolToObject(tr, "refit", o->refit != 0);
-	cJSON_AddStringToObject(tr, "calibrated_on", o->refit ? "test_older_half" : "validation");
+	cJSON_AddStringToObject(tr, "calibrated_on", !o->refit ? "validation" :
+		rep->check.n ? "test_older_half" : "test");
 	iso_time(date, sizeof(date), rep->labels_known);
 	cJSON_AddStringToObject(tr, "labels_known", date);
 	cJSON_AddNumberToObject(tr, "gap_days", (double)rep->gap_days);
@@ -973,7 +996,7 @@ int omen_model_train(omen_model **out, omen_train_report *rep, const omen_datase
 	cJSON_AddItemToObject(te, "lines_added", scores_json(&rep->lines_added));
 	cJSON_AddNumberToObject(te, "threshold", rep->threshold);
 	cJSON_AddItemToObject(meta, "test", te);
-	{
+	if (rep->check.n) {
 		cJSON *ck = cJSON_CreateObject();
 		const omen_ship_check *c = &rep->check;
 		iso_time(date, sizeof(date), c->start);
