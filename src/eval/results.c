@@ -52,6 +52,7 @@ static void fold_result_free(omen_fold_result *f)
 	free(f->fold.train_idx);
 	free(f->fold.valid_idx);
 	free(f->fold.test_idx);
+	free(f->fold.label_at_cut);
 	free(f->y);
 	free(f->effort);
 	free(f->time);
