@@ -89,7 +89,8 @@ typedef struct {
 	int64_t fold_days;    /* width of a test window (0 = auto: half of the
 	                         labelled span shared among the folds, >= 7) */
 	int64_t gap_days;     /* between training and test (-1, the default: the
-	                         window of the labels' rule, see clock; 90 without) */
+	                         window of the labels' rule, see clock; OMEN_WINDOW_DAYS
+	                         without one) */
 	size_t min_train;     /* labelled training commits required (default 100) */
 	double valid_frac;    /* newest share of the training commits used for
 	                         validation and threshold choice (default 0.15) */
@@ -234,7 +235,7 @@ typedef struct {
 	omen_fold_opts folds;
 	omen_train_opts train;        /* per-fold training settings */
 	int bootstrap;                /* AUC resamples (default 1000) */
-	uint64_t seed;                /* bootstrap seed (default 1) */
+	uint64_t seed;                /* bootstrap seed (default OMEN_SEED_DEFAULT) */
 	const char *labels_path;      /* for the label clock (NULL: every label counts as
 	                                 known at every time) */
 	int seeds;                    /* runs over seeds seed, seed+1, ... (default 1) */

@@ -111,11 +111,17 @@ int64_t omen_label_clock_window(const omen_label_clock *c);
 /* out[i] = omen_label_at(...) for every commit, as known at t. */
 void omen_label_clock_at(int8_t *out, const omen_label_clock *c, int64_t t);
 
+/* The verification window, in days: commits newer than this before the
+ * newest stay unknown, and eval leaves this gap between training and test.
+ * omen.window overrides it; `--window` on the command line. A plain integer
+ * (the help text is made from it). */
+#define OMEN_WINDOW_DAYS 90
+
 typedef struct {
 	const char *const *revs;   /* NULL = HEAD */
 	const char *fix_pattern;   /* NULL = omen.fixPattern or default */
 	const char *fix_list;      /* NULL = none */
-	int64_t window_days;       /* -1 (init): omen.window, else 90 */
+	int64_t window_days;       /* -1 (init): omen.window, else OMEN_WINDOW_DAYS */
 	int max_fix_files;         /* -1 (init): omen.maxFixFiles, else 50; 0 = no limit */
 	int skip_blank;            /* refinements: 1 on (default), 0 off */
 	int skip_comments;

@@ -15,6 +15,7 @@
 #include <string.h>
 #include <time.h>
 #include "omen/eval.h"
+#include "omen/label.h"
 #include "omen/error.h"
 
 #define DAY 86400

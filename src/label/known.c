@@ -49,7 +49,7 @@ int omen_label_clock_alloc(omen_label_clock *c, size_t n)
 		c->first_fix[i] = INT64_MAX;
 	}
 	c->n = n;
-	c->window_days = 90;
+	c->window_days = OMEN_WINDOW_DAYS;
 	return 0;
 }
 

@@ -84,7 +84,7 @@ static int parse_header(omen_labels *l, const char *name, const char *line, size
 		BAD("bad \"head\"");
 	/* the labelling rule the file was written with: verification window
 	 * and horizon (issue 10; 0 or absent = no horizon) */
-	l->window_days = 90;
+	l->window_days = OMEN_WINDOW_DAYS;
 	l->horizon_days = 0;
 	v = cJSON_GetObjectItemCaseSensitive(j, "options");
 	if (cJSON_IsObject(v)) {
@@ -285,6 +285,6 @@ const char *lbl_labels_header(const omen_labels *l) { return l->header_json; }
 
 void omen_labels_rule(const omen_labels *l, int64_t *out_window_days, int64_t *out_horizon_days)
 {
-	*out_window_days = l ? l->window_days : 90;
+	*out_window_days = l ? l->window_days : OMEN_WINDOW_DAYS;
 	*out_horizon_days = l ? l->horizon_days : 0;
 }
