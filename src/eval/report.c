@@ -221,8 +221,9 @@ int omen_eval_write_text(omen_buf *out, const omen_eval_result *r)
 	size_t k, i;
 	char d1[16], d2[16];
 	omen_buf_printf(b, "walk-forward evaluation: %zu folds, %lld-day test windows, %lld-day gap "
-		"before each; %zu of %zu commits labelled\n", r->nfolds, (long long)r->fold_days,
-		(long long)r->gap_days, r->n_labelled, r->n_commits);
+		"before each; %zu of %zu commits labelled; training labels as known when each test "
+		"window opens\n", r->nfolds, (long long)r->fold_days, (long long)r->gap_days,
+		r->n_labelled, r->n_commits);
 	omen_buf_printf(b, "%s\n\n", advisory);
 	omen_buf_printf(b, "%-5s%-23s%7s%7s%6s%7s %-13s%8s%8s%8s\n", "fold", "test window", "train",
 		"test", "pos", "auc", "[95% ci]", "auc-lr", "auc-la", "seconds");
@@ -559,8 +560,9 @@ int omen_eval_write_html(omen_buf *out, const omen_eval_result *r, const char *t
 	omen_buf_puts(b, "</h1>\n<p class=\"adv\">");
 	svg_text_esc(b, advisory);
 	omen_buf_printf(b, ".</p>\n<p>Walk-forward evaluation over %zu folds: each fold trains on "
-		"every labelled commit older than its test window minus a %lld-day gap, then scores the "
-		"%lld-day test window. %zu of %zu commits are labelled. AUC intervals: %d bootstrap "
+		"every labelled commit older than its test window minus a %lld-day gap, labelled as it "
+		"was known when that window opened, then scores the %lld-day test window, labelled as "
+		"known now. %zu of %zu commits are labelled. AUC intervals: %d bootstrap "
 		"resamples, seed %llu. Effort = lines added + deleted outside vendored and generated "
 		"paths.</p>\n", r->nfolds, (long long)r->gap_days, (long long)r->fold_days,
 		r->n_labelled, r->n_commits, r->bootstrap, (unsigned long long)r->seed);
