@@ -74,9 +74,9 @@ static void print_text(const omen_train_report *r, const omen_dataset *ds, const
 		char d1[16], d2[16];
 		omen_format_date(d1, r->test_start);
 		omen_format_date(d2, r->test_end);
-		printf("test slice, %zu labelled commits from %s to %s (newer ones are still inside the "
-			"verification window); model trained on labels as known on %s:\n", r->n_test, d1,
-			d2, d1);
+		printf("test slice, %zu labelled commits from %s to %s (%zu newer inducing ones, inside "
+			"the verification window, left out); model trained on labels as known on %s:\n",
+			r->n_test, d1, d2, r->n_window_left_out, d1);
 	}
 	printf("  %-16s %7s %7s %7s %10s\n", "", "AUC", "AP", "Brier", "Recall@20%");
 	print_row("model", &r->model);
