@@ -272,6 +272,14 @@ static void fit_standardization(omen_model *m, const omen_dataset *ds, const siz
 	}
 }
 
+/* The standardization of m fitted on samples idx[0..n) of ds (shared with
+ * src/model/base.c, which adopts a base model for a young repository). */
+void omen_model_fit_standardization(omen_model *m, const omen_dataset *ds, const size_t *idx,
+	size_t n)
+{
+	fit_standardization(m, ds, idx, n);
+}
+
 static int fit_lr(omen_logreg *out, const omen_dataset *ds, const int8_t *lab, const size_t *idx,
 	size_t n)
 {
@@ -447,7 +455,7 @@ static int fit(omen_model *m, fit_info *fi, const omen_dataset *ds, const int8_t
 	aw.lr = o->lr;
 	aw.weight_decay = o->weight_decay;
 	memcpy(best, m->params, m->nparams * sizeof(float));
-	if (use_valid && o->warm_start) {
+	if (use_valid && (o->warm_start || o->init)) {
 		/* epoch 0 (the warm start) is a candidate too */
 		if ((e = ctx_logits(&x, vz, valid_idx, n_valid)))
 			goto out;
@@ -607,8 +615,12 @@ static int train_core(omen_model **out, fit_info *fi, const omen_dataset *ds, co
 	fit_standardization(m, ds, train_idx, n_train);
 	if ((e = fit_lr(&m->lr, ds, lab, train_idx, n_train)))
 		goto out;
-	if (o->warm_start)
+	if (o->init) {
+		if ((e = omen_model_copy_weights(m, o->init)))
+			goto out;
+	} else if (o->warm_start) {
 		warm_start(m, ds, lab, train_idx, n_train);
+	}
 	if ((e = fit(m, fi, ds, lab, train_idx, n_train, valid_idx, n_valid, o, epochs, report)))
 		goto out;
 	if (n_valid && (e = calibrate(m, ds, lab, valid_idx, n_valid, train_threads(o))))
@@ -990,6 +1002,11 @@ int omen_model_train(omen_model **out, omen_train_report *rep, const omen_datase
 	cJSON_AddNumberToObject(tr, "gap_days", (double)rep->gap_days);
 	cJSON_AddNumberToObject(tr, "relabelled_clean_at_cut", (double)rep->n_relabelled);
 	cJSON_AddItemToObject(meta, "training", tr);
+	if (o->init && o->init->meta) {   /* fine-tuned: say from which base (issue 11) */
+		const cJSON *b = cJSON_GetObjectItemCaseSensitive(o->init->meta, "base");
+		if (b)
+			cJSON_AddItemToObject(meta, "from_base", cJSON_Duplicate(b, 1));
+	}
 	te = cJSON_CreateObject();
 	cJSON_AddItemToObject(te, "model", scores_json(&rep->model));
 	cJSON_AddItemToObject(te, "lr_metrics", scores_json(&rep->lr_metrics));
