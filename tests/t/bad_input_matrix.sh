@@ -503,7 +503,7 @@ h["options"]["horizon_days"] = "a year"
 lines[0] = json.dumps(h).encode()
 open(sys.argv[2], "wb").write(b"\n".join(lines))' "$demo/.git/omen/labels.jsonl" "$here/horizon.jsonl"
 	cd "$demo" || return
-	om hz train --labels "$here/horizon.jsonl" -o "$here/unused.omen"
+	om hz train --labels "$here/horizon.jsonl" --model "$here/unused.omen"
 	if [ "$rc" -eq 128 ] &&
 	   one_line hz "bad label file '.*horizon.jsonl': line 1: bad \"horizon_days\" in \"options\"" &&
 	   [ ! -f "$here/unused.omen" ]; then
