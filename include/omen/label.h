@@ -130,6 +130,46 @@ int omen_labels_brief_read(omen_labels_brief *out, const char *path, size_t tail
 int64_t omen_labels_file_horizon(const char *path);
 /* The history the labels cover (newest commit id), for cache keys. */
 const char *omen_labels_head(const omen_labels *l);
+/* The rule the file was labelled with, from the header's "options":
+ * verification window (days, 90 when absent) and horizon (days, 0 when
+ * absent: no horizon). */
+void omen_labels_rule(const omen_labels *l, int64_t *out_window_days, int64_t *out_horizon_days);
+
+/* ---- labels as known at a time t (issue 16; src/label/known.c) -----------
+ * The one rule behind every training slice (train's split, each eval
+ * fold): a commit is inducing at t when a fix dated before t traced to it
+ * (within the horizon H of the commit, when the labels have one); clean
+ * when it is older than the window at t (H when set, else the verification
+ * window) and not inducing at t; otherwise unknown. A commit unknown now
+ * (merge, shallow boundary, inside the window) is unknown at every t.
+ * Nothing is dropped for being fixed later: it is what it was at t. */
+int omen_label_at(int label_now, int64_t time, int64_t first_fix, int64_t t,
+	int64_t window_days, int64_t horizon_days);
+
+/* Per-commit inputs of that rule for n commits (index order is the
+ * caller's, e.g. the dataset's). first_fix: author time of the earliest
+ * fix that traced to the commit, INT64_MAX when none is listed, INT64_MIN
+ * when its label is to count as known at every t (labels without fix
+ * times, as in an in-memory dataset). */
+typedef struct {
+	size_t n;
+	int64_t *time;
+	int8_t *label;            /* label as known now (the label file's) */
+	int64_t *first_fix;
+	int64_t window_days, horizon_days;
+} omen_label_clock;
+/* Allocates the arrays for n commits (labels unknown, no fixes, window 90). */
+int omen_label_clock_alloc(omen_label_clock *c, size_t n);
+/* A clock for labels without fix times: every label counts as known at
+ * every time (first_fix INT64_MIN for inducing commits), window 90. */
+int omen_label_clock_known(omen_label_clock *c, const int64_t *time, const int8_t *label,
+	size_t n);
+void omen_label_clock_free(omen_label_clock *c);
+/* The window that separates "old enough to be clean" from "unknown":
+ * the horizon when set, else the verification window (days). */
+int64_t omen_label_clock_window(const omen_label_clock *c);
+/* out[i] = omen_label_at(...) for every commit, as known at t. */
+void omen_label_clock_at(int8_t *out, const omen_label_clock *c, int64_t t);
 
 /* The verification window, in days: commits newer than this before the
  * newest stay unknown, and eval leaves this gap between training and test.

@@ -24,6 +24,7 @@ struct omen_labels {
 	omen_arena arena;
 	char head[OMEN_OID_HEX + 1];
 	char *header_json;   /* the header line as read */
+	int64_t window_days, horizon_days;   /* the header's "options" (90 and 0 when absent) */
 };
 
 const char *omen_label_name(int label)
@@ -88,6 +89,27 @@ static int parse_header(omen_labels *l, const char *name, const char *line, size
 		strcpy(l->head, v->valuestring);
 	else if (v && !cJSON_IsNull(v))
 		BAD("bad \"head\"");
+	/* the labelling rule the file was written with: verification window
+	 * and horizon (issue 10; 0 or absent = no horizon) */
+	l->window_days = OMEN_WINDOW_DAYS;
+	l->horizon_days = 0;
+	v = cJSON_GetObjectItemCaseSensitive(j, "options");
+	if (cJSON_IsObject(v)) {
+		cJSON *w = cJSON_GetObjectItemCaseSensitive(v, "window_days");
+		cJSON *h = cJSON_GetObjectItemCaseSensitive(v, "horizon_days");
+		if (w && (!cJSON_IsNumber(w) || !(w->valuedouble >= 0 && w->valuedouble <= 36500) ||
+		    w->valuedouble != (double)(int64_t)w->valuedouble))
+			BAD("bad \"window_days\" in \"options\"");
+		if (h && !cJSON_IsNull(h) && (!cJSON_IsNumber(h) || !(h->valuedouble >= 0 &&
+		    h->valuedouble <= 36500) || h->valuedouble != (double)(int64_t)h->valuedouble))
+			BAD("bad \"horizon_days\" in \"options\"");
+		if (w)
+			l->window_days = (int64_t)w->valuedouble;
+		if (cJSON_IsNumber(h))
+			l->horizon_days = (int64_t)h->valuedouble;
+	} else if (v && !cJSON_IsNull(v)) {
+		BAD("bad \"options\" (not an object)");
+	}
 	if (!(l->header_json = malloc(len + 1))) {
 		e = omen_error_set(OMEN_ENOMEM, "out of memory");
 		goto out;
@@ -275,6 +297,12 @@ size_t omen_labels_count(const omen_labels *l) { return l ? l->n : 0; }
 const omen_label_rec *omen_labels_at(const omen_labels *l, size_t i) { return i < l->n ? &l->recs[i] : NULL; }
 const char *omen_labels_head(const omen_labels *l) { return l->head; }
 const char *lbl_labels_header(const omen_labels *l) { return l->header_json; }
+
+void omen_labels_rule(const omen_labels *l, int64_t *out_window_days, int64_t *out_horizon_days)
+{
+	*out_window_days = l ? l->window_days : OMEN_WINDOW_DAYS;
+	*out_horizon_days = l ? l->horizon_days : 0;
+}
 
 /* ---- brief read (issue 12): header counts and the newest records --------
  * For `git omen health`: the header's summary and the labels of the newest

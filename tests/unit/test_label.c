@@ -616,6 +616,38 @@ static void test_labels_bad(void **state)
 		"line 2: \"fixes\" holds something other than a commit id");
 }
 
+/* The rule a label file was made with (issue 16): window and horizon from
+ * the header's "options", defaults when absent, bad values rejected. */
+static void test_labels_rule(void **state)
+{
+	static const char *const bad[] = {
+		"{\"omen_labels\":1,\"options\":{\"window_days\":-3}}\n",
+		"{\"omen_labels\":1,\"options\":{\"window_days\":\"90\"}}\n",
+		"{\"omen_labels\":1,\"options\":{\"horizon_days\":1.5}}\n",
+		"{\"omen_labels\":1,\"options\":[]}\n",
+	};
+	const char *h = "{\"omen_labels\":1,\"options\":{\"window_days\":60,\"horizon_days\":365}}\n";
+	const char *none = "{\"omen_labels\":1}\n";
+	omen_labels *l = NULL;
+	int64_t w, hz;
+	size_t i;
+	(void)state;
+	assert_int_equal(omen_labels_parse(&l, "h.jsonl", h, strlen(h)), 0);
+	omen_labels_rule(l, &w, &hz);
+	assert_true(w == 60 && hz == 365);
+	omen_labels_free(l);
+	assert_int_equal(omen_labels_parse(&l, "n.jsonl", none, strlen(none)), 0);
+	omen_labels_rule(l, &w, &hz);
+	assert_true(w == 90 && hz == 0);
+	omen_labels_free(l);
+	for (i = 0; i < sizeof(bad) / sizeof(bad[0]); i++) {
+		l = NULL;
+		assert_int_equal(omen_labels_parse(&l, "b.jsonl", bad[i], strlen(bad[i])), OMEN_ECORRUPT);
+		assert_non_null(strstr(omen_error_last(), "bad label file 'b.jsonl': line 1: bad \""));
+		omen_labels_free(l);
+	}
+}
+
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
@@ -632,6 +664,7 @@ int main(void)
 		cmocka_unit_test(test_labels_parse),
 		cmocka_unit_test(test_labels_scope_horizon),
 		cmocka_unit_test(test_labels_bad),
+		cmocka_unit_test(test_labels_rule),
 	};
 	return cmocka_run_group_tests(tests, NULL, NULL);
 }
