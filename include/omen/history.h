@@ -28,15 +28,56 @@ int omen_repo_is_shallow(omen_repo *r);
 int omen_repo_omen_path(char **out, omen_repo *r, const char *name);
 
 /* ---- configuration (git config section "omen") --------------------------
- * Looks in GIT_CONFIG_PARAMETERS first (what `git -c k=v` sets; libgit2
- * does not read it), then the repository's config stack. Key names are
- * case-insensitive as in git ("omen.maxFixFiles"). Missing key: returns 0
- * and leaves *out at the caller's default. Bad value: OMEN_EINVAL with
- * "bad config value 'omen.x': 'y' is not an integer". */
-int omen_config_string(char **out, omen_repo *r, const char *key); /* malloc'd or untouched */
-int omen_config_int(int64_t *out, omen_repo *r, const char *key);  /* accepts k/m/g suffixes */
-int omen_config_bool(int *out, omen_repo *r, const char *key);
-int omen_config_double(double *out, omen_repo *r, const char *key);
+ * Settings are read once per opened repository the way git reads them:
+ * through `git config` itself when git runs (every file, includeIf,
+ * GIT_CONFIG_GLOBAL/SYSTEM, GIT_CONFIG_COUNT/KEY_n/VALUE_n, `git -c`), else
+ * from libgit2's config stack with GIT_CONFIG_COUNT and
+ * GIT_CONFIG_PARAMETERS on top. Without a repository (r NULL) only those two
+ * environment sources count. Key names are case-insensitive as in git
+ * ("omen.maxFixFiles"). Missing key: returns 0 and leaves *out at the
+ * caller's default. Every key is a row of the settings table, which gives
+ * its kind and bounds; a bad value is OMEN_EINVAL with the value as written:
+ * "bad config value 'omen.window': '-5' is not a number of days from 0 to
+ * 36500". A key not in the table, or read as another kind, is OMEN_EUSAGE. */
+typedef enum {
+	OMEN_SETTING_TEXT,    /* any text: paths, patterns, lists */
+	OMEN_SETTING_INT,     /* git's integer (k, m, g suffixes) within [min, max] */
+	OMEN_SETTING_PROB,    /* a number from 0 to 1 (-0 read as 0) */
+	OMEN_SETTING_CHOICE,  /* exactly one of choices */
+	OMEN_SETTING_BOOL     /* git's boolean words; a key without a value is true */
+} omen_setting_kind;
+
+typedef struct {
+	const char *key;             /* as documented: "omen.maxBlobBytes" */
+	omen_setting_kind kind;
+	int64_t min, max;            /* OMEN_SETTING_INT: inclusive bounds */
+	const char *const *choices;  /* OMEN_SETTING_CHOICE: NULL-terminated */
+	const char *what;            /* the rule in words: "'x' is not <what>" */
+	const char *def;             /* the default in words */
+} omen_setting;
+
+typedef struct {
+	const char *text;  /* as given (NULL: a key without a value) */
+	int64_t i;         /* INT, BOOL (0 or 1) */
+	double d;          /* PROB */
+	int choice;        /* CHOICE: index into choices */
+} omen_setting_value;
+
+/* Bounds shared with the command-line options of the same meaning. */
+#define OMEN_WINDOW_MAX_DAYS 36500          /* omen.window, label --window */
+#define OMEN_THREADS_MAX 64                 /* omen.threads, --threads */
+#define OMEN_HOOK_TIMEOUT_MAX_MS 3600000    /* omen.hookTimeout: one hour */
+
+const omen_setting *omen_settings_table(size_t *n);
+const omen_setting *omen_setting_find(const char *key);  /* NULL when not a row */
+/* Checks text against s's kind and bounds; the error names s->key. */
+int omen_setting_parse(omen_setting_value *out, const omen_setting *s, const char *text);
+
+int omen_config_string(char **out, omen_repo *r, const char *key); /* TEXT or CHOICE; malloc'd or untouched */
+int omen_config_int(int64_t *out, omen_repo *r, const char *key);  /* INT */
+int omen_config_bool(int *out, omen_repo *r, const char *key);     /* BOOL */
+int omen_config_double(double *out, omen_repo *r, const char *key); /* PROB */
+int omen_config_choice(int *out, omen_repo *r, const char *key);   /* CHOICE: the index */
 /* The label file every stage reads unless told otherwise: omen.labels when
  * set and not empty, else $GIT_DIR/omen/labels.jsonl. *configured (may be
  * NULL) says which. Caller frees. */
