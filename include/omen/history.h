@@ -241,6 +241,18 @@ int omen_history_resolve(git_oid *out, omen_repo *r, const char *spec);
  * skipped, and a remote without refs gives *n = 0. *out malloc'd (NULL when
  * none). Only running out of memory fails (OMEN_ENOMEM). */
 int omen_history_remote_refs(git_oid **out, size_t *n, omen_repo *r, const char *remote);
+/* The same for every remote-tracking ref (refs/remotes/STAR). */
+int omen_history_tracking_refs(git_oid **out, size_t *n, omen_repo *r);
+/* The same for every ref but those named in except (full names such as
+ * "refs/heads/main"; NULL entries ignored). */
+int omen_history_other_refs(git_oid **out, size_t *n, omen_repo *r, const char *const *except,
+	size_t nexcept);
+/* What `git ls-remote -- <url>` lists, as the local commits those ids name
+ * (ids not in this repository are dropped), asked of git with
+ * GIT_TERMINAL_PROMPT=0 and killed after timeout_ms (> 0): OMEN_ELIMIT.
+ * git failing (unreachable, no such repository) is OMEN_ENOTFOUND with git's
+ * first line; no git to run is OMEN_ENOTFOUND too. */
+int omen_history_ls_remote(git_oid **out, size_t *n, omen_repo *r, const char *url, int timeout_ms);
 /* The commit of the current branch's upstream, as git's @{upstream}:
  * branch.<b>.remote and branch.<b>.merge from the config, the merge ref
  * mapped through remote.<remote>.fetch refspecs ("." as the remote means a

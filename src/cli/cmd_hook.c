@@ -10,7 +10,7 @@
 
 static const char hook_usage[] =
 	"usage: git omen hook install | uninstall | status\n"
-	"   or: git omen hook run <remote-name> <remote-url>\n"
+	"   or: git omen hook run [--] <remote-name> <remote-url>\n"
 	"\n"
 	"install     put the pre-push shim in the hooks directory (core.hooksPath honoured);\n"
 	"            an existing pre-push hook is kept and runs after ours\n"
@@ -105,7 +105,8 @@ static int hook_run(int argc, char **argv)
 	int on_risk = 0, on_error = 0;  /* indexes: warn|block, allow|block */
 	int64_t timeout_ms = 3000;
 	int block_risk = 0, block_error = 0, rc = EXIT_OK;
-	const char *remote = argc > 2 ? argv[2] : "";
+	const char *remote = argc > 2 ? argv[2] : "", *url = argc > 3 ? argv[3] : "";
+	int how = OMEN_PUSH_BY_ID;
 	double t0 = omen_now();
 
 	omen_score_set_init(&set);
@@ -142,10 +143,22 @@ static int hook_run(int argc, char **argv)
 		rc = hook_error(block_error, NULL);
 		goto done;
 	}
-	if (omen_push_select(&ids, &nids, repo, remote, &pl)) {
-		rc = hook_error(block_error, NULL);
-		goto done;
+	{
+		/* half of what is left of the budget to ask the remote what it has
+		 * (a new branch, a push to a URL), the rest to score */
+		double left = so.deadline - omen_now();
+		int ls_ms = left > 0.002 ? (int)(left * 500) : 0;
+		if (omen_push_select(&ids, &nids, &how, repo, remote, url, ls_ms, &pl)) {
+			rc = hook_error(block_error, NULL);
+			goto done;
+		}
 	}
+	if (how == OMEN_PUSH_BY_ANY_TRACKING && nids)
+		fprintf(stderr, "git omen: cannot list what '%s' has; leaving out commits any "
+			"remote-tracking ref holds\n", remote);
+	else if (how == OMEN_PUSH_BY_OTHER_REFS && nids)
+		fprintf(stderr, "git omen: cannot tell what '%s' has; scoring only commits on no "
+			"other ref\n", remote);
 	if (nids == 0)
 		goto done;
 	if (nids > HOOK_MAX_COMMITS) {
@@ -199,12 +212,22 @@ int cmd_hook(int argc, char **argv)
 		fputs(hook_usage, sub ? stdout : stderr);
 		return sub ? EXIT_OK : EXIT_USAGE;
 	}
+	if (!strcmp(sub, "run")) {
+		/* git passes a pre-push hook exactly two words, the remote's name
+		 * and URL, and a name may look like an option ('-h'): help only
+		 * for a lone -h, and '--' (what the shim passes) ends options */
+		if (argc > 2 && !strcmp(argv[2], "--"))
+			return hook_run(argc - 1, argv + 1);
+		if (argc == 3 && (!strcmp(argv[2], "-h") || !strcmp(argv[2], "--help"))) {
+			fputs(hook_usage, stdout);
+			return EXIT_OK;
+		}
+		return hook_run(argc, argv);
+	}
 	if (argc > 2 && (!strcmp(argv[2], "-h") || !strcmp(argv[2], "--help"))) {
 		fputs(hook_usage, stdout);
 		return EXIT_OK;
 	}
-	if (!strcmp(sub, "run"))
-		return hook_run(argc, argv);
 	if (strcmp(sub, "install") && strcmp(sub, "uninstall") && strcmp(sub, "status"))
 		return cli_usage("hook", "unknown subcommand '%s'; use install, uninstall, status or run", sub);
 	if (argc > 2)

@@ -351,7 +351,7 @@ static int snap_load_git(hist_settings *s, const char *gitdir, int *ran)
 	argv[4] = "--get-regexp";
 	argv[5] = "^omen\\.|^core\\.hookspath$";
 	argv[6] = NULL;
-	e = hist_git_run_env(&st, &out, &err, argv, envp, HIST_SETTINGS_MAX_BYTES);
+	e = hist_git_run_env(&st, &out, &err, argv, envp, HIST_SETTINGS_MAX_BYTES, -1);
 	if (e == OMEN_ENOTFOUND) {
 		omen_error_clear();
 		e = 0;

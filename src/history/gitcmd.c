@@ -26,17 +26,28 @@ static void close_fd(int *fd)
 /* Reads both pipes until both are closed; at most max bytes of standard
  * output (more is OMEN_ELIMIT, after the child is reaped) and the first
  * err_max bytes of standard error (the rest is read and dropped). */
-static int drain(int ofd, int efd, omen_buf *out, size_t max, omen_buf *err, size_t err_max)
+static int drain(int ofd, int efd, omen_buf *out, size_t max, omen_buf *err, size_t err_max,
+	double deadline)
 {
 	char tmp[8192];
 	int over = 0;
 	while (ofd >= 0 || efd >= 0) {
+		int wait_ms = -1;
 		struct pollfd p[2];
 		nfds_t np = 0;
 		int oi = -1, ei = -1, k;
 		if (ofd >= 0) { p[np].fd = ofd; p[np].events = POLLIN; p[np].revents = 0; oi = (int)np++; }
 		if (efd >= 0) { p[np].fd = efd; p[np].events = POLLIN; p[np].revents = 0; ei = (int)np++; }
-		if (poll(p, np, -1) < 0) {
+		if (deadline > 0) {
+			double left = deadline - omen_now();
+			if (left <= 0) {
+				close_fd(&ofd);
+				close_fd(&efd);
+				return omen_error_set(OMEN_ELIMIT, "'git' ran past its time limit");
+			}
+			wait_ms = (int)(left * 1000) + 1;
+		}
+		if (poll(p, np, wait_ms) < 0) {
 			if (errno == EINTR)
 				continue;
 			close_fd(&ofd);
@@ -75,11 +86,12 @@ static int drain(int ofd, int efd, omen_buf *out, size_t max, omen_buf *err, siz
 }
 
 int hist_git_run_env(int *status, omen_buf *out, omen_buf *err, const char *const *argv,
-	char *const *envp, size_t max)
+	char *const *envp, size_t max, int timeout_ms)
 {
 	posix_spawn_file_actions_t fa;
 	int op[2] = {-1, -1}, ep[2] = {-1, -1}, e = 0, st = 0, fa_ok = 0;
 	pid_t pid = -1;
+	double deadline = timeout_ms > 0 ? omen_now() + timeout_ms / 1000.0 : 0;
 
 	*status = -1;
 	omen_buf_clear(out);
@@ -112,7 +124,11 @@ int hist_git_run_env(int *status, omen_buf *out, omen_buf *err, const char *cons
 	}
 	close_fd(&op[1]);
 	close_fd(&ep[1]);
-	e = drain(op[0], ep[0], out, max, err, 4096);
+	e = drain(op[0], ep[0], out, max, err, 4096, deadline);
+	if (e) {
+		op[0] = ep[0] = -1;
+		goto out;   /* killed and reaped below */
+	}
 	op[0] = ep[0] = -1;  /* drain closed them */
 	while (waitpid(pid, &st, 0) < 0) {
 		if (errno != EINTR) {

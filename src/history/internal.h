@@ -78,9 +78,10 @@ int hist_settings_from_env(int (*cb)(const char *key, const char *val, void *pay
  * collects its standard output (at most max bytes: OMEN_ELIMIT beyond) and
  * the start of its standard error. envp NULL: ours. *status is the exit
  * status (128 + signal when killed). OMEN_ENOTFOUND when git cannot be
- * started. */
+ * started. timeout_ms > 0: the child is killed after that long
+ * (OMEN_ELIMIT). */
 int hist_git_run_env(int *status, omen_buf *out, omen_buf *err, const char *const *argv,
-	char *const *envp, size_t max);
+	char *const *envp, size_t max, int timeout_ms);
 /* git's first message line, its "fatal: "/"error: " tag removed and
  * control bytes shown as '?', cut to fit cap. */
 void hist_git_first_line(char *dst, size_t cap, const omen_buf *err);

@@ -66,7 +66,7 @@ static int owner_trusted(const char *path, git_repository *repo)
 	argv[k++] = "rev-parse";
 	argv[k++] = "--git-dir";
 	argv[k] = NULL;
-	e = hist_git_run_env(&st, &out, &err, argv, NULL, 1u << 16);
+	e = hist_git_run_env(&st, &out, &err, argv, NULL, 1u << 16, -1);
 	if (e == 0) {
 		hist_git_first_line(line, sizeof(line), &err);
 		omen_buf_free(&out);
