@@ -586,7 +586,9 @@ row_setting_bounds() {
 	          "omen.memoryLimit=-200m=a size in bytes from 0 \(no limit\) to 4096g" \
 	          "omen.threads=-2=a count of threads from 1 to 64"; do
 		k=${kv%%=*}; rest=${kv#*=}; v=${rest%%=*}; what=${rest#*=}
-		git -c "$k=$v" omen label > /dev/null 2> "$here/sb.err"; rc=$?
+		# --full: a label run with nothing new walks nothing and reads no
+		# walk setting (a value is checked when a command reads it)
+		git -c "$k=$v" omen label --full > /dev/null 2> "$here/sb.err"; rc=$?
 		if [ "$rc" -eq 128 ] && one_line sb "^git omen: bad config value '$k': '$v' is not $what$"; then
 			report ok "setting bounds: $k" "128: '$v' refused"
 		else
