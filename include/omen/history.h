@@ -38,7 +38,7 @@ int omen_repo_omen_path(char **out, omen_repo *r, const char *name);
  * caller's default. Every key is a row of the settings table, which gives
  * its kind and bounds; a bad value is OMEN_EINVAL with the value as written:
  * "bad config value 'omen.window': '-5' is not a number of days from 0 to
- * 36500". A key not in the table, or read as another kind, is OMEN_EUSAGE. */
+ * 100000". A key not in the table, or read as another kind, is OMEN_EUSAGE. */
 typedef enum {
 	OMEN_SETTING_TEXT,    /* any text: paths, patterns, lists */
 	OMEN_SETTING_INT,     /* git's integer (k, m, g suffixes) within [min, max] */
@@ -64,7 +64,7 @@ typedef struct {
 } omen_setting_value;
 
 /* Bounds shared with the command-line options of the same meaning. */
-#define OMEN_WINDOW_MAX_DAYS 36500          /* omen.window, label --window */
+#define OMEN_WINDOW_MAX_DAYS 100000         /* omen.window, --window */
 #define OMEN_THREADS_MAX 64                 /* omen.threads, --threads */
 #define OMEN_HOOK_TIMEOUT_MAX_MS 3600000    /* omen.hookTimeout: one hour */
 

@@ -8,6 +8,7 @@
 #include <malloc.h>
 #endif
 #include "cli/cli.h"
+#include "cli/options.h"
 
 static const struct {
 	const char *name;
@@ -34,14 +35,28 @@ static void usage(FILE *fp)
 		"'git omen <command> --help' shows a command's options; 'man git-omen' the manual.\n");
 }
 
+static void tagged(const char *tag, const char *fmt, va_list ap)
+{
+	fprintf(stderr, "git omen: %s: ", tag);
+	vfprintf(stderr, fmt, ap);
+	fputc('\n', stderr);
+}
+
+int cli_error(const char *fmt, ...)
+{
+	va_list ap;
+	va_start(ap, fmt);
+	tagged("error", fmt, ap);
+	va_end(ap);
+	return EXIT_FATAL;
+}
+
 int cli_fatal(const char *what)
 {
 	const char *msg = omen_error_last();
 	if (what && *what)
-		fprintf(stderr, "git omen: %s%s%s\n", what, *msg ? ": " : "", msg);
-	else
-		fprintf(stderr, "git omen: %s\n", *msg ? msg : "unknown error");
-	return EXIT_FATAL;
+		return cli_error("%s%s%s", what, *msg ? ": " : "", msg);
+	return cli_error("%s", *msg ? msg : "unknown error");
 }
 
 int cli_usage(const char *cmd, const char *fmt, ...)
@@ -55,32 +70,20 @@ int cli_usage(const char *cmd, const char *fmt, ...)
 	return EXIT_USAGE;
 }
 
-int cli_opt_value(int argc, char **argv, int *i, const char *name, const char **val)
+void cli_warning(const char *fmt, ...)
 {
-	size_t n = strlen(name);
-	const char *a = argv[*i];
-	if (strncmp(a, name, n))
-		return 0;
-	if (a[n] == '=') {
-		*val = a + n + 1;
-		return 1;
-	}
-	if (a[n] != '\0')
-		return 0;
-	if (*i + 1 >= argc)
-		return -1;
-	*val = argv[++*i];
-	return 1;
+	va_list ap;
+	va_start(ap, fmt);
+	tagged("warning", fmt, ap);
+	va_end(ap);
 }
 
-int cli_parse_int(long long *out, const char *v, long long lo, long long hi)
+void cli_notice(const char *fmt, ...)
 {
-	char *end;
-	long long x = strtoll(v, &end, 10);
-	if (!*v || *end || x < lo || x > hi)
-		return -1;
-	*out = x;
-	return 0;
+	va_list ap;
+	va_start(ap, fmt);
+	tagged("notice", fmt, ap);
+	va_end(ap);
 }
 
 int cli_use_color(FILE *fp)
@@ -93,8 +96,15 @@ int cli_use_color(FILE *fp)
 
 int cmd_version(int argc, char **argv)
 {
-	int maj, min, rev;
-	(void)argc; (void)argv;
+	static const cli_command cmd = {"version", "usage: git omen version\n", NULL, NULL, 0};
+	const char **pos = NULL;
+	size_t npos;
+	int maj, min, rev, rc;
+	if ((rc = cli_parse(&cmd, argc, argv, &pos, &npos)) >= 0)
+		return rc;
+	free(pos);
+	if (npos)
+		return cli_usage("version", "'%s': version takes no arguments", argv[1]);
 	git_libgit2_version(&maj, &min, &rev);
 	printf("git-omen %s (libgit2 %d.%d.%d)\n", OMEN_VERSION, maj, min, rev);
 	return EXIT_OK;
@@ -110,6 +120,23 @@ static void malloc_setup(void)
 #ifdef __GLIBC__
 	mallopt(M_MMAP_THRESHOLD, 1 << 20);
 #endif
+}
+
+/* "'x' is not an omen command", with the nearest command name. */
+static int unknown_command(const char *name)
+{
+	size_t i, d, best = (size_t)-1, at = 0;
+	for (i = 0; i < sizeof(commands) / sizeof(commands[0]); i++)
+		if ((d = cli_edit_distance(name, commands[i].name)) < best) {
+			best = d;
+			at = i;
+		}
+	if (best <= 2 && best < strlen(name))
+		fprintf(stderr, "git omen: '%s' is not an omen command; did you mean '%s'?\n", name,
+			commands[at].name);
+	else
+		fprintf(stderr, "git omen: '%s' is not an omen command; see 'git omen --help'\n", name);
+	return EXIT_USAGE;
 }
 
 int main(int argc, char **argv)
@@ -141,6 +168,5 @@ int main(int argc, char **argv)
 			return rc;
 		}
 	}
-	fprintf(stderr, "git omen: '%s' is not an omen command; see 'git omen --help'\n", argv[1]);
-	return EXIT_USAGE;
+	return unknown_command(argv[1]);
 }

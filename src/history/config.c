@@ -91,6 +91,8 @@ static const char *const on_risk_choices[] = {"warn", "block", NULL};
 static const char *const on_error_choices[] = {"allow", "block", NULL};
 
 #define SIZE_MAX_G (4096LL * 1024 * 1024 * 1024)  /* 4096g */
+#define STR_(x) #x
+#define STR(x) STR_(x)
 
 static const omen_setting settings_table[] = {
 	{"omen.model", OMEN_SETTING_TEXT, 0, 0, NULL, "a path",
@@ -101,7 +103,7 @@ static const omen_setting settings_table[] = {
 		"the built-in fix words"},
 	{"omen.fixList", OMEN_SETTING_TEXT, 0, 0, NULL, "a path", "none"},
 	{"omen.window", OMEN_SETTING_INT, 0, OMEN_WINDOW_MAX_DAYS, NULL,
-		"a number of days from 0 to 36500", "90"},
+		"a number of days from 0 to " STR(OMEN_WINDOW_MAX_DAYS), "90"},
 	{"omen.maxFixFiles", OMEN_SETTING_INT, 0, 1000000000, NULL,
 		"a count from 0 (no limit) to 1000000000", "50"},
 	{"omen.threshold", OMEN_SETTING_PROB, 0, 0, NULL, "a probability from 0 to 1",
@@ -109,13 +111,13 @@ static const omen_setting settings_table[] = {
 	{"omen.onRisk", OMEN_SETTING_CHOICE, 0, 0, on_risk_choices, "warn or block", "warn"},
 	{"omen.onError", OMEN_SETTING_CHOICE, 0, 0, on_error_choices, "allow or block", "allow"},
 	{"omen.hookTimeout", OMEN_SETTING_INT, 1, OMEN_HOOK_TIMEOUT_MAX_MS, NULL,
-		"a time in milliseconds from 1 to 3600000", "3000"},
+		"a time in milliseconds from 1 to " STR(OMEN_HOOK_TIMEOUT_MAX_MS), "3000"},
 	{"omen.maxBlobBytes", OMEN_SETTING_INT, 1, SIZE_MAX_G, NULL,
 		"a size in bytes from 1 to 4096g", "50m"},
 	{"omen.memoryLimit", OMEN_SETTING_INT, 0, SIZE_MAX_G, NULL,
 		"a size in bytes from 0 (no limit) to 4096g", "no limit"},
 	{"omen.threads", OMEN_SETTING_INT, 1, OMEN_THREADS_MAX, NULL,
-		"a count of threads from 1 to 64", "the processors online"},
+		"a count of threads from 1 to " STR(OMEN_THREADS_MAX), "the processors online"},
 	{"omen.effortExclude", OMEN_SETTING_TEXT, 0, 0, NULL, "a list of globs",
 		"common vendored and generated paths"},
 	{"core.hooksPath", OMEN_SETTING_TEXT, 0, 0, NULL, "a path", "$GIT_DIR/hooks"},

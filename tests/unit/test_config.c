@@ -178,8 +178,8 @@ static void test_int_values(void **st)
 static void test_bounds(void **st)
 {
 	static const struct { const char *key, *val, *what; } bad[] = {
-		{"omen.window", "-5", "a number of days from 0 to 36500"},
-		{"omen.window", "36501", "a number of days from 0 to 36500"},
+		{"omen.window", "-5", "a number of days from 0 to 100000"},
+		{"omen.window", "100001", "a number of days from 0 to 100000"},
 		{"omen.maxBlobBytes", "-1", "a size in bytes from 1 to 4096g"},
 		{"omen.maxBlobBytes", "0", "a size in bytes from 1 to 4096g"},
 		{"omen.memoryLimit", "-200m", "a size in bytes from 0 (no limit) to 4096g"},
@@ -198,7 +198,7 @@ static void test_bounds(void **st)
 		{"omen.onError", "deny", "allow or block"},
 	};
 	static const struct { const char *key, *val; int64_t want; } ok[] = {
-		{"omen.window", "0", 0}, {"omen.window", "36500", 36500},
+		{"omen.window", "0", 0}, {"omen.window", "100000", 100000},
 		{"omen.maxBlobBytes", "1", 1}, {"omen.maxBlobBytes", "4096g", 4096LL << 30},
 		{"omen.memoryLimit", "0", 0}, {"omen.threads", "64", 64},
 		{"omen.hookTimeout", "3600000", 3600000}, {"omen.hookTimeout", "1", 1},
@@ -257,7 +257,7 @@ static void test_bounds(void **st)
 		env("'omen.window'=");
 		assert_int_equal(omen_config_int(&n, NULL, "omen.window"), OMEN_EINVAL);
 		assert_string_equal(omen_error_last(), "bad config value 'omen.window': no value given "
-			"(a number of days from 0 to 36500)");
+			"(a number of days from 0 to 100000)");
 	}
 	unsetenv("GIT_CONFIG_PARAMETERS");
 }
