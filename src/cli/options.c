@@ -149,7 +149,7 @@ static int store(const cli_use *u, const char *v, const char **word_old)
 		double x = strtod(v, &end);
 		if (end == v || *end || !(x >= 0 && x <= 1))
 			return -1;
-		*(double *)u->dst = x;
+		*(double *)u->dst = x == 0 ? 0.0 : x;  /* -0 is 0, as omen.threshold */
 		return 0;
 	}
 	case CLI_CHOICE: {
