@@ -24,8 +24,9 @@ static void close_fd(int *fd)
 }
 
 /* Reads both pipes until both are closed; at most max bytes of standard
- * output (more is OMEN_ELIMIT, after the child is reaped) and the first
- * err_max bytes of standard error (the rest is read and dropped). */
+ * output (more is OMEN_ELIMIT at once) and the first err_max bytes of
+ * standard error (the rest is read and dropped); deadline > 0 (omen_now()
+ * seconds) ends it with OMEN_ELIMIT. */
 static int drain(int ofd, int efd, omen_buf *out, size_t max, omen_buf *err, size_t err_max,
 	double deadline)
 {
@@ -67,9 +68,13 @@ static int drain(int ofd, int efd, omen_buf *out, size_t max, omen_buf *err, siz
 				continue;
 			}
 			if (!k) {
-				if (out->len + (size_t)n > max)
-					over = 1;
-				else if (omen_buf_put(out, tmp, (size_t)n))
+				if (out->len + (size_t)n > max) {
+					/* stop at once: the caller kills the child */
+					close_fd(&ofd);
+					close_fd(&efd);
+					return omen_error_set(OMEN_ELIMIT, "output of 'git' is over %zu bytes", max);
+				}
+				if (omen_buf_put(out, tmp, (size_t)n))
 					over = 2;
 			} else if (err->len < err_max) {
 				size_t keep = (size_t)n < err_max - err->len ? (size_t)n : err_max - err->len;
@@ -78,10 +83,8 @@ static int drain(int ofd, int efd, omen_buf *out, size_t max, omen_buf *err, siz
 			}
 		}
 	}
-	if (over == 2)
-		return omen_error_set(OMEN_ENOMEM, "out of memory");
 	if (over)
-		return omen_error_set(OMEN_ELIMIT, "output of 'git' is over %zu bytes", max);
+		return omen_error_set(OMEN_ENOMEM, "out of memory");
 	return 0;
 }
 
