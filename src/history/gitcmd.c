@@ -88,6 +88,34 @@ static int drain(int ofd, int efd, omen_buf *out, size_t max, omen_buf *err, siz
 	return 0;
 }
 
+/* Which git to run: the one that ran us when git says so (GIT_EXEC_PATH,
+ * set for `git omen` and for hooks: the same git, so the same answers), else
+ * the first executable "git" in an absolute PATH directory. Empty and
+ * relative PATH entries are skipped: they name the current directory, which
+ * is the work tree of a repository someone else may have written, and a
+ * committed "git" there must never run. 0 or OMEN_ENOTFOUND. */
+static int find_git(char *out, size_t cap)
+{
+	const char *ep = getenv("GIT_EXEC_PATH"), *path = getenv("PATH"), *p, *end;
+	if (ep && ep[0] == '/' && (size_t)snprintf(out, cap, "%s/git", ep) < cap &&
+	    access(out, X_OK) == 0)
+		return 0;
+	for (p = path ? path : "/usr/bin:/bin"; *p; p = *end ? end + 1 : end) {
+		size_t n;
+		end = strchr(p, ':');
+		if (!end)
+			end = p + strlen(p);
+		n = (size_t)(end - p);
+		if (n == 0 || p[0] != '/' || n + 5 > cap)
+			continue;
+		memcpy(out, p, n);
+		memcpy(out + n, "/git", 5);
+		if (access(out, X_OK) == 0)
+			return 0;
+	}
+	return omen_error_set(OMEN_ENOTFOUND, "cannot run 'git': not found on PATH");
+}
+
 int hist_git_run_env(int *status, omen_buf *out, omen_buf *err, const char *const *argv,
 	char *const *envp, size_t max, int timeout_ms)
 {
@@ -95,6 +123,7 @@ int hist_git_run_env(int *status, omen_buf *out, omen_buf *err, const char *cons
 	int op[2] = {-1, -1}, ep[2] = {-1, -1}, e = 0, st = 0, fa_ok = 0;
 	pid_t pid = -1;
 	double deadline = timeout_ms > 0 ? omen_now() + timeout_ms / 1000.0 : 0;
+	char git[4096];
 
 	*status = -1;
 	omen_buf_clear(out);
@@ -117,8 +146,9 @@ int hist_git_run_env(int *status, omen_buf *out, omen_buf *err, const char *cons
 		e = omen_error_set(OMEN_ENOMEM, "out of memory");
 		goto out;
 	}
-	e = posix_spawnp(&pid, "git", &fa, NULL, (char *const *)argv,
-		envp ? envp : environ);
+	if ((e = find_git(git, sizeof(git))))
+		goto out;
+	e = posix_spawn(&pid, git, &fa, NULL, (char *const *)argv, envp ? envp : environ);
 	if (e) {
 		pid = -1;
 		/* no git on PATH (or not runnable): the caller falls back */

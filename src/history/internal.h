@@ -74,7 +74,8 @@ hist_settings *hist_repo_settings(omen_repo *r);
 /* The pairs of GIT_CONFIG_COUNT/KEY_n/VALUE_n, then of GIT_CONFIG_PARAMETERS. */
 int hist_settings_from_env(int (*cb)(const char *key, const char *val, void *payload), void *payload);
 
-/* Runs git (found on PATH) with argv, standard input from /dev/null, and
+/* Runs git (the one in GIT_EXEC_PATH, else the first in an absolute PATH
+ * directory: never one in the current directory) with argv, standard input from /dev/null, and
  * collects its standard output (at most max bytes: OMEN_ELIMIT beyond) and
  * the start of its standard error. envp NULL: ours. *status is the exit
  * status (128 + signal when killed). OMEN_ENOTFOUND when git cannot be

@@ -180,6 +180,24 @@ static void test_ls_remote(void **st)
 	sh("printf '#!/bin/sh\\nexec yes 0000000000000000000000000000000000000000\\n' >'%s/git'", fake);
 	assert_int_equal(omen_history_ls_remote(&ids, &n, repo, url, 600000), OMEN_ELIMIT);
 	assert_non_null(strstr(omen_error_last(), "output of 'git' is over"));
+	/* a "git" in the current directory (a work tree someone else wrote)
+	 * never runs, whatever PATH says: "." and empty entries are skipped */
+	{
+		char np[2048], cwd[1024], marker[512];
+		assert_non_null(getcwd(cwd, sizeof(cwd)));
+		snprintf(marker, sizeof(marker), "%s/ran", fake);
+		sh("printf '#!/bin/sh\ntouch \"%s\"\nexit 0\n' >'%s/git'", marker, fake);
+		snprintf(np, sizeof(np), ".::fakebin:%s", path ? path : "/usr/bin:/bin");
+		setenv("PATH", np, 1);
+		assert_int_equal(chdir(dir), 0);   /* fakebin/ is here, relative */
+		assert_int_equal(chdir("fakebin"), 0);
+		assert_int_equal(omen_history_ls_remote(&ids, &n, repo, url, 60000), 0);
+		assert_int_equal(n, 3);            /* the real git answered */
+		free(ids);
+		ids = NULL;
+		assert_int_equal(access(marker, F_OK), -1);
+		assert_int_equal(chdir(cwd), 0);
+	}
 	if (path)
 		setenv("PATH", path, 1);
 	free(path);
