@@ -111,7 +111,7 @@ asan:
 		LDLIBS="$(ASAN_FLAGS) $(LDLIBS)" $(ASAN_BUILD)/git-omen unit-asan
 
 ASAN_ENV := ASAN_OPTIONS=detect_leaks=1:abort_on_error=1:detect_stack_use_after_return=1 \
-	UBSAN_OPTIONS=print_stacktrace=1:halt_on_error=1 LSAN_OPTIONS=suppressions=$(CURDIR)/tests/lsan.supp
+	UBSAN_OPTIONS=print_stacktrace=1:halt_on_error=1 LSAN_OPTIONS=suppressions=$(CURDIR)/tests/lsan.supp:print_suppressions=0
 unit-asan: $(UNIT_BIN) $(FUZZ_REPLAY)
 	@$(ASAN_ENV) sh tests/run-unit.sh $(UNIT_BIN)
 	@for f in $(FUZZ_REPLAY); do n=$$(basename $$f -replay); \

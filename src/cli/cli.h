@@ -54,6 +54,9 @@ void cli_notice(const char *fmt, ...)
 	__attribute__((format(printf, 1, 2)))
 #endif
 	;
+/* Absent blobs (issue 12): the fetch notice and the count of file changes
+ * read without lines, on stderr, once at the end of a command. */
+void cli_blob_notice(omen_repo *r);
 /* Whether standard output should get colour (a terminal, NO_COLOR unset). */
 int cli_use_color(FILE *fp);
 

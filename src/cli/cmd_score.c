@@ -180,6 +180,7 @@ done:
 	omen_buf_free(&out);
 	omen_score_set_free(&set);
 	omen_scorer_free(sc);
+	cli_blob_notice(repo);
 	omen_repo_free(repo);
 	free(a.revs);
 	return rc;

@@ -374,6 +374,7 @@ out:
 		omen_lock_release(lock_fd);
 	omen_model_free(m);
 	omen_dataset_free(ds);
+	cli_blob_notice(repo);
 	omen_repo_free(repo);
 	free(model_path);
 	free(lock_path);

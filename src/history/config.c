@@ -89,6 +89,7 @@ int omen_config_parse_params(const char *text,
 /* ---- the settings table ------------------------------------------------ */
 static const char *const on_risk_choices[] = {"warn", "block", NULL};
 static const char *const on_error_choices[] = {"allow", "block", NULL};
+static const char *const missing_blobs_choices[] = {"error", "skip", "fetch", NULL};
 
 #define SIZE_MAX_G (4096LL * 1024 * 1024 * 1024)  /* 4096g */
 #define STR_(x) #x
@@ -120,6 +121,8 @@ static const omen_setting settings_table[] = {
 		"a count of threads from 1 to " STR(OMEN_THREADS_MAX), "the processors online"},
 	{"omen.effortExclude", OMEN_SETTING_TEXT, 0, 0, NULL, "a list of globs",
 		"common vendored and generated paths"},
+	{"omen.missingBlobs", OMEN_SETTING_CHOICE, 0, 0, missing_blobs_choices,
+		"error, skip or fetch", "fetch in a partial clone, else error"},
 	{"core.hooksPath", OMEN_SETTING_TEXT, 0, 0, NULL, "a path", "$GIT_DIR/hooks"},
 };
 
@@ -492,12 +495,55 @@ static int config_get(omen_setting_value *val, char **text, omen_repo *r, const 
 	return 1;
 }
 
+/* A git key that is not an omen setting (remote.<name>.url,
+ * extensions.partialClone): the environment's pairs, then libgit2's stack,
+ * as every key was read before the settings table. */
+static int config_git_other(char **out, omen_repo *r, const char *key)
+{
+	struct lookup l = {key, NULL, 0, 0};
+	git_config *cfg = NULL;
+	git_buf gb = {0};
+	int e;
+	if (hist_settings_from_env(lookup_cb, &l) < 0) {
+		free(l.val);
+		return omen_error_code();
+	}
+	if (l.found) {
+		if (!l.has_val && !(l.val = strdup("true")))
+			return omen_error_set(OMEN_ENOMEM, "out of memory");
+		free(*out);
+		*out = l.val;
+		return 0;
+	}
+	if (!r || git_repository_config_snapshot(&cfg, omen_repo_git(r))) {
+		git_error_clear();
+		return 0;
+	}
+	e = git_config_get_string_buf(&gb, cfg, key);
+	git_config_free(cfg);
+	git_error_clear();
+	if (!e) {
+		char *v = strdup(gb.ptr ? gb.ptr : "");
+		if (!v) {
+			git_buf_dispose(&gb);
+			return omen_error_set(OMEN_ENOMEM, "out of memory");
+		}
+		free(*out);
+		*out = v;
+	}
+	git_buf_dispose(&gb);
+	return 0;
+}
+
 int omen_config_string(char **out, omen_repo *r, const char *key)
 {
 	const omen_setting *s = omen_setting_find(key);
 	omen_setting_value v;
 	char *t;
-	int e = config_get(&v, &t, r, key, s && s->kind == OMEN_SETTING_CHOICE ?
+	int e;
+	if (!s && strncasecmp(key, "omen.", 5))
+		return config_git_other(out, r, key);
+	e = config_get(&v, &t, r, key, s && s->kind == OMEN_SETTING_CHOICE ?
 		OMEN_SETTING_CHOICE : OMEN_SETTING_TEXT);
 	if (e <= 0)
 		return e;

@@ -94,7 +94,7 @@ static int drain(int ofd, int efd, omen_buf *out, size_t max, omen_buf *err, siz
  * relative PATH entries are skipped: they name the current directory, which
  * is the work tree of a repository someone else may have written, and a
  * committed "git" there must never run. 0 or OMEN_ENOTFOUND. */
-static int find_git(char *out, size_t cap)
+int hist_git_find(char *out, size_t cap)
 {
 	const char *ep = getenv("GIT_EXEC_PATH"), *path = getenv("PATH"), *p, *end;
 	if (ep && ep[0] == '/' && (size_t)snprintf(out, cap, "%s/git", ep) < cap &&
@@ -146,7 +146,7 @@ int hist_git_run_env(int *status, omen_buf *out, omen_buf *err, const char *cons
 		e = omen_error_set(OMEN_ENOMEM, "out of memory");
 		goto out;
 	}
-	if ((e = find_git(git, sizeof(git))))
+	if ((e = hist_git_find(git, sizeof(git))))
 		goto out;
 	e = posix_spawn(&pid, git, &fa, NULL, (char *const *)argv, envp ? envp : environ);
 	if (e) {

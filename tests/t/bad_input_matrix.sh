@@ -174,6 +174,43 @@ row_missing_objects() {
 	fi
 }
 
+# issue 12: the same deleted blob, skipped on request; a bad value of the
+# setting; a blobless clone whose promisor remote is unreachable
+row_missing_skip() {
+	have label || { report pending "missing objects, skipped" "label"; return; }
+	[ -d "$here/miss" ] || { report skip "missing objects, skipped" "needs the missing objects row"; return; }
+	cd "$here/miss" || return
+	git -c omen.missingBlobs=skip omen label --full --format json > "$here/ms.out" 2> "$here/ms.err"; rc=$?
+	n=$(sed -n 's/.*"skipped_files":\([0-9]*\).*/\1/p' "$here/ms.out")
+	if [ "$rc" -eq 0 ] && [ "${n:-0}" -gt 0 ] && grep -q '"missing_blob_files":' .git/omen/labels.jsonl; then
+		report ok "missing objects, skipped" "omen.missingBlobs=skip: label 0, $n file changes skipped"
+	else
+		report FAIL "missing objects, skipped" "rc=$rc skipped=${n:-?} $(first_err ms)"
+	fi
+	git -c omen.missingBlobs=later omen label > /dev/null 2> "$here/mb.err"; rc=$?
+	if [ "$rc" -eq 128 ] && one_line mb "bad config value 'omen.missingBlobs': 'later' is not error, skip or fetch"; then
+		report ok "bad omen.missingBlobs" "128: $(first_err mb)"
+	else
+		report FAIL "bad omen.missingBlobs" "rc=$rc $(first_err mb)"
+	fi
+}
+
+row_promisor_unreachable() {
+	have label || { report pending "promisor unreachable" "label"; return; }
+	rm -rf "$here/srv" "$here/blobless" && cp -r "$H" "$here/srv" || return
+	git -C "$here/srv" config uploadpack.allowFilter true
+	git clone -q --filter=blob:none "file://$here/srv" "$here/blobless" 2>/dev/null || {
+		report skip "promisor unreachable" "git cannot make a blobless clone here"; return; }
+	cd "$here/blobless" || return
+	git config remote.origin.url "file://$here/nowhere"
+	om pu label
+	if [ "$rc" -eq 0 ] && one_line pu "^git omen: notice: cannot fetch absent blobs from promisor remote 'origin': "; then
+		report ok "promisor unreachable" "label 0 after one notice: $(first_err pu)"
+	else
+		report FAIL "promisor unreachable" "rc=$rc $(first_err pu)"
+	fi
+}
+
 row_detached() {
 	rm -rf "$here/det" && cp -r "$H" "$here/det" && cd "$here/det" || return
 	git checkout -q --detach HEAD~2
@@ -642,7 +679,7 @@ row_dubious_owner() {
 }
 
 t0=$(date +%s)
-for r in shallow empty unborn missing_objects detached big_file binary_only invalid_utf8 crlf \
+for r in shallow empty unborn missing_objects missing_skip promisor_unreachable detached big_file binary_only invalid_utf8 crlf \
          submodule symlink mode_only many_files model_truncated model_flipped label_broken_line \
          two_trains kill_train kill_label memory_limit bad_config setting_bounds dubious_owner; do
 	cd "$here" || exit 1
