@@ -337,6 +337,14 @@ static void test_double_and_string(void **st)
 	env("'omen.onRisk'='blocks'");  /* a choice read as text is still checked */
 	assert_int_equal(omen_config_string(&s, NULL, "omen.onRisk"), OMEN_EINVAL);
 	assert_null(s);
+	/* a git key outside omen. is read unchecked; an omen. key must be a row */
+	env("'remote.origin.url'='/srv/r.git' 'omen.nosuch'='x'");
+	assert_int_equal(omen_config_string(&s, NULL, "remote.origin.url"), 0);
+	assert_string_equal(s, "/srv/r.git");
+	free(s);
+	s = NULL;
+	assert_int_equal(omen_config_string(&s, NULL, "omen.nosuch"), OMEN_EUSAGE);
+	assert_null(s);
 	unsetenv("GIT_CONFIG_PARAMETERS");
 }
 
