@@ -81,6 +81,10 @@ int omen_config_int(int64_t *out, omen_repo *r, const char *key);  /* INT */
 int omen_config_bool(int *out, omen_repo *r, const char *key);     /* BOOL */
 int omen_config_double(double *out, omen_repo *r, const char *key); /* PROB */
 int omen_config_choice(int *out, omen_repo *r, const char *key);   /* CHOICE: the index */
+/* The omen.* keys set for r (any source) that are not rows of the table,
+ * each name once: typos such as omen.onRsik, which git and the typed reads
+ * ignore. Start with *pos = 0; NULL when there are no more. */
+const char *omen_config_next_unknown(omen_repo *r, size_t *pos);
 /* The label file every stage reads unless told otherwise: omen.labels when
  * set and not empty, else $GIT_DIR/omen/labels.jsonl. *configured (may be
  * NULL) says which. Caller frees. */

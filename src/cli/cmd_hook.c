@@ -1,6 +1,7 @@
 /* git omen hook: install, remove or report the pre-push hook, and run it
  * (what hooks/pre-push calls with git's pre-push lines on standard input).
  * The hook never stops a push unless the user asked for blocking. */
+#include <ctype.h>
 #include <signal.h>
 #include <stdlib.h>
 #include <string.h>
@@ -94,6 +95,39 @@ static int read_stdin(omen_buf *b)
 	return 0;
 }
 
+/* An omen.* key that is no setting (omen.onRsik=block) would be ignored
+ * without a word, and the push not blocked as its author meant: say so,
+ * with the nearest setting's name (issue 15). */
+static void warn_unknown_settings(omen_repo *repo)
+{
+	size_t pos = 0, n, i;
+	const omen_setting *t = omen_settings_table(&n);
+	const char *k;
+	while ((k = omen_config_next_unknown(repo, &pos))) {
+		char a[256], b[256];
+		const char *best = NULL;
+		size_t bd = (size_t)-1, j;
+		for (j = 0; k[j] && j + 1 < sizeof(a); j++)
+			a[j] = (char)tolower((unsigned char)k[j]);
+		a[j] = '\0';
+		for (i = 0; i < n; i++) {
+			size_t d;
+			for (j = 0; t[i].key[j] && j + 1 < sizeof(b); j++)
+				b[j] = (char)tolower((unsigned char)t[i].key[j]);
+			b[j] = '\0';
+			d = cli_edit_distance(a, b);
+			if (d < bd) {
+				bd = d;
+				best = t[i].key;
+			}
+		}
+		if (best && bd <= 3)
+			cli_warning("unknown setting '%s' is ignored; did you mean '%s'?", k, best);
+		else
+			cli_warning("unknown setting '%s' is ignored", k);
+	}
+}
+
 static int hook_run(int argc, char **argv)
 {
 	omen_repo *repo = NULL;
@@ -118,6 +152,7 @@ static int hook_run(int argc, char **argv)
 		rc = hook_error(0, NULL);
 		goto done;
 	}
+	warn_unknown_settings(repo);
 	/* the settings table holds the words and bounds (allow|block,
 	 * warn|block, 1 ms to one hour); a bad onError lets the push through,
 	 * as the shim does for anything but "block" */

@@ -421,6 +421,23 @@ int hist_settings_load(hist_settings *s, git_repository *repo)
 	return 0;
 }
 
+const char *omen_config_next_unknown(omen_repo *r, size_t *pos)
+{
+	const hist_settings *s = hist_repo_settings(r);
+	while (*pos < s->n) {
+		const char *k = s->v[(*pos)++].key;
+		size_t j;
+		if (strncasecmp(k, "omen.", 5) || omen_setting_find(k))
+			continue;
+		for (j = 0; j + 1 < *pos; j++)   /* each name once */
+			if (!strcasecmp(s->v[j].key, k))
+				break;
+		if (j + 1 == *pos)
+			return k;
+	}
+	return NULL;
+}
+
 /* ---- typed reads ----------------------------------------------------------- */
 struct lookup {
 	const char *key;

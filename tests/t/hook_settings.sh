@@ -7,6 +7,7 @@
 # is the reference), and the shim (which asks git itself when git-omen
 # cannot run) must agree with the binary. A remote named '-h' is a remote,
 # not a request for help. The shim's temporary file goes when it is killed.
+# A misspelt omen.* key gets one warning naming the nearest setting.
 set -eu
 fail() { echo "FAIL: $*" >&2; exit 1; }
 export HOME="$PWD/home" GIT_CONFIG_NOSYSTEM=1 GIT_CONFIG_GLOBAL=/dev/null
@@ -59,6 +60,16 @@ blocked "git -c" GIT_CONFIG_PARAMETERS="'omen.onError'='block'"
 GIT_CONFIG_COUNT=1 GIT_CONFIG_KEY_0=omen.onError GIT_CONFIG_VALUE_0=block \
 	git -c omen.onError=allow push -q origin HEAD:refs/heads/main 2>err || fail "-c allow did not win: $(cat err)"
 pushed refs/heads/main || fail "-c allow: not pushed"
+
+# a misspelt key is ignored by git and by the typed reads: the hook says so,
+# with the setting it probably meant, and does not block
+mk
+git -c omen.onRsik=block push -q origin HEAD:refs/heads/main 2>err || fail "a misspelt key blocked: $(cat err)"
+grep -q "^git omen: warning: unknown setting 'omen.onrsik' is ignored; did you mean 'omen.onRisk'?$" err ||
+	fail "no warning for a misspelt key: $(cat err)"
+[ "$(grep -c 'unknown setting' err)" -eq 1 ] || fail "the warning is not one line: $(cat err)"
+git -c omen.zzzzzzzzzz=1 push -q origin HEAD:refs/heads/main 2>err
+grep -q "^git omen: warning: unknown setting 'omen.zzzzzzzzzz' is ignored$" err || fail "far key: $(cat err)"
 
 # 2. the shim and the binary agree: a git-omen that crashes leaves the
 # decision to the shim, which reads the same sources through git config

@@ -575,6 +575,15 @@ static void test_repo_sources(void **st)
 		assert_string_equal(p, lw);
 		assert_int_equal(configured, 0);
 		free(p);
+		{   /* keys that are no setting: each once, known ones never */
+			size_t pos = 0;
+			const char *k;
+			env("'omen.onRsik'='block' 'omen.window'='3' 'OMEN.onrsik'='x' 'core.bare'='false'");
+			reopen(&r, f[3]);
+			assert_non_null(k = omen_config_next_unknown(r, &pos));
+			assert_int_equal(strcasecmp(k, "omen.onrsik"), 0);
+			assert_null(omen_config_next_unknown(r, &pos));
+		}
 		env("'omen.labels'='/srv/l.jsonl'");
 		reopen(&r, f[3]);
 		assert_int_equal(omen_labels_path(&p, r, &configured), 0);
