@@ -39,7 +39,7 @@ MANS     := $(sort $(wildcard man/*.1))
 OMEN     := $(BUILD)/git-omen
 
 .PHONY: all deps deps-test check unit shell ref fuzz-replay manlint asan valgrind \
-	bench fuzz demo install uninstall clean
+	bench base-model fuzz demo install uninstall clean
 
 all: deps $(OMEN)
 
@@ -120,6 +120,11 @@ unit-asan: $(UNIT_BIN) $(FUZZ_REPLAY)
 
 valgrind: $(UNIT_BIN)
 	@VALGRIND=1 sh tests/run-unit.sh $(UNIT_BIN)
+
+# The base model (issue 11) from the corpus snapshots in $OMEN_CORPUS_DIR,
+# built under $OMEN_CORPUS_WORK (fixtures/corpus/build.sh says how).
+base-model: $(OMEN)
+	@OMEN="$(abspath $(OMEN))" sh fixtures/corpus/build.sh $(BASE_FLAGS)
 
 bench: $(OMEN) $(BENCH_BIN)
 	@OMEN="$(abspath $(OMEN))" BUILD="$(abspath $(BUILD))" sh tests/bench/run.sh $(BENCH_BIN)

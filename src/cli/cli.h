@@ -16,6 +16,11 @@ int cmd_eval(int argc, char **argv);
 int cmd_features(int argc, char **argv);
 int cmd_hook(int argc, char **argv);
 int cmd_version(int argc, char **argv);
+/* train --base <dir> (src/cli/cmd_train_base.c) */
+int cmd_train_base(const char *dir, const char *out_path, omen_train_opts *o, const char *format);
+/* One notice when the scorer's model is a base model kept for a young
+ * repository (issue 11); score and the hook call it after opening. */
+void cli_note_base_model(const omen_scorer *sc);
 
 /* Message tags, one set (DEVELOPERS.md, "The option table"):
  *   git omen: error: <what failed>     the command stops, exit 128 (cli_fatal)

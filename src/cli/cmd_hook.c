@@ -181,6 +181,7 @@ static int hook_run(int argc, char **argv)
 		rc = hook_error(block_error, NULL);
 		goto done;
 	}
+	cli_note_base_model(sc);
 	{
 		/* half of what is left of the budget to ask the remote what it has
 		 * (a new branch, a push to a URL), the rest to score */

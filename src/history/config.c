@@ -100,6 +100,7 @@ static const omen_setting settings_table[] = {
 		"$GIT_DIR/omen/model.omen"},
 	{"omen.labels", OMEN_SETTING_TEXT, 0, 0, NULL, "a path",
 		"$GIT_DIR/omen/labels.jsonl"},
+	{"omen.baseModel", OMEN_SETTING_TEXT, 0, 0, NULL, "a path", "none (train from scratch)"},
 	{"omen.fixPattern", OMEN_SETTING_TEXT, 0, 0, NULL, "a regular expression",
 		"the built-in fix words"},
 	{"omen.fixList", OMEN_SETTING_TEXT, 0, 0, NULL, "a path", "none"},

@@ -678,10 +678,37 @@ row_dubious_owner() {
 	cd "$here" && rm -rf "$here/dub"
 }
 
+# a corpus shard (issue 11) with a flipped byte in a sample, or cut short:
+# train --base stops with one line naming the shard, writes no model
+row_shard_damaged() {
+	have train || { report pending "damaged corpus shard" "train --shard"; return; }
+	rm -rf "$here/shd"
+	/usr/bin/python3 "$ROOT/fixtures/demo/gen.py" --seed 5 --commits 200 --out "$here/shd" --quiet &&
+		cd "$here/shd" || return
+	mkdir -p "$here/shards-flip" "$here/shards-cut"
+	git omen label > /dev/null 2>&1
+	om shw train --shard "$here/shards-flip/x+y.shard"
+	[ "$rc" -eq 0 ] || { report FAIL "damaged corpus shard" "rc=$rc $(first_err shw)"; return; }
+	size=$(wc -c < "$here/shards-flip/x+y.shard")
+	cp "$here/shards-flip/x+y.shard" "$here/shards-cut/x+y.shard"
+	printf 'Z' | dd of="$here/shards-flip/x+y.shard" bs=1 seek=$((size / 3)) conv=notrunc 2>/dev/null
+	truncate -s $((size - 7)) "$here/shards-cut/x+y.shard"
+	om shf train --base "$here/shards-flip" --model "$here/shd-flip.omen"
+	rcf=$rc
+	om shc train --base "$here/shards-cut" --model "$here/shd-cut.omen"
+	if [ "$rcf" -eq 128 ] && one_line shf "cannot read shard '.*x\+y\.shard': sample [0-9]+: bad checksum" &&
+	   [ "$rc" -eq 128 ] && one_line shc "cannot read shard '.*x\+y\.shard': " &&
+	   [ ! -e "$here/shd-flip.omen" ] && [ ! -e "$here/shd-cut.omen" ]; then
+		report ok "damaged corpus shard" "128 both, no model: $(first_err shf | cut -c1-60)"
+	else
+		report FAIL "damaged corpus shard" "rc=$rcf/$rc $(first_err shf) | $(first_err shc)"
+	fi
+}
+
 t0=$(date +%s)
 for r in shallow empty unborn missing_objects missing_skip promisor_unreachable detached big_file binary_only invalid_utf8 crlf \
          submodule symlink mode_only many_files model_truncated model_flipped label_broken_line \
-         two_trains kill_train kill_label memory_limit bad_config setting_bounds dubious_owner; do
+         two_trains kill_train kill_label memory_limit bad_config setting_bounds dubious_owner shard_damaged; do
 	cd "$here" || exit 1
 	ts=$(date +%s)
 	row_$r
