@@ -11,6 +11,12 @@
 /* ---- metrics on (score, label[, effort]) arrays ------------------------- */
 /* ROC AUC with ties counted as 1/2 (Mann-Whitney). NaN when a class is empty. */
 double omen_auc(const double *score, const int *y, size_t n);
+/* Population stability index of k bins, sum (a - e) ln(a / e) over the
+ * shares expected (e) and actual (a), each share floored at 1e-4 so an
+ * empty bin stays finite. Common credit-scoring practice, with its usual
+ * reading: under 0.1 stable, 0.1 to 0.25 a moderate shift, over 0.25 a
+ * large one (no single published source). */
+double omen_psi(const double *expected, const double *actual, int k);
 /* Average precision as sklearn's average_precision_score (step-wise, ties
  * grouped). NaN without positives. */
 double omen_average_precision(const double *score, const int *y, size_t n);

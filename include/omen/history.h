@@ -43,6 +43,7 @@ typedef enum {
 	OMEN_SETTING_TEXT,    /* any text: paths, patterns, lists */
 	OMEN_SETTING_INT,     /* git's integer (k, m, g suffixes) within [min, max] */
 	OMEN_SETTING_PROB,    /* a number from 0 to 1 (-0 read as 0) */
+	OMEN_SETTING_SHARE,   /* a number strictly between 0 and 1 */
 	OMEN_SETTING_CHOICE,  /* exactly one of choices */
 	OMEN_SETTING_BOOL     /* git's boolean words; a key without a value is true */
 } omen_setting_kind;
@@ -59,7 +60,7 @@ typedef struct {
 typedef struct {
 	const char *text;  /* as given (NULL: a key without a value) */
 	int64_t i;         /* INT, BOOL (0 or 1) */
-	double d;          /* PROB */
+	double d;          /* PROB, SHARE */
 	int choice;        /* CHOICE: index into choices */
 } omen_setting_value;
 
@@ -79,7 +80,7 @@ int omen_config_string(char **out, omen_repo *r, const char *key); /* TEXT or CH
  * stack, unchecked) */
 int omen_config_int(int64_t *out, omen_repo *r, const char *key);  /* INT */
 int omen_config_bool(int *out, omen_repo *r, const char *key);     /* BOOL */
-int omen_config_double(double *out, omen_repo *r, const char *key); /* PROB */
+int omen_config_double(double *out, omen_repo *r, const char *key); /* PROB or SHARE */
 int omen_config_choice(int *out, omen_repo *r, const char *key);   /* CHOICE: the index */
 /* The omen.* keys set for r (any source) that are not rows of the table,
  * each name once: typos such as omen.onRsik, which git and the typed reads

@@ -68,6 +68,14 @@ void omen_labels_free(omen_labels *l);
 const omen_label_rec *omen_labels_get(const omen_labels *l, const char *hex);
 size_t omen_labels_count(const omen_labels *l);
 const omen_label_rec *omen_labels_at(const omen_labels *l, size_t i); /* file order */
+/* The header's counts and the labels of the newest `tail` labelled records,
+ * read without parsing the whole file (git omen health). */
+typedef struct {
+	char head[OMEN_OID_HEX + 1];
+	size_t commits, inducing, clean, unknown;
+	size_t recent, recent_inducing;
+} omen_labels_brief;
+int omen_labels_brief_read(omen_labels_brief *out, const char *path, size_t tail);
 /* The history the labels cover (newest commit id), for cache keys. */
 const char *omen_labels_head(const omen_labels *l);
 

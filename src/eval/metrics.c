@@ -376,3 +376,16 @@ size_t omen_roc_curve(double *out_fpr, double *out_tpr, const double *score,
 	free(ord);
 	return k;
 }
+
+/* ---- population stability index -------------------------------------------- */
+double omen_psi(const double *expected, const double *actual, int k)
+{
+	double psi = 0;
+	int i;
+	for (i = 0; i < k; i++) {
+		double e = expected[i] > 1e-4 ? expected[i] : 1e-4;
+		double a = actual[i] > 1e-4 ? actual[i] : 1e-4;
+		psi += (a - e) * log(a / e);
+	}
+	return psi;
+}

@@ -170,6 +170,8 @@ static void text_method_row(omen_buf *b, const char *name, const omen_method_sco
 	tnum(b, m->ap, "%*.3f", 7);
 	tnum(b, m->brier, "%*.4f", 8);
 	tnum(b, m->ece, "%*.3f", 7);
+	tnum(b, m->has_cls ? m->cls.precision : NAN, "%*.3f", 7);
+	tnum(b, m->has_cls ? m->cls.recall : NAN, "%*.3f", 7);
 	tnum(b, m->has_cls ? m->cls.f1 : NAN, "%*.3f", 7);
 	tnum(b, m->has_cls ? m->cls.mcc : NAN, "%*.3f", 7);
 	tnum(b, m->eff.recall_at_20, "%*.3f", 8);
@@ -185,8 +187,8 @@ static void text_method_row(omen_buf *b, const char *name, const omen_method_sco
 static void text_method_table(omen_buf *b, const omen_method_scores *ms)
 {
 	int m;
-	omen_buf_printf(b, "%-16s%6s %-13s%7s%8s%7s%7s%7s%8s%8s%7s%8s%7s\n", "method", "auc",
-		"[95% ci]", "ap", "brier", "ece", "f1", "mcc", "r@20%e", "e@20%r", "popt",
+	omen_buf_printf(b, "%-16s%6s %-13s%7s%8s%7s%7s%7s%7s%7s%8s%8s%7s%8s%7s\n", "method", "auc",
+		"[95% ci]", "ap", "brier", "ece", "prec", "rec", "f1", "mcc", "r@20%e", "e@20%r", "popt",
 		"c@20%e", "fa1st");
 	for (m = 0; m < OMEN_EV_NMETHODS; m++)
 		text_method_row(b, omen_eval_method_names[m], &ms[m]);
@@ -227,6 +229,9 @@ int omen_eval_write_text(omen_buf *out, const omen_eval_result *r)
 	omen_buf_printf(b, "\npooled over the folds: %zu test commits, %zu inducing\n",
 		r->pooled[0].n, r->pooled[0].positives);
 	text_method_table(b, r->pooled);
+	omen_buf_puts(b, "prec, rec, f1, mcc at each method's threshold: the model's fires on the "
+		"riskiest share (omen.warnShare, default 10%) of its fold's validation slice, the "
+		"baselines' is their max F1 there\n");
 	omen_buf_puts(b, "r@20%e recall at 20% effort, e@20%r effort at 20% recall, c@20%e share "
 		"of commits inspected at 20% effort, fa1st false alarms before the first hit; "
 		"effort = lines added + deleted\n");

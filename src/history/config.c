@@ -110,6 +110,18 @@ static const omen_setting settings_table[] = {
 		"a count from 0 (no limit) to 1000000000", "50"},
 	{"omen.threshold", OMEN_SETTING_PROB, 0, 0, NULL, "a probability from 0 to 1",
 		"the model's own"},
+	{"omen.warnShare", OMEN_SETTING_SHARE, 0, 0, NULL, "a share between 0 and 1", "0.1"},
+	{"omen.warnPrecision", OMEN_SETTING_SHARE, 0, 0, NULL, "a precision between 0 and 1",
+		"unset (the share decides)"},
+	{"omen.staleDays", OMEN_SETTING_INT, 0, OMEN_WINDOW_MAX_DAYS, NULL,
+		"a number of days from 0 (off) to " STR(OMEN_WINDOW_MAX_DAYS), "90"},
+	{"omen.staleCommits", OMEN_SETTING_INT, 0, 1000000000, NULL,
+		"a count from 0 (off) to 1000000000", "1000"},
+	{"omen.driftCommits", OMEN_SETTING_INT, 1, 100000, NULL, "a count from 1 to 100000", "300"},
+	{"omen.refreshBudget", OMEN_SETTING_INT, 1, 7 * 86400, NULL,
+		"a number of seconds from 1 to 604800", "3600"},
+	{"omen.refreshMinLabels", OMEN_SETTING_INT, 1, 100000000, NULL,
+		"a count from 1 to 100000000", "50"},
 	{"omen.onRisk", OMEN_SETTING_CHOICE, 0, 0, on_risk_choices, "warn or block", "warn"},
 	{"omen.onError", OMEN_SETTING_CHOICE, 0, 0, on_error_choices, "allow or block", "allow"},
 	{"omen.hookTimeout", OMEN_SETTING_INT, 1, OMEN_HOOK_TIMEOUT_MAX_MS, NULL,
@@ -189,14 +201,16 @@ int omen_setting_parse(omen_setting_value *out, const omen_setting *s, const cha
 		if (!text || parse_int(&out->i, text) || out->i < s->min || out->i > s->max)
 			return bad_value(s, text);
 		return 0;
-	case OMEN_SETTING_PROB: {
+	case OMEN_SETTING_PROB:
+	case OMEN_SETTING_SHARE: {
 		char *end;
 		double d;
 		if (!text)
 			return bad_value(s, text);
 		errno = 0;
 		d = strtod(text, &end);
-		if (end == text || *end || errno || !(d >= 0 && d <= 1))
+		if (end == text || *end || errno || !(d >= 0 && d <= 1) ||
+		    (s->kind == OMEN_SETTING_SHARE && !(d > 0 && d < 1)))
 			return bad_value(s, text);
 		out->d = d == 0 ? 0.0 : d;  /* -0 is 0: never "-0.00" on screen */
 		return 0;
@@ -596,9 +610,11 @@ int omen_config_int(int64_t *out, omen_repo *r, const char *key)
 
 int omen_config_double(double *out, omen_repo *r, const char *key)
 {
+	const omen_setting *row = omen_setting_find(key);
 	omen_setting_value v;
 	char *t;
-	int e = config_get(&v, &t, r, key, OMEN_SETTING_PROB);
+	int e = config_get(&v, &t, r, key, row && row->kind == OMEN_SETTING_SHARE ?
+		OMEN_SETTING_SHARE : OMEN_SETTING_PROB);
 	if (e <= 0)
 		return e;
 	free(t);

@@ -100,6 +100,10 @@ static cJSON *meta_for_write(const omen_model *m, size_t param_off)
 	cJSON_AddNumberToObject(cal, "b", m->platt_b);
 	set_item(j, "calibration", cal);
 	set_item(j, "threshold", cJSON_CreateNumber(m->threshold));
+	if (m->warn.npoints) {
+		set_item(j, "warn_curve", omen_warn_curve_json(&m->warn));
+		set_item(j, "threshold_max_f1", cJSON_CreateNumber(m->threshold_f1));
+	}
 	caps = cJSON_CreateObject();
 	cJSON_AddNumberToObject(caps, "max_files", m->caps.max_files);
 	cJSON_AddNumberToObject(caps, "max_hunks_per_file", m->caps.max_hunks_per_file);

@@ -239,3 +239,16 @@ int omen_score_write_sarif(omen_buf *out, const omen_score_set *s, const char *t
 	e |= omen_buf_puts(out, nres ? "\n      ]\n    }\n  ]\n}\n" : "]\n    }\n  ]\n}\n");
 	return e ? omen_error_set(OMEN_ENOMEM, "out of memory") : 0;
 }
+
+const char *omen_warn_rate_text(char *buf, size_t n, double share)
+{
+	if (!(share >= 0))
+		snprintf(buf, n, "an unknown share of commits");
+	else if (share < 0.001)
+		snprintf(buf, n, "almost no commits");
+	else if (share > 0.75)
+		snprintf(buf, n, "almost every commit");
+	else
+		snprintf(buf, n, "about 1 in %.0f commits", 1.0 / share < 2 ? 2 : round(1.0 / share));
+	return buf;
+}

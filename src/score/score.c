@@ -22,6 +22,10 @@ struct omen_scorer {
 	git_oid head;
 	int head_known;          /* the model's head exists in this repository */
 	float threshold;
+	float medium;            /* lower edge of the medium band */
+	double fires;            /* share of the calibration slice at or over the threshold, NAN unknown */
+	double share;            /* omen.warnShare (or the default) */
+	omen_buf notices;        /* one line each, for the caller to print */
 	omen_caps caps;
 	double mean[OMEN_NMETRICS], scale[OMEN_NMETRICS];
 	int have_std;
@@ -34,6 +38,8 @@ struct omen_scorer {
 
 const omen_model *omen_scorer_model(const omen_scorer *s) { return s->model; }
 float omen_scorer_threshold(const omen_scorer *s) { return s->threshold; }
+double omen_scorer_fires(const omen_scorer *s) { return s->fires; }
+const char *omen_scorer_notices(const omen_scorer *s) { return s->notices.len ? s->notices.ptr : NULL; }
 const char *omen_scorer_model_path(const omen_scorer *s) { return s->model_path; }
 omen_repo *score_repo(const omen_scorer *s) { return s->repo; }
 void score_set_detail(omen_scorer *s, int detail) { s->detail = detail; }
@@ -116,6 +122,72 @@ static void read_meta(omen_scorer *s)
 	}
 }
 
+int omen_warn_config(double *share, double *precision, omen_repo *r)
+{
+	double v = NAN;
+	int e;
+	*share = OMEN_WARN_SHARE_DEFAULT;
+	*precision = -1;
+	if ((e = omen_config_double(&v, r, "omen.warnShare")))
+		return e;
+	if (!isnan(v)) {
+		if (!(v > 0 && v < 1))
+			return omen_error_set(OMEN_EINVAL, "bad config value 'omen.warnShare': '%g' is not "
+				"a share between 0 and 1", v);
+		*share = v;
+	}
+	v = NAN;
+	if ((e = omen_config_double(&v, r, "omen.warnPrecision")))
+		return e;
+	if (!isnan(v)) {
+		if (!(v > 0 && v < 1))
+			return omen_error_set(OMEN_EINVAL, "bad config value 'omen.warnPrecision': '%g' is not "
+				"a precision between 0 and 1", v);
+		*precision = v;
+	}
+	return 0;
+}
+
+/* The warning budget (issue 12): unless a threshold was given, the
+ * model's warning curve turns omen.warnShare (or omen.warnPrecision) into
+ * the threshold; the medium band is the next two shares' worth (it fires
+ * on three times the share in all). Without a curve (an older model) the
+ * model's threshold stays and medium starts at half of it. */
+static int warn_budget(omen_scorer *s, omen_repo *r, int explicit_thr)
+{
+	omen_warn_curve wc;
+	omen_warn_choice ch;
+	double prec;
+	int e;
+	s->fires = NAN;
+	s->medium = s->threshold / 2;
+	if ((e = omen_warn_config(&s->share, &prec, r)))
+		return e;
+	if (omen_model_warn_curve(&wc, s->model)) {
+		omen_error_clear();
+		return 0;
+	}
+	if (!explicit_thr) {
+		if ((e = omen_warn_pick(&ch, &wc, s->share, prec)))
+			return e;
+		s->threshold = (float)ch.threshold;
+		if (ch.unmet)
+			omen_buf_printf(&s->notices, "the precision target %g "
+				"(omen.warnPrecision) is out of reach on the model's calibration slice; "
+				"warning on the riskiest %.0f%% of commits instead (precision %.2f there)\n",
+				prec, 100.0 * ch.share, ch.precision);
+	}
+	s->fires = omen_warn_share_at(&wc, s->threshold);
+	{
+		double m3 = 3 * (s->fires > 0 ? s->fires : s->share);
+		if (m3 < 0.99 && omen_warn_pick(&ch, &wc, m3, 0) == 0 && ch.threshold < s->threshold)
+			s->medium = (float)ch.threshold;
+		else
+			omen_error_clear();
+	}
+	return 0;
+}
+
 int omen_scorer_open(omen_scorer **out, omen_repo *r, const omen_score_opts *o)
 {
 	static const omen_score_opts defaults = OMEN_SCORE_OPTS_INIT;
@@ -177,6 +249,8 @@ int omen_scorer_open(omen_scorer **out, omen_repo *r, const omen_score_opts *o)
 			s->model_path, (double)s->threshold);
 		goto out;
 	}
+	if ((e = warn_budget(s, r, o->threshold >= 0 || thr >= 0)))
+		goto out;
 	if (s->threshold == 0)
 		s->threshold = 0.0f;  /* -0 is shown as 0.00, never -0.00 */
 	*out = s;
@@ -195,11 +269,17 @@ void omen_scorer_free(omen_scorer *s)
 	omen_model_free(s->model);
 	omen_fixrules_free(s->rules);
 	omen_buf_free(&s->state);
+	omen_buf_free(&s->notices);
 	free(s->model_path);
 	free(s);
 }
 
 /* A fresh copy of the metrics state at the model's head. */
+static int state_clone(omen_metrics **out, const omen_scorer *s);
+int score_state_clone(omen_metrics **out, const omen_scorer *s) { return state_clone(out, s); }
+const git_oid *score_head(const omen_scorer *s) { return s->head_known ? &s->head : NULL; }
+omen_buf *score_notices(omen_scorer *s) { return &s->notices; }
+
 static int state_clone(omen_metrics **out, const omen_scorer *s)
 {
 	if (!s->state.len)
@@ -428,7 +508,7 @@ static int score_sample(omen_score_set *set, const omen_scorer *s, const omen_ch
 		}
 	}
 	r->band = r->prob >= s->threshold ? OMEN_BAND_HIGH :
-		r->prob >= s->threshold / 2 ? OMEN_BAND_MEDIUM : OMEN_BAND_LOW;
+		r->prob >= s->medium ? OMEN_BAND_MEDIUM : OMEN_BAND_LOW;
 	first = set->nhunks;
 	total = 0;
 	for (h = 0; h < sm.nhunks; h++)

@@ -169,6 +169,8 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
 				abort();
 			if (t[i].kind == OMEN_SETTING_PROB && (!(v.d >= 0 && v.d <= 1) || signbit(v.d)))
 				abort();
+			if (t[i].kind == OMEN_SETTING_SHARE && !(v.d > 0 && v.d < 1))
+				abort();
 			if (t[i].kind == OMEN_SETTING_CHOICE && strcmp(t[i].choices[v.choice], text))
 				abort();
 		}
