@@ -196,6 +196,11 @@ static void test_bounds(void **st)
 		{"omen.threshold", "1e999", "a probability from 0 to 1"},
 		{"omen.onRisk", "Block", "warn or block"},
 		{"omen.onError", "deny", "allow or block"},
+		{"omen.warnShare", "1.5", "a share between 0 and 1"},
+		{"omen.warnShare", "0", "a share between 0 and 1"},
+		{"omen.warnPrecision", "1", "a precision between 0 and 1"},
+		{"omen.staleDays", "-3", "a number of days from 0 (off) to 100000"},
+		{"omen.refreshBudget", "0", "a number of seconds from 1 to 604800"},
 	};
 	static const struct { const char *key, *val; int64_t want; } ok[] = {
 		{"omen.window", "0", 0}, {"omen.window", "100000", 100000},
@@ -216,7 +221,7 @@ static void test_bounds(void **st)
 		env(text);
 		if (row->kind == OMEN_SETTING_INT)
 			e = omen_config_int(&n, NULL, bad[i].key);
-		else if (row->kind == OMEN_SETTING_PROB)
+		else if (row->kind == OMEN_SETTING_PROB || row->kind == OMEN_SETTING_SHARE)
 			e = omen_config_double(&d, NULL, bad[i].key);
 		else
 			e = omen_config_choice(&c, NULL, bad[i].key);
