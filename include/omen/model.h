@@ -1,4 +1,4 @@
-/* The hierarchical commit model (DESIGN.md "Model"), its training loop,
+/* The hierarchical commit model (DEVELOPERS.md "Model"), its training loop,
  * Platt calibration, the two baselines and the model file format. Never
  * prints: progress goes through a callback. */
 #ifndef OMEN_MODEL_H

@@ -316,7 +316,6 @@ typedef enum {
 	OMEN_HOOK_CHAINED,   /* our shim, the user's hook chained after it */
 	OMEN_HOOK_FOREIGN    /* someone else's hook, ours not installed */
 } omen_hook_state;
-extern const char *const omen_hook_state_names[4];
 
 /* The hooks directory git uses: core.hooksPath (relative paths are taken
  * from the top of the working tree, or GIT_DIR when bare; "~/" expanded),

@@ -5,7 +5,7 @@
 #include <stdio.h>
 #include "omen/omen.h"
 
-/* Exit codes (DESIGN.md "Command line"). */
+/* Exit codes (DEVELOPERS.md "Error and ownership rules"). */
 enum { EXIT_OK = 0, EXIT_RISK = 1, EXIT_FATAL = 128, EXIT_USAGE = 129 };
 
 int cmd_label(int argc, char **argv);

@@ -143,6 +143,22 @@ static void malloc_setup(void)
 #endif
 }
 
+/* The progress sink of the command line: one line on stderr, rewritten in
+ * place, when stderr is a terminal and OMEN_NO_PROGRESS is not set. */
+static void progress_line(const char *what, uint64_t done, uint64_t total, const char *extra,
+	int finished, void *payload)
+{
+	(void)payload;
+	if (finished)
+		fprintf(stderr, "\r\033[K");
+	else if (total)
+		fprintf(stderr, "\r%s: %llu/%llu%s%s\033[K", what, (unsigned long long)done,
+			(unsigned long long)total, extra ? " " : "", extra ? extra : "");
+	else
+		fprintf(stderr, "\r%s: %llu%s%s\033[K", what, (unsigned long long)done,
+			extra ? " " : "", extra ? extra : "");
+}
+
 /* "'x' is not an omen command", with the nearest command name. */
 static int unknown_command(const char *name)
 {
@@ -165,6 +181,8 @@ int main(int argc, char **argv)
 	size_t i;
 	int rc;
 	malloc_setup();
+	if (isatty(2) && !getenv("OMEN_NO_PROGRESS"))
+		omen_progress_set_sink(progress_line, NULL);
 	if (argc < 2) {
 		usage(stderr);
 		return EXIT_USAGE;

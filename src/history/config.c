@@ -633,22 +633,3 @@ int omen_config_bool(int *out, omen_repo *r, const char *key)
 	*out = (int)v.i;
 	return 0;
 }
-
-int omen_labels_path(char **out, omen_repo *r, int *configured)
-{
-	char *v = NULL;
-	int e;
-	*out = NULL;
-	if (configured)
-		*configured = 0;
-	if ((e = omen_config_string(&v, r, "omen.labels")))
-		return e;
-	if (v && *v) {
-		*out = v;
-		if (configured)
-			*configured = 1;
-		return 0;
-	}
-	free(v);
-	return omen_repo_omen_path(out, r, "labels.jsonl");
-}

@@ -24,7 +24,7 @@ struct omen_labels {
 	char *header_json;   /* the header line as read */
 };
 
-const char *lbl_label_name(int label)
+const char *omen_label_name(int label)
 {
 	return label == OMEN_LABEL_INDUCING ? "inducing" : label == OMEN_LABEL_CLEAN ? "clean" : "unknown";
 }
@@ -36,7 +36,7 @@ int lbl_write_record(omen_buf *b, const omen_label_rec *r)
 	uint32_t i;
 	int first = 1, k;
 	omen_buf_printf(b, "{\"id\":\"%s\",\"time\":%lld,\"label\":\"%s\",\"lines\":%u,\"fixes\":[",
-		r->id, (long long)r->time, lbl_label_name(r->label), (unsigned)r->traced_lines);
+		r->id, (long long)r->time, omen_label_name(r->label), (unsigned)r->traced_lines);
 	for (i = 0; i < r->nfixes; i++)
 		omen_buf_printf(b, "%s\"%s\"", i ? "," : "", r->fixes[i]);
 	omen_buf_printf(b, "],\"fix\":%s,\"fix_by\":[", r->is_fix ? "true" : "false");

@@ -6,9 +6,9 @@
 #include <stdlib.h>
 #include <string.h>
 #include "omen/error.h"
-#include "omen/eval.h"
+#include "omen/rank.h"
 #include "omen/model.h"
-#include "model/model_int.h"
+#include "model/internal.h"
 
 double omen_platt_apply(double a, double b, double f)
 {

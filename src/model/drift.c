@@ -5,14 +5,14 @@
  * commits with the training slice by the population stability index
  * without reading the history again. Deciles of the expected sample as bin
  * edges and PSI itself follow common credit-scoring practice (no single
- * paper; see omen_psi in src/eval/metrics.c). */
+ * paper; see omen_psi in src/util/rank.c). */
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
 #include "omen/error.h"
-#include "omen/eval.h"
+#include "omen/rank.h"
 #include "omen/model.h"
-#include "model/model_int.h"
+#include "model/internal.h"
 
 static int cmp_float(const void *a, const void *b)
 {

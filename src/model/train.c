@@ -1,6 +1,6 @@
 /* Training loop: weighted BCE, AdamW, gradient clipping, early stopping on
  * a time-later validation slice, Platt calibration, the two baselines and
- * the refit of the shipped model (DESIGN.md "Model", issue "Train").
+ * the refit of the shipped model (DEVELOPERS.md "Training (train.c)").
  *
  * Determinism: each batch is split into OMEN_TRAIN_CHUNKS fixed chunks
  * whatever the thread count; every chunk has its own gradient buffer and
@@ -16,8 +16,8 @@
 #include <time.h>
 #include <unistd.h>
 #include "omen/error.h"
-#include "omen/eval.h"
-#include "model/model_int.h"
+#include "omen/rank.h"
+#include "model/internal.h"
 
 #define OMEN_TRAIN_CHUNKS 2
 #define MIN_LABELLED 50

@@ -14,9 +14,9 @@
 #include <time.h>
 #include <cjson/cJSON.h>
 #include "omen/error.h"
-#include "omen/eval.h"
+#include "omen/rank.h"
 #include "omen/score.h"
-#include "score/score_int.h"
+#include "score/internal.h"
 
 int omen_model_is_base(const omen_model *m)
 {
@@ -77,7 +77,7 @@ static int count_since(int64_t *out, omen_repo *r, const git_oid *head)
 	size_t n = 0;
 	int e;
 	hide[0] = '^';
-	git_oid_tostr(hide + 1, sizeof(hide) - 1, head);
+	omen_oid_hex(hide + 1, sizeof(hide) - 1, head);
 	revs[0] = "HEAD";
 	revs[1] = hide;
 	revs[2] = NULL;
@@ -288,7 +288,7 @@ int omen_drift_measure(omen_drift *out, omen_scorer *s, const omen_labels_brief 
 		const char *revs[3];
 		omen_walk_opts wo = OMEN_WALK_OPTS_INIT;
 		hide[0] = '^';
-		git_oid_tostr(hide + 1, sizeof(hide) - 1, head);
+		omen_oid_hex(hide + 1, sizeof(hide) - 1, head);
 		revs[0] = "HEAD";
 		revs[1] = hide;
 		revs[2] = NULL;

@@ -11,83 +11,11 @@
 #include "omen/error.h"
 #include "omen/score.h"
 
-/* Keep identical to hooks/pre-push (tests/t/hook_install.sh compares them). */
-const char omen_hook_shim[] =
-	"#!/bin/sh\n"
-	"# git-omen pre-push shim\n"
-	"# Installed by 'git omen hook install'. It scores the commits this push would\n"
-	"# send (the scores are advisory) and then runs the pre-push hook that was here\n"
-	"# before, if any: ours first, theirs always. It only stops a push when asked\n"
-	"# to (omen.onRisk=block, omen.onError=block). 'git push --no-verify' skips\n"
-	"# every pre-push hook, this one included.\n"
-	"chained=\"$(dirname \"$0\")/pre-push.omen-chained\"\n"
-	"# the file goes on any exit, an interrupted one too (Ctrl-C, kill): the\n"
-	"# traps are set before the file exists, so no signal falls in between\n"
-	"input=\n"
-	"trap '[ -z \"$input\" ] || rm -f \"$input\"' 0\n"
-	"trap 'exit 129' HUP\n"
-	"trap 'exit 130' INT\n"
-	"trap 'exit 143' TERM\n"
-	"input=$(mktemp \"${TMPDIR:-/tmp}/omen-push.XXXXXX\" 2>/dev/null) || input=\n"
-	"if [ -z \"$input\" ]; then\n"
-	"	echo \"git omen: cannot make a temporary file; push not checked (advisory)\" >&2\n"
-	"	if [ -x \"$chained\" ]; then exec \"$chained\" \"$@\"; fi\n"
-	"	exit 0\n"
-	"fi\n"
-	"cat >\"$input\"\n"
-	"ours=0\n"
-	"if command -v git-omen >/dev/null 2>&1 || [ -x \"$(git --exec-path 2>/dev/null)/git-omen\" ]; then\n"
-	"	# '--': a remote named like an option ('-h') is still a remote\n"
-	"	git omen hook run -- \"$@\" <\"$input\"\n"
-	"	ours=$?\n"
-	"else\n"
-	"	ours=127\n"
-	"fi\n"
-	"case $ours in\n"
-	"0|1) ;;\n"
-	"*)\n"
-	"	if [ \"$ours\" -eq 127 ]; then why=\"git-omen is not on PATH\"; else why=\"the hook failed (exit $ours)\"; fi\n"
-	"	# the same answer the binary gets: it reads settings through git config too\n"
-	"	if [ \"$(git config --get omen.onError 2>/dev/null)\" = block ]; then\n"
-	"		echo \"git omen: $why and omen.onError=block: push stopped\" >&2\n"
-	"		ours=1\n"
-	"	else\n"
-	"		echo \"git omen: $why; push not checked (scores are advisory)\" >&2\n"
-	"		ours=0\n"
-	"	fi\n"
-	"	;;\n"
-	"esac\n"
-	"theirs=0\n"
-	"if [ -f \"$chained\" ] && [ -x \"$chained\" ]; then\n"
-	"	\"$chained\" \"$@\" <\"$input\"\n"
-	"	theirs=$?\n"
-	"fi\n"
-	"if [ \"$theirs\" -ne 0 ]; then exit \"$theirs\"; fi\n"
-	"exit \"$ours\"\n";
-
-/* The post-merge shim (issue 12): after a merge or a pull it starts a
- * refresh in the background at low priority and returns at once, then runs
- * the post-merge hook that was there before. */
-const char omen_refresh_shim[] =
-	"#!/bin/sh\n"
-	"# git-omen post-merge shim\n"
-	"# Installed by 'git omen hook install --refresh'. After a merge or a pull it\n"
-	"# starts 'git omen refresh' in the background (low priority, quiet unless\n"
-	"# something changed, its output appended to $GIT_DIR/omen/refresh.log) and\n"
-	"# returns at once; then it runs the post-merge hook that was here before, if\n"
-	"# any. OMEN_REFRESH_WAIT=1 runs the refresh in the foreground instead.\n"
-	"chained=\"$(dirname \"$0\")/post-merge.omen-chained\"\n"
-	"if command -v git-omen >/dev/null 2>&1 || [ -x \"$(git --exec-path 2>/dev/null)/git-omen\" ]; then\n"
-	"	dir=$(git rev-parse --git-dir 2>/dev/null) && mkdir -p \"$dir/omen\" 2>/dev/null &&\n"
-	"	if [ -n \"${OMEN_REFRESH_WAIT:-}\" ]; then\n"
-	"		git omen refresh </dev/null >>\"$dir/omen/refresh.log\" 2>&1\n"
-	"	else\n"
-	"		(git omen refresh </dev/null >>\"$dir/omen/refresh.log\" 2>&1 &)\n"
-	"	fi\n"
-	"fi\n"
-	"if [ -f \"$chained\" ] && [ -x \"$chained\" ]; then exec \"$chained\" \"$@\"; fi\n"
-	"exit 0\n"
-;
+/* omen_hook_shim and omen_refresh_shim (the bytes of hooks/pre-push and
+ * hooks/post-merge) are generated at build time: the Makefile's rule for
+ * $(BUILD)/gen/hook_shim.c. The post-merge shim (issue 12) starts a refresh
+ * in the background after a merge or a pull, then runs the hook that was
+ * there before. */
 
 typedef struct {
 	const char *name, *chained, *shim, *mark;
@@ -97,8 +25,6 @@ static const hook_kind kinds[2] = {
 	{"pre-push", OMEN_HOOK_CHAINED_NAME, omen_hook_shim, "\n" OMEN_HOOK_MARK "\n"},
 	{"post-merge", OMEN_REFRESH_CHAINED_NAME, omen_refresh_shim, "\n" OMEN_REFRESH_MARK "\n"},
 };
-
-const char *const omen_hook_state_names[4] = {"absent", "installed", "installed, chained", "foreign"};
 
 static int join(char **out, const char *dir, const char *name)
 {

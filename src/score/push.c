@@ -44,7 +44,7 @@ static int hide_ids(strvec *hide, const git_oid *ids, size_t n)
 	size_t j;
 	int e = 0;
 	for (j = 0; j < n && !e; j++) {
-		git_oid_tostr(hex, sizeof(hex), &ids[j]);
+		omen_oid_hex(hex, sizeof(hex), &ids[j]);
 		e = strvec_push(hide, "^", hex);
 	}
 	return e;
@@ -169,7 +169,7 @@ int omen_score_resolve(git_oid **out, size_t *n, char **out_desc, omen_repo *r,
 		if ((e = omen_history_upstream(&up, r)) == 0) {
 			/* the range is "@{upstream}..HEAD"; walk it by id */
 			hex[0] = '^';
-			git_oid_tostr(hex + 1, sizeof(hex) - 1, &up);
+			omen_oid_hex(hex + 1, sizeof(hex) - 1, &up);
 			if ((e = strvec_push(&revs, hex, NULL)) || (e = strvec_push(&revs, "HEAD", NULL)) ||
 			    (e = omen_buf_puts(&desc, "@{upstream}..HEAD")))
 				goto out;
@@ -207,7 +207,7 @@ int omen_score_resolve(git_oid **out, size_t *n, char **out_desc, omen_repo *r,
 			if ((e = omen_history_resolve(&id, r, revs.v[i])))
 				goto out;
 			for (j = 0; j < k; j++)
-				if (git_oid_equal(&ids[j], &id))
+				if (omen_oid_equal(&ids[j], &id))
 					break;
 			if (j == k)
 				ids[k++] = id;

@@ -12,7 +12,7 @@
 #include "omen/error.h"
 #include "omen/label.h"
 #include "omen/score.h"
-#include "score/score_int.h"
+#include "score/internal.h"
 
 struct omen_scorer {
 	omen_repo *repo;
@@ -568,6 +568,7 @@ typedef struct {
 	omen_metrics *state;
 	const git_oid *ids;
 	size_t n;
+	omen_index idx;          /* ids -> position (find_id) */
 	unsigned char *done;
 	omen_sample_buf *sb;
 	omen_explain ex;
@@ -578,13 +579,43 @@ typedef struct {
 	void *payload;
 } walk_ctx;
 
-static int find_id(const git_oid *ids, size_t n, const git_oid *id)
+/* ---- the scored ids: an index, so a replay of the whole history looks each
+ * walked commit up in constant time ------------------------------------------ */
+static uint64_t oid_key_hash(const git_oid *id)
 {
-	size_t i;
-	for (i = 0; i < n; i++)
-		if (git_oid_equal(&ids[i], id))
-			return (int)i;
-	return -1;
+	uint64_t h;
+	memcpy(&h, id->id, sizeof(h));
+	return h;
+}
+
+static uint64_t id_hash(int32_t v, const void *ctx)
+{
+	return oid_key_hash(&((const walk_ctx *)ctx)->ids[v]);
+}
+
+static int id_is(int32_t v, const void *key, const void *ctx)
+{
+	return omen_oid_equal(&((const walk_ctx *)ctx)->ids[v], key);
+}
+
+static const omen_index_ops id_ops = {id_hash, id_is};
+
+/* Indexes w->ids; a repeated id keeps its first position. */
+static int index_ids(walk_ctx *w)
+{
+	for (size_t i = 0; i < w->n; i++) {
+		uint64_t h = oid_key_hash(&w->ids[i]);
+		if (omen_index_find(&w->idx, &w->ids[i], h, &id_ops, w) < 0 &&
+			omen_index_add(&w->idx, (int32_t)i, h, &id_ops, w) < 0)
+			return OMEN_ENOMEM;
+	}
+	return 0;
+}
+
+/* Position of id among the scored ids (its first), else -1. */
+static int find_id(const walk_ctx *w, const git_oid *id)
+{
+	return omen_index_find(&w->idx, id, oid_key_hash(id), &id_ops, w);
 }
 
 static int past_deadline(walk_ctx *w)
@@ -605,7 +636,7 @@ static int on_change(const omen_change *c, void *payload)
 		return e;
 	lr = w->labels ? omen_labels_get(w->labels, c->commit.hex) : NULL;
 	is_fix = lr ? lr->is_fix != 0 : score_is_fix(w->s, &c->commit);
-	k = find_id(w->ids, w->n, &c->commit.id);
+	k = find_id(w, &c->commit.id);
 	if (k >= 0 && !w->done[k]) {
 		omen_sample sm;
 		w->done[k] = 1;
@@ -627,7 +658,7 @@ static int push_hex(char **revs, size_t *nr, const char *prefix, const git_oid *
 	char hex[GIT_OID_HEXSZ + 2];
 	size_t k = strlen(prefix);
 	memcpy(hex, prefix, k);
-	git_oid_tostr(hex + k, sizeof(hex) - k, id);
+	omen_oid_hex(hex + k, sizeof(hex) - k, id);
 	if (!(revs[(*nr)++] = strdup(hex)))
 		return omen_error_set(OMEN_ENOMEM, "out of memory");
 	return 0;
@@ -646,12 +677,8 @@ void score_load_labels(omen_labels **out, omen_repo *r)
 /* Merges are never scored: one left over needs no replay. */
 static int is_merge(omen_repo *r, const git_oid *id)
 {
-	git_commit *c = NULL;
-	int m = 0;
-	if (git_commit_lookup(&c, omen_repo_git(r), id) == 0)
-		m = git_commit_parentcount(c) > 1;
-	git_commit_free(c);
-	return m;
+	size_t np;
+	return omen_history_parent_count(&np, r, id) == 0 && np > 1;
 }
 
 /* 2a. commits of the training history: their samples, built when training
@@ -671,7 +698,7 @@ static int score_cached(walk_ctx *w, const omen_walk_opts *wo)
 	int e = 0, k;
 
 	memset(&dopt, 0, sizeof(dopt));
-	git_oid_tostr(head, sizeof(head), &w->s->head);
+	omen_oid_hex(head, sizeof(head), &w->s->head);
 	dopt.revs = revs;
 	dopt.caps = w->s->caps;
 	dopt.use_cache = 1;
@@ -686,7 +713,7 @@ static int score_cached(walk_ctx *w, const omen_walk_opts *wo)
 	for (i = 0; i < nd && !e; i++) {
 		const omen_sample *sm = omen_dataset_get(ds, i);
 		git_oid id;
-		if (git_oid_fromstr(&id, sm->id) || (k = find_id(w->ids, w->n, &id)) < 0 || w->done[k])
+		if (omen_oid_parse(&id, sm->id) || (k = find_id(w, &id)) < 0 || w->done[k])
 			continue;
 		if ((e = past_deadline(w)) || (e = omen_history_change(&c, w->s->repo, &id, wo)))
 			break;
@@ -726,6 +753,8 @@ int score_walk(omen_score_set *set, omen_scorer *s, const git_oid *ids, size_t n
 		e = omen_error_set(OMEN_ENOMEM, "out of memory");
 		goto out;
 	}
+	if ((e = index_ids(&w)))
+		goto out;
 	if ((e = omen_sample_buf_new(&w.sb)))
 		goto out;
 	/* absent blobs of a partial clone (issue 12): the scored commits' in
@@ -817,6 +846,7 @@ out:
 		free(revs[i]);
 	free(revs);
 	free(w.done);
+	omen_index_free(&w.idx);
 	omen_sample_buf_free(w.sb);
 	omen_metrics_free(w.state);
 	omen_labels_free(w.labels);
@@ -857,10 +887,10 @@ int omen_scorer_staged(omen_score_set *out, omen_scorer *s, const char *msg)
 	have_head = omen_history_resolve(&headid, s->repo, "HEAD") == 0;
 	if (!have_head)
 		omen_error_clear();
-	if (have_head && s->head_known && !git_oid_equal(&headid, &s->head)) {
+	if (have_head && s->head_known && !omen_oid_equal(&headid, &s->head)) {
 		revs[0] = "HEAD";
 		hex[0] = '^';
-		git_oid_tostr(hex + 1, sizeof(hex) - 1, &s->head);
+		omen_oid_hex(hex + 1, sizeof(hex) - 1, &s->head);
 		revs[1] = hex;
 		wo.revs = (const char *const *)revs;
 		if ((e = omen_history_walk(s->repo, &wo, feed_only, &w)))

@@ -20,7 +20,7 @@
 #include <unistd.h>
 #include "omen/error.h"
 #include "omen/model.h"
-#include "model/model_int.h"
+#include "model/internal.h"
 
 static omen_buf base;          /* the tiny model's file image */
 static size_t base_ml;         /* its metadata length */

@@ -5,7 +5,7 @@
 # fails. A row whose command is not built yet prints "pending"; a row that
 # cannot run here says why ("skip"). Run by tests/run-shell.sh with $OMEN and
 # $ROOT, in a fresh temporary directory. Expected behaviours come from
-# DESIGN.md, the contracts in include/omen/*.h and the CLI contract:
+# DEVELOPERS.md, the contracts in include/omen/*.h and the CLI contract:
 # one-line errors "git omen: <message>", exit 128 for fatal errors, atomic
 # writes (an interrupted run leaves the old file), advisory locks.
 set -u

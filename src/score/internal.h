@@ -1,6 +1,6 @@
 /* Internal to src/score/: shared by score.c and explain.c. */
-#ifndef OMEN_SCORE_INT_H
-#define OMEN_SCORE_INT_H
+#ifndef OMEN_SCORE_INTERNAL_H
+#define OMEN_SCORE_INTERNAL_H
 
 #include "omen/label.h"
 #include "omen/score.h"

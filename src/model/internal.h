@@ -1,7 +1,7 @@
 /* Internals of src/model/: the model struct, its parameter table and the
  * per-chunk workspace of the forward/backward pass. */
-#ifndef OMEN_MODEL_INT_H
-#define OMEN_MODEL_INT_H
+#ifndef OMEN_MODEL_INTERNAL_H
+#define OMEN_MODEL_INTERNAL_H
 
 #include <math.h>
 #include "omen/model.h"
