@@ -15,7 +15,8 @@ typedef struct omen_model omen_model;
 /* Defaults stated once (plain integers: the help text is made from them). */
 #define OMEN_SEED_DEFAULT 42     /* training, and eval's bootstrap */
 #define OMEN_EPOCHS_DEFAULT 30
-#define OMEN_THREADS_MAX 64      /* --threads and omen.threads bound */
+/* OMEN_THREADS_MAX (--threads and omen.threads): include/omen/history.h,
+ * beside the other bounds of the settings table */
 
 /* A range [off, off + n) of the parameter block. */
 typedef struct { size_t off, n; } omen_span;
