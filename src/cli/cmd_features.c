@@ -145,7 +145,7 @@ int cmd_features(int argc, char **argv)
 {
 	omen_walk_opts wo = OMEN_WALK_OPTS_INIT;
 	omen_repo *repo = NULL;
-	omen_atomic_file af = {NULL, NULL, NULL};
+	omen_atomic_file af = {NULL, NULL, NULL, 0};
 	fstate s;
 	omen_labels *labels = NULL;
 	const char *format = "csv", *labels_path = NULL, *out_path = NULL, *val;
@@ -241,7 +241,7 @@ int cmd_features(int argc, char **argv)
 	}
 	wo.with_lines = 0;
 	if (out_path) {
-		if (omen_atomic_open(&af, out_path)) {
+		if (omen_output_open(&af, out_path)) {
 			rc = cli_fatal(NULL);
 			goto out;
 		}

@@ -188,7 +188,7 @@ int cmd_score(int argc, char **argv)
 		goto done;
 	}
 	if (outpath) {
-		if ((e = omen_file_write_atomic(outpath, out.ptr ? out.ptr : "", out.len))) {
+		if ((e = omen_output_write(outpath, out.ptr ? out.ptr : "", out.len))) {
 			rc = cli_fatal(NULL);
 			goto done;
 		}

@@ -56,6 +56,7 @@ typedef struct {
 	size_t fix_lines_total;
 	size_t dropped_issue_date, dropped_noncand;
 	FILE *dump;
+	omen_atomic_file dumpf; /* --dump-origins: the file rules of -o */
 	omen_label_summary *sum;
 	omen_progress prog;
 	omen_buf path;          /* scratch for tree walks */
@@ -999,9 +1000,10 @@ int omen_label_run(omen_label_summary *sum, omen_repo *r, const omen_label_opts 
 	to.ws_keeps_origin = o.ws_keeps_origin;
 	if ((e = lbl_tracer_new(&R.tr, &to)))
 		goto out;
-	if (o.dump_origins && !(R.dump = fopen(o.dump_origins, "w"))) {
-		e = omen_error_set(OMEN_EIO, "cannot write '%s'", o.dump_origins);
-		goto out;
+	if (o.dump_origins) {
+		if ((e = omen_output_open(&R.dumpf, o.dump_origins)))
+			goto out;
+		R.dump = R.dumpf.fp;
 	}
 	/* with a fix list the old commits would need classifying again (the
 	 * list may have changed): no state reuse then */
@@ -1070,8 +1072,10 @@ int omen_label_run(omen_label_summary *sum, omen_repo *r, const omen_label_opts 
 	if ((e = omen_buf_printf(&sp, "%s.state", path)) || (e = save_state(&R, sp.ptr, ob.ptr, head)))
 		goto out;
 out:
-	if (R.dump && fclose(R.dump) && !e)
-		e = omen_error_set(OMEN_EIO, "cannot write '%s'", o.dump_origins);
+	if (R.dump && !e)
+		e = omen_atomic_commit(&R.dumpf);
+	else if (R.dump)
+		omen_atomic_abort(&R.dumpf);
 	sum->seconds = omen_now() - t0;
 	omen_fixrules_free(R.fr);
 	lbl_tracer_free(R.tr);
