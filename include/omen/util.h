@@ -168,5 +168,11 @@ void omen_progress_end(omen_progress *p);
 
 /* UTF-8 validity of n bytes. */
 int omen_utf8_valid(const char *s, size_t n);
+/* The longest prefix of s[0..n), at most max bytes, that does not end
+ * inside a valid UTF-8 sequence: where to cut text kept in a fixed size. */
+size_t omen_utf8_prefix(const char *s, size_t n, size_t max);
+/* n less a last character that the end cuts short (a lead byte followed by
+ * fewer continuation bytes than it announces): for text snprintf cut. */
+size_t omen_utf8_trim(const char *s, size_t n);
 
 #endif

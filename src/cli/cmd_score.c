@@ -30,10 +30,15 @@ static void text_line(omen_buf *b, const omen_score_set *s, const omen_score_res
 	omen_buf_printf(b, "%-10.10s  %s%.2f %-6s%s  +%-5d -%-5d %3df  ", staged ? "(staged)" : r->id,
 		color ? col[r->band] : "", (double)r->prob, omen_band_names[r->band],
 		color && r->band ? "\033[0m" : "", (int)r->la, (int)r->ld, (int)r->nfiles);
-	for (i = 0; i < r->nreasons; i++)
-		omen_buf_printf(b, "%s%s", i ? "; " : "", r->reasons[i].text);
-	if (r->summary && *r->summary)
-		omen_buf_printf(b, "%s%.72s", r->nreasons ? "  | " : "", r->summary);
+	/* history text (paths in reasons, the summary) through the sanitiser */
+	for (i = 0; i < r->nreasons; i++) {
+		omen_buf_puts(b, i ? "; " : "");
+		omen_buf_puts_shown(b, r->reasons[i].text, 0);
+	}
+	if (r->summary && *r->summary) {
+		omen_buf_puts(b, r->nreasons ? "  | " : "");
+		omen_buf_puts_shown(b, r->summary, 72);
+	}
 	omen_buf_puts(b, "\n");
 }
 
@@ -159,10 +164,14 @@ int cmd_score(int argc, char **argv)
 	for (i = 0; i < set.n; i++) {
 		const omen_score_result *r = &set.v[i];
 		int st = strspn(r->id, "0") == strlen(r->id);
-		if (r->nskipped)
+		if (r->nskipped) {
+			omen_buf p = OMEN_BUF_INIT;
+			omen_buf_puts_shown(&p, r->skipped_path, 0);
 			fprintf(stderr, "git omen: notice: %.10s: '%s'%s is over omen.maxBlobBytes; its lines "
-				"were not read\n", st ? "staged" : r->id, r->skipped_path ? r->skipped_path : "",
+				"were not read\n", st ? "staged" : r->id, p.ptr ? p.ptr : "",
 				r->nskipped > 1 ? " (and others)" : "");
+			omen_buf_free(&p);
+		}
 		if (r->capped)
 			fprintf(stderr, "git omen: notice: %.10s: a large commit, capped: the model saw only "
 				"its largest files and hunks\n", st ? "staged" : r->id);

@@ -36,11 +36,15 @@ static void usage(FILE *fp)
 
 int cli_fatal(const char *what)
 {
-	const char *msg = omen_error_last();
+	omen_buf m = OMEN_BUF_INIT;
+	const char *msg;
+	/* the message may quote history (paths, names): shown escaped */
+	msg = omen_buf_puts_shown(&m, omen_error_last(), 0) ? omen_error_last() : m.ptr;
 	if (what && *what)
 		fprintf(stderr, "git omen: %s%s%s\n", what, *msg ? ": " : "", msg);
 	else
 		fprintf(stderr, "git omen: %s\n", *msg ? msg : "unknown error");
+	omen_buf_free(&m);
 	return EXIT_FATAL;
 }
 

@@ -498,7 +498,7 @@ static int previous_run(omen_label_summary *sum, lbl_run *R, const char *path, c
 	cJSON *j = NULL, *v;
 	int same = 0;
 	git_oid oh, nh;
-	if (omen_labels_load(&old, path)) {
+	if (omen_labels_load_max(&old, path, R->o ? R->o->max_bytes : 0)) {
 		omen_error_clear();
 		return 0;
 	}

@@ -104,6 +104,36 @@ int omen_utf8_valid(const char *s, size_t n)
 	return 1;
 }
 
+size_t omen_utf8_prefix(const char *s, size_t n, size_t max)
+{
+	const unsigned char *p = (const unsigned char *)s;
+	size_t i = 0, k;
+	if (n <= max)
+		return n;
+	while (i < n) {
+		if (!(k = utf8_seq(p + i, n - i)))
+			k = 1;   /* an invalid byte stands alone */
+		if (i + k > max)
+			break;
+		i += k;
+	}
+	return i;
+}
+
+size_t omen_utf8_trim(const char *s, size_t n)
+{
+	const unsigned char *p = (const unsigned char *)s;
+	size_t j = n, need;
+	while (j > 0 && n - j < 3 && (p[j - 1] & 0xc0) == 0x80)
+		j--;
+	if (!j)
+		return n;
+	j--;   /* the byte before the continuation bytes */
+	need = p[j] >= 0xc2 && p[j] <= 0xdf ? 2 : p[j] >= 0xe0 && p[j] <= 0xef ? 3
+		: p[j] >= 0xf0 && p[j] <= 0xf4 ? 4 : 0;
+	return need && n - j < need ? j : n;
+}
+
 int omen_buf_put_json_string(omen_buf *b, const char *s, size_t n)
 {
 	const unsigned char *p = (const unsigned char *)s;

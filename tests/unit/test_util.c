@@ -439,9 +439,15 @@ static void test_atomic_write_target_kinds(void **st)
 	assert_int_equal(symlink(path_in("nowhere"), p), 0);
 	assert_int_equal(omen_file_write_atomic(p, "x", 1), OMEN_EUSAGE);
 	assert_int_equal(access(path_in("nowhere"), F_OK), -1);
-	/* a link to a character device is written through, and stays a link */
+	/* a link to a character device is written through, and stays a link
+	 * (as root to a private node with /dev/null's numbers, Linux char 1, 3) */
+	snprintf(q, sizeof(q), "%s", "/dev/null");
+	if (geteuid() == 0) {
+		snprintf(q, sizeof(q), "%s", path_in("null"));
+		assert_int_equal(mknod(q, S_IFCHR | 0666, makedev(1, 3)), 0);
+	}
 	snprintf(p, sizeof(p), "%s", path_in("to-null"));
-	assert_int_equal(symlink("/dev/null", p), 0);
+	assert_int_equal(symlink(q, p), 0);
 	assert_int_equal(omen_file_write_atomic(p, "x", 1), 0);
 	assert_int_equal(lstat(p, &sb), 0);
 	assert_true(S_ISLNK(sb.st_mode));
@@ -603,6 +609,17 @@ static void test_shown_cuts(void **st)
 	assert_string_equal(SHOWN("\xc3\xa9\xc3\xa9", 3), "...");
 	assert_string_equal(SHOWN("\xc3\xa9\xc3\xa9", 2), "\xc3\xa9");
 	assert_string_equal(SHOWN("\xc3\xa9\xc3\xa9", 1), "");
+	/* the cut helpers for text kept in fixed sizes */
+	assert_int_equal(omen_utf8_prefix("a\xc3\xa9z", 4, 2), 1);
+	assert_int_equal(omen_utf8_prefix("a\xc3\xa9z", 4, 3), 3);
+	assert_int_equal(omen_utf8_prefix("a\xc3\xa9z", 4, 9), 4);
+	assert_int_equal(omen_utf8_prefix("\xff\xfe", 2, 1), 1);   /* invalid bytes stand alone */
+	assert_int_equal(omen_utf8_trim("a\xc3", 2), 1);
+	assert_int_equal(omen_utf8_trim("a\xe2\x82", 3), 1);
+	assert_int_equal(omen_utf8_trim("a\xe2\x82\xac", 4), 4);
+	assert_int_equal(omen_utf8_trim("a\xf0\x9f\x98", 4), 1);
+	assert_int_equal(omen_utf8_trim("\x80\x80", 2), 2);      /* stray bytes: not a cut */
+	assert_int_equal(omen_utf8_trim("", 0), 0);
 	/* appended to what the buffer holds, the cap counts only the new bytes */
 	{
 		omen_buf b = OMEN_BUF_INIT;
