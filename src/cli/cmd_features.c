@@ -74,9 +74,12 @@ static int on_change(const omen_change *c, void *payload)
 	if (want) {
 		for (size_t i = 0; i < c->nfiles; i++)
 			if (c->files[i].flags & OMEN_FILE_TOO_LARGE) {
+				omen_buf p = OMEN_BUF_INIT;
+				omen_buf_puts_shown(&p, c->files[i].new_path ? c->files[i].new_path
+					: c->files[i].old_path, 0);
 				fprintf(stderr, "git omen: notice: %s: '%s' is over omen.maxBlobBytes, "
-					"its lines are not counted\n", c->commit.hex,
-					c->files[i].new_path ? c->files[i].new_path : c->files[i].old_path);
+					"its lines are not counted\n", c->commit.hex, p.ptr ? p.ptr : "");
+				omen_buf_free(&p);
 				s->large++;
 			}
 		if ((e = omen_metrics_compute(v, s->m, c, is_fix)))

@@ -71,9 +71,13 @@ static void disarm_alarm(void)
  * omen.onError (allow: 0, block: 1). */
 static int hook_error(int block, const char *what)
 {
+	omen_buf m = OMEN_BUF_INIT;
 	const char *msg = what ? what : omen_error_last();
+	if (!omen_buf_puts_shown(&m, msg, 0))   /* it may quote history: escaped */
+		msg = m.ptr;
 	fprintf(stderr, "git omen: %s; %s\n", *msg ? msg : "unknown error",
 		block ? "push stopped (omen.onError=block)" : "push not checked (scores are advisory)");
+	omen_buf_free(&m);
 	return block ? EXIT_RISK : EXIT_OK;
 }
 
