@@ -584,6 +584,9 @@ utf8_ok() { iconv -f UTF-8 -t UTF-8 < "$1" > /dev/null 2>&1; }
 # a command that might hang on a FIFO, bounded so a hang fails the row
 # instead of the suite (a guard, not a timing assertion)
 guard() { timeout 120 "$@"; }
+# 2 GiB of address space for a row that a regression could make allocate
+# without end; not under AddressSanitizer, whose shadow memory needs more
+memcap() { [ -n "${ASAN_OPTIONS:-}" ] || ulimit -v 2097152; }
 
 row_hostile_text() {
 	have explain || { report pending "escape bytes in history text" "explain"; return; }
@@ -721,15 +724,15 @@ row_read_kinds() {
 	have train || { report pending "labels, model not regular files" "train"; return; }
 	[ -n "$model" ] || { report skip "labels, model not regular files" "no model"; return; }
 	cd "$demo" || return
-	# memory stays bounded whatever a regression does: 2 GiB of address space
-	(ulimit -v 2097152; guard git -c omen.memoryLimit=200m -c omen.labels=/dev/zero omen train \
+	# memory stays bounded whatever a regression does (memcap)
+	(memcap; guard git -c omen.memoryLimit=200m -c omen.labels=/dev/zero omen train \
 		-o "$here/z.omen") > "$here/rz.out" 2> "$here/rz.err"; rc=$?
 	if [ "$rc" -eq 128 ] && one_line rz "not a regular file$" && [ ! -e "$here/z.omen" ]; then
 		report ok "omen.labels=/dev/zero" "128: $(first_err rz | cut -c1-70)"
 	else
 		report FAIL "omen.labels=/dev/zero" "rc=$rc $(first_err rz)"
 	fi
-	(ulimit -v 2097152; guard git omen score HEAD --model /dev/zero) > "$here/mz.out" 2> "$here/mz.err"; rc=$?
+	(memcap; guard git omen score HEAD --model /dev/zero) > "$here/mz.out" 2> "$here/mz.err"; rc=$?
 	if [ "$rc" -eq 128 ] && one_line mz "not a regular file$"; then
 		report ok "model at /dev/zero" "128: $(first_err mz)"
 	else
@@ -750,7 +753,7 @@ row_read_kinds() {
 	fi
 	# a (sparse) 300 MiB label file over omen.memoryLimit=200m: refused by its size
 	truncate -s 300M "$big/labels300.jsonl"
-	(ulimit -v 2097152; guard git -c omen.memoryLimit=200m -c omen.labels="$big/labels300.jsonl" omen train \
+	(memcap; guard git -c omen.memoryLimit=200m -c omen.labels="$big/labels300.jsonl" omen train \
 		--no-cache -o "$here/s.omen") > "$here/ls.out" 2> "$here/ls.err"; rc=$?
 	if [ "$rc" -eq 128 ] && one_line ls "memory limit"; then
 		report ok "labels over omen.memoryLimit" "128: $(first_err ls | sed "s|$big/||" | cut -c1-70)"
