@@ -39,7 +39,7 @@ __git_omen_formats ()
 {
 	case "$1" in
 	score) echo "text json sarif" ;;
-	features) echo "csv jsonl" ;;
+	features) echo "csv json" ;;
 	*) echo "text json" ;;
 	esac
 }

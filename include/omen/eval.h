@@ -88,8 +88,8 @@ typedef struct {
 	int folds;            /* test windows (default 5) */
 	int64_t fold_days;    /* width of a test window (0 = auto: half of the
 	                         labelled span shared among the folds, >= 7) */
-	int64_t gap_days;     /* between training and test (default 90: the
-	                         verification window) */
+	int64_t gap_days;     /* between training and test (default OMEN_WINDOW_DAYS:
+	                         the verification window) */
 	size_t min_train;     /* labelled training commits required (default 100) */
 	double valid_frac;    /* newest share of the training commits used for
 	                         validation and threshold choice (default 0.15) */
@@ -202,7 +202,7 @@ typedef struct {
 	omen_fold_opts folds;
 	omen_train_opts train;        /* per-fold training settings */
 	int bootstrap;                /* AUC resamples (default 1000) */
-	uint64_t seed;                /* bootstrap seed (default 1) */
+	uint64_t seed;                /* bootstrap seed (default OMEN_SEED_DEFAULT) */
 	const char *labels_path;      /* for label_known (NULL: every label counts as known) */
 	const char *const *effort_exclude;   /* NULL = omen_effort_exclude_default */
 	size_t n_effort_exclude;

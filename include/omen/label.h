@@ -75,11 +75,17 @@ const omen_label_rec *omen_labels_at(const omen_labels *l, size_t i); /* file or
 /* The history the labels cover (newest commit id), for cache keys. */
 const char *omen_labels_head(const omen_labels *l);
 
+/* The verification window, in days: commits newer than this before the
+ * newest stay unknown, and eval leaves this gap between training and test.
+ * omen.window overrides it; `--window` on the command line. A plain integer
+ * (the help text is made from it). */
+#define OMEN_WINDOW_DAYS 90
+
 typedef struct {
 	const char *const *revs;   /* NULL = HEAD */
 	const char *fix_pattern;   /* NULL = omen.fixPattern or default */
 	const char *fix_list;      /* NULL = none */
-	int64_t window_days;       /* -1 (init): omen.window, else 90 */
+	int64_t window_days;       /* -1 (init): omen.window, else OMEN_WINDOW_DAYS */
 	int max_fix_files;         /* -1 (init): omen.maxFixFiles, else 50; 0 = no limit */
 	int skip_blank;            /* refinements: 1 on (default), 0 off */
 	int skip_comments;

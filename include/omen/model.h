@@ -11,14 +11,19 @@
 
 typedef struct omen_model omen_model;
 
+/* Defaults stated once (plain integers: the help text is made from them). */
+#define OMEN_SEED_DEFAULT 42     /* training, and eval's bootstrap */
+#define OMEN_EPOCHS_DEFAULT 30
+#define OMEN_THREADS_MAX 64      /* --threads and omen.threads bound */
+
 typedef struct {
-	int epochs;              /* maximum; early stopping may stop sooner (default 30) */
+	int epochs;              /* maximum; early stopping may stop sooner (default OMEN_EPOCHS_DEFAULT) */
 	int patience;            /* epochs without validation AUC gain (default 5) */
 	int batch;               /* commits per step (default 32) */
 	float lr, weight_decay, clip;
 	float dropout;
 	int threads;             /* 0 = online cores, max 2 */
-	uint64_t seed;
+	uint64_t seed;           /* default OMEN_SEED_DEFAULT */
 	double valid_frac, test_frac;   /* time-ordered split shares (0.15, 0.15) */
 	int refit;               /* refit on train+valid for the shipped model (default 1) */
 	int dim;                 /* D token embedding width (default 32) */

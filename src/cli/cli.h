@@ -17,20 +17,43 @@ int cmd_features(int argc, char **argv);
 int cmd_hook(int argc, char **argv);
 int cmd_version(int argc, char **argv);
 
-/* "git omen: <message>" on stderr for the last library error; returns 128. */
+/* Message tags, one set (DEVELOPERS.md, "The option table"):
+ *   git omen: error: <what failed>     the command stops, exit 128 (cli_fatal)
+ *   git omen: warning: <...>           it finished, but part of the input looks
+ *                                      wrong or was ignored; check it
+ *   git omen: notice: <...>            how the result was made (an old option
+ *                                      name, a capped commit, a shallow clone)
+ *   git omen <cmd>: <usage error>      exit 129 (cli_usage, cli_bad_value)
+ * cmd_* functions print these only through the helpers below. */
+
+/* "git omen: error: <what>: <last library error>" (either part may be
+ * absent) on stderr; returns 128. */
 int cli_fatal(const char *what);
+/* "git omen: error: <message>" on stderr; returns 128. The one writer of
+ * error lines (cli_fatal and the hook's push-not-checked lines use it). */
+int cli_error(const char *fmt, ...)
+#if defined(__GNUC__)
+	__attribute__((format(printf, 1, 2)))
+#endif
+	;
 /* "git omen <cmd>: <message>" usage error on stderr; returns 129. */
 int cli_usage(const char *cmd, const char *fmt, ...)
 #if defined(__GNUC__)
 	__attribute__((format(printf, 2, 3)))
 #endif
 	;
-/* Option matching: "--name=value" or "--name value". Returns 1 and sets *val
- * when argv[*i] is the option (advancing *i past a separate value), -1 when
- * the value is missing, 0 otherwise. */
-int cli_opt_value(int argc, char **argv, int *i, const char *name, const char **val);
-/* A decimal integer from lo to hi, the whole of v; 0, or -1 when v is not one. */
-int cli_parse_int(long long *out, const char *v, long long lo, long long hi);
+/* "git omen: warning: <message>" on stderr. */
+void cli_warning(const char *fmt, ...)
+#if defined(__GNUC__)
+	__attribute__((format(printf, 1, 2)))
+#endif
+	;
+/* "git omen: notice: <message>" on stderr. */
+void cli_notice(const char *fmt, ...)
+#if defined(__GNUC__)
+	__attribute__((format(printf, 1, 2)))
+#endif
+	;
 /* Whether standard output should get colour (a terminal, NO_COLOR unset). */
 int cli_use_color(FILE *fp);
 

@@ -4,25 +4,7 @@
 #include <string.h>
 #include <unistd.h>
 #include "cli/cli.h"
-
-static const char usage_text[] =
-	"usage: git omen eval [<rev>] [<options>]\n"
-	"\n"
-	"  --folds <n>            number of test windows (5)\n"
-	"  --fold-days <d>        width of a test window in days (auto: half the labelled\n"
-	"                         history shared among the folds)\n"
-	"  --gap-days <d>         days left out between training and test (omen.window, 90)\n"
-	"  --format <fmt>         text (default) or json\n"
-	"  --html <file>          also write a self-contained HTML report with plots\n"
-	"  --seed <n>             seed of the training runs and of the bootstrap (1)\n"
-	"  --bootstrap <n>        resamples for the AUC intervals (1000)\n"
-	"  --epochs <n>           most training epochs per fold (the trainer's default)\n"
-	"  --threads <n>          training threads (omen.threads, else online cores, max 2)\n"
-	"  --labels <file>        label file (omen.labels, else $GIT_DIR/omen/labels.jsonl)\n"
-	"  --no-cache             rebuild the dataset instead of reading its cache\n"
-	"  -h, --help             show this help\n"
-	"\n"
-	"Scores are advisory: the evaluation shows how far to trust them on this history.\n";
+#include "cli/options.h"
 
 typedef struct {
 	int tty;
@@ -60,6 +42,139 @@ static int split_globs(char ***out, size_t *n, char *s)
 	return 0;
 }
 
+static const cli_option opt_folds = {
+	"--folds", CLI_INT, "<n>", 1, 1000, "a count from 1 to 1000", "number of test windows (default 5)"};
+static const cli_option opt_fold_days = {
+	"--fold-days", CLI_INT, "<d>", 1, 100000, "a number of days from 1 to 100000",
+	"width of a test window in days (default: half the labelled history shared among the folds)"};
+static const cli_option opt_html = {
+	"--html", CLI_STRING, "<file>", 0, 0, NULL, "also write a self-contained HTML report with plots"};
+static const cli_option opt_bootstrap = {
+	"--bootstrap", CLI_INT, "<n>", 0, 1000000, "a count from 0 to 1000000",
+	"resamples for the AUC intervals (default 1000)"};
+
+typedef struct {
+	const char *format, *html, *labels, *rev;
+	long long folds, fold_days, window, seed, bootstrap, epochs, threads;
+	int folds_set, fold_days_set, window_set, seed_set, bootstrap_set, epochs_set, threads_set;
+	int no_cache;
+} eval_args;
+
+/* Parses argv into o and a; -1 to go on, else the exit code. */
+static int parse_args(omen_eval_opts *o, eval_args *a, int argc, char **argv)
+{
+	const cli_use uses[] = {
+		{&opt_folds, &a->folds, NULL, NULL, &a->folds_set},
+		{&opt_fold_days, &a->fold_days, NULL, NULL, &a->fold_days_set},
+		{&cli_opt_window, &a->window, NULL,
+			"days left out between training and test (default omen.window, else "
+			OMEN_STR(OMEN_WINDOW_DAYS) ")", &a->window_set},
+		{&cli_opt_format, &a->format, cli_formats_text_json, NULL, NULL},
+		{&opt_html, &a->html, NULL, NULL, NULL},
+		{&cli_opt_seed, &a->seed, NULL,
+			"random seed of the training runs and of the bootstrap (default "
+			OMEN_STR(OMEN_SEED_DEFAULT) ")", &a->seed_set},
+		{&opt_bootstrap, &a->bootstrap, NULL, NULL, &a->bootstrap_set},
+		{&cli_opt_epochs, &a->epochs, NULL, NULL, &a->epochs_set},
+		{&cli_opt_threads, &a->threads, NULL, NULL, &a->threads_set},
+		{&cli_opt_labels, &a->labels, NULL, NULL, NULL},
+		{&cli_opt_no_cache, &a->no_cache, NULL, NULL, NULL},
+	};
+	const cli_command cmd = {"eval", "usage: git omen eval [<rev>] [<options>]\n",
+		"Scores are advisory: the evaluation shows how far to trust them on this history.\n",
+		uses, sizeof(uses) / sizeof(uses[0])};
+	const char **pos = NULL;
+	size_t n;
+	int rc;
+	memset(a, 0, sizeof(*a));
+	a->format = "text";
+	if ((rc = cli_parse(&cmd, argc, argv, &pos, &n)) >= 0)
+		return rc;
+	if (n > 1) {
+		rc = cli_usage("eval", "one revision at most; got '%s' and '%s'", pos[0], pos[1]);
+		free(pos);
+		return rc;
+	}
+	a->rev = n ? pos[0] : NULL;
+	free(pos);
+	if (a->folds_set)
+		o->folds.folds = (int)a->folds;
+	if (a->fold_days_set)
+		o->folds.fold_days = a->fold_days;
+	if (a->window_set)
+		o->folds.gap_days = a->window;
+	if (a->seed_set) {
+		o->seed = (uint64_t)a->seed;
+		o->train.seed = (uint64_t)a->seed;
+	}
+	if (a->bootstrap_set)
+		o->bootstrap = (int)a->bootstrap;
+	if (a->epochs_set)
+		o->train.epochs = (int)a->epochs;
+	if (a->threads_set)
+		o->train.threads = (int)a->threads;
+	return -1;
+}
+
+/* Settings from git config: omen.window, omen.threads, omen.effortExclude,
+ * omen.memoryLimit; *excl and *excl_text are the caller's to free. */
+static int read_config(omen_eval_opts *o, omen_dataset_opts *dso, char ***excl,
+	char **excl_text, omen_repo *repo, const eval_args *a)
+{
+	size_t nexcl = 0;
+	int64_t lim = 0;
+	if (!a->window_set && omen_config_int(&o->folds.gap_days, repo, "omen.window") < 0)
+		return -1;
+	if (!a->threads_set) {
+		int64_t t = o->train.threads;
+		if (omen_config_int(&t, repo, "omen.threads") < 0)
+			return -1;
+		o->train.threads = (int)t;
+	}
+	if (omen_config_string(excl_text, repo, "omen.effortExclude") < 0)
+		return -1;
+	if (*excl_text) {
+		if (split_globs(excl, &nexcl, *excl_text) < 0)
+			return omen_error_set(OMEN_ENOMEM, "out of memory");
+		o->effort_exclude = (const char *const *)*excl;
+		o->n_effort_exclude = nexcl;
+		if (!nexcl)   /* an empty list turns exclusion off */
+			o->effort_exclude = (const char *const *)excl_text;
+	}
+	if (omen_config_int(&lim, repo, "omen.memoryLimit") < 0)
+		return -1;
+	dso->max_bytes = lim;
+	return 0;
+}
+
+/* The report on standard output, and the HTML file when asked for. */
+static int write_reports(const omen_eval_result *res, const eval_args *a)
+{
+	omen_buf b = OMEN_BUF_INIT;
+	int r;
+	if (!strcmp(a->format, "json"))
+		r = omen_eval_write_json(&b, res);
+	else
+		r = omen_eval_write_text(&b, res);
+	if (r < 0)
+		goto out;
+	if (b.len && fwrite(b.ptr, 1, b.len, stdout) != b.len) {
+		r = omen_error_set(OMEN_EIO, "cannot write standard output");
+		goto out;
+	}
+	if (a->html) {
+		omen_buf_clear(&b);
+		if ((r = omen_eval_write_html(&b, res, "omen walk-forward evaluation")) < 0 ||
+		    (r = omen_file_write_atomic(a->html, b.ptr, b.len)) < 0)
+			goto out;
+		if (!strcmp(a->format, "text"))
+			printf("wrote %s\n", a->html);
+	}
+out:
+	omen_buf_free(&b);
+	return r < 0 ? r : 0;
+}
+
 int cmd_eval(int argc, char **argv)
 {
 	omen_eval_opts o;
@@ -68,205 +183,53 @@ int cmd_eval(int argc, char **argv)
 	omen_caps caps = OMEN_CAPS_DEFAULT;
 	omen_repo *repo = NULL;
 	omen_dataset *ds = NULL;
-	omen_buf b = OMEN_BUF_INIT;
 	progress_state ps = {0, 0};
-	const char *format = "text", *html = NULL, *labels = NULL, *rev = NULL, *val;
+	eval_args a;
 	const char *revs[2] = {NULL, NULL};
 	char *default_labels = NULL, *excl_text = NULL;
 	char **excl = NULL;
-	size_t nexcl = 0;
-	int i, r, rc = EXIT_OK, gap_set = 0, threads_set = 0, no_cache = 0;
-	long long n;
+	int rc;
 
 	omen_eval_opts_init(&o);
 	memset(&res, 0, sizeof(res));
-	for (i = 1; i < argc; i++) {
-		const char *a = argv[i];
-		if (!strcmp(a, "-h") || !strcmp(a, "--help")) {
-			fputs(usage_text, stdout);
-			goto done;
-		} else if ((r = cli_opt_value(argc, argv, &i, "--folds", &val))) {
-			if (r < 0)
-				goto missing;
-			if (cli_parse_int(&n, val, 1, 1000)) {
-				rc = cli_usage("eval", "--folds: '%s' is not a count from 1 to 1000", val);
-				goto done;
-			}
-			o.folds.folds = (int)n;
-		} else if ((r = cli_opt_value(argc, argv, &i, "--fold-days", &val))) {
-			if (r < 0)
-				goto missing;
-			if (cli_parse_int(&n, val, 1, 100000)) {
-				rc = cli_usage("eval", "--fold-days: '%s' is not a number of days", val);
-				goto done;
-			}
-			o.folds.fold_days = n;
-		} else if ((r = cli_opt_value(argc, argv, &i, "--gap-days", &val))) {
-			if (r < 0)
-				goto missing;
-			if (cli_parse_int(&n, val, 0, 100000)) {
-				rc = cli_usage("eval", "--gap-days: '%s' is not a number of days", val);
-				goto done;
-			}
-			o.folds.gap_days = n;
-			gap_set = 1;
-		} else if ((r = cli_opt_value(argc, argv, &i, "--format", &val))) {
-			if (r < 0)
-				goto missing;
-			if (strcmp(val, "text") && strcmp(val, "json")) {
-				rc = cli_usage("eval", "--format: '%s' is not text or json", val);
-				goto done;
-			}
-			format = val;
-		} else if ((r = cli_opt_value(argc, argv, &i, "--html", &val))) {
-			if (r < 0)
-				goto missing;
-			html = val;
-		} else if ((r = cli_opt_value(argc, argv, &i, "--seed", &val))) {
-			if (r < 0)
-				goto missing;
-			if (cli_parse_int(&n, val, 0, INT64_MAX)) {
-				rc = cli_usage("eval", "--seed: '%s' is not a number", val);
-				goto done;
-			}
-			o.seed = (uint64_t)n;
-			o.train.seed = (uint64_t)n;
-		} else if ((r = cli_opt_value(argc, argv, &i, "--bootstrap", &val))) {
-			if (r < 0)
-				goto missing;
-			if (cli_parse_int(&n, val, 0, 1000000)) {
-				rc = cli_usage("eval", "--bootstrap: '%s' is not a count", val);
-				goto done;
-			}
-			o.bootstrap = (int)n;
-		} else if ((r = cli_opt_value(argc, argv, &i, "--epochs", &val))) {
-			if (r < 0)
-				goto missing;
-			if (cli_parse_int(&n, val, 1, 100000)) {
-				rc = cli_usage("eval", "--epochs: '%s' is not a count", val);
-				goto done;
-			}
-			o.train.epochs = (int)n;
-		} else if ((r = cli_opt_value(argc, argv, &i, "--threads", &val))) {
-			if (r < 0)
-				goto missing;
-			if (cli_parse_int(&n, val, 0, 1024)) {
-				rc = cli_usage("eval", "--threads: '%s' is not a count", val);
-				goto done;
-			}
-			o.train.threads = (int)n;
-			threads_set = 1;
-		} else if ((r = cli_opt_value(argc, argv, &i, "--labels", &val))) {
-			if (r < 0)
-				goto missing;
-			labels = val;
-		} else if (!strcmp(a, "--no-cache")) {
-			no_cache = 1;
-		} else if (a[0] == '-' && a[1]) {
-			rc = cli_usage("eval", "unknown option '%s'; see 'git omen eval --help'", a);
-			goto done;
-		} else if (rev) {
-			rc = cli_usage("eval", "one revision at most; got '%s' and '%s'", rev, a);
-			goto done;
-		} else {
-			rev = a;
-		}
-	}
-
-	if (omen_repo_open(&repo, NULL) < 0) {
-		rc = cli_fatal(NULL);
-		goto done;
-	}
-	if (!gap_set && omen_config_int(&o.folds.gap_days, repo, "omen.window") < 0) {
-		rc = cli_fatal(NULL);
-		goto done;
-	}
-	if (!threads_set) {
-		int64_t t = o.train.threads;
-		if (omen_config_int(&t, repo, "omen.threads") < 0) {
-			rc = cli_fatal(NULL);
-			goto done;
-		}
-		o.train.threads = (int)t;
-	}
-	if (omen_config_string(&excl_text, repo, "omen.effortExclude") < 0) {
-		rc = cli_fatal(NULL);
-		goto done;
-	}
-	if (excl_text) {
-		if (split_globs(&excl, &nexcl, excl_text) < 0) {
-			rc = cli_fatal("out of memory");
-			goto done;
-		}
-		o.effort_exclude = (const char *const *)excl;
-		o.n_effort_exclude = nexcl;
-		if (!nexcl)   /* an empty list turns exclusion off */
-			o.effort_exclude = (const char *const *)&excl_text;
-	}
-	if (!labels) {
-		if (omen_labels_path(&default_labels, repo, NULL) < 0) {
-			rc = cli_fatal(NULL);
-			goto done;
-		}
-		labels = default_labels;
-	}
-	if (access(labels, R_OK) != 0) {
-		fprintf(stderr, "git omen: cannot read labels '%s': run 'git omen label' first\n", labels);
-		rc = EXIT_FATAL;
-		goto done;
-	}
-	o.labels_path = labels;
 	memset(&dso, 0, sizeof(dso));
-	revs[0] = rev;
-	dso.revs = rev ? revs : NULL;
-	dso.labels_path = labels;
+	if ((rc = parse_args(&o, &a, argc, argv)) >= 0)
+		return rc;
+	rc = EXIT_OK;
+	if (omen_repo_open(&repo, NULL) < 0 || read_config(&o, &dso, &excl, &excl_text, repo, &a) < 0)
+		goto fatal;
+	if (!a.labels) {
+		if (omen_labels_path(&default_labels, repo, NULL) < 0)
+			goto fatal;
+		a.labels = default_labels;
+	}
+	if (access(a.labels, R_OK) != 0) {
+		omen_error_set(OMEN_ENOTFOUND, "cannot read labels '%s': run 'git omen label' first",
+			a.labels);
+		goto fatal;
+	}
+	o.labels_path = a.labels;
+	revs[0] = a.rev;
+	dso.revs = a.rev ? revs : NULL;
+	dso.labels_path = a.labels;
 	dso.caps = caps;
-	dso.use_cache = !no_cache;
-	{
-		int64_t lim = 0;
-		if (omen_config_int(&lim, repo, "omen.memoryLimit") < 0) {
-			rc = cli_fatal(NULL);
-			goto done;
-		}
-		dso.max_bytes = lim;
-	}
-	if (omen_dataset_build(&ds, repo, &dso) < 0) {
-		rc = cli_fatal(NULL);
-		goto done;
-	}
+	dso.use_cache = !a.no_cache;
+	if (omen_dataset_build(&ds, repo, &dso) < 0)
+		goto fatal;
 	ps.tty = isatty(2);
 	o.progress = on_progress;
 	o.payload = &ps;
 	if (omen_eval_run(&res, ds, &o) < 0) {
 		if (ps.tty)
 			fputc('\n', stderr);
-		rc = cli_fatal(NULL);
-		goto done;
+		goto fatal;
 	}
-	if (!strcmp(format, "json"))
-		r = omen_eval_write_json(&b, &res);
-	else
-		r = omen_eval_write_text(&b, &res);
-	if (r < 0) {
-		rc = cli_fatal(NULL);
-		goto done;
-	}
-	fwrite(b.ptr, 1, b.len, stdout);
-	if (html) {
-		omen_buf_clear(&b);
-		if (omen_eval_write_html(&b, &res, "omen walk-forward evaluation") < 0 ||
-		    omen_file_write_atomic(html, b.ptr, b.len) < 0) {
-			rc = cli_fatal(NULL);
-			goto done;
-		}
-		if (!strcmp(format, "text"))
-			printf("wrote %s\n", html);
-	}
+	if (write_reports(&res, &a) < 0)
+		goto fatal;
 	goto done;
-missing:
-	rc = cli_usage("eval", "option '%s' needs a value", argv[i]);
+fatal:
+	rc = cli_fatal(NULL);
 done:
-	omen_buf_free(&b);
 	omen_eval_result_free(&res);
 	omen_dataset_free(ds);
 	omen_repo_free(repo);

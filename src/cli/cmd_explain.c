@@ -4,19 +4,7 @@
 #include <stdlib.h>
 #include <string.h>
 #include "cli/cli.h"
-
-static const char explain_usage[] =
-	"usage: git omen explain <commit> [<options>]\n"
-	"\n"
-	"Shows the files, hunks and lines that drove a commit's score (attention\n"
-	"and gradient x input), the change metrics that pushed it up or down against\n"
-	"the typical values, and the closest past commits that later needed fixes.\n"
-	"Scores are advisory.\n"
-	"\n"
-	"  --model <file>      model file (default: omen.model, else $GIT_DIR/omen/model.omen)\n"
-	"  --format <fmt>      text (default) or json\n"
-	"  --top <n>           how many files, hunks and neighbours to show (default 5)\n"
-	"  -h, --help          show this help\n";
+#include "cli/options.h"
 
 static void put_num(omen_buf *b, double v)
 {
@@ -178,9 +166,14 @@ static void write_text(omen_buf *b, const omen_explanation *x, float thr, size_t
 	}
 }
 
+static const cli_option opt_top = {
+	"--top", CLI_INT, "<n>", 1, 1000, "a count from 1 to 1000",
+	"how many files, hunks and neighbours to show (default 5)"};
+
 int cmd_explain(int argc, char **argv)
 {
-	const char *model = NULL, *format = "text", *top_s = NULL, *rev = NULL;
+	const char *model = NULL, *format = "text", *rev;
+	const char **pos = NULL;
 	omen_repo *repo = NULL;
 	omen_scorer *sc = NULL;
 	omen_score_opts so = OMEN_SCORE_OPTS_INIT;
@@ -188,34 +181,31 @@ int cmd_explain(int argc, char **argv)
 	omen_buf out = OMEN_BUF_INIT;
 	git_oid id;
 	long long top = 5;
-	int rc = EXIT_OK, k, have_x = 0;
+	size_t npos;
+	int rc = EXIT_OK, have_x = 0;
+	const cli_use uses[] = {
+		{&cli_opt_model, &model, NULL, NULL, NULL},
+		{&cli_opt_format, &format, cli_formats_text_json, NULL, NULL},
+		{&opt_top, &top, NULL, NULL, NULL},
+	};
+	const cli_command cmd = {"explain",
+		"usage: git omen explain <commit> [<options>]\n"
+		"\n"
+		"Shows the files, hunks and lines that drove a commit's score (attention\n"
+		"and gradient x input), the change metrics that pushed it up or down against\n"
+		"the typical values, and the closest past commits that later needed fixes.\n"
+		"Scores are advisory.\n", NULL,
+		uses, sizeof(uses) / sizeof(uses[0])};
 
-	for (k = 1; k < argc; k++) {
-		const char *a = argv[k];
-		int m;
-		if (!strcmp(a, "-h") || !strcmp(a, "--help")) {
-			fputs(explain_usage, stdout);
-			return EXIT_OK;
-		}
-		if ((m = cli_opt_value(argc, argv, &k, "--model", &model)) ||
-		    (m = cli_opt_value(argc, argv, &k, "--format", &format)) ||
-		    (m = cli_opt_value(argc, argv, &k, "--top", &top_s))) {
-			if (m < 0)
-				return cli_usage("explain", "option '%s' needs a value", a);
-			continue;
-		}
-		if (a[0] == '-')
-			return cli_usage("explain", "unknown option '%s'; see 'git omen explain --help'", a);
-		if (rev)
-			return cli_usage("explain", "explain takes one commit");
-		rev = a;
-	}
+	if ((rc = cli_parse(&cmd, argc, argv, &pos, &npos)) >= 0)
+		return rc;
+	rc = EXIT_OK;
+	rev = npos ? pos[0] : NULL;
+	free(pos);
+	if (npos > 1)
+		return cli_usage("explain", "explain takes one commit");
 	if (!rev)
 		return cli_usage("explain", "which commit? usage: git omen explain <commit>");
-	if (strcmp(format, "text") && strcmp(format, "json"))
-		return cli_usage("explain", "bad --format '%s': use text or json", format);
-	if (top_s && cli_parse_int(&top, top_s, 1, 1000))
-		return cli_usage("explain", "bad --top '%s': give a number from 1 to 1000", top_s);
 	if (omen_repo_open(&repo, NULL) || omen_history_resolve(&id, repo, rev)) {
 		rc = cli_fatal(NULL);
 		goto done;
@@ -236,8 +226,10 @@ int cmd_explain(int argc, char **argv)
 		write_json(&out, &x, omen_scorer_threshold(sc), (size_t)top);
 	else
 		write_text(&out, &x, omen_scorer_threshold(sc), (size_t)top);
-	if (out.len && fwrite(out.ptr, 1, out.len, stdout) != out.len)
-		rc = cli_fatal("cannot write standard output");
+	if (out.len && fwrite(out.ptr, 1, out.len, stdout) != out.len) {
+		omen_error_set(OMEN_EIO, "cannot write standard output");
+		rc = cli_fatal(NULL);
+	}
 done:
 	if (have_x)
 		omen_explanation_free(&x);

@@ -7,14 +7,7 @@
 #include <string.h>
 #include <unistd.h>
 #include "cli/cli.h"
-
-static const char usage_text[] =
-	"usage: git omen features [<range>...] [<options>]\n"
-	"\n"
-	"  --format <fmt>         csv (default) or jsonl\n"
-	"  --labels <file>        join these labels (default omen.labels, else $GIT_DIR/omen/labels.jsonl if present)\n"
-	"  -o <file>              write here instead of standard output (atomically)\n"
-	"  -h, --help             show this help\n";
+#include "cli/options.h"
 
 typedef struct {
 	git_oid *ids;     /* commits to print (sorted), NULL = all */
@@ -74,12 +67,9 @@ static int on_change(const omen_change *c, void *payload)
 	if (want) {
 		for (size_t i = 0; i < c->nfiles; i++)
 			if (c->files[i].flags & OMEN_FILE_TOO_LARGE) {
-				omen_buf p = OMEN_BUF_INIT;
-				omen_buf_puts_shown(&p, c->files[i].new_path ? c->files[i].new_path
-					: c->files[i].old_path, 0);
-				fprintf(stderr, "git omen: notice: %s: '%s' is over omen.maxBlobBytes, "
-					"its lines are not counted\n", c->commit.hex, p.ptr ? p.ptr : "");
-				omen_buf_free(&p);
+				cli_notice("%s: '%s' is over omen.maxBlobBytes, its lines are not counted",
+					c->commit.hex,   /* the path is escaped by cli_notice */
+					c->files[i].new_path ? c->files[i].new_path : c->files[i].old_path);
 				s->large++;
 			}
 		if ((e = omen_metrics_compute(v, s->m, c, is_fix)))
@@ -112,7 +102,7 @@ static int on_change(const omen_change *c, void *payload)
 
 /* The tips behind the revisions (exclusions dropped): the history read for
  * the metrics state. */
-static int tips_of(const char **out, char **keep, size_t *n, char **revs, size_t nrev,
+static int tips_of(const char **out, char **keep, size_t *n, const char *const *revs, size_t nrev,
 	int *has_excl)
 {
 	size_t k = 0;
@@ -144,140 +134,149 @@ static int tips_of(const char **out, char **keep, size_t *n, char **revs, size_t
 	return 0;
 }
 
+typedef struct {
+	const char *format, *labels, *out;
+	const char **revs;    /* NULL-ended */
+	size_t nrev;
+} features_args;
+
+/* Parses argv into a; -1 to go on, else the exit code. */
+static int parse_args(features_args *a, int argc, char **argv)
+{
+	const cli_use uses[] = {
+		{&cli_opt_format, &a->format, cli_formats_features,
+			"output as csv (default) or json (JSON Lines)", NULL},
+		{&cli_opt_labels, &a->labels, NULL,
+			"join these labels (default omen.labels, else $GIT_DIR/omen/labels.jsonl if present)",
+			NULL},
+		{&cli_opt_output, &a->out, NULL, NULL, NULL},
+	};
+	const cli_command cmd = {"features", "usage: git omen features [<range>...] [<options>]\n",
+		NULL, uses, sizeof(uses) / sizeof(uses[0])};
+	memset(a, 0, sizeof(*a));
+	a->format = "csv";
+	return cli_parse(&cmd, argc, argv, &a->revs, &a->nrev);
+}
+
+/* The labels to join: --labels, else omen.labels, else the default file if
+ * present (NULL: none). */
+static int load_labels(omen_labels **out, omen_repo *repo, const char *path)
+{
+	char *def = NULL;
+	int e = 0, configured;
+	*out = NULL;
+	if (!path) {
+		if ((e = omen_labels_path(&def, repo, &configured)))
+			return e;
+		if (configured || access(def, R_OK) == 0)
+			path = def;
+	}
+	if (path)
+		e = omen_labels_load(out, path);
+	free(def);
+	return e;
+}
+
+/* Which history to walk (wo->revs) and which commits to print (s->ids,
+ * NULL = all); *walk is 0 when a range names nothing to walk. tips and keep
+ * hold 2 * nrev + 2 entries. */
+static int select_commits(omen_walk_opts *wo, fstate *s, int *walk, omen_repo *repo,
+	const features_args *a, const char **tips, char **keep)
+{
+	size_t ntips = 0;
+	int has_excl = 0;
+	*walk = 1;
+	if (!a->nrev)
+		return 0;
+	if (tips_of(tips, keep, &ntips, a->revs, a->nrev, &has_excl) < 0)
+		return omen_error_set(OMEN_ENOMEM, "out of memory");
+	wo->revs = a->revs;
+	if (!has_excl)
+		return 0;
+	if (omen_history_list(&s->ids, &s->nids, repo, wo))
+		return -1;
+	qsort(s->ids, s->nids, sizeof(git_oid), oid_cmp);
+	wo->revs = ntips ? tips : NULL;
+	if (!ntips) {
+		s->nids = 0;
+		*walk = 0;
+	}
+	return 0;
+}
+
+/* The rows, to s->fp, header first even when there are none. */
+static int walk_rows(fstate *s, omen_repo *repo, const omen_walk_opts *wo, int walk)
+{
+	int e;
+	omen_progress_start(&s->prog, "features", 0);
+	e = walk ? omen_history_walk(repo, wo, on_change, s) : 0;
+	omen_progress_end(&s->prog);
+	if (e)
+		return e;
+	if (!s->header_done)
+		put_header(s);
+	return 0;
+}
+
 int cmd_features(int argc, char **argv)
 {
 	omen_walk_opts wo = OMEN_WALK_OPTS_INIT;
 	omen_repo *repo = NULL;
 	omen_atomic_file af = {NULL, NULL, NULL, 0};
 	fstate s;
+	features_args a;
 	omen_labels *labels = NULL;
-	const char *format = "csv", *labels_path = NULL, *out_path = NULL, *val;
-	char **revs = calloc((size_t)argc + 1, sizeof(*revs));
-	const char **tips = calloc((size_t)argc * 2 + 2, sizeof(*tips));
-	char **keep = calloc((size_t)argc * 2 + 2, sizeof(*keep));
-	char *cfg_pattern = NULL, *def_labels = NULL;
-	size_t nrev = 0, ntips = 0;
-	int i, r, rc = EXIT_OK, e, has_excl = 0;
+	const char **tips = NULL;
+	char **keep = NULL;
+	char *cfg_pattern = NULL;
+	size_t i, nkeep = 0;
+	int rc, walk = 1;
 
 	memset(&s, 0, sizeof(s));
-	if (!revs || !tips || !keep) {
-		fprintf(stderr, "git omen: out of memory\n");
-		rc = EXIT_FATAL;
-		goto out;
+	if ((rc = parse_args(&a, argc, argv)) >= 0)
+		return rc;
+	rc = EXIT_OK;
+	s.jsonl = !strcmp(a.format, "json");
+	nkeep = a.nrev * 2 + 2;
+	if (!(tips = calloc(nkeep, sizeof(*tips))) || !(keep = calloc(nkeep, sizeof(*keep)))) {
+		omen_error_set(OMEN_ENOMEM, "out of memory");
+		goto fatal;
 	}
-	for (i = 1; i < argc; i++) {
-		const char *a = argv[i];
-		if (!strcmp(a, "-h") || !strcmp(a, "--help")) {
-			fputs(usage_text, stdout);
-			goto out;
-		} else if ((r = cli_opt_value(argc, argv, &i, "--format", &val))) {
-			if (r < 0) goto missing;
-			format = val;
-		} else if ((r = cli_opt_value(argc, argv, &i, "--labels", &val))) {
-			if (r < 0) goto missing;
-			labels_path = val;
-		} else if ((r = cli_opt_value(argc, argv, &i, "-o", &val))) {
-			if (r < 0) goto missing;
-			out_path = val;
-		} else if (!strcmp(a, "--")) {
-			for (i++; i < argc; i++)
-				revs[nrev++] = argv[i];
-		} else if (a[0] == '-' && a[1] && a[0] != '^') {
-			rc = cli_usage("features", "unknown option '%s'\n%s", a, usage_text);
-			goto out;
-		} else {
-			revs[nrev++] = argv[i];
-		}
-	}
-	if (strcmp(format, "csv") && strcmp(format, "jsonl")) {
-		rc = cli_usage("features", "bad --format '%s': expected csv or jsonl", format);
-		goto out;
-	}
-	s.jsonl = !strcmp(format, "jsonl");
-
-	if ((e = omen_repo_open(&repo, NULL))) {
-		rc = cli_fatal(NULL);
-		goto out;
-	}
+	if (omen_repo_open(&repo, NULL))
+		goto fatal;
 	if (omen_repo_is_shallow(repo))
-		fprintf(stderr, "git omen: notice: shallow clone: history read up to its boundary, "
-			"metrics there see no earlier commits\n");
-	if ((e = omen_config_string(&cfg_pattern, repo, "omen.fixPattern")) ||
-	    (e = omen_fixrules_new(&s.fr, cfg_pattern)) || (e = omen_metrics_new(&s.m))) {
-		rc = cli_fatal(NULL);
-		goto out;
-	}
-	/* labels: --labels, else omen.labels, else the default file if present */
-	if (!labels_path) {
-		int configured;
-		if ((e = omen_labels_path(&def_labels, repo, &configured))) {
-			rc = cli_fatal(NULL);
-			goto out;
-		}
-		if (configured || access(def_labels, R_OK) == 0)
-			labels_path = def_labels;
-	}
-	if (labels_path && omen_labels_load(&labels, labels_path)) {
-		rc = cli_fatal(NULL);
-		goto out;
-	}
+		cli_notice("shallow clone: history read up to its boundary, metrics there see no "
+			"earlier commits");
+	if (omen_config_string(&cfg_pattern, repo, "omen.fixPattern") ||
+	    omen_fixrules_new(&s.fr, cfg_pattern) || omen_metrics_new(&s.m) ||
+	    load_labels(&labels, repo, a.labels))
+		goto fatal;
 	s.labels = labels;
-	if (nrev) {
-		revs[nrev] = NULL;
-		if (tips_of(tips, keep, &ntips, revs, nrev, &has_excl) < 0) {
-			rc = cli_fatal("out of memory");
-			goto out;
-		}
-		if (has_excl) {
-			wo.revs = (const char *const *)revs;
-			if (omen_history_list(&s.ids, &s.nids, repo, &wo)) {
-				rc = cli_fatal(NULL);
-				goto out;
-			}
-			qsort(s.ids, s.nids, sizeof(git_oid), oid_cmp);
-			wo.revs = ntips ? tips : NULL;
-			if (!ntips)
-				s.nids = 0;
-		} else {
-			wo.revs = (const char *const *)revs;
-		}
-	}
+	if (select_commits(&wo, &s, &walk, repo, &a, tips, keep))
+		goto fatal;
 	wo.with_lines = 0;
-	if (out_path) {
-		if (omen_output_open(&af, out_path)) {
-			rc = cli_fatal(NULL);
-			goto out;
-		}
+	if (a.out) {
+		if (omen_output_open(&af, a.out))
+			goto fatal;
 		s.fp = af.fp;
 	} else {
 		s.fp = stdout;
 	}
-	omen_progress_start(&s.prog, "features", 0);
-	e = (has_excl && !ntips) ? 0 : omen_history_walk(repo, &wo, on_change, &s);
-	omen_progress_end(&s.prog);
-	if (e) {
-		rc = cli_fatal(NULL);
-		goto out;
-	}
-	if (!s.header_done)
-		put_header(&s);
-	if (out_path) {
-		if (omen_atomic_commit(&af)) {
-			rc = cli_fatal(NULL);
-			goto out;
-		}
+	if (walk_rows(&s, repo, &wo, walk))
+		goto fatal;
+	if (a.out) {
+		if (omen_atomic_commit(&af))
+			goto fatal;
 		af.fp = NULL;
 	} else if (fflush(stdout)) {
 		omen_error_set(OMEN_EIO, "cannot write features to standard output");
-		rc = cli_fatal(NULL);
-		goto out;
+		goto fatal;
 	}
 	if (s.large)
-		fprintf(stderr, "git omen: notice: %zu files over omen.maxBlobBytes were not counted\n",
-			s.large);
+		cli_notice("%zu files over omen.maxBlobBytes were not counted", s.large);
 	goto out;
-missing:
-	rc = cli_usage("features", "option '%s' needs a value", argv[i]);
+fatal:
+	rc = cli_fatal(NULL);
 out:
 	if (af.fp)
 		omen_atomic_abort(&af);
@@ -288,12 +287,11 @@ out:
 	omen_repo_free(repo);
 	free(s.ids);
 	free(cfg_pattern);
-	free(def_labels);
 	if (keep)
-		for (i = 0; i < argc * 2 + 2; i++)
+		for (i = 0; i < nkeep; i++)
 			free(keep[i]);
 	free(keep);
 	free(tips);
-	free(revs);
+	free(a.revs);
 	return rc;
 }

@@ -7,6 +7,7 @@
 #include <sys/time.h>
 #include <unistd.h>
 #include "cli/cli.h"
+#include "cli/options.h"
 
 static const char hook_usage[] =
 	"usage: git omen hook install | uninstall | status\n"
@@ -16,17 +17,18 @@ static const char hook_usage[] =
 	"            an existing pre-push hook is kept and runs after ours\n"
 	"uninstall   remove the shim and restore the kept hook byte for byte\n"
 	"status      say whether the hook is installed\n"
-	"run         score the commits a push sends (git's pre-push lines on standard input)\n"
-	"\n"
+	"run         score the commits a push sends (git's pre-push lines on standard input)\n";
+static const char hook_footer[] =
 	"The hook warns about risky commits and lets the push through unless\n"
-	"omen.onRisk=block. Scores are advisory; 'git push --no-verify' skips it.\n"
-	"\n"
-	"  -h, --help          show this help\n";
+	"omen.onRisk=block. Scores are advisory; 'git push --no-verify' skips it.\n";
+static const cli_command hook_cmd = {"hook", hook_usage, hook_footer, NULL, 0};
 
 #define HOOK_MAX_INPUT (8u << 20)
 #define HOOK_MAX_COMMITS 200
 
 /* ---- time limit: a hard stop that lets the push through ----------------- */
+/* The "error:" line is made ahead and written with write(2): a signal
+ * handler may not call stdio (so not cli_error). */
 static char alarm_msg[256];
 static size_t alarm_len;
 static volatile int alarm_exit;
@@ -45,8 +47,8 @@ static void arm_alarm(long ms, int block)
 	struct itimerval it;
 	struct sigaction sa;
 	int n = snprintf(alarm_msg, sizeof(alarm_msg),
-		block ? "git omen: scoring ran past omen.hookTimeout (%ld ms) and omen.onError=block: push stopped\n"
-		      : "git omen: scoring ran past omen.hookTimeout (%ld ms); push not checked (scores are advisory)\n",
+		block ? "git omen: error: scoring ran past omen.hookTimeout (%ld ms) and omen.onError=block: push stopped\n"
+		      : "git omen: error: scoring ran past omen.hookTimeout (%ld ms); push not checked (scores are advisory)\n",
 		ms);
 	alarm_len = n > 0 && (size_t)n < sizeof(alarm_msg) ? (size_t)n : 0;
 	alarm_exit = block ? 1 : 0;
@@ -67,17 +69,13 @@ static void disarm_alarm(void)
 	setitimer(ITIMER_REAL, &it, NULL);
 }
 
-/* One-line notice for anything that stops the check; exit status by
- * omen.onError (allow: 0, block: 1). */
+/* One "error:" line for anything that stops the check, saying what happens
+ * to the push; exit status by omen.onError (allow: 0, block: 1). */
 static int hook_error(int block, const char *what)
 {
-	omen_buf m = OMEN_BUF_INIT;
-	const char *msg = what ? what : omen_error_last();
-	if (!omen_buf_puts_shown(&m, msg, 0))   /* it may quote history: escaped */
-		msg = m.ptr;
-	fprintf(stderr, "git omen: %s; %s\n", *msg ? msg : "unknown error",
+	const char *msg = what ? what : omen_error_last();   /* escaped by cli_error */
+	cli_error("%s; %s", *msg ? msg : "unknown error",
 		block ? "push stopped (omen.onError=block)" : "push not checked (scores are advisory)");
-	omen_buf_free(&m);
 	return block ? EXIT_RISK : EXIT_OK;
 }
 
@@ -109,7 +107,7 @@ static int hook_run(int argc, char **argv)
 	char *on_risk = NULL, *on_error = NULL;
 	int64_t timeout_ms = 3000;
 	int block_risk = 0, block_error = 0, rc = EXIT_OK;
-	const char *remote = argc > 2 ? argv[2] : "";
+	const char *remote = argc > 1 ? argv[1] : "";   /* argv: run <remote> <url> */
 	double t0 = omen_now();
 
 	omen_score_set_init(&set);
@@ -161,7 +159,7 @@ static int hook_run(int argc, char **argv)
 		goto done;
 	if (nids > HOOK_MAX_COMMITS) {
 		skip = nids - HOOK_MAX_COMMITS;
-		fprintf(stderr, "git omen: scoring the newest %d of %zu new commits\n", HOOK_MAX_COMMITS, nids);
+		cli_notice("scoring the newest %d of %zu new commits", HOOK_MAX_COMMITS, nids);
 	}
 	if (omen_scorer_commits(&set, sc, ids + skip, nids - skip)) {
 		rc = hook_error(block_error, NULL);
@@ -216,22 +214,28 @@ int cmd_hook(int argc, char **argv)
 {
 	omen_repo *repo = NULL;
 	char *dir = NULL;
-	const char *sub = argc > 1 ? argv[1] : NULL;
+	const char **pos = NULL, *sub;
+	size_t npos;
 	int rc = EXIT_OK, st = 0;
 
-	if (!sub || !strcmp(sub, "-h") || !strcmp(sub, "--help")) {
-		fputs(hook_usage, sub ? stdout : stderr);
-		return sub ? EXIT_OK : EXIT_USAGE;
+	if ((rc = cli_parse(&hook_cmd, argc, argv, &pos, &npos)) >= 0)
+		return rc;
+	rc = EXIT_OK;
+	sub = npos ? pos[0] : NULL;
+	if (!sub) {
+		free(pos);
+		cli_print_help(&hook_cmd, stderr);
+		return EXIT_USAGE;
 	}
-	if (argc > 2 && (!strcmp(argv[2], "-h") || !strcmp(argv[2], "--help"))) {
-		fputs(hook_usage, stdout);
-		return EXIT_OK;
+	if (!strcmp(sub, "run")) {
+		rc = hook_run((int)npos, (char **)pos);
+		free(pos);
+		return rc;
 	}
-	if (!strcmp(sub, "run"))
-		return hook_run(argc, argv);
+	free(pos);
 	if (strcmp(sub, "install") && strcmp(sub, "uninstall") && strcmp(sub, "status"))
 		return cli_usage("hook", "unknown subcommand '%s'; use install, uninstall, status or run", sub);
-	if (argc > 2)
+	if (npos > 1)
 		return cli_usage("hook", "'%s' takes no arguments", sub);
 	if (omen_repo_open(&repo, NULL) || omen_hook_dir(&dir, repo)) {
 		rc = cli_fatal(NULL);

@@ -1,28 +1,10 @@
 /* git omen label: find fix commits, trace the lines they repair to the
  * commits that introduced them (SZZ), write the label file, print a summary. */
-#include <limits.h>
 #include <stdlib.h>
 #include <string.h>
 #include "cli/cli.h"
+#include "cli/options.h"
 #include "omen/label.h"
-
-static const char usage_text[] =
-	"usage: git omen label [<rev>...] [<options>]\n"
-	"\n"
-	"  -o <file>              write labels here (default $GIT_DIR/omen/labels.jsonl)\n"
-	"  --fix-pattern <re>     fix message pattern, POSIX extended regex, case-insensitive\n"
-	"  --fix-list <file>      extra fixes: commit ids or issue ids, optional YYYY-MM-DD date\n"
-	"  --window <days>        commits newer than this before the newest stay unknown (90)\n"
-	"  --max-fix-files <n>    skip fixes touching more files than this (50)\n"
-	"  --no-skip-blank        also trace blank and whitespace-only lines\n"
-	"  --no-skip-comments     also trace comment-only lines\n"
-	"  --no-ws-origin         a whitespace-only rewrite takes a new origin\n"
-	"  --no-renames           a renamed file starts with new origins\n"
-	"  --no-issue-dates       keep candidates newer than the fix's issue date\n"
-	"  --full                 relabel even when the previous labels are up to date\n"
-	"  --format <fmt>         summary as text (default) or json\n"
-	"  --dump-origins <file>  testing: write the origin of every line a fix deletes\n"
-	"  -h, --help             show this help\n";
 
 static const char *mode_name(int m)
 {
@@ -97,106 +79,114 @@ static void print_json(const omen_label_summary *s)
 		s->list_unmatched, s->new_commits, s->reused_commits, s->state_peak_bytes, s->seconds);
 }
 
+static const cli_option opt_fix_pattern = {
+	"--fix-pattern", CLI_STRING, "<re>", 0, 0, NULL,
+	"fix message pattern, POSIX extended regex, case-insensitive"};
+static const cli_option opt_fix_list = {
+	"--fix-list", CLI_STRING, "<file>", 0, 0, NULL,
+	"extra fixes: commit ids or issue ids, optional YYYY-MM-DD date"};
+static const cli_option opt_max_fix_files = {
+	"--max-fix-files", CLI_INT, "<n>", 0, 1000000000, "a count from 0 to 1000000000",
+	"skip fixes touching more files than this (default omen.maxFixFiles, else 50; 0: no limit)"};
+static const cli_option opt_no_skip_blank = {
+	"--no-skip-blank", CLI_FLAG, NULL, 0, 0, NULL, "also trace blank and whitespace-only lines"};
+static const cli_option opt_no_skip_comments = {
+	"--no-skip-comments", CLI_FLAG, NULL, 0, 0, NULL, "also trace comment-only lines"};
+static const cli_option opt_no_ws_origin = {
+	"--no-ws-origin", CLI_FLAG, NULL, 0, 0, NULL, "a whitespace-only rewrite takes a new origin"};
+static const cli_option opt_no_renames = {
+	"--no-renames", CLI_FLAG, NULL, 0, 0, NULL, "a renamed file starts with new origins"};
+static const cli_option opt_no_issue_dates = {
+	"--no-issue-dates", CLI_FLAG, NULL, 0, 0, NULL,
+	"keep candidates newer than the fix's issue date"};
+static const cli_option opt_full = {
+	"--full", CLI_FLAG, NULL, 0, 0, NULL, "relabel even when the previous labels are up to date"};
+static const cli_option opt_dump_origins = {
+	"--dump-origins", CLI_STRING, "<file>", 0, 0, NULL,
+	"testing: write the origin of every line a fix deletes"};
+
+typedef struct {
+	const char *labels, *format, *fix_pattern, *fix_list, *dump;
+	long long window, max_fix_files;
+	int window_set, max_set, no_blank, no_comments, no_ws, no_renames, no_issue, full;
+} label_args;
+
+/* Parses argv into o and a; -1 to go on, else the exit code. */
+static int parse_args(omen_label_opts *o, label_args *a, const char ***revs, int argc, char **argv)
+{
+	const cli_use uses[] = {
+		{&cli_opt_labels, &a->labels, NULL,
+			"write labels here (default omen.labels, else $GIT_DIR/omen/labels.jsonl)", NULL},
+		{&opt_fix_pattern, &a->fix_pattern, NULL, NULL, NULL},
+		{&opt_fix_list, &a->fix_list, NULL, NULL, NULL},
+		{&cli_opt_window, &a->window, NULL, NULL, &a->window_set},
+		{&opt_max_fix_files, &a->max_fix_files, NULL, NULL, &a->max_set},
+		{&opt_no_skip_blank, &a->no_blank, NULL, NULL, NULL},
+		{&opt_no_skip_comments, &a->no_comments, NULL, NULL, NULL},
+		{&opt_no_ws_origin, &a->no_ws, NULL, NULL, NULL},
+		{&opt_no_renames, &a->no_renames, NULL, NULL, NULL},
+		{&opt_no_issue_dates, &a->no_issue, NULL, NULL, NULL},
+		{&opt_full, &a->full, NULL, NULL, NULL},
+		{&cli_opt_format, &a->format, cli_formats_text_json, NULL, NULL},
+		{&opt_dump_origins, &a->dump, NULL, NULL, NULL},
+	};
+	const cli_command cmd = {"label", "usage: git omen label [<rev>...] [<options>]\n", NULL,
+		uses, sizeof(uses) / sizeof(uses[0])};
+	size_t n;
+	int rc;
+	memset(a, 0, sizeof(*a));
+	a->format = "text";
+	if ((rc = cli_parse(&cmd, argc, argv, revs, &n)) >= 0)
+		return rc;
+	o->fix_pattern = a->fix_pattern;
+	o->fix_list = a->fix_list;
+	o->dump_origins = a->dump;
+	if (a->window_set)
+		o->window_days = a->window;
+	if (a->max_set)
+		o->max_fix_files = (int)a->max_fix_files;
+	if (a->no_blank)
+		o->skip_blank = 0;
+	if (a->no_comments)
+		o->skip_comments = 0;
+	if (a->no_ws)
+		o->ws_keeps_origin = 0;
+	if (a->no_renames)
+		o->follow_renames = 0;
+	if (a->no_issue)
+		o->use_issue_dates = 0;
+	if (a->full || o->dump_origins)
+		o->incremental = 0;
+	o->revs = n ? *revs : NULL;
+	return -1;
+}
+
 int cmd_label(int argc, char **argv)
 {
 	omen_label_opts o;
 	omen_label_summary s;
+	label_args a;
 	omen_repo *repo = NULL;
-	const char *out = NULL, *format = "text", *val;
 	const char **revs = NULL;
-	int nrevs = 0, i, r, rc = EXIT_OK, e;
-	long long n;
+	int rc = EXIT_OK;
 
 	omen_label_opts_init(&o);
-	if (!(revs = calloc((size_t)argc + 1, sizeof(*revs))))
-		return cli_fatal("out of memory");
-	for (i = 1; i < argc; i++) {
-		const char *a = argv[i];
-		if (!strcmp(a, "-h") || !strcmp(a, "--help")) {
-			fputs(usage_text, stdout);
-			goto done;
-		} else if ((r = cli_opt_value(argc, argv, &i, "-o", &val))) {
-			if (r < 0)
-				goto missing;
-			out = val;
-		} else if ((r = cli_opt_value(argc, argv, &i, "--fix-pattern", &val))) {
-			if (r < 0)
-				goto missing;
-			o.fix_pattern = val;
-		} else if ((r = cli_opt_value(argc, argv, &i, "--fix-list", &val))) {
-			if (r < 0)
-				goto missing;
-			o.fix_list = val;
-		} else if ((r = cli_opt_value(argc, argv, &i, "--window", &val))) {
-			if (r < 0)
-				goto missing;
-			if (cli_parse_int(&n, val, 0, LLONG_MAX)) {
-				rc = cli_usage("label", "--window: '%s' is not a number of days", val);
-				goto done;
-			}
-			o.window_days = n;
-		} else if ((r = cli_opt_value(argc, argv, &i, "--max-fix-files", &val))) {
-			if (r < 0)
-				goto missing;
-			if (cli_parse_int(&n, val, 0, 1000000000)) {
-				rc = cli_usage("label", "--max-fix-files: '%s' is not a count", val);
-				goto done;
-			}
-			o.max_fix_files = (int)n;
-		} else if ((r = cli_opt_value(argc, argv, &i, "--format", &val))) {
-			if (r < 0)
-				goto missing;
-			if (strcmp(val, "text") && strcmp(val, "json")) {
-				rc = cli_usage("label", "--format: '%s' is not text or json", val);
-				goto done;
-			}
-			format = val;
-		} else if ((r = cli_opt_value(argc, argv, &i, "--dump-origins", &val))) {
-			if (r < 0)
-				goto missing;
-			o.dump_origins = val;
-		} else if (!strcmp(a, "--no-skip-blank")) {
-			o.skip_blank = 0;
-		} else if (!strcmp(a, "--no-skip-comments")) {
-			o.skip_comments = 0;
-		} else if (!strcmp(a, "--no-ws-origin")) {
-			o.ws_keeps_origin = 0;
-		} else if (!strcmp(a, "--no-renames")) {
-			o.follow_renames = 0;
-		} else if (!strcmp(a, "--no-issue-dates")) {
-			o.use_issue_dates = 0;
-		} else if (!strcmp(a, "--full")) {
-			o.incremental = 0;
-		} else if (a[0] == '-' && a[1]) {
-			rc = cli_usage("label", "unknown option '%s'; see 'git omen label --help'", a);
-			goto done;
-		} else {
-			revs[nrevs++] = a;
-		}
-	}
-	if (o.dump_origins)
-		o.incremental = 0;
-	o.revs = nrevs ? revs : NULL;
-	if ((e = omen_repo_open(&repo, NULL))) {
-		rc = cli_fatal(NULL);
-		goto done;
-	}
-	if ((e = omen_label_run(&s, repo, &o, out))) {
+	if ((rc = parse_args(&o, &a, &revs, argc, argv)) >= 0)
+		return rc;
+	rc = EXIT_OK;
+	if (omen_repo_open(&repo, NULL) || omen_label_run(&s, repo, &o, a.labels)) {
 		rc = cli_fatal(NULL);
 		goto done;
 	}
 	if (s.list_unmatched)
-		fprintf(stderr, "git omen: warning: %zu of %zu fix list entries matched no commit\n",
-			s.list_unmatched, s.list_entries);
+		cli_warning("%zu of %zu fix list entries matched no commit", s.list_unmatched,
+			s.list_entries);
 	if (s.untraced_missing)
-		fprintf(stderr, "git omen: warning: %zu deleted lines had no origin state\n", s.untraced_missing);
-	if (!strcmp(format, "json"))
+		cli_warning("%zu deleted lines had no origin state", s.untraced_missing);
+	if (!strcmp(a.format, "json"))
 		print_json(&s);
 	else
-		print_text(&s, s.mode == OMEN_LABEL_MODE_UPTODATE ? NULL : out);
-	goto done;
-missing:
-	rc = cli_usage("label", "option '%s' needs a value", argv[i]);
+		print_text(&s, s.mode == OMEN_LABEL_MODE_UPTODATE ? NULL : a.labels);
 done:
 	omen_repo_free(repo);
 	free(revs);

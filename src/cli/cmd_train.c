@@ -1,26 +1,13 @@
 /* git omen train: build (or reuse) the dataset of the repository's labelled
  * history, train the hierarchical model with its two baselines on a
  * time-ordered split, print them side by side on the test slice and write
- * the model atomically. `--info [FILE]` prints a model's metadata. */
+ * the model atomically. `--info` prints a model's metadata. */
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
 #include <unistd.h>
 #include "cli/cli.h"
-
-static const char usage_text[] =
-	"usage: git omen train [<rev>] [<options>]\n"
-	"   or: git omen train --info [<file>] [--format <fmt>]\n"
-	"\n"
-	"  --labels <file>        label file (default omen.labels or $GIT_DIR/omen/labels.jsonl)\n"
-	"  -o <file>              write the model here (default omen.model or $GIT_DIR/omen/model.omen)\n"
-	"  --epochs <n>           most training epochs; early stopping may stop sooner (30)\n"
-	"  --seed <n>             random seed (42)\n"
-	"  --threads <n>          worker threads (default omen.threads, else online cores, max 2)\n"
-	"  --no-cache             rebuild the dataset instead of reusing $GIT_DIR/omen/dataset.cache\n"
-	"  --format <fmt>         summary as text (default) or json\n"
-	"  --info                 print the metadata of a model file and exit\n"
-	"  -h, --help             show this help\n";
+#include "cli/options.h"
 
 typedef struct {
 	int tty;
@@ -214,7 +201,8 @@ static int cmd_info(const char *file, const char *format)
 		}
 	}
 	if (!path) {
-		rc = cli_fatal("out of memory");
+		omen_error_set(OMEN_ENOMEM, "out of memory");
+		rc = cli_fatal(NULL);
 		goto out;
 	}
 	if (omen_model_load(&m, path)) {
@@ -240,6 +228,101 @@ out:
 	return rc;
 }
 
+static const cli_option opt_info = {
+	"--info", CLI_FLAG, NULL, 0, 0, NULL,
+	"print the metadata of the model file (--model, else the default) and exit"};
+
+typedef struct {
+	const char *model, *labels, *format, *rev;
+	const char *revs[2];   /* {rev, NULL} for the dataset */
+	long long epochs, seed, threads;
+	int epochs_set, seed_set, threads_set, info, no_cache;
+} train_args;
+
+/* Parses argv into o and a; -1 to go on, else the exit code. */
+static int parse_args(omen_train_opts *o, train_args *a, int argc, char **argv)
+{
+	const cli_use uses[] = {
+		{&cli_opt_labels, &a->labels, NULL, NULL, NULL},
+		{&cli_opt_model, &a->model, NULL,
+			"write the model here (default omen.model, else $GIT_DIR/omen/model.omen)", NULL},
+		{&cli_opt_epochs, &a->epochs, NULL, NULL, &a->epochs_set},
+		{&cli_opt_seed, &a->seed, NULL, NULL, &a->seed_set},
+		{&cli_opt_threads, &a->threads, NULL, NULL, &a->threads_set},
+		{&cli_opt_no_cache, &a->no_cache, NULL, NULL, NULL},
+		{&cli_opt_format, &a->format, cli_formats_text_json, NULL, NULL},
+		{&opt_info, &a->info, NULL, NULL, NULL},
+	};
+	const cli_command cmd = {"train",
+		"usage: git omen train [<rev>] [<options>]\n"
+		"   or: git omen train --info [--model <file>] [--format <fmt>]\n", NULL,
+		uses, sizeof(uses) / sizeof(uses[0])};
+	const char **pos = NULL;
+	size_t n;
+	int rc;
+	memset(a, 0, sizeof(*a));
+	a->format = "text";
+	if ((rc = cli_parse(&cmd, argc, argv, &pos, &n)) >= 0)
+		return rc;
+	rc = -1;
+	if (n > 1)
+		rc = cli_usage("train", "more than one revision ('%s', '%s')", pos[0], pos[1]);
+	else if (n && a->info && a->model)
+		rc = cli_usage("train", "--info reads the --model file; got '%s' too", pos[0]);
+	else if (n && a->info) {
+		/* the old spelling `train --info <file>` */
+		cli_notice("'--info <file>' is now '--info --model <file>'; the old form goes in a "
+			"later release");
+		a->model = pos[0];
+	} else if (n)
+		a->rev = pos[0];
+	free(pos);
+	if (a->epochs_set)
+		o->epochs = (int)a->epochs;
+	if (a->seed_set)
+		o->seed = (uint64_t)a->seed;
+	if (a->threads_set)
+		o->threads = (int)a->threads;
+	return rc;
+}
+
+/* The repository's train lock, held until omen_lock_release(*fd). */
+static int take_lock(int *fd, char **lock_path, omen_repo *repo)
+{
+	int e;
+	*fd = -1;
+	if ((e = omen_repo_omen_path(lock_path, repo, "train.lock")))
+		return e;
+	if ((e = omen_lock_acquire(fd, *lock_path, 0))) {
+		*fd = -1;
+		if (e == OMEN_ELOCKED)
+			return omen_error_set(e, "cannot train: another 'git omen train' is running on "
+				"this repository (lock '%s')", *lock_path);
+		return e;
+	}
+	return 0;
+}
+
+/* The dataset of the labelled history up to rev (NULL: HEAD). */
+static int build_dataset(omen_dataset **ds, omen_dataset_opts *dopt, omen_repo *repo,
+	train_args *a)
+{
+	omen_caps caps = OMEN_CAPS_DEFAULT;
+	int64_t v64 = 0;
+	memset(dopt, 0, sizeof(*dopt));
+	dopt->caps = caps;
+	if (a->rev) {
+		a->revs[0] = a->rev;
+		dopt->revs = a->revs;
+	}
+	dopt->labels_path = a->labels;   /* NULL: omen.labels, else the default file */
+	dopt->use_cache = !a->no_cache;
+	if (omen_config_int(&v64, repo, "omen.memoryLimit"))
+		return -1;
+	dopt->max_bytes = v64;
+	return omen_dataset_build(ds, repo, dopt);
+}
+
 int cmd_train(int argc, char **argv)
 {
 	omen_train_opts o;
@@ -249,118 +332,37 @@ int cmd_train(int argc, char **argv)
 	omen_dataset *ds = NULL;
 	omen_model *m = NULL;
 	progress_state ps;
-	const char *out_path = NULL, *labels = NULL, *format = "text", *rev = NULL, *val;
-	const char *revs[2] = {NULL, NULL};
+	train_args a;
 	char *model_path = NULL, *lock_path = NULL;
-	int i, r, rc = EXIT_OK, info = 0, no_cache = 0, lock_fd = -1, e;
-	long long n;
+	int rc, lock_fd = -1, e;
 	int64_t v64;
 
 	omen_train_opts_init(&o);
-	for (i = 1; i < argc; i++) {
-		const char *a = argv[i];
-		if (!strcmp(a, "-h") || !strcmp(a, "--help")) {
-			fputs(usage_text, stdout);
-			return EXIT_OK;
-		} else if (!strcmp(a, "--info")) {
-			info = 1;
-		} else if (!strcmp(a, "--no-cache")) {
-			no_cache = 1;
-		} else if ((r = cli_opt_value(argc, argv, &i, "-o", &val))) {
-			if (r < 0) goto missing;
-			out_path = val;
-		} else if ((r = cli_opt_value(argc, argv, &i, "--labels", &val))) {
-			if (r < 0) goto missing;
-			labels = val;
-		} else if ((r = cli_opt_value(argc, argv, &i, "--epochs", &val))) {
-			if (r < 0) goto missing;
-			if (cli_parse_int(&n, val, 1, 10000))
-				return cli_usage("train", "--epochs: '%s' is not a count from 1 to 10000", val);
-			o.epochs = (int)n;
-		} else if ((r = cli_opt_value(argc, argv, &i, "--seed", &val))) {
-			if (r < 0) goto missing;
-			if (cli_parse_int(&n, val, 0, INT64_MAX))
-				return cli_usage("train", "--seed: '%s' is not a non-negative integer", val);
-			o.seed = (uint64_t)n;
-		} else if ((r = cli_opt_value(argc, argv, &i, "--threads", &val))) {
-			if (r < 0) goto missing;
-			if (cli_parse_int(&n, val, 1, 64))
-				return cli_usage("train", "--threads: '%s' is not a count from 1 to 64", val);
-			o.threads = (int)n;
-		} else if ((r = cli_opt_value(argc, argv, &i, "--format", &val))) {
-			if (r < 0) goto missing;
-			if (strcmp(val, "text") && strcmp(val, "json"))
-				return cli_usage("train", "--format: '%s' is not text or json", val);
-			format = val;
-		} else if (a[0] == '-' && a[1]) {
-			return cli_usage("train", "unknown option '%s'", a);
-		} else if (!rev) {
-			rev = a;
-		} else {
-			return cli_usage("train", "more than one revision ('%s', '%s')", rev, a);
-		}
-	}
-	if (info)
-		return cmd_info(rev, format);
-
-	if (omen_repo_open(&repo, NULL)) {
-		rc = cli_fatal(NULL);
-		goto out;
-	}
-	if (out_path) {
-		if (!(model_path = strdup(out_path))) {
-			rc = cli_fatal("out of memory");
-			goto out;
+	if ((rc = parse_args(&o, &a, argc, argv)) >= 0)
+		return rc;
+	if (a.info)
+		return cmd_info(a.model, a.format);
+	rc = EXIT_OK;
+	if (omen_repo_open(&repo, NULL))
+		goto fatal;
+	if (a.model) {
+		if (!(model_path = strdup(a.model))) {
+			omen_error_set(OMEN_ENOMEM, "out of memory");
+			goto fatal;
 		}
 	} else if (default_model_path(&model_path, repo)) {
-		rc = cli_fatal(NULL);
-		goto out;
+		goto fatal;
 	}
 	if (!o.threads) {
 		v64 = 0;
-		if (omen_config_int(&v64, repo, "omen.threads")) {
-			rc = cli_fatal(NULL);
-			goto out;
-		}
+		if (omen_config_int(&v64, repo, "omen.threads"))
+			goto fatal;
 		if (v64 > 0)
-			o.threads = v64 > 64 ? 64 : (int)v64;
+			o.threads = v64 > OMEN_THREADS_MAX ? OMEN_THREADS_MAX : (int)v64;
 	}
 	/* one train per repository at a time: a second one refuses */
-	if (omen_repo_omen_path(&lock_path, repo, "train.lock")) {
-		rc = cli_fatal(NULL);
-		goto out;
-	}
-	if ((e = omen_lock_acquire(&lock_fd, lock_path, 0))) {
-		lock_fd = -1;
-		if (e == OMEN_ELOCKED)
-			fprintf(stderr, "git omen: cannot train: another 'git omen train' is running on this "
-				"repository (lock '%s')\n", lock_path);
-		else
-			cli_fatal(NULL);
-		rc = EXIT_FATAL;
-		goto out;
-	}
-	memset(&dopt, 0, sizeof(dopt));
-	{
-		omen_caps caps = OMEN_CAPS_DEFAULT;
-		dopt.caps = caps;
-	}
-	if (rev) {
-		revs[0] = rev;
-		dopt.revs = revs;
-	}
-	dopt.labels_path = labels;   /* NULL: omen.labels, else the default file */
-	dopt.use_cache = !no_cache;
-	v64 = 0;
-	if (omen_config_int(&v64, repo, "omen.memoryLimit")) {
-		rc = cli_fatal(NULL);
-		goto out;
-	}
-	dopt.max_bytes = v64;
-	if (omen_dataset_build(&ds, repo, &dopt)) {
-		rc = cli_fatal(NULL);
-		goto out;
-	}
+	if (take_lock(&lock_fd, &lock_path, repo) || build_dataset(&ds, &dopt, repo, &a))
+		goto fatal;
 	o.caps = dopt.caps;
 	ps.tty = isatty(2);
 	ps.start = omen_now();
@@ -369,18 +371,15 @@ int cmd_train(int argc, char **argv)
 	e = omen_model_train(&m, &rep, ds, &o);
 	if (ps.tty)
 		fputs("\r\033[K", stderr);
-	if (e) {
-		rc = cli_fatal(NULL);
-		goto out;
-	}
-	if (omen_model_save(m, model_path)) {
-		rc = cli_fatal(NULL);
-		goto out;
-	}
-	if (!strcmp(format, "json"))
+	if (e || omen_model_save(m, model_path))
+		goto fatal;
+	if (!strcmp(a.format, "json"))
 		print_json(&rep, ds, model_path);
 	else
 		print_text(&rep, ds, model_path);
+	goto out;
+fatal:
+	rc = cli_fatal(NULL);
 out:
 	if (lock_fd >= 0)
 		omen_lock_release(lock_fd);
@@ -390,6 +389,4 @@ out:
 	free(model_path);
 	free(lock_path);
 	return rc;
-missing:
-	return cli_usage("train", "option '%s' needs a value", argv[i]);
 }

@@ -8,6 +8,7 @@
 #include <malloc.h>
 #endif
 #include "cli/cli.h"
+#include "cli/options.h"
 
 static const struct {
 	const char *name;
@@ -34,18 +35,50 @@ static void usage(FILE *fp)
 		"'git omen <command> --help' shows a command's options; 'man git-omen' the manual.\n");
 }
 
+/* Every error, warning and notice line goes through the sanitiser: the
+ * messages quote paths, names and values that come from history or from
+ * files (DEVELOPERS.md "Hardening"). Our own wording is plain ASCII and
+ * shows unchanged. */
+static void tagged(const char *tag, const char *fmt, va_list ap)
+{
+	char stack[1024];
+	omen_buf m = OMEN_BUF_INIT;
+	va_list aq;
+	int n;
+	va_copy(aq, ap);
+	n = vsnprintf(stack, sizeof(stack), fmt, aq);
+	va_end(aq);
+	if (n >= (int)sizeof(stack)) {
+		char *big = malloc((size_t)n + 1);
+		if (big && vsnprintf(big, (size_t)n + 1, fmt, ap) == n && !omen_buf_put_shown(&m, big, (size_t)n, 0))
+			fprintf(stderr, "git omen: %s: %s\n", tag, m.ptr);
+		else
+			fprintf(stderr, "git omen: %s: (message lost: out of memory)\n", tag);
+		free(big);
+	} else if (n >= 0 && !omen_buf_put_shown(&m, stack, (size_t)n, 0)) {
+		fprintf(stderr, "git omen: %s: %s\n", tag, m.ptr ? m.ptr : "");
+	} else {
+		fprintf(stderr, "git omen: %s: %s\n", tag, n >= 0 ? stack : "(bad message)");
+	}
+	omen_buf_free(&m);
+}
+
+int cli_error(const char *fmt, ...)
+{
+	va_list ap;
+	va_start(ap, fmt);
+	tagged("error", fmt, ap);
+	va_end(ap);
+	return EXIT_FATAL;
+}
+
 int cli_fatal(const char *what)
 {
-	omen_buf m = OMEN_BUF_INIT;
-	const char *msg;
-	/* the message may quote history (paths, names): shown escaped */
-	msg = omen_buf_puts_shown(&m, omen_error_last(), 0) ? omen_error_last() : m.ptr;
+	/* the message may quote history: cli_error shows it escaped */
+	const char *msg = omen_error_last();
 	if (what && *what)
-		fprintf(stderr, "git omen: %s%s%s\n", what, *msg ? ": " : "", msg);
-	else
-		fprintf(stderr, "git omen: %s\n", *msg ? msg : "unknown error");
-	omen_buf_free(&m);
-	return EXIT_FATAL;
+		return cli_error("%s%s%s", what, *msg ? ": " : "", msg);
+	return cli_error("%s", *msg ? msg : "unknown error");
 }
 
 int cli_usage(const char *cmd, const char *fmt, ...)
@@ -59,32 +92,20 @@ int cli_usage(const char *cmd, const char *fmt, ...)
 	return EXIT_USAGE;
 }
 
-int cli_opt_value(int argc, char **argv, int *i, const char *name, const char **val)
+void cli_warning(const char *fmt, ...)
 {
-	size_t n = strlen(name);
-	const char *a = argv[*i];
-	if (strncmp(a, name, n))
-		return 0;
-	if (a[n] == '=') {
-		*val = a + n + 1;
-		return 1;
-	}
-	if (a[n] != '\0')
-		return 0;
-	if (*i + 1 >= argc)
-		return -1;
-	*val = argv[++*i];
-	return 1;
+	va_list ap;
+	va_start(ap, fmt);
+	tagged("warning", fmt, ap);
+	va_end(ap);
 }
 
-int cli_parse_int(long long *out, const char *v, long long lo, long long hi)
+void cli_notice(const char *fmt, ...)
 {
-	char *end;
-	long long x = strtoll(v, &end, 10);
-	if (!*v || *end || x < lo || x > hi)
-		return -1;
-	*out = x;
-	return 0;
+	va_list ap;
+	va_start(ap, fmt);
+	tagged("notice", fmt, ap);
+	va_end(ap);
 }
 
 int cli_use_color(FILE *fp)
@@ -97,8 +118,15 @@ int cli_use_color(FILE *fp)
 
 int cmd_version(int argc, char **argv)
 {
-	int maj, min, rev;
-	(void)argc; (void)argv;
+	static const cli_command cmd = {"version", "usage: git omen version\n", NULL, NULL, 0};
+	const char **pos = NULL;
+	size_t npos;
+	int maj, min, rev, rc;
+	if ((rc = cli_parse(&cmd, argc, argv, &pos, &npos)) >= 0)
+		return rc;
+	free(pos);
+	if (npos)
+		return cli_usage("version", "'%s': version takes no arguments", argv[1]);
 	git_libgit2_version(&maj, &min, &rev);
 	printf("git-omen %s (libgit2 %d.%d.%d)\n", OMEN_VERSION, maj, min, rev);
 	return EXIT_OK;
@@ -114,6 +142,23 @@ static void malloc_setup(void)
 #ifdef __GLIBC__
 	mallopt(M_MMAP_THRESHOLD, 1 << 20);
 #endif
+}
+
+/* "'x' is not an omen command", with the nearest command name. */
+static int unknown_command(const char *name)
+{
+	size_t i, d, best = (size_t)-1, at = 0;
+	for (i = 0; i < sizeof(commands) / sizeof(commands[0]); i++)
+		if ((d = cli_edit_distance(name, commands[i].name)) < best) {
+			best = d;
+			at = i;
+		}
+	if (best <= 2 && best < strlen(name))
+		fprintf(stderr, "git omen: '%s' is not an omen command; did you mean '%s'?\n", name,
+			commands[at].name);
+	else
+		fprintf(stderr, "git omen: '%s' is not an omen command; see 'git omen --help'\n", name);
+	return EXIT_USAGE;
 }
 
 int main(int argc, char **argv)
@@ -145,6 +190,5 @@ int main(int argc, char **argv)
 			return rc;
 		}
 	}
-	fprintf(stderr, "git omen: '%s' is not an omen command; see 'git omen --help'\n", argv[1]);
-	return EXIT_USAGE;
+	return unknown_command(argv[1]);
 }

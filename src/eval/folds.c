@@ -11,6 +11,7 @@
 #include <string.h>
 #include <time.h>
 #include "omen/eval.h"
+#include "omen/label.h"
 #include "omen/error.h"
 
 #define DAY 86400
@@ -20,7 +21,7 @@ void omen_fold_opts_init(omen_fold_opts *o)
 	memset(o, 0, sizeof(*o));
 	o->folds = 5;
 	o->fold_days = 0;
-	o->gap_days = 90;
+	o->gap_days = OMEN_WINDOW_DAYS;
 	o->min_train = 100;
 	o->valid_frac = 0.15;
 }

@@ -17,7 +17,7 @@ void omen_eval_opts_init(omen_eval_opts *o)
 	omen_fold_opts_init(&o->folds);
 	omen_train_opts_init(&o->train);
 	o->bootstrap = 1000;
-	o->seed = 1;
+	o->seed = OMEN_SEED_DEFAULT;
 	o->top_risky = 10;
 }
 

@@ -936,7 +936,7 @@ int omen_label_run(omen_label_summary *sum, omen_repo *r, const omen_label_opts 
 	if (!o.fix_list && (e = omen_config_string(&cfg_list, r, "omen.fixList")))
 		goto out;
 	if (o.window_days < 0) {
-		v = 90;
+		v = OMEN_WINDOW_DAYS;
 		if ((e = omen_config_int(&v, r, "omen.window")))
 			goto out;
 		o.window_days = v;

@@ -23,7 +23,7 @@
 void omen_train_opts_init(omen_train_opts *o)
 {
 	memset(o, 0, sizeof(*o));
-	o->epochs = 30;
+	o->epochs = OMEN_EPOCHS_DEFAULT;
 	o->patience = 5;
 	o->batch = 32;
 	o->lr = 5e-4f;
@@ -31,7 +31,7 @@ void omen_train_opts_init(omen_train_opts *o)
 	o->clip = 1.0f;
 	o->dropout = 0.1f;
 	o->threads = 0;
-	o->seed = 42;
+	o->seed = OMEN_SEED_DEFAULT;
 	o->valid_frac = 0.15;
 	o->test_frac = 0.15;
 	o->refit = 1;

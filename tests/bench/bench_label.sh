@@ -20,9 +20,9 @@ cd "$repo" || exit 1
 n=$(git rev-list --count HEAD)
 echo "history: $(basename "$repo"), $n commits ($(git rev-list --count --no-merges HEAD) non-merge)"
 /usr/bin/time -f "%e %U %S %M" -o "$tmp/gitlog.t" git log -p -U0 --no-merges >/dev/null
-/usr/bin/time -f "%e %U %S %M" -o "$tmp/label.t" "$OMEN" label --full -o "$tmp/labels.jsonl" \
+/usr/bin/time -f "%e %U %S %M" -o "$tmp/label.t" "$OMEN" label --full --labels "$tmp/labels.jsonl" \
 	--dump-origins "$tmp/dump.txt" >"$tmp/summary.txt"
-/usr/bin/time -f "%e %U %S %M" -o "$tmp/label2.t" "$OMEN" label --full -o "$tmp/labels2.jsonl" >/dev/null
+/usr/bin/time -f "%e %U %S %M" -o "$tmp/label2.t" "$OMEN" label --full --labels "$tmp/labels2.jsonl" >/dev/null
 "$py" - "$tmp" "$repo" "${OMEN_BENCH_BLAME_SAMPLE:-150}" <<'PY'
 import collections, random, subprocess, sys, time
 tmp, repo, sample = sys.argv[1], sys.argv[2], int(sys.argv[3])

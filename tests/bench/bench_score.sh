@@ -23,7 +23,7 @@ PATH="$(dirname "$OMEN"):$PATH"; export PATH
 cd "$tmp/repo"
 "$OMEN" label >/dev/null
 "$OMEN" train HEAD~10 >/dev/null 2>&1
-"$OMEN" train HEAD~210 -o "$tmp/old.omen" >/dev/null 2>&1
+"$OMEN" train HEAD~210 --model "$tmp/old.omen" >/dev/null 2>&1
 git clone -q --bare . "$tmp/remote.git"
 git -C "$tmp/remote.git" update-ref refs/heads/main "$(git rev-parse main~10)"
 git remote add origin "$tmp/remote.git"

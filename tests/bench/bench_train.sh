@@ -34,7 +34,7 @@ for run in $runs; do
 		"$OMEN" label >/dev/null
 	fi
 	t0=$(date +%s.%N)
-	/usr/bin/time -f "%M" -o "$tmp/rss" "$OMEN" train --format json -o "$tmp/m.omen" \
+	/usr/bin/time -f "%M" -o "$tmp/rss" "$OMEN" train --format json --model "$tmp/m.omen" \
 		>"$tmp/train.json"
 	t1=$(date +%s.%N)
 	/usr/bin/python3 - "$tmp/train.json" "$t0" "$t1" "$(cat "$tmp/rss")" "$run" <<'PY'

@@ -22,7 +22,7 @@ done
 if [ -n "$OMEN_REF_REPO" ]; then
 	echo "real history: $(basename "$OMEN_REF_REPO")"
 	here=$PWD
-	(cd "$OMEN_REF_REPO" && "$OMEN" label --full -o "$here/real-labels.jsonl" --dump-origins "$here/real.dump" >/dev/null)
+	(cd "$OMEN_REF_REPO" && "$OMEN" label --full --labels "$here/real-labels.jsonl" --dump-origins "$here/real.dump" >/dev/null)
 	"$py" "$lib/blame_compare.py" "$OMEN_REF_REPO" real.dump --sample "${OMEN_REF_SAMPLE:-250}" --seed 1 --min-agree 0.75
 	"$py" "$lib/named_oracle.py" "$OMEN_REF_REPO" real.dump
 else

@@ -221,8 +221,8 @@ for _ in range(200): w.write(chunk); w.write(b"x" * 15 + b"\n")
 	if ! have features; then
 		report pending "200 MiB file: notice" "features"
 	else
-		om bff features HEAD~1..HEAD~0 --format jsonl
-		om bff features HEAD~2..HEAD~1 --format jsonl
+		om bff features HEAD~1..HEAD~0 --format json
+		om bff features HEAD~2..HEAD~1 --format json
 		if [ "$rc" -eq 0 ] && grep -q "omen.maxBlobBytes" "$here/bff.err"; then
 			report ok "200 MiB file: notice" "features: $(first_err bff | cut -c1-80)"
 		else
@@ -388,7 +388,7 @@ row_model_truncated() {
 			off=$((off + 4096)); continue
 		fi
 		head -c "$off" "$model" > "$big/trunc.omen"
-		git omen train --info "$big/trunc.omen" > /dev/null 2> "$here/tr.err"; rc=$?
+		git omen train --info --model "$big/trunc.omen" > /dev/null 2> "$here/tr.err"; rc=$?
 		n=$((n + 1))
 		if [ "$rc" -ne 128 ] || ! one_line tr "cannot read model '.*trunc.omen': "; then
 			bad=$((bad + 1)); [ -n "$firstbad" ] || firstbad="at $off: rc=$rc $(first_err tr)"
@@ -414,7 +414,7 @@ row_model_flipped() {
 import sys
 d = bytearray(open(sys.argv[1], "rb").read()); d[int(sys.argv[2])] ^= 0x40
 open(sys.argv[3], "wb").write(d)' "$model" "$at" "$here/flip.omen"
-		git omen train --info "$here/flip.omen" > /dev/null 2> "$here/fl.err"; rc=$?
+		git omen train --info --model "$here/flip.omen" > /dev/null 2> "$here/fl.err"; rc=$?
 		if [ "$rc" -ne 128 ] || ! one_line fl "cannot read model '.*flip.omen': $want"; then
 			bad="$bad byte $at: rc=$rc $(first_err fl);"
 		fi
@@ -444,7 +444,7 @@ lines = open(sys.argv[1], "rb").read().split(b"\n")
 lines[4] = lines[4][: len(lines[4]) // 2]   # line 5 cut in half
 open(sys.argv[2], "wb").write(b"\n".join(lines))' "$demo/.git/omen/labels.jsonl" "$here/broken.jsonl"
 	cd "$demo" || return
-	om lb train --labels "$here/broken.jsonl" -o "$here/unused.omen"
+	om lb train --labels "$here/broken.jsonl" --model "$here/unused.omen"
 	if [ "$rc" -eq 128 ] && one_line lb "bad label file '.*broken.jsonl': line 5: " &&
 	   [ ! -f "$here/unused.omen" ]; then
 		report ok "label file with a broken line" "128: $(first_err lb | cut -c1-80)"
@@ -471,17 +471,17 @@ row_two_trains() {
 	cd "$demo" || return
 	lock=.git/omen/train.lock
 	# "$OMEN" itself, not `git omen`: $! must be the omen process
-	"$OMEN" train --epochs 30 --no-cache -o "$here/a.omen" > "$here/ta.out" 2> "$here/ta.err" &
+	"$OMEN" train --epochs 30 --no-cache --model "$here/a.omen" > "$here/ta.out" 2> "$here/ta.err" &
 	pa=$!; pids="$pids $pa"
 	if ! wait_locked "$lock" "$pa"; then
 		wait "$pa"
 		report skip "two train runs at once" "first run finished before the second could start"
 		return
 	fi
-	om tb train --epochs 1 -o "$here/b.omen"
+	om tb train --epochs 1 --model "$here/b.omen"
 	rcb=$rc
 	wait "$pa"; rca=$?
-	git omen train --info "$here/a.omen" > /dev/null 2>&1; rci=$?
+	git omen train --info --model "$here/a.omen" > /dev/null 2>&1; rci=$?
 	if [ "$rcb" -eq 128 ] && one_line tb "lock|another" && [ ! -f "$here/b.omen" ] &&
 	   [ "$rca" -eq 0 ] && [ "$rci" -eq 0 ]; then
 		report ok "two train runs at once" "second refused: $(first_err tb | cut -c1-60)"
@@ -503,7 +503,7 @@ row_kill_train() {
 	sleep 0.3
 	if kill -9 "$p" 2>/dev/null; then phase="killed while running"; else phase="finished first"; fi
 	wait "$p" 2>/dev/null
-	git omen train --info "$model" > /dev/null 2> "$here/kt.err"; rci=$?
+	git omen train --info --model "$model" > /dev/null 2> "$here/kt.err"; rci=$?
 	# the invariant: the model file is the old one or a complete new one
 	# (a kill that lands after the rename, while omen exits, leaves the
 	# new model, which must load: its length and checksum are verified)
@@ -550,14 +550,14 @@ row_memory_limit() {
 		report FAIL "omen.memoryLimit: label" "rc=$rc $(first_err ml)"
 	fi
 	have train || return
-	git -c omen.memoryLimit=64k omen train --no-cache -o "$here/ml.omen" > "$here/mt.out" 2> "$here/mt.err"; rc=$?
+	git -c omen.memoryLimit=64k omen train --no-cache --model "$here/ml.omen" > "$here/mt.out" 2> "$here/mt.err"; rc=$?
 	if [ "$rc" -eq 128 ] && one_line mt "memory limit" && [ ! -f "$here/ml.omen" ]; then
 		report ok "omen.memoryLimit: train" "128: $(first_err mt | cut -c1-70)"
 	else
 		report FAIL "omen.memoryLimit: train" "rc=$rc $(first_err mt)"
 	fi
 	# the limit holds when the dataset comes from the cache, too
-	git -c omen.memoryLimit=64k omen train -o "$here/ml2.omen" > "$here/mc.out" 2> "$here/mc.err"; rc=$?
+	git -c omen.memoryLimit=64k omen train --model "$here/ml2.omen" > "$here/mc.out" 2> "$here/mc.err"; rc=$?
 	if [ "$rc" -eq 128 ] && one_line mc "memory limit" && [ ! -f "$here/ml2.omen" ]; then
 		report ok "omen.memoryLimit: train, cached" "128: $(first_err mc | cut -c1-70)"
 	else
@@ -569,7 +569,7 @@ row_bad_config() {
 	have label || { report pending "bad config value" "label"; return; }
 	cd "$H" || return
 	git -c omen.window=abc omen label > /dev/null 2> "$here/bc.err"; rc=$?
-	if [ "$rc" -eq 128 ] && one_line bc "^git omen: bad config value 'omen.window': 'abc' is not an integer$"; then
+	if [ "$rc" -eq 128 ] && one_line bc "^git omen: error: bad config value 'omen.window': 'abc' is not an integer$"; then
 		report ok "bad config value (git -c)" "128: $(first_err bc)"
 	else
 		report FAIL "bad config value (git -c)" "rc=$rc $(first_err bc)"
@@ -726,7 +726,7 @@ row_read_kinds() {
 	cd "$demo" || return
 	# memory stays bounded whatever a regression does (memcap)
 	(memcap; guard git -c omen.memoryLimit=200m -c omen.labels=/dev/zero omen train \
-		-o "$here/z.omen") > "$here/rz.out" 2> "$here/rz.err"; rc=$?
+		--model "$here/z.omen") > "$here/rz.out" 2> "$here/rz.err"; rc=$?
 	if [ "$rc" -eq 128 ] && one_line rz "not a regular file$" && [ ! -e "$here/z.omen" ]; then
 		report ok "omen.labels=/dev/zero" "128: $(first_err rz | cut -c1-70)"
 	else
@@ -745,7 +745,7 @@ row_read_kinds() {
 	else
 		report FAIL "model is a FIFO" "rc=$rc (124: it waited) $(first_err mf)"
 	fi
-	(guard git -c omen.labels="$here/mfifo" omen train -o "$here/f.omen") > "$here/lf.out" 2> "$here/lf.err"; rc=$?
+	(guard git -c omen.labels="$here/mfifo" omen train --model "$here/f.omen") > "$here/lf.out" 2> "$here/lf.err"; rc=$?
 	if [ "$rc" -eq 128 ] && one_line lf "not a regular file$"; then
 		report ok "labels are a FIFO" "128 without waiting"
 	else
@@ -754,13 +754,20 @@ row_read_kinds() {
 	# a (sparse) 300 MiB label file over omen.memoryLimit=200m: refused by its size
 	truncate -s 300M "$big/labels300.jsonl"
 	(memcap; guard git -c omen.memoryLimit=200m -c omen.labels="$big/labels300.jsonl" omen train \
-		--no-cache -o "$here/s.omen") > "$here/ls.out" 2> "$here/ls.err"; rc=$?
+		--no-cache --model "$here/s.omen") > "$here/ls.out" 2> "$here/ls.err"; rc=$?
 	if [ "$rc" -eq 128 ] && one_line ls "memory limit"; then
 		report ok "labels over omen.memoryLimit" "128: $(first_err ls | sed "s|$big/||" | cut -c1-70)"
 	else
 		report FAIL "labels over omen.memoryLimit" "rc=$rc $(first_err ls)"
 	fi
 	rm -f "$big/labels300.jsonl"
+	# error lines quote names as they are: shown escaped too
+	om me score HEAD --model "$here/$(printf 'm\033[2J\033]0;t\007.omen')"
+	if [ "$rc" -eq 128 ] && one_line me 'm\\033\[2J\\033\]0;t\\a\.omen' && no_ctl "$here/me.err"; then
+		report ok "escape bytes in an error line" "$(first_err me | sed "s|$here/||")"
+	else
+		report FAIL "escape bytes in an error line" "rc=$rc $(first_err me | cat -v)"
+	fi
 }
 
 t0=$(date +%s)

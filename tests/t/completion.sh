@@ -50,6 +50,6 @@ for cmd in label train score explain eval features; do
 done
 check "score --format=" "$(comp 'git omen score --format=')" "$(printf '%s\n' json sarif text)"
 check "score --sort " "$(comp 'git omen score --sort ')" "$(printf '%s\n' history per-line risk)"
-check "features --format " "$(comp 'git omen features --format ')" "$(printf '%s\n' csv jsonl)"
+check "features --format " "$(comp 'git omen features --format ')" "$(printf '%s\n' csv json)"
 check "hook actions" "$(comp 'git omen hook ')" "$(printf '%s\n' install run status uninstall)"
 exit $fail

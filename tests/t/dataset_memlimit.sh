@@ -11,14 +11,14 @@ top=$PWD
 /usr/bin/python3 "$ROOT/fixtures/demo/gen.py" --seed 5 --commits 300 --out "$top/repo" --quiet
 cd repo
 "$OMEN" label >/dev/null
-"$OMEN" train HEAD~20 -o "$top/m0.omen" >/dev/null 2>&1 || fail "training failed"
+"$OMEN" train HEAD~20 --model "$top/m0.omen" >/dev/null 2>&1 || fail "training failed"
 [ -f .git/omen/dataset.cache ] || fail "no dataset cache written"
 
 lim() { GIT_CONFIG_PARAMETERS="'omen.memoryLimit'='$1'"; export GIT_CONFIG_PARAMETERS; }
 lim 1
-rc=0; "$OMEN" train HEAD~20 -o "$top/m1.omen" >/dev/null 2>err || rc=$?
+rc=0; "$OMEN" train HEAD~20 --model "$top/m1.omen" >/dev/null 2>err || rc=$?
 [ "$rc" -eq 128 ] || fail "cached, limit 1: exit $rc"
-n=$(sed -n 's/^git omen: cannot load dataset: \([0-9]*\) bytes after [0-9]* commits is over the memory limit of 1 bytes (omen\.memoryLimit)$/\1/p' err)
+n=$(sed -n 's/^git omen: error: cannot load dataset: \([0-9]*\) bytes after [0-9]* commits is over the memory limit of 1 bytes (omen\.memoryLimit)$/\1/p' err)
 [ -n "$n" ] || fail "load message: $(cat err)"
 [ "$n" -gt 1000 ] || fail "implausible dataset weight $n"
 
@@ -26,10 +26,10 @@ n=$(sed -n 's/^git omen: cannot load dataset: \([0-9]*\) bytes after [0-9]* comm
 lim $((n - 1))
 for how in cached --no-cache; do
 	flag=; [ "$how" = cached ] || flag=--no-cache
-	rc=0; "$OMEN" train HEAD~20 $flag -o "$top/m2.omen" >/dev/null 2>err || rc=$?
+	rc=0; "$OMEN" train HEAD~20 $flag --model "$top/m2.omen" >/dev/null 2>err || rc=$?
 	[ "$rc" -eq 128 ] || fail "$how, limit N-1: exit $rc"
 	[ "$(wc -l <err)" -eq 1 ] || fail "$how, limit N-1: not one line: $(cat err)"
-	grep -q "^git omen: cannot .* dataset: $n bytes after [0-9]* commits is over the memory limit of $((n - 1)) bytes (omen\.memoryLimit)$" err ||
+	grep -q "^git omen: error: cannot .* dataset: $n bytes after [0-9]* commits is over the memory limit of $((n - 1)) bytes (omen\.memoryLimit)$" err ||
 		fail "$how, limit N-1: $(cat err)"
 	[ ! -f "$top/m2.omen" ] || fail "$how, limit N-1: a model was written"
 done
@@ -38,6 +38,6 @@ grep -q "cannot build dataset" err || fail "--no-cache did not take the build pa
 # N: both paths go through
 lim "$n"
 for flag in "" --no-cache; do
-	"$OMEN" train HEAD~20 $flag -o "$top/m3.omen" >/dev/null 2>err || fail "limit N ${flag:-cached}: $(cat err)"
+	"$OMEN" train HEAD~20 $flag --model "$top/m3.omen" >/dev/null 2>err || fail "limit N ${flag:-cached}: $(cat err)"
 done
 echo "ok: dataset weighs $n bytes on both paths"

@@ -2,9 +2,11 @@
 # Every option `git-omen <cmd> --help` lists appears in the OPTIONS section of
 # man/git-omen-<cmd>.1, and every option that section lists appears in the
 # --help text (the CLI contract; options are lines whose first token starts
-# with "-"). The subcommands are the ones `git-omen --help` lists. The man
-# pages are rendered with mandoc (mandoc(1)), so man(7) and mdoc(7) sources
-# both work. Run by tests/run-shell.sh with $OMEN and $ROOT.
+# with "-"), and every number in a help line's "(default ...)" appears in
+# that option's paragraph of the page. The subcommands are the ones
+# `git-omen --help` lists. The man pages are rendered with mandoc
+# (mandoc(1)), so man(7) and mdoc(7) sources both work. Run by
+# tests/run-shell.sh with $OMEN and $ROOT.
 set -u
 : "${OMEN:?}" "${ROOT:?}"
 command -v mandoc >/dev/null || { echo "help_matches_man: mandoc is not installed" >&2; exit 1; }
@@ -30,6 +32,34 @@ opts() {
 				break
 		}
 	}' | sort -u
+}
+
+# "option number" for each number inside a help line's "(default ...)":
+# "--epochs <n>  most training epochs (default 30)" gives "--epochs 30".
+help_defaults() {
+	awk '
+	$1 ~ /^-/ && match($0, /\(default [^)]*\)/) {
+		opt = $1; sub(/,$/, "", opt)
+		d = substr($0, RSTART, RLENGTH)
+		while (match(d, /[0-9]+/)) {
+			print opt, substr(d, RSTART, RLENGTH)
+			d = substr(d, RSTART + RLENGTH)
+		}
+	}'
+}
+
+# Whether the man page's paragraph for option $1 (its tag line and text up
+# to the next tag) holds the number $2 as a word; reads man_options output.
+man_has_number() {
+	awk -v opt="$1" -v num="$2" '
+	/^     [^ ]/ { t = $1; sub(/,$/, "", t); on = (t == opt) }
+	on { text = text " " $0 }
+	END {
+		gsub(/[^0-9]/, " ", text)
+		n = split(text, w, " ")
+		for (i = 1; i <= n; i++) if (w[i] == num) exit 0
+		exit 1
+	}'
 }
 
 # The OPTIONS section of a rendered man page: from the OPTIONS heading to the
@@ -80,9 +110,18 @@ for cmd in $cmds; do
 		echo "FAIL $cmd: in man/git-omen-$cmd.1 OPTIONS but not in --help: $only_man"
 		bad=1
 	fi
+	# the defaults --help states are the ones the page states
+	man_options "$page" >man.txt
+	printf '%s\n' "$help" | help_defaults >help.defaults
+	while read -r opt num; do
+		if ! man_has_number "$opt" "$num" <man.txt; then
+			echo "FAIL $cmd: --help gives $opt a default with $num; man/git-omen-$cmd.1 does not"
+			bad=1
+		fi
+	done <help.defaults
 	checked=$((checked + 1))
 	if [ "$bad" -eq 0 ]; then
-		echo "ok   $cmd: $(wc -l <help.opts) options agree"
+		echo "ok   $cmd: $(wc -l <help.opts) options agree, $(wc -l <help.defaults) defaults"
 	else
 		fail=1
 	fi

@@ -83,6 +83,8 @@ set +e
 "$OMEN" score HEAD --fail-above 1.5 2>err; rc=$?
 [ "$rc" -eq 129 ] || fail "--fail-above 1.5 exit $rc"
 one_line err "bad --fail-above"
+grep -qx "git omen score: bad value '1.5' for --fail-above: expected a probability from 0 to 1" err ||
+	fail "--fail-above 1.5 message: $(cat err)"
 "$OMEN" score HEAD --format xml 2>err; rc=$?
 [ "$rc" -eq 129 ] || fail "--format xml exit $rc"
 "$OMEN" score HEAD --bogus 2>err; rc=$?
@@ -90,6 +92,8 @@ one_line err "bad --fail-above"
 "$OMEN" score HEAD --sort size 2>err; rc=$?
 [ "$rc" -eq 129 ] || fail "--sort size exit $rc"
 one_line err "bad --sort"
+grep -qx "git omen score: bad value 'size' for --sort: expected history, risk or per-line" err ||
+	fail "--sort size message: $(cat err)"
 set -e
 # --sort: the same commits, reordered; ties keep the history order
 "$OMEN" score HEAD~8..HEAD --format json >h.jsonl
