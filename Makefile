@@ -39,7 +39,7 @@ MANS     := $(sort $(wildcard man/*.1))
 OMEN     := $(BUILD)/git-omen
 
 .PHONY: all deps deps-test check unit shell ref fuzz-replay manlint asan valgrind \
-	bench fuzz demo install uninstall clean
+	bench base-model fuzz demo install uninstall clean
 
 all: deps $(OMEN)
 
@@ -111,7 +111,7 @@ asan:
 		LDLIBS="$(ASAN_FLAGS) $(LDLIBS)" $(ASAN_BUILD)/git-omen unit-asan
 
 ASAN_ENV := ASAN_OPTIONS=detect_leaks=1:abort_on_error=1:detect_stack_use_after_return=1 \
-	UBSAN_OPTIONS=print_stacktrace=1:halt_on_error=1 LSAN_OPTIONS=suppressions=$(CURDIR)/tests/lsan.supp
+	UBSAN_OPTIONS=print_stacktrace=1:halt_on_error=1 LSAN_OPTIONS=suppressions=$(CURDIR)/tests/lsan.supp:print_suppressions=0
 unit-asan: $(UNIT_BIN) $(FUZZ_REPLAY)
 	@$(ASAN_ENV) sh tests/run-unit.sh $(UNIT_BIN)
 	@for f in $(FUZZ_REPLAY); do n=$$(basename $$f -replay); \
@@ -120,6 +120,11 @@ unit-asan: $(UNIT_BIN) $(FUZZ_REPLAY)
 
 valgrind: $(UNIT_BIN)
 	@VALGRIND=1 sh tests/run-unit.sh $(UNIT_BIN)
+
+# The base model (issue 11) from the corpus snapshots in $OMEN_CORPUS_DIR,
+# built under $OMEN_CORPUS_WORK (fixtures/corpus/build.sh says how).
+base-model: $(OMEN)
+	@OMEN="$(abspath $(OMEN))" sh fixtures/corpus/build.sh $(BASE_FLAGS)
 
 bench: $(OMEN) $(BENCH_BIN)
 	@OMEN="$(abspath $(OMEN))" BUILD="$(abspath $(BUILD))" sh tests/bench/run.sh $(BENCH_BIN)

@@ -60,7 +60,9 @@ enum {
 	OMEN_FILE_SUBMODULE = 1 << 1,
 	OMEN_FILE_TOO_LARGE = 1 << 2, /* over max_blob_bytes: no hunks read */
 	OMEN_FILE_SYMLINK = 1 << 3,
-	OMEN_FILE_MODE_ONLY = 1 << 4
+	OMEN_FILE_MODE_ONLY = 1 << 4,
+	OMEN_FILE_MISSING = 1 << 5    /* a side's blob is not in the repository and was
+	                                 skipped (omen.missingBlobs): 0 0, no hunks */
 };
 
 typedef struct {
@@ -143,9 +145,62 @@ typedef struct {
 	int detect_renames;       /* exact blob-id renames; default on (set -1 to turn off) */
 	int threads;              /* diff workers; 0 = online cores (max 2) */
 	int with_lines;           /* 0 = hunks and counts only, no line text */
+	int missing_blobs;        /* OMEN_MISSING_*; 0 = omen.missingBlobs, else by clone kind */
+	int no_prefetch;          /* 1: the caller ran omen_history_prefetch over these commits */
 } omen_walk_opts;
 
-#define OMEN_WALK_OPTS_INIT {NULL, 0, 0, 0, 0, 0, 0, 0, 0, 0, 1}
+#define OMEN_WALK_OPTS_INIT {NULL, 0, 0, 0, 0, 0, 0, 0, 0, 0, 1, 0, 0}
+
+/* ---- partial and incomplete clones (issue 12) ------------------------------
+ * What a walk does with a blob that is not in the object database.
+ * omen.missingBlobs = error | skip | fetch; unset: fetch in a partial clone
+ * (a remote with remote.<name>.promisor, or extensions.partialClone), else
+ * error, as git's own commands fail on a missing object.
+ *  - error: the read fails with a one-line error that names the setting.
+ *  - skip: the file change gets OMEN_FILE_MISSING (0 0, no hunks) and is
+ *    counted in omen_blob_stats.skipped_files.
+ *  - fetch: before a walk, a pre-pass over the tree diffs the walk will make
+ *    collects the absent blobs, and the user's git fetches them from the
+ *    promisor remote in batches (git's own lazy fetch command, with the ids
+ *    on standard input); what still cannot be read is skipped as above,
+ *    after one notice when fetching could not work. */
+enum {
+	OMEN_MISSING_ERROR = 1,
+	OMEN_MISSING_SKIP = 2,
+	OMEN_MISSING_FETCH = 3
+};
+
+typedef struct {
+	int partial;              /* a promisor remote or extensions.partialClone is configured */
+	char remote[128];         /* the promisor remote fetched from last, "" none */
+	size_t scanned;           /* commits the pre-passes looked at */
+	size_t wanted;            /* absent blobs they found (distinct) */
+	size_t fetched;           /* of those, present after the fetches */
+	size_t trees_wanted;      /* absent root trees (a --filter=tree:0 clone), fetched first */
+	size_t trees_fetched;
+	size_t batches;           /* git fetch runs */
+	double scan_seconds;      /* pre-pass time */
+	double fetch_seconds;     /* git fetch time (wall) */
+	double fetch_cpu_seconds; /* CPU time of git fetch and the processes it waited for */
+	size_t skipped_files;     /* file changes read with a blob skipped (OMEN_FILE_MISSING) */
+	char notice[512];         /* why fetching could not work, one line; "" none */
+} omen_blob_stats;
+
+/* Counts of this repository handle since it was opened (pre-passes, fetches
+ * and skipped reads of every walk made through it). */
+const omen_blob_stats *omen_repo_blob_stats(omen_repo *r);
+
+/* The pre-pass and fetch for the given commits (merges are compared with
+ * their first parent, other commits as the walk diffs them): a no-op unless
+ * the policy is fetch. Absent blobs are fetched in batches through
+ * `git fetch --stdin` from the promisor remotes in git's order (the
+ * remote.<name>.promisor ones, then the extensions.partialClone one), with
+ * a progress line on a terminal. Fetching that cannot work (no promisor
+ * remote, git missing, the remote unreachable) is not an error: the notice
+ * in omen_blob_stats says why, and the walk skips what is absent. Errors:
+ * a commit or tree that cannot be read (OMEN_EGIT), a bad omen.missingBlobs
+ * (OMEN_EINVAL), out of memory. */
+int omen_history_prefetch(omen_repo *r, const omen_walk_opts *o, const git_oid *ids, size_t n);
 
 /* Called once per commit in walk order; returning non-zero stops the walk
  * and that value is returned. The change is only valid during the call. */

@@ -118,6 +118,13 @@ typedef struct {
 	size_t state_peak_bytes;   /* peak of the tracer's origin arrays plus the commit table */
 	char head[OMEN_OID_HEX + 1];
 	int64_t newest_time, window_cut; /* newest author time, clean cut-off */
+	/* absent blobs (issue 12): pre-pass, fetch and skipped file changes;
+	 * with files_absent > 0 the label file's summary says so
+	 * ("missing_blob_files") and the next run relabels in full */
+	omen_blob_stats blobs;
+	size_t file_changes;       /* file changes read (walk, and merges' own diffs) */
+	size_t files_absent;       /* of those, read with an absent blob skipped */
+	size_t fixes_absent;       /* fixes with no traced line whose files had absent blobs */
 } omen_label_summary;
 
 enum {

@@ -30,6 +30,10 @@ typedef struct {
 	int channels;            /* C hidden width (default 32) */
 	omen_caps caps;          /* the caps the dataset was built with (stored in the model) */
 	int warm_start;          /* start from the metrics logistic regression (default 1) */
+	/* fine-tuning (issue 11): start from this model's weights (a base model
+	 * of the same dims) instead of fresh ones and the warm start; the
+	 * standardization is fitted on the training split as from scratch */
+	const omen_model *init;
 	/* per epoch; valid_auc is NaN during the refit on train+validation */
 	void (*progress)(void *payload, int epoch, int epochs, float loss, float valid_auc, double eta_s);
 	void *payload;
@@ -134,6 +138,9 @@ float omen_model_calibrated(const omen_model *m, float logit);
  * standardization and calibration). */
 int omen_model_new(omen_model **out, int dim, int channels, uint64_t seed);
 size_t omen_model_nparams(const omen_model *m);
+/* Copies src's weights into dst (fine-tuning from a base model, issue 11);
+ * OMEN_EINVAL, saying which, when their dimensions differ. */
+int omen_model_copy_weights(omen_model *dst, const omen_model *src);
 float *omen_model_params(omen_model *m);
 /* Tensor i of the parameter table: name, offset into the parameter block
  * and shape (up to 3 dims, unused = 1). Returns NULL past the end. */

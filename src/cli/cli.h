@@ -16,6 +16,11 @@ int cmd_eval(int argc, char **argv);
 int cmd_features(int argc, char **argv);
 int cmd_hook(int argc, char **argv);
 int cmd_version(int argc, char **argv);
+/* train --base <dir> (src/cli/cmd_train_base.c) */
+int cmd_train_base(const char *dir, const char *out_path, omen_train_opts *o, const char *format);
+/* One notice when the scorer's model is a base model kept for a young
+ * repository (issue 11); score and the hook call it after opening. */
+void cli_note_base_model(const omen_scorer *sc);
 
 /* Message tags, one set (DEVELOPERS.md, "The option table"):
  *   git omen: error: <what failed>     the command stops, exit 128 (cli_fatal)
@@ -54,6 +59,9 @@ void cli_notice(const char *fmt, ...)
 	__attribute__((format(printf, 1, 2)))
 #endif
 	;
+/* Absent blobs (issue 12): the fetch notice and the count of file changes
+ * read without lines, on stderr, once at the end of a command. */
+void cli_blob_notice(omen_repo *r);
 /* Whether standard output should get colour (a terminal, NO_COLOR unset). */
 int cli_use_color(FILE *fp);
 

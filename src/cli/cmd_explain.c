@@ -235,6 +235,7 @@ done:
 		omen_explanation_free(&x);
 	omen_buf_free(&out);
 	omen_scorer_free(sc);
+	cli_blob_notice(repo);
 	omen_repo_free(repo);
 	return rc;
 }

@@ -284,6 +284,7 @@ out:
 	omen_labels_free(labels);
 	omen_fixrules_free(s.fr);
 	omen_metrics_free(s.m);
+	cli_blob_notice(repo);
 	omen_repo_free(repo);
 	free(s.ids);
 	free(cfg_pattern);

@@ -151,6 +151,7 @@ static int hook_run(int argc, char **argv)
 		rc = hook_error(block_error, NULL);
 		goto done;
 	}
+	cli_note_base_model(sc);
 	if (omen_push_select(&ids, &nids, repo, remote, &pl)) {
 		rc = hook_error(block_error, NULL);
 		goto done;

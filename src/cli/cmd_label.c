@@ -58,6 +58,19 @@ static void print_text(const omen_label_summary *s, const char *path)
 	}
 	if (s->shallow)
 		printf("shallow history: %zu boundary commits are unknown\n", s->boundary);
+	if (s->blobs.wanted)
+		printf("blobs       %zu absent in %zu commits (found in %.1f s); %zu fetched from '%s' "
+			"in %zu batches (%.1f s)\n", s->blobs.wanted, s->blobs.scanned, s->blobs.scan_seconds,
+			s->blobs.fetched, s->blobs.remote[0] ? s->blobs.remote : "-", s->blobs.batches,
+			s->blobs.fetch_seconds);
+	if (s->blobs.trees_wanted)
+		printf("trees       %zu absent root trees (a tree-less clone), %zu fetched first\n",
+			s->blobs.trees_wanted, s->blobs.trees_fetched);
+	if (s->files_absent)
+		printf("absent      %zu of %zu file changes (%.1f%%) had a blob missing: no lines, their "
+			"commits never clean, origins in those files unknown from there on; %zu fixes "
+			"unreadable\n", s->files_absent, s->file_changes,
+			100.0 * share(s->files_absent, s->file_changes), s->fixes_absent);
 	if (path)
 		printf("wrote %s\n", path);
 }
@@ -70,13 +83,20 @@ static void print_json(const omen_label_summary *s)
 		"\"fixes_add_only\":%zu,\"add_only_share\":%.4f,\"fixes_skipped_large\":%zu,"
 		"\"named_links\":%zu,\"latency_days\":[%.3f,%.3f,%.3f],\"shallow\":%s,\"boundary\":%zu,"
 		"\"list_entries\":%zu,\"list_unmatched\":%zu,\"new_commits\":%zu,\"reused_commits\":%zu,"
-		"\"state_peak_bytes\":%zu,\"seconds\":%.3f}\n",
+		"\"state_peak_bytes\":%zu,\"blobs\":{\"partial\":%s,\"scanned_commits\":%zu,"
+		"\"absent\":%zu,\"fetched\":%zu,\"trees_absent\":%zu,\"trees_fetched\":%zu,"
+		"\"batches\":%zu,\"scan_seconds\":%.3f,\"fetch_seconds\":%.3f,\"fetch_cpu_seconds\":%.3f,"
+		"\"skipped_files\":%zu,\"file_changes\":%zu,\"fixes_unreadable\":%zu},\"seconds\":%.3f}\n",
 		mode_name(s->mode), s->head, s->commits, s->merges, s->inducing, s->clean, s->unknown,
 		s->fixes, s->fixes_by_pattern, s->fixes_by_list, s->fixes_by_issue, s->fixes_by_named,
 		s->fixes_traced, s->traced_lines, s->fixes_add_only, share(s->fixes_add_only, s->fixes),
 		s->fixes_skipped_large, s->named_links, s->latency_days_q[0], s->latency_days_q[1],
 		s->latency_days_q[2], s->shallow ? "true" : "false", s->boundary, s->list_entries,
-		s->list_unmatched, s->new_commits, s->reused_commits, s->state_peak_bytes, s->seconds);
+		s->list_unmatched, s->new_commits, s->reused_commits, s->state_peak_bytes,
+		s->blobs.partial ? "true" : "false", s->blobs.scanned, s->blobs.wanted, s->blobs.fetched,
+		s->blobs.trees_wanted, s->blobs.trees_fetched, s->blobs.batches, s->blobs.scan_seconds,
+		s->blobs.fetch_seconds, s->blobs.fetch_cpu_seconds, s->files_absent,
+		s->file_changes, s->fixes_absent, s->seconds);
 }
 
 static const cli_option opt_fix_pattern = {
@@ -181,7 +201,12 @@ int cmd_label(int argc, char **argv)
 	if (s.list_unmatched)
 		cli_warning("%zu of %zu fix list entries matched no commit", s.list_unmatched,
 			s.list_entries);
-	if (s.untraced_missing)
+	if (s.blobs.notice[0])
+		cli_notice("%s", s.blobs.notice);
+	if (s.untraced_missing && s.files_absent)
+		cli_notice("%zu deleted lines of fixes have unknown origins (files with absent blobs)",
+			s.untraced_missing);
+	else if (s.untraced_missing)
 		cli_warning("%zu deleted lines had no origin state", s.untraced_missing);
 	if (!strcmp(a.format, "json"))
 		print_json(&s);

@@ -161,8 +161,10 @@ int cmd_score(int argc, char **argv)
 	else if (!strcmp(a.sort, "per-line"))
 		sort = OMEN_SORT_PER_LINE;
 	so.model_path = a.model;
-	if ((e = omen_repo_open(&repo, NULL)) || (e = omen_scorer_open(&sc, repo, &so)) ||
-	    (e = collect(&set, sc, repo, &a)))
+	if ((e = omen_repo_open(&repo, NULL)) || (e = omen_scorer_open(&sc, repo, &so)))
+		goto fatal;
+	cli_note_base_model(sc);
+	if ((e = collect(&set, sc, repo, &a)))
 		goto fatal;
 	set.threshold = omen_scorer_threshold(sc);
 	if ((e = omen_score_set_sort(&set, sort)) || (e = render(&out, &set, sc, &a)))
@@ -185,6 +187,7 @@ done:
 	omen_buf_free(&out);
 	omen_score_set_free(&set);
 	omen_scorer_free(sc);
+	cli_blob_notice(repo);
 	omen_repo_free(repo);
 	free(a.revs);
 	return rc;

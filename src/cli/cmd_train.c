@@ -8,6 +8,8 @@
 #include <unistd.h>
 #include "cli/cli.h"
 #include "cli/options.h"
+#include "omen/base.h"
+#include "omen/shard.h"
 
 typedef struct {
 	int tty;
@@ -127,6 +129,18 @@ static void print_info_text(const cJSON *j, const char *path)
 	const cJSON *te = cJSON_GetObjectItemCaseSensitive(j, "test");
 	const cJSON *v;
 	printf("model       %s\n", path);
+	/* a base model (issue 11), or a model fine-tuned from one */
+	for (int k = 0; k < 2; k++) {
+		const cJSON *b = cJSON_GetObjectItemCaseSensitive(j, k ? "from_base" : "base");
+		const cJSON *dt = cJSON_GetObjectItemCaseSensitive(b, "date");
+		if (!cJSON_IsObject(b))
+			continue;
+		printf("%s%.0f histories, %.0f training commits, built %s\n",
+			k ? "from base   " : "base model  ",
+			cJSON_GetNumberValue(cJSON_GetObjectItemCaseSensitive(b, "histories")),
+			cJSON_GetNumberValue(cJSON_GetObjectItemCaseSensitive(b, "n_train")),
+			cJSON_IsString(dt) ? dt->valuestring : "?");
+	}
 	if ((v = cJSON_GetObjectItemCaseSensitive(j, "arch")) && cJSON_IsString(v))
 		printf("arch        %s, format version %d\n", shown_str(&s1, v->valuestring),
 			cJSON_GetObjectItemCaseSensitive(j, "version")
@@ -232,11 +246,26 @@ static const cli_option opt_info = {
 	"--info", CLI_FLAG, NULL, 0, 0, NULL,
 	"print the metadata of the model file (--model, else the default) and exit"};
 
+/* the base model (issue 11) */
+static const cli_option opt_from = {
+	"--from", CLI_STRING, "<file>", 0, 0, NULL,
+	"fine-tune from this base model (default omen.baseModel, if set)"};
+static const cli_option opt_scratch = {
+	"--scratch", CLI_FLAG, NULL, 0, 0, NULL,
+	"train from fresh weights even when a base model is set"};
+static const cli_option opt_shard = {
+	"--shard", CLI_STRING, "<file>", 0, 0, NULL,
+	"write the dataset as a shard of the base model's corpus instead of training"};
+static const cli_option opt_base = {
+	"--base", CLI_STRING, "<dir>", 0, 0, NULL,
+	"train the base model from every *.shard in <dir> (needs --model)"};
+
 typedef struct {
 	const char *model, *labels, *format, *rev;
 	const char *revs[2];   /* {rev, NULL} for the dataset */
+	const char *from, *shard, *base_dir;
 	long long epochs, seed, threads;
-	int epochs_set, seed_set, threads_set, info, no_cache;
+	int epochs_set, seed_set, threads_set, info, no_cache, scratch;
 } train_args;
 
 /* Parses argv into o and a; -1 to go on, else the exit code. */
@@ -252,10 +281,16 @@ static int parse_args(omen_train_opts *o, train_args *a, int argc, char **argv)
 		{&cli_opt_no_cache, &a->no_cache, NULL, NULL, NULL},
 		{&cli_opt_format, &a->format, cli_formats_text_json, NULL, NULL},
 		{&opt_info, &a->info, NULL, NULL, NULL},
+		{&opt_from, &a->from, NULL, NULL, NULL},
+		{&opt_scratch, &a->scratch, NULL, NULL, NULL},
+		{&opt_shard, &a->shard, NULL, NULL, NULL},
+		{&opt_base, &a->base_dir, NULL, NULL, NULL},
 	};
 	const cli_command cmd = {"train",
 		"usage: git omen train [<rev>] [<options>]\n"
-		"   or: git omen train --info [--model <file>] [--format <fmt>]\n", NULL,
+		"   or: git omen train --info [--model <file>] [--format <fmt>]\n"
+		"   or: git omen train [<rev>] --shard <file>\n"
+		"   or: git omen train --base <dir> --model <file> [<options>]\n", NULL,
 		uses, sizeof(uses) / sizeof(uses[0])};
 	const char **pos = NULL;
 	size_t n;
@@ -330,9 +365,10 @@ int cmd_train(int argc, char **argv)
 	omen_dataset_opts dopt;
 	omen_repo *repo = NULL;
 	omen_dataset *ds = NULL;
-	omen_model *m = NULL;
+	omen_model *m = NULL, *base = NULL;
 	progress_state ps;
 	train_args a;
+	char *from_cfg = NULL;
 	char *model_path = NULL, *lock_path = NULL;
 	int rc, lock_fd = -1, e;
 	int64_t v64;
@@ -342,6 +378,11 @@ int cmd_train(int argc, char **argv)
 		return rc;
 	if (a.info)
 		return cmd_info(a.model, a.format);
+	if (a.base_dir && (a.shard || a.rev || a.labels || a.no_cache || a.from || a.scratch))
+		return cli_usage("train", "--base reads shards: no revision, --shard, --labels, "
+			"--no-cache, --from or --scratch with it");
+	if (a.base_dir)
+		return cmd_train_base(a.base_dir, a.model, &o, a.format);
 	rc = EXIT_OK;
 	if (omen_repo_open(&repo, NULL))
 		goto fatal;
@@ -364,6 +405,38 @@ int cmd_train(int argc, char **argv)
 	if (take_lock(&lock_fd, &lock_path, repo) || build_dataset(&ds, &dopt, repo, &a))
 		goto fatal;
 	o.caps = dopt.caps;
+	if (a.shard) {
+		size_t k, nl = 0, np = 0;
+		if (omen_shard_write(ds, &dopt.caps, a.shard))
+			goto fatal;
+		for (k = 0; k < omen_dataset_size(ds); k++) {
+			nl += omen_dataset_get(ds, k)->label >= 0;
+			np += omen_dataset_get(ds, k)->label > 0;
+		}
+		printf("wrote shard %s: %zu commits, %zu labelled (%zu inducing), %zu capped\n",
+			a.shard, omen_dataset_size(ds), nl, np, omen_dataset_capped(ds));
+		goto out;
+	}
+	/* fine-tuning: the base model named, else omen.baseModel; one that
+	 * cannot be used is a notice, and training starts from scratch */
+	if (!a.scratch && !a.from) {
+		if (omen_config_string(&from_cfg, repo, "omen.baseModel"))
+			goto fatal;
+		if (from_cfg && *from_cfg)
+			a.from = from_cfg;
+	}
+	if (!a.scratch && a.from) {
+		omen_model *probe = NULL;
+		if (omen_model_load(&base, a.from) || omen_model_new(&probe, o.dim, o.channels, 0) ||
+			omen_model_copy_weights(probe, base)) {
+			cli_notice("cannot use base model '%s': %s; training from scratch", a.from,
+				omen_error_last());
+			omen_model_free(base);
+			base = NULL;
+		}
+		omen_model_free(probe);
+		o.init = base;
+	}
 	ps.tty = isatty(2);
 	ps.start = omen_now();
 	o.progress = on_progress;
@@ -371,12 +444,33 @@ int cmd_train(int argc, char **argv)
 	e = omen_model_train(&m, &rep, ds, &o);
 	if (ps.tty)
 		fputs("\r\033[K", stderr);
+	if (e == OMEN_EINVAL && base && !strncmp(omen_error_last(), "too few", 7)) {
+		/* a young repository: the base model, standardized on its commits */
+		char why[512];
+		snprintf(why, sizeof(why), "%s", omen_error_last());
+		if (omen_model_adopt_base(&m, base, ds) || omen_model_save(m, model_path))
+			goto fatal;
+		cli_notice("%s: keeping the base model '%s', standardized on this repository's %zu "
+			"commits", why, a.from, omen_dataset_size(ds));
+		if (!strcmp(a.format, "json")) {
+			omen_buf jb = OMEN_BUF_INIT;
+			omen_buf_put_json_string(&jb, model_path, strlen(model_path));
+			printf("{\"model\":%s,\"base_kept\":true,\"commits\":%zu}\n",
+				jb.ptr ? jb.ptr : "\"\"", omen_dataset_size(ds));
+			omen_buf_free(&jb);
+		} else
+			printf("wrote %s (the base model, not trained on this repository; scores are "
+				"advisory)\n", model_path);
+		goto out;
+	}
 	if (e || omen_model_save(m, model_path))
 		goto fatal;
 	if (!strcmp(a.format, "json"))
 		print_json(&rep, ds, model_path);
 	else
 		print_text(&rep, ds, model_path);
+	if (base && strcmp(a.format, "json"))
+		printf("fine-tuned from base model %s\n", a.from);
 	goto out;
 fatal:
 	rc = cli_fatal(NULL);
@@ -384,7 +478,10 @@ out:
 	if (lock_fd >= 0)
 		omen_lock_release(lock_fd);
 	omen_model_free(m);
+	omen_model_free(base);
+	free(from_cfg);
 	omen_dataset_free(ds);
+	cli_blob_notice(repo);
 	omen_repo_free(repo);
 	free(model_path);
 	free(lock_path);

@@ -192,3 +192,16 @@ int main(int argc, char **argv)
 	}
 	return unknown_command(argv[1]);
 }
+
+void cli_blob_notice(omen_repo *r)
+{
+	const omen_blob_stats *st;
+	if (!r)
+		return;
+	st = omen_repo_blob_stats(r);
+	if (st->notice[0])
+		cli_notice("%s", st->notice);
+	if (st->skipped_files)
+		cli_notice("%zu file changes with an absent blob were read without lines "
+			"(omen.missingBlobs)", st->skipped_files);
+}

@@ -82,6 +82,7 @@ int hist_differ_init(hist_differ *d, git_repository *repo, const omen_walk_opts 
 	d->max_blob = o && o->max_blob_bytes > 0 ? o->max_blob_bytes : DEFAULT_MAX_BLOB;
 	d->detect_renames = o ? o->detect_renames >= 0 : 1;
 	d->with_lines = o ? o->with_lines : 1;
+	d->missing = o && o->missing_blobs ? o->missing_blobs : OMEN_MISSING_ERROR;
 	if (git_repository_odb(&d->odb, repo) < 0)
 		return hist_git_fail("cannot open object database of", git_repository_path(repo));
 	git_diff_options_init(&d->dopts, GIT_DIFF_OPTIONS_VERSION);
@@ -303,21 +304,47 @@ static int64_t count_lines(const char *p, size_t n)
 	return k;
 }
 
-/* Loads a blob unless over the size limit (*too_large set then). */
+/* An absent blob (issue 12): an error that names the setting that goes on
+ * without it, or (skip and fetch) *missing set. */
+static int blob_absent(hist_differ *d, const git_oid *id, const char *path, int *missing)
+{
+	char hex[OMEN_OID_HEX + 1];
+	if (d->missing == OMEN_MISSING_SKIP || d->missing == OMEN_MISSING_FETCH) {
+		*missing = 1;
+		return 0;
+	}
+	git_oid_tostr(hex, sizeof(hex), id);
+	return omen_error_set(OMEN_EGIT, "cannot read blob of '%s': object %.12s is missing; "
+		"set omen.missingBlobs=skip (git config, or git -c) to go on without it", path, hex);
+}
+
+/* Loads a blob unless over the size limit (*too_large set then) or absent
+ * and skipped (*missing set then). */
 static int load_blob(hist_differ *d, git_blob **out, const git_oid *id, const char *path,
-	int *too_large)
+	int *too_large, int *missing)
 {
 	size_t len = 0;
 	git_object_t type;
+	int e;
 	*out = NULL;
-	if (git_odb_read_header(&len, &type, d->odb, id) < 0)
+	if ((e = git_odb_read_header(&len, &type, d->odb, id)) < 0) {
+		if (e == GIT_ENOTFOUND) {
+			git_error_clear();
+			return blob_absent(d, id, path, missing);
+		}
 		return hist_git_fail("cannot read blob of", path);
+	}
 	if ((int64_t)len > d->max_blob) {
 		*too_large = 1;
 		return 0;
 	}
-	if (git_blob_lookup(out, d->repo, id) < 0)
+	if ((e = git_blob_lookup(out, d->repo, id)) < 0) {
+		if (e == GIT_ENOTFOUND) {
+			git_error_clear();
+			return blob_absent(d, id, path, missing);
+		}
 		return hist_git_fail("cannot read blob of", path);
+	}
 	return 0;
 }
 
@@ -405,7 +432,7 @@ static int diff_entry(hist_differ *d, omen_change *c, uint32_t fi, const hist_en
 	omen_file *f = &c->files[fi];
 	uint32_t ta = MODE_TYPE(e->old_mode), tb = MODE_TYPE(e->new_mode);
 	git_blob *a = NULL, *b = NULL;
-	int big = 0, rc = 0;
+	int big = 0, absent = 0, rc = 0;
 	const char *path = e->new_path ? e->new_path : e->old_path;
 
 	memset(f, 0, sizeof(*f));
@@ -442,8 +469,10 @@ static int diff_entry(hist_differ *d, omen_change *c, uint32_t fi, const hist_en
 			f->flags |= OMEN_FILE_MODE_ONLY;
 		if (ta != MODE_GITLINK && !(f->flags & OMEN_FILE_SUBMODULE)) {
 			/* old size still wanted for LT */
-			if ((rc = load_blob(d, &a, &e->old_id, path, &big)) < 0)
+			if ((rc = load_blob(d, &a, &e->old_id, path, &big, &absent)) < 0)
 				goto out;
+			if (absent)
+				goto absent;
 			if (big)
 				f->flags |= OMEN_FILE_TOO_LARGE;
 			else if (probe_binary(a))
@@ -453,10 +482,14 @@ static int diff_entry(hist_differ *d, omen_change *c, uint32_t fi, const hist_en
 		}
 		goto out;
 	}
-	if (e->old_mode && ta != MODE_GITLINK && (rc = load_blob(d, &a, &e->old_id, path, &big)) < 0)
+	if (e->old_mode && ta != MODE_GITLINK &&
+	    (rc = load_blob(d, &a, &e->old_id, path, &big, &absent)) < 0)
 		goto out;
-	if (e->new_mode && tb != MODE_GITLINK && (rc = load_blob(d, &b, &e->new_id, path, &big)) < 0)
+	if (e->new_mode && tb != MODE_GITLINK &&
+	    (rc = load_blob(d, &b, &e->new_id, path, &big, &absent)) < 0)
 		goto out;
+	if (absent)
+		goto absent;
 	if (big) {
 		f->flags |= OMEN_FILE_TOO_LARGE;
 		goto out;
@@ -476,6 +509,16 @@ static int diff_entry(hist_differ *d, omen_change *c, uint32_t fi, const hist_en
 	} else if (a || b) {
 		rc = run_diff(d, c, fi, a, b);
 	}
+	goto out;
+absent:
+	/* a side cannot be read: no counts, no hunks, no line count (the
+	 * labeller gives this file version no origins, DEVELOPERS.md) */
+	f->flags |= OMEN_FILE_MISSING;
+	f->flags &= ~(unsigned)(OMEN_FILE_TOO_LARGE | OMEN_FILE_BINARY);
+	f->added = f->deleted = 0;
+	f->old_nlines = 0;
+	if (d->skipped)
+		__atomic_add_fetch(d->skipped, 1, __ATOMIC_RELAXED);
 out:
 	git_blob_free(a);
 	git_blob_free(b);
@@ -530,8 +573,7 @@ int hist_diff_entries(hist_differ *d, omen_change *c)
 	return 0;
 }
 
-/* The changed entries between two trees (either may be NULL) into d->ents. */
-static int list_trees(hist_differ *d, omen_change *out, git_tree *old_tree, git_tree *new_tree)
+int hist_list_trees(hist_differ *d, omen_change *out, git_tree *old_tree, git_tree *new_tree)
 {
 	d->nents = 0;
 	omen_buf_clear(&d->path);
@@ -543,7 +585,7 @@ static int list_trees(hist_differ *d, omen_change *out, git_tree *old_tree, git_
 int hist_diff_trees(hist_differ *d, omen_change *out, git_tree *old_tree, git_tree *new_tree)
 {
 	int rc;
-	if ((rc = list_trees(d, out, old_tree, new_tree)) < 0)
+	if ((rc = hist_list_trees(d, out, old_tree, new_tree)) < 0)
 		return rc;
 	return hist_diff_entries(d, out);
 }
@@ -723,6 +765,7 @@ int omen_history_diff_blobs(omen_change *out, omen_repo *r, const char *old_path
 		return rc;
 	if ((rc = hist_differ_init(&d, omen_repo_git(r), &ro)) < 0)
 		return rc;
+	d.skipped = &hist_repo_stats(r)->skipped_files;
 	/* one regular-file entry through the same path as a commit's files,
 	 * so a pair diffs exactly as the walk would diff it */
 	rc = hist_add_entry(&d, out, has_old ? old_path : NULL, has_new ? new_path : NULL,
@@ -762,7 +805,7 @@ int omen_history_tree_files(omen_change *out, omen_repo *r, const git_oid *old_c
 		return rc;
 	if ((rc = commit_tree(&ta, d.repo, old_commit)) < 0 ||
 		(rc = commit_tree(&tb, d.repo, new_commit)) < 0 ||
-		(rc = list_trees(&d, out, ta, tb)) < 0)
+		(rc = hist_list_trees(&d, out, ta, tb)) < 0)
 		goto out;
 	if (OMEN_ARRAY_RESERVE(out->files, out->files_cap, d.nents ? d.nents : 1) < 0) {
 		rc = OMEN_ENOMEM;

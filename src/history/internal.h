@@ -25,6 +25,8 @@ typedef struct {
 	omen_buf path;          /* scratch: current directory prefix */
 	git_diff_options dopts;
 	git_oid empty_blob;
+	int missing;            /* OMEN_MISSING_*: what an absent blob does */
+	size_t *skipped;        /* counter of skipped file changes (atomic), may be NULL */
 } hist_differ;
 
 int hist_differ_init(hist_differ *d, git_repository *repo, const omen_walk_opts *o);
@@ -40,10 +42,24 @@ int hist_diff_trees(hist_differ *d, omen_change *out, git_tree *old_tree, git_tr
 /* Appends one raw entry (paths copied into out's arena). */
 int hist_add_entry(hist_differ *d, omen_change *out, const char *old_path, const char *new_path,
 	const git_oid *old_id, uint32_t old_mode, const git_oid *new_id, uint32_t new_mode);
+/* The changed entries between two trees (either may be NULL) into d->ents,
+ * no blob read. */
+int hist_list_trees(hist_differ *d, omen_change *out, git_tree *old_tree, git_tree *new_tree);
 /* Pairs renames and diffs every entry in d->ents into out's files. */
 int hist_diff_entries(hist_differ *d, omen_change *out);
 
-/* o with omen.maxBlobBytes / omen.threads filled in where 0. */
+/* ---- repo.c: partial clones ---- */
+/* Whether the repository is a partial clone (cached after the first call). */
+int hist_repo_partial(omen_repo *r);
+/* The promisor remotes in git's order: remote.<name>.promisor ones in
+ * config order, then the extensions.partialClone one; names that exist as
+ * remotes only. *out malloc'd array of malloc'd names (hist_strs_free). */
+int hist_repo_promisors(char ***out, size_t *n, omen_repo *r);
+void hist_strs_free(char **v, size_t n);
+omen_blob_stats *hist_repo_stats(omen_repo *r);
+
+/* o with omen.maxBlobBytes / omen.threads / omen.missingBlobs filled in
+ * where 0. */
 int hist_resolve_opts(omen_walk_opts *dst, omen_repo *r, const omen_walk_opts *o);
 
 /* Sets an OMEN_EGIT error "<what> '<subject>': <libgit2's last message>"

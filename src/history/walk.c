@@ -15,6 +15,7 @@
 #include <pthread.h>
 #include <stdlib.h>
 #include <string.h>
+#include <strings.h>
 #include <unistd.h>
 #include "history/internal.h"
 #include "omen/error.h"
@@ -568,13 +569,34 @@ out:
 }
 
 /* Options with the configured defaults filled in: omen.maxBlobBytes when
- * max_blob_bytes is 0, omen.threads when threads is 0. */
+ * max_blob_bytes is 0, omen.threads when threads is 0, omen.missingBlobs
+ * (else fetch in a partial clone, error in a full one) when missing_blobs
+ * is 0. */
 int hist_resolve_opts(omen_walk_opts *dst, omen_repo *r, const omen_walk_opts *o)
 {
 	static const omen_walk_opts defaults = OMEN_WALK_OPTS_INIT;
 	int64_t v;
 	int rc;
 	*dst = o ? *o : defaults;
+	if (dst->missing_blobs <= 0 || dst->missing_blobs > OMEN_MISSING_FETCH) {
+		char *m = NULL;
+		if ((rc = omen_config_string(&m, r, "omen.missingBlobs")) < 0)
+			return rc;
+		if (!m)
+			dst->missing_blobs = hist_repo_partial(r) ? OMEN_MISSING_FETCH : OMEN_MISSING_ERROR;
+		else if (!strcasecmp(m, "error"))
+			dst->missing_blobs = OMEN_MISSING_ERROR;
+		else if (!strcasecmp(m, "skip"))
+			dst->missing_blobs = OMEN_MISSING_SKIP;
+		else if (!strcasecmp(m, "fetch"))
+			dst->missing_blobs = OMEN_MISSING_FETCH;
+		else
+			rc = omen_error_set(OMEN_EINVAL, "bad config value 'omen.missingBlobs': '%s' is not "
+				"error, skip or fetch", m);
+		free(m);
+		if (rc < 0)
+			return rc;
+	}
 	if (dst->max_blob_bytes <= 0) {
 		v = 0;
 		if ((rc = omen_config_int(&v, r, "omen.maxBlobBytes")) < 0)
@@ -600,8 +622,11 @@ int omen_history_change(omen_change *out, omen_repo *r, const git_oid *id, const
 	int rc;
 	if ((rc = hist_resolve_opts(&ro, r, o)) < 0)
 		return rc;
+	if (!ro.no_prefetch && (rc = omen_history_prefetch(r, &ro, id, 1)) < 0)
+		return rc;
 	if ((rc = hist_differ_init(&d, omen_repo_git(r), &ro)) < 0)
 		return rc;
+	d.skipped = &hist_repo_stats(r)->skipped_files;
 	rc = hist_diff_commit(&d, out, id);
 	hist_differ_free(&d);
 	return rc;
@@ -626,6 +651,7 @@ typedef struct {
 	int stop;
 	const char *gitdir;
 	const omen_walk_opts *o;
+	size_t *skipped;
 } walk_state;
 
 typedef struct {
@@ -645,7 +671,7 @@ static void *worker_main(void *arg)
 	if (git_repository_open_ext(&repo, w->gitdir, GIT_REPOSITORY_OPEN_NO_SEARCH, NULL) < 0)
 		init_rc = hist_git_fail("cannot open repository", w->gitdir);
 	else if ((init_rc = hist_differ_init(&d, repo, w->o)) == 0)
-		ready = 1;
+		ready = 1, d.skipped = w->skipped;
 	if (init_rc)
 		snprintf(init_err, sizeof(init_err), "%s", omen_error_last());
 	for (;;) {
@@ -718,6 +744,8 @@ int omen_history_walk_ids(omen_repo *r, const omen_walk_opts *o, const git_oid *
 	int rc, nth;
 	if ((rc = hist_resolve_opts(&ro, r, o)) < 0)
 		return rc;
+	if (!ro.no_prefetch && (rc = omen_history_prefetch(r, &ro, ids, n)) < 0)
+		return rc;
 	o = &ro;
 	nth = o->threads > 0 ? o->threads : default_threads();
 	if (nth > 16)
@@ -729,6 +757,7 @@ int omen_history_walk_ids(omen_repo *r, const omen_walk_opts *o, const git_oid *
 		omen_change c;
 		if ((rc = hist_differ_init(&d, omen_repo_git(r), o)) < 0)
 			goto out;
+		d.skipped = &hist_repo_stats(r)->skipped_files;
 		omen_change_init(&c);
 		for (size_t i = 0; i < n && !rc; i++) {
 			if ((rc = hist_diff_commit(&d, &c, &ids[i])) < 0)
@@ -751,6 +780,7 @@ int omen_history_walk_ids(omen_repo *r, const omen_walk_opts *o, const git_oid *
 		w.n = n;
 		w.o = o;
 		w.gitdir = git_repository_path(omen_repo_git(r));
+		w.skipped = &hist_repo_stats(r)->skipped_files;
 		w.nslots = (size_t)nth * 4;
 		w.slots = calloc(w.nslots, sizeof(slot));
 		if (!w.slots) {

@@ -89,7 +89,7 @@ int lbl_apply_blobs(lbl_tracer *t, omen_repo *r, const omen_file *f, uint32_t ci
 	if (e)
 		goto out;
 	df = &dc.files[0];
-	if (df->flags & (OMEN_FILE_BINARY | OMEN_FILE_TOO_LARGE))
+	if (df->flags & (OMEN_FILE_BINARY | OMEN_FILE_TOO_LARGE | OMEN_FILE_MISSING))
 		goto out; /* not traced, as in the walk */
 	/* the caller's view of the file (status, old side, old line count)
 	 * with the hunks of the diff */
@@ -122,7 +122,8 @@ static int apply_pair(lbl_tracer *t, omen_repo *r, const omen_file *df, const om
 int lbl_rename_pairs(lbl_tracer *t, omen_repo *r, const omen_change *c, uint32_t ci)
 {
 	size_t i, j, nd = 0;
-	const unsigned skip = OMEN_FILE_BINARY | OMEN_FILE_TOO_LARGE | OMEN_FILE_SUBMODULE;
+	const unsigned skip = OMEN_FILE_BINARY | OMEN_FILE_TOO_LARGE | OMEN_FILE_SUBMODULE |
+		OMEN_FILE_MISSING;
 	unsigned char *used = NULL;
 	uint64_t **dh = NULL;
 	size_t *dn = NULL;

@@ -32,6 +32,7 @@ typedef struct {
 	unsigned fix_by;
 	uint8_t is_fix, merge, boundary, skipped, walked;
 	uint8_t is_merge_listed; /* > 1 parent in the history: handled by do_merge */
+	uint8_t absent;        /* a file change with an absent blob was skipped (issue 12) */
 } lbl_commit;
 
 typedef struct {
@@ -278,8 +279,11 @@ static int do_merge(lbl_run *R, uint32_t mi)
 				f->old_nlines = nold;
 			else
 				f->old_path = NULL; /* no state for the old side: a new file */
+			size_t before = omen_repo_blob_stats(R->repo)->skipped_files;
 			if ((e = lbl_apply_blobs(R->tr, R->repo, f, mi)))
 				goto out;
+			R->sum->file_changes++;
+			R->sum->files_absent += omen_repo_blob_stats(R->repo)->skipped_files != before;
 		}
 	}
 	files.commit.nparents = np;
@@ -325,6 +329,12 @@ static int walk_cb(const omen_change *c, void *payload)
 	cm->walked = 1;
 	if (cm->boundary)
 		R->sum->shallow = 1;
+	for (i = 0; i < (int)c->nfiles; i++)
+		if (c->files[i].flags & OMEN_FILE_MISSING) {
+			cm->absent = 1;
+			R->sum->files_absent++;
+		}
+	R->sum->file_changes += c->nfiles;
 	by = cm->merge ? 0 : omen_fix_classify(R->fr, &c->commit, named, MAX_NAMED, &nnamed);
 	if (by & OMEN_FIXBY_NAMED) {
 		int resolved = 0;
@@ -355,6 +365,8 @@ static int walk_cb(const omen_change *c, void *payload)
 				return e;
 		if (cm->skipped)
 			R->sum->fixes_skipped_large++;
+		else if (R->fix_lines_total == before && cm->absent && !R->ncand)
+			R->sum->fixes_absent++; /* its deleted lines cannot be read */
 		else if (R->fix_lines_total == before)
 			R->sum->fixes_add_only += !R->ncand;
 		if (R->ncand)
@@ -510,6 +522,12 @@ static int previous_run(omen_label_summary *sum, lbl_run *R, const char *path, c
 		cJSON *mine = cJSON_Parse(opts);
 		char *my_opts = mine ? cJSON_PrintUnformatted(mine) : NULL;
 		int same_opts = prev_opts && my_opts && !strcmp(prev_opts, my_opts);
+		cJSON *sm = cJSON_GetObjectItemCaseSensitive(j, "summary");
+		cJSON *mb = sm ? cJSON_GetObjectItemCaseSensitive(sm, "missing_blob_files") : NULL;
+		/* labels made with absent blobs skipped are not reused: the blobs
+		 * may be readable now (issue 12) */
+		if (mb && cJSON_IsNumber(mb) && mb->valuedouble > 0)
+			same_opts = 0;
 		free(prev_opts);
 		free(my_opts);
 		cJSON_Delete(mine);
@@ -794,12 +812,16 @@ static int write_labels(lbl_run *R, const char *path, const char *opts, const ch
 		"\"fixes_by_pattern\":%zu,\"fixes_by_list\":%zu,\"fixes_by_issue\":%zu,"
 		"\"fixes_by_named\":%zu,\"fixes_traced\":%zu,\"fixes_add_only\":%zu,"
 		"\"fixes_skipped_large\":%zu,\"traced_lines\":%zu,\"named_links\":%zu,"
-		"\"latency_days\":[%.3f,%.3f,%.3f],\"shallow\":%s}}\n",
+		"\"latency_days\":[%.3f,%.3f,%.3f],\"shallow\":%s",
 		head, R->n, (long long)s->newest_time, (long long)s->window_cut, opts, s->commits, s->fixes,
 		s->inducing, s->clean, s->unknown, s->merges, s->boundary, s->fixes_by_pattern,
 		s->fixes_by_list, s->fixes_by_issue, s->fixes_by_named, s->fixes_traced, s->fixes_add_only,
 		s->fixes_skipped_large, s->traced_lines, s->named_links, s->latency_days_q[0],
 		s->latency_days_q[1], s->latency_days_q[2], s->shallow ? "true" : "false");
+	/* only when blobs were skipped, so a complete history's file keeps its bytes */
+	if (s->files_absent)
+		omen_buf_printf(&b, ",\"missing_blob_files\":%zu", s->files_absent);
+	omen_buf_printf(&b, "}}\n");
 	if (fwrite(b.ptr, 1, b.len, af.fp) != b.len) {
 		e = omen_error_set(OMEN_EIO, "cannot write '%s'", path);
 		goto out;
@@ -819,7 +841,7 @@ static int write_labels(lbl_run *R, const char *path, const char *opts, const ch
 		rec.boundary = c->boundary;
 		rec.label = c->merge || c->boundary ? OMEN_LABEL_UNKNOWN :
 			(c->traced || c->named) ? OMEN_LABEL_INDUCING :
-			c->time < s->window_cut ? OMEN_LABEL_CLEAN : OMEN_LABEL_UNKNOWN;
+			!c->absent && c->time < s->window_cut ? OMEN_LABEL_CLEAN : OMEN_LABEL_UNKNOWN;
 		nfixids = 0;
 		while (pi < R->npairs && R->pairs[pi].ind < i)
 			pi++;
@@ -883,6 +905,8 @@ static void count_labels(lbl_run *R)
 			s->unknown++;
 		else if (c->traced || c->named)
 			s->inducing++;
+		else if (c->absent)
+			s->unknown++; /* its own lines are unknown: never called clean */
 		else if (c->time < s->window_cut)
 			s->clean++;
 		else
@@ -1050,9 +1074,29 @@ int omen_label_run(omen_label_summary *sum, omen_repo *r, const omen_label_opts 
 		wo.revs = walk_revs;
 		sum->reused_commits = R.n - sum->new_commits;
 	}
+	/* absent blobs of a partial clone (issue 12): one pre-pass and fetch
+	 * over every commit this pass reads, merges included (do_merge diffs
+	 * some of their files), instead of one per walk or per merge */
+	{
+		git_oid *todo = NULL;
+		size_t ntodo = 0;
+		if (!(todo = malloc((R.n ? R.n : 1) * sizeof(*todo)))) {
+			e = omen_error_set(OMEN_ENOMEM, "out of memory");
+			goto out;
+		}
+		for (size_t i = 0; i < R.n; i++)
+			if (!R.cs[i].walked)
+				todo[ntodo++] = R.ids[i];
+		e = omen_history_prefetch(r, &wo, todo, ntodo);
+		free(todo);
+		if (e)
+			goto out;
+		wo.no_prefetch = 1;
+	}
 	omen_progress_start(&R.prog, "label", R.n);
 	wo.include_merges = 0; /* merges: do_merge */
 	e = omen_history_walk(r, &wo, walk_cb, &R);
+	sum->blobs = *omen_repo_blob_stats(r);
 	if (!e)
 		e = catch_up(&R, R.n);
 	omen_progress_end(&R.prog);

@@ -226,9 +226,13 @@ size_t lbl_tracer_versions(const lbl_tracer *t) { return t->len; }
 size_t lbl_tracer_bytes(const lbl_tracer *t) { return t->bytes; }
 size_t lbl_tracer_peak_bytes(const lbl_tracer *t) { return t->peak; }
 
+/* Files without lines to trace; a file with an absent blob (skipped, issue
+ * 12) gets no new version, so its lines have unknown origins from there on,
+ * except those later commits add. */
 static int skipped_file(const omen_file *f)
 {
-	return (f->flags & (OMEN_FILE_BINARY | OMEN_FILE_TOO_LARGE | OMEN_FILE_SUBMODULE)) != 0;
+	return (f->flags & (OMEN_FILE_BINARY | OMEN_FILE_TOO_LARGE | OMEN_FILE_SUBMODULE |
+		OMEN_FILE_MISSING)) != 0;
 }
 
 /* Hash of a line with all whitespace removed (0 when nothing is left). */

@@ -80,6 +80,9 @@ int omen_model_layout(omen_model *m);
 /* Allocates an empty model struct with dims D, C. */
 int omen_model_alloc(omen_model **out, int D, int C);
 void omen_model_init_weights(omen_model *m, uint64_t seed);
+/* train.c's standardization of m on samples idx[0..n) of ds. */
+void omen_model_fit_standardization(omen_model *m, const omen_dataset *ds, const size_t *idx,
+	size_t n);
 
 /* Workspace of one chunk: batch arrays and activations, one block each. */
 typedef struct {

@@ -257,6 +257,14 @@ static void fit_standardization(omen_model *m, const omen_dataset *ds, const siz
 	}
 }
 
+/* The standardization of m fitted on samples idx[0..n) of ds (shared with
+ * src/model/base.c, which adopts a base model for a young repository). */
+void omen_model_fit_standardization(omen_model *m, const omen_dataset *ds, const size_t *idx,
+	size_t n)
+{
+	fit_standardization(m, ds, idx, n);
+}
+
 static int fit_lr(omen_logreg *out, const omen_dataset *ds, const size_t *idx, size_t n)
 {
 	double *X = malloc((n + 1) * OMEN_NMETRICS * sizeof(double)), *y = malloc((n + 1) * sizeof(double));
@@ -429,7 +437,7 @@ static int fit(omen_model *m, fit_info *fi, const omen_dataset *ds, const size_t
 	aw.lr = o->lr;
 	aw.weight_decay = o->weight_decay;
 	memcpy(best, m->params, m->nparams * sizeof(float));
-	if (use_valid && o->warm_start) {
+	if (use_valid && (o->warm_start || o->init)) {
 		/* epoch 0 (the warm start) is a candidate too */
 		if ((e = ctx_logits(&x, vz, valid_idx, n_valid)))
 			goto out;
@@ -587,8 +595,12 @@ static int train_core(omen_model **out, fit_info *fi, const omen_dataset *ds,
 	fit_standardization(m, ds, train_idx, n_train);
 	if ((e = fit_lr(&m->lr, ds, train_idx, n_train)))
 		goto out;
-	if (o->warm_start)
+	if (o->init) {
+		if ((e = omen_model_copy_weights(m, o->init)))
+			goto out;
+	} else if (o->warm_start) {
 		warm_start(m, ds, train_idx, n_train);
+	}
 	if ((e = fit(m, fi, ds, train_idx, n_train, valid_idx, n_valid, o, epochs, report)))
 		goto out;
 	if (n_valid && (e = calibrate(m, ds, valid_idx, n_valid, train_threads(o))))
@@ -794,6 +806,11 @@ int omen_model_train(omen_model **out, omen_train_report *rep, const omen_datase
 	cJSON_AddBoolToObject(tr, "refit", o->refit != 0);
 	cJSON_AddStringToObject(tr, "calibrated_on", o->refit ? "test" : "validation");
 	cJSON_AddItemToObject(meta, "training", tr);
+	if (o->init && o->init->meta) {   /* fine-tuned: say from which base (issue 11) */
+		const cJSON *b = cJSON_GetObjectItemCaseSensitive(o->init->meta, "base");
+		if (b)
+			cJSON_AddItemToObject(meta, "from_base", cJSON_Duplicate(b, 1));
+	}
 	te = cJSON_CreateObject();
 	cJSON_AddItemToObject(te, "model", scores_json(&rep->model));
 	cJSON_AddItemToObject(te, "lr_metrics", scores_json(&rep->lr_metrics));

@@ -658,6 +658,13 @@ int score_walk(omen_score_set *set, omen_scorer *s, const git_oid *ids, size_t n
 	}
 	if ((e = omen_sample_buf_new(&w.sb)))
 		goto out;
+	/* absent blobs of a partial clone (issue 12): the scored commits' in
+	 * one batch, not one fetch per commit; the hook never waits on a
+	 * fetch and reads what is there */
+	if (s->lazy)
+		wo.missing_blobs = OMEN_MISSING_SKIP;
+	else if ((e = omen_history_prefetch(s->repo, &wo, ids, n)))
+		goto out;
 	if (!s->lazy)
 		omen_progress_start(&w.prog, "score", 0);
 	if (s->head_known) {

@@ -174,6 +174,43 @@ row_missing_objects() {
 	fi
 }
 
+# issue 12: the same deleted blob, skipped on request; a bad value of the
+# setting; a blobless clone whose promisor remote is unreachable
+row_missing_skip() {
+	have label || { report pending "missing objects, skipped" "label"; return; }
+	[ -d "$here/miss" ] || { report skip "missing objects, skipped" "needs the missing objects row"; return; }
+	cd "$here/miss" || return
+	git -c omen.missingBlobs=skip omen label --full --format json > "$here/ms.out" 2> "$here/ms.err"; rc=$?
+	n=$(sed -n 's/.*"skipped_files":\([0-9]*\).*/\1/p' "$here/ms.out")
+	if [ "$rc" -eq 0 ] && [ "${n:-0}" -gt 0 ] && grep -q '"missing_blob_files":' .git/omen/labels.jsonl; then
+		report ok "missing objects, skipped" "omen.missingBlobs=skip: label 0, $n file changes skipped"
+	else
+		report FAIL "missing objects, skipped" "rc=$rc skipped=${n:-?} $(first_err ms)"
+	fi
+	git -c omen.missingBlobs=later omen label > /dev/null 2> "$here/mb.err"; rc=$?
+	if [ "$rc" -eq 128 ] && one_line mb "bad config value 'omen.missingBlobs': 'later' is not error, skip or fetch"; then
+		report ok "bad omen.missingBlobs" "128: $(first_err mb)"
+	else
+		report FAIL "bad omen.missingBlobs" "rc=$rc $(first_err mb)"
+	fi
+}
+
+row_promisor_unreachable() {
+	have label || { report pending "promisor unreachable" "label"; return; }
+	rm -rf "$here/srv" "$here/blobless" && cp -r "$H" "$here/srv" || return
+	git -C "$here/srv" config uploadpack.allowFilter true
+	git clone -q --filter=blob:none "file://$here/srv" "$here/blobless" 2>/dev/null || {
+		report skip "promisor unreachable" "git cannot make a blobless clone here"; return; }
+	cd "$here/blobless" || return
+	git config remote.origin.url "file://$here/nowhere"
+	om pu label
+	if [ "$rc" -eq 0 ] && one_line pu "^git omen: notice: cannot fetch absent blobs from promisor remote 'origin': "; then
+		report ok "promisor unreachable" "label 0 after one notice: $(first_err pu)"
+	else
+		report FAIL "promisor unreachable" "rc=$rc $(first_err pu)"
+	fi
+}
+
 row_detached() {
 	rm -rf "$here/det" && cp -r "$H" "$here/det" && cd "$here/det" || return
 	git checkout -q --detach HEAD~2
@@ -761,6 +798,14 @@ row_read_kinds() {
 		report FAIL "labels over omen.memoryLimit" "rc=$rc $(first_err ls)"
 	fi
 	rm -f "$big/labels300.jsonl"
+	# a corpus shard that is a FIFO (train --base lists the directory)
+	rm -rf "$here/fshards" && mkdir -p "$here/fshards" && mkfifo "$here/fshards/x+y.shard"
+	guard git omen train --base "$here/fshards" --model "$here/fs.omen" > "$here/fs.out" 2> "$here/fs.err"; rc=$?
+	if [ "$rc" -eq 128 ] && one_line fs "not a regular file$" && [ ! -e "$here/fs.omen" ]; then
+		report ok "corpus shard is a FIFO" "128 without waiting"
+	else
+		report FAIL "corpus shard is a FIFO" "rc=$rc (124: it waited) $(first_err fs)"
+	fi
 	# error lines quote names as they are: shown escaped too
 	om me score HEAD --model "$here/$(printf 'm\033[2J\033]0;t\007.omen')"
 	if [ "$rc" -eq 128 ] && one_line me 'm\\033\[2J\\033\]0;t\\a\.omen' && no_ctl "$here/me.err"; then
@@ -770,10 +815,37 @@ row_read_kinds() {
 	fi
 }
 
+# a corpus shard (issue 11) with a flipped byte in a sample, or cut short:
+# train --base stops with one line naming the shard, writes no model
+row_shard_damaged() {
+	have train || { report pending "damaged corpus shard" "train --shard"; return; }
+	rm -rf "$here/shd"
+	/usr/bin/python3 "$ROOT/fixtures/demo/gen.py" --seed 5 --commits 200 --out "$here/shd" --quiet &&
+		cd "$here/shd" || return
+	mkdir -p "$here/shards-flip" "$here/shards-cut"
+	git omen label > /dev/null 2>&1
+	om shw train --shard "$here/shards-flip/x+y.shard"
+	[ "$rc" -eq 0 ] || { report FAIL "damaged corpus shard" "rc=$rc $(first_err shw)"; return; }
+	size=$(wc -c < "$here/shards-flip/x+y.shard")
+	cp "$here/shards-flip/x+y.shard" "$here/shards-cut/x+y.shard"
+	printf 'Z' | dd of="$here/shards-flip/x+y.shard" bs=1 seek=$((size / 3)) conv=notrunc 2>/dev/null
+	truncate -s $((size - 7)) "$here/shards-cut/x+y.shard"
+	om shf train --base "$here/shards-flip" --model "$here/shd-flip.omen"
+	rcf=$rc
+	om shc train --base "$here/shards-cut" --model "$here/shd-cut.omen"
+	if [ "$rcf" -eq 128 ] && one_line shf "cannot read shard '.*x\+y\.shard': sample [0-9]+: bad checksum" &&
+	   [ "$rc" -eq 128 ] && one_line shc "cannot read shard '.*x\+y\.shard': " &&
+	   [ ! -e "$here/shd-flip.omen" ] && [ ! -e "$here/shd-cut.omen" ]; then
+		report ok "damaged corpus shard" "128 both, no model: $(first_err shf | cut -c1-60)"
+	else
+		report FAIL "damaged corpus shard" "rc=$rcf/$rc $(first_err shf) | $(first_err shc)"
+	fi
+}
+
 t0=$(date +%s)
-for r in shallow empty unborn missing_objects detached big_file binary_only invalid_utf8 crlf \
+for r in shallow empty unborn missing_objects missing_skip promisor_unreachable detached big_file binary_only invalid_utf8 crlf \
          submodule symlink mode_only many_files model_truncated model_flipped label_broken_line \
-         two_trains kill_train kill_label memory_limit bad_config; do
+         two_trains kill_train kill_label memory_limit bad_config shard_damaged; do
 	cd "$here" || exit 1
 	ts=$(date +%s)
 	row_$r

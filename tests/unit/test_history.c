@@ -552,6 +552,25 @@ static void test_empty_and_unknown(void **state)
 	omen_repo_free(r);
 }
 
+typedef struct {
+	int commits, flagged, bad;
+} missing_state;
+
+static int missing_cb(const omen_change *c, void *payload)
+{
+	missing_state *m = payload;
+	m->commits++;
+	for (size_t i = 0; i < c->nfiles; i++) {
+		const omen_file *f = &c->files[i];
+		if (!(f->flags & OMEN_FILE_MISSING))
+			continue;
+		m->flagged++;
+		if (f->nhunks || f->added || f->deleted || f->old_nlines || strcmp(omen_file_path(f), "src/main.c"))
+			m->bad++;
+	}
+	return 0;
+}
+
 static void test_missing_object(void **state)
 {
 	char dir[700], hex[64];
@@ -579,8 +598,65 @@ static void test_missing_object(void **state)
 		n = 0;
 		assert_int_equal(omen_history_walk(r, &o, count_cb, &n), OMEN_EGIT);
 		assert_non_null(strstr(omen_error_last(), "cannot read blob of 'src/main.c'"));
+		/* the error names the setting that goes on without the blob */
+		assert_non_null(strstr(omen_error_last(), "omen.missingBlobs=skip"));
 		assert_null(strchr(omen_error_last(), '\n'));
 	}
+	/* skipping: every file change that reads the blob (as git's raw diff
+	 * lists them, old or new side) is flagged, without counts or hunks,
+	 * and everything else is walked */
+	{
+		char cmd[1024];
+		int want = 0, commits = 0;
+		snprintf(cmd, sizeof(cmd), "git -C '%s' log --raw --no-abbrev --format= | grep -c %s", dir, hex);
+		p = popen(cmd, "r");
+		assert_non_null(p);
+		assert_int_equal(fscanf(p, "%d", &want), 1);
+		pclose(p);
+		snprintf(cmd, sizeof(cmd), "git -C '%s' rev-list --no-merges --count HEAD", dir);
+		p = popen(cmd, "r");
+		assert_non_null(p);
+		assert_int_equal(fscanf(p, "%d", &commits), 1);
+		pclose(p);
+		assert_true(want >= 1);
+		o.missing_blobs = OMEN_MISSING_SKIP;
+		for (int t = 1; t <= 2; t++) {
+			missing_state ms = {0, 0, 0};
+			size_t before = omen_repo_blob_stats(r)->skipped_files;
+			o.threads = t;
+			assert_int_equal(omen_history_walk(r, &o, missing_cb, &ms), 0);
+			assert_int_equal(ms.commits, commits);
+			assert_int_equal(ms.flagged, want);
+			assert_int_equal(ms.bad, 0);
+			assert_int_equal(omen_repo_blob_stats(r)->skipped_files - before, (size_t)want);
+		}
+		/* fetch on a clone without a promisor remote: one notice, then
+		 * the same skip */
+		o.missing_blobs = OMEN_MISSING_FETCH;
+		{
+			missing_state ms = {0, 0, 0};
+			assert_int_equal(omen_history_walk(r, &o, missing_cb, &ms), 0);
+			assert_int_equal(ms.flagged, want);
+			assert_non_null(strstr(omen_repo_blob_stats(r)->notice, "no usable promisor remote to fetch 1 absent blob from; skipping it"));
+			assert_int_equal(omen_repo_blob_stats(r)->wanted, 1);
+			assert_int_equal(omen_repo_blob_stats(r)->fetched, 0);
+			assert_int_equal(omen_repo_blob_stats(r)->partial, 0);
+		}
+	}
+	omen_repo_free(r);
+	/* the setting, and a bad value of it */
+	setenv("GIT_CONFIG_PARAMETERS", "'omen.missingblobs'='skip'", 1);
+	assert_int_equal(omen_repo_open(&r, dir), 0);
+	o = (omen_walk_opts)OMEN_WALK_OPTS_INIT;
+	n = 0;
+	assert_int_equal(omen_history_walk(r, &o, count_cb, &n), 0);
+	omen_repo_free(r);
+	setenv("GIT_CONFIG_PARAMETERS", "'omen.missingblobs'='later'", 1);
+	assert_int_equal(omen_repo_open(&r, dir), 0);
+	assert_int_equal(omen_history_walk(r, &o, count_cb, &n), OMEN_EINVAL);
+	assert_string_equal(omen_error_last(),
+		"bad config value 'omen.missingBlobs': 'later' is not error, skip or fetch");
+	unsetenv("GIT_CONFIG_PARAMETERS");
 	omen_repo_free(r);
 }
 

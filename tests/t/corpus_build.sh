@@ -1,0 +1,157 @@
+#!/bin/sh
+# fixtures/corpus/build.sh (issue 11) on a manifest of three generated
+# histories, one of whose snapshots is missing: the build stops before any
+# work with one line naming that entry; --keep-going labels and shards the
+# other two and lists what it left out. An entry on the leave-out list is
+# refused. The shards train a base model through `git omen train --base`,
+# and the same SOURCE_DATE_EPOCH gives the same bytes twice; the file holds
+# none of the corpus's authors, paths or messages; fine-tuning starts from
+# it, a damaged one is a notice.
+set -eu
+fail() { echo "FAIL: $*" >&2; exit 1; }
+export HOME="$PWD/home" GIT_CONFIG_NOSYSTEM=1 GIT_CONFIG_GLOBAL=/dev/null
+mkdir -p "$HOME" snap
+top=$PWD
+/usr/bin/python3 "$ROOT/fixtures/demo/gen.py" --seed 3 --commits 160 --out "$top/snap/example+one" --bare --quiet
+/usr/bin/python3 "$ROOT/fixtures/demo/gen.py" --seed 4 --commits 140 --out "$top/snap/example+two" --bare --quiet
+h1=$(git --git-dir=snap/example+one rev-parse HEAD)
+h2=$(git --git-dir=snap/example+two rev-parse HEAD)
+printf '# test corpus\nname\thead\tlanguage\tcommits\nexample/one\t%s\tPython\t160\nexample/three\t%s\tC\t10\nexample/two\t%s\tGo\t140\n' \
+	"$h1" "$h1" "$h2" >m.tsv
+export OMEN_CORPUS_DIR="$top/snap" OMEN_CORPUS_WORK="$top/work"
+
+rc=0; sh "$ROOT/fixtures/corpus/build.sh" --manifest m.tsv --no-train >out 2>err || rc=$?
+[ "$rc" -eq 1 ] || fail "missing snapshot: exit $rc"
+grep -q "^build.sh: corpus entry 'example/three': no snapshot at '$top/snap/example+three'$" err ||
+	fail "missing snapshot not named: $(cat err)"
+[ ! -e work/shards/example+one.shard ] || fail "work done before the missing entry stopped it"
+
+sh "$ROOT/fixtures/corpus/build.sh" --manifest m.tsv --no-train --keep-going >out 2>err ||
+	fail "--keep-going: $(cat err)"
+[ -s work/shards/example+one.shard ] && [ -s work/shards/example+two.shard ] ||
+	fail "--keep-going: shards missing"
+grep -q "^left out: 1 of 3 corpus entries: example/three$" err || fail "left-out list: $(cat err)"
+grep -q "wrote shard .*example+one.shard: [0-9]* commits, [0-9]* labelled" out || fail "$(cat out)"
+# the snapshots were only read
+[ ! -d snap/example+one/omen ] || fail "a snapshot was written to"
+
+# a snapshot without the manifest's head is named too
+printf 'name\thead\tlanguage\tcommits\nexample/one\t%s\tPython\t1\n' "$(echo "$h1" | tr 0-9a-f 1-9a-f0)" >bad.tsv
+rc=0; sh "$ROOT/fixtures/corpus/build.sh" --manifest bad.tsv --no-train >out 2>err || rc=$?
+[ "$rc" -eq 1 ] && grep -q "corpus entry 'example/one': snapshot .* lacks its head" err ||
+	fail "head check: exit $rc: $(cat err)"
+# an entry of the leave-out list is refused
+printf 'name\thead\tlanguage\tcommits\npallets/click\t%s\tPython\t1\n' "$h1" >lo.tsv
+rc=0; sh "$ROOT/fixtures/corpus/build.sh" --manifest lo.tsv --no-train >out 2>err || rc=$?
+[ "$rc" -eq 1 ] && grep -q "corpus entry 'pallets/click' is on the leave-out list" err ||
+	fail "leave-out entry: exit $rc: $(cat err)"
+
+# a snapshot that lacks one blob: its labelling fails; --keep-going leaves
+# it out and goes on, without it the build stops there naming it
+git init -q --bare snap/example+four
+git --git-dir=snap/example+four unpack-objects -q <"$(ls snap/example+two/objects/pack/*.pack)"
+git --git-dir=snap/example+two for-each-ref --format='%(refname) %(objectname)' |
+	while read -r ref id; do git --git-dir=snap/example+four update-ref "$ref" "$id"; done
+git --git-dir=snap/example+four symbolic-ref HEAD "$(git --git-dir=snap/example+two symbolic-ref HEAD)"
+blob=$(git --git-dir=snap/example+four ls-tree -r HEAD~30 | awk '$2 == "blob" { print $3; exit }')
+rm -f "snap/example+four/objects/$(echo "$blob" | cut -c1-2)/$(echo "$blob" | cut -c3-)"
+printf 'name\thead\tlanguage\tcommits\nexample/four\t%s\tGo\t140\nexample/one\t%s\tPython\t160\n' "$h2" "$h1" >m2.tsv
+rc=0; sh "$ROOT/fixtures/corpus/build.sh" --manifest m2.tsv --no-train >out 2>err || rc=$?
+[ "$rc" -eq 1 ] && grep -q "^build.sh: corpus entry 'example/four': labelling failed$" err ||
+	fail "missing blob: exit $rc: $(cat err)"
+sh "$ROOT/fixtures/corpus/build.sh" --manifest m2.tsv --no-train --keep-going >out 2>err ||
+	fail "missing blob, --keep-going: $(cat err)"
+grep -q "^build.sh: corpus entry 'example/four': labelling failed; left out$" err &&
+	grep -q "^left out: 1 of 2 corpus entries: example/four$" err ||
+	fail "missing blob, --keep-going: $(cat err)"
+[ ! -e work/shards/example+four.shard ] && [ -s work/shards/example+one.shard ] ||
+	fail "missing blob, --keep-going: shards"
+# back to the first manifest's shards for what follows
+sh "$ROOT/fixtures/corpus/build.sh" --manifest m.tsv --no-train --keep-going >out 2>err ||
+	fail "rebuild: $(cat err)"
+
+# --leave-out reads the leave-out list (none of whose snapshots is here)
+rc=0; sh "$ROOT/fixtures/corpus/build.sh" --leave-out >out 2>err || rc=$?
+[ "$rc" -eq 1 ] && grep -q "^build.sh: corpus entry 'pallets/click': no snapshot at" err ||
+	fail "--leave-out: exit $rc: $(cat err)"
+
+# the base model from the two shards, twice: the same bytes
+for k in 1 2; do
+	SOURCE_DATE_EPOCH=1700000000 "$OMEN" train --base work/shards --model "b$k.omen" --epochs 2 \
+		--threads $k >out 2>err || fail "train --base: $(cat err)"
+done
+cmp -s b1.omen b2.omen || fail "base model differs between runs at 1 and 2 threads"
+grep -q "^corpus: 2 histories; train [0-9]* commits" out || fail "summary: $(cat out)"
+"$OMEN" train --info --model b1.omen --format json >info
+grep -q '"metrics":[[:space:]]*"relative"' info || fail "info: $(cat info)"
+grep -q '"name":[[:space:]]*"example/one"' info || fail "corpus not listed: $(cat info)"
+grep -q '"date":[[:space:]]*"2023-11-14T22:13:20Z"' info || fail "date: $(cat info)"
+# weights and statistics only: no author name or address, no path, no
+# message of the corpus in the file (strings(1) of binutils)
+if command -v strings >/dev/null; then
+	strings -n 4 b1.omen >strs
+	for g in snap/example+one snap/example+two; do
+		git --git-dir="$g" log --format='%ae%n%an' | sort -u >who
+		git --git-dir="$g" ls-tree -r --name-only HEAD | grep '/' | sort -u >paths
+		git --git-dir="$g" log --format='%s' | awk 'length($0) >= 12' | sort -u >subjects
+		[ -s who ] && [ -s paths ] && [ -s subjects ] || fail "no names to look for in $g"
+		! grep -F -f who strs >/dev/null || fail "an author of $g is in the base model"
+		! grep -F -f paths strs >/dev/null || fail "a path of $g is in the base model"
+		! grep -F -f subjects strs >/dev/null || fail "a commit message of $g is in the base model"
+	done
+fi
+"$OMEN" train --info --model b1.omen | grep -q "^base model  2 histories, [0-9]* training commits, built 2023-11-14T22:13:20Z$" ||
+	fail "info text: $("$OMEN" train --info --model b1.omen)"
+rc=0; "$OMEN" train --base work/shards >out 2>err || rc=$?
+[ "$rc" -eq 129 ] || fail "--base without --model: exit $rc"
+rc=0; "$OMEN" train --base work/shards --model x.omen --from b1.omen >out 2>err || rc=$?
+[ "$rc" -eq 129 ] && grep -q "^git omen train: --base reads shards" err || fail "--base --from: exit $rc: $(cat err)"
+rc=0; "$OMEN" train --base "$top/none" --model x.omen >out 2>err || rc=$?
+[ "$rc" -eq 128 ] && grep -q "^git omen: error: cannot read shard directory '$top/none'" err ||
+	fail "no directory: exit $rc: $(cat err)"
+
+# fine-tuning: --from starts from the base model; a damaged base model is a
+# notice and training goes on from scratch; --scratch ignores omen.baseModel
+git clone -q snap/example+one r1
+cd r1
+"$OMEN" label >/dev/null
+"$OMEN" train --from ../b1.omen --epochs 2 --model ft.omen >out 2>err || fail "--from: $(cat err)"
+grep -q "^fine-tuned from base model \.\./b1\.omen$" out || fail "--from: $(cat out)"
+"$OMEN" train --info --model ft.omen --format json | grep -q '"from_base"' || fail "no from_base in metadata"
+"$OMEN" train --info --model ft.omen | grep -q "^from base   2 histories" || fail "info text: no from base line"
+cp ../b1.omen flipped.omen
+printf 'X' | dd of=flipped.omen bs=1 seek=300 conv=notrunc 2>/dev/null
+"$OMEN" train --from flipped.omen --epochs 2 --model ft2.omen >out 2>err || fail "flipped base: $(cat err)"
+[ "$(wc -l <err)" -eq 1 ] && grep -q "^git omen: notice: cannot use base model 'flipped.omen': .*; training from scratch$" err ||
+	fail "flipped base notice: $(cat err)"
+! grep -q "fine-tuned" out || fail "flipped base was used"
+git config omen.baseModel ../b1.omen
+"$OMEN" train --scratch --epochs 2 --model ft3.omen >out 2>err || fail "--scratch: $(cat err)"
+! grep -q "fine-tuned" out || fail "--scratch used the base model"
+"$OMEN" train --info --model ft3.omen --format json | grep -q '"from_base"' && fail "--scratch: from_base in metadata"
+
+# a young repository (too few labelled commits): without a base model train
+# stops with the figure; with one it keeps the base model, says so once with
+# the figure, and score uses it
+cd "$top"
+/usr/bin/python3 "$ROOT/fixtures/demo/gen.py" --seed 9 --commits 45 --out "$top/young" --quiet
+cd young
+"$OMEN" label >/dev/null
+rc=0; "$OMEN" train >out 2>err || rc=$?
+[ "$rc" -eq 128 ] && grep -q "^git omen: error: too few labelled commits to train: [0-9]* labelled" err ||
+	fail "young, no base: exit $rc: $(cat err)"
+"$OMEN" train --from ../b1.omen >out 2>err || fail "young, base: $(cat err)"
+[ "$(wc -l <err)" -eq 1 ] &&
+	grep -q "^git omen: notice: too few labelled commits to train: [0-9]* labelled .*: keeping the base model '../b1.omen', standardized on this repository's [0-9]* commits$" err ||
+	fail "young, base notice: $(cat err)"
+grep -q "the base model, not trained on this repository; scores are advisory" out || fail "$(cat out)"
+"$OMEN" train --info --format json | grep -q '"young"' || fail "young: metadata"
+"$OMEN" score HEAD >out 2>err || fail "young: score: $(cat err)"
+grep -q "advisory" out || fail "young: score output: $(cat out)"
+[ "$(grep -c "^git omen: notice: scored with a base model: this repository had [0-9]* labelled commits, too few to train its own model; scores are advisory$" err)" -eq 1 ] ||
+	fail "young: score notice: $(cat err)"
+# a model trained on the repository itself gives no such notice
+cd "$top/r1"
+"$OMEN" score --model ft3.omen HEAD >out 2>err || fail "r1: score: $(cat err)"
+! grep -q "base model" err || fail "r1: base-model notice on its own model: $(cat err)"
+exit 0
