@@ -18,6 +18,7 @@
 #include <cJSON.h>
 #include "omen/error.h"
 #include "omen/label.h"
+#include "omen/rank.h"
 #include "label/internal.h"
 #include "label/trace.h"
 
@@ -656,24 +657,6 @@ static int pair_cmp(const void *a, const void *b)
 	return x->fix < y->fix ? -1 : x->fix > y->fix;
 }
 
-static int dbl_cmp(const void *a, const void *b)
-{
-	double x = *(const double *)a, y = *(const double *)b;
-	return x < y ? -1 : x > y;
-}
-
-static double quantile(const double *v, size_t n, double q)
-{
-	double pos, fl;
-	size_t i;
-	if (!n)
-		return 0;
-	pos = q * (double)(n - 1);
-	fl = floor(pos);
-	i = (size_t)fl;
-	return i + 1 < n ? v[i] + (pos - fl) * (v[i + 1] - v[i]) : v[i];
-}
-
 /* ---- options and the previous run ---------------------------------------- */
 static void json_str_or_null(omen_buf *b, const char *s)
 {
@@ -800,43 +783,17 @@ static int previous_run(omen_label_summary *sum, lbl_run *R, const char *path, c
  * untraced fix, 2 bits fix scope}, u32 n + pairs {u32 x 3},
  * u32 n + tips {u32}, u32 n + versions {u64 path key, oid[20], i32 ref,
  * u32 n, u32 origins[n]}, u32 CRC-32 of all before it. Little-endian. */
-/* The state being written; err sticks at the first failed append, so an
- * out-of-memory run never writes a short state under a valid checksum. */
-typedef struct {
-	omen_buf b;
-	int err;
-} state_w;
-
-static void wput(state_w *w, const void *data, size_t n)
-{
-	if (!w->err)
-		w->err = omen_buf_put(&w->b, data, n);
-}
-
-/* Sticky-error forms of omen_buf_put_u32le/u64le: save_state checks w->err once. */
-static void put32(state_w *w, uint32_t v)
-{
-	if (!w->err)
-		w->err = omen_buf_put_u32le(&w->b, v);
-}
-
-static void put64(state_w *w, uint64_t v)
-{
-	if (!w->err)
-		w->err = omen_buf_put_u64le(&w->b, v);
-}
-
 static int put_version(uint64_t pkey, const git_oid *blob, const uint32_t *orig, uint32_t n,
 	int32_t ref, void *p)
 {
-	state_w *b = p;
+	omen_buf *b = p;
 	uint32_t i;
-	put64(b, pkey);
-	wput(b, blob->id, GIT_OID_RAWSZ);
-	put32(b, (uint32_t)ref);
-	put32(b, n);
+	omen_buf_put_u64le(b, pkey);
+	omen_buf_put(b, blob->id, GIT_OID_RAWSZ);
+	omen_buf_put_u32le(b, (uint32_t)ref);
+	omen_buf_put_u32le(b, n);
 	for (i = 0; i < n; i++)
-		put32(b, orig[i]);
+		omen_buf_put_u32le(b, orig[i]);
 	return 0;
 }
 
@@ -851,49 +808,51 @@ static size_t *counter(omen_label_summary *s, int k)
 
 static int save_state(lbl_run *R, const char *path, const char *opts, const char *head)
 {
-	state_w w = {OMEN_BUF_INIT, 0};
+	omen_buf w = OMEN_BUF_INIT;
 	size_t i;
 	int e, k;
-	wput(&w, "OMENLBS1", 8);
-	put32(&w, 2);
-	wput(&w, head, OMEN_OID_HEX);
-	put32(&w, (uint32_t)strlen(opts));
-	wput(&w, opts, strlen(opts));
+	omen_buf_put(&w, "OMENLBS1", 8);
+	omen_buf_put_u32le(&w, 2);
+	omen_buf_put(&w, head, OMEN_OID_HEX);
+	omen_buf_put_u32le(&w, (uint32_t)strlen(opts));
+	omen_buf_put(&w, opts, strlen(opts));
 	for (k = 0; k < STATE_COUNTERS; k++)
-		put64(&w, *counter(R->sum, k));
-	put64(&w, (uint64_t)R->sum->shallow);
-	put32(&w, (uint32_t)R->n);
+		omen_buf_put_u64le(&w, *counter(R->sum, k));
+	omen_buf_put_u64le(&w, (uint64_t)R->sum->shallow);
+	omen_buf_put_u32le(&w, (uint32_t)R->n);
 	for (i = 0; i < R->n; i++) {
 		lbl_commit *c = &R->cs[i];
 		unsigned char fl = (unsigned char)(c->is_fix | c->merge << 1 | c->boundary << 2 | c->skipped << 3 |
 			(c->scope & 3) << 4);
-		wput(&w, R->ids[i].id, GIT_OID_RAWSZ);
-		put64(&w, (uint64_t)c->time);
-		put64(&w, (uint64_t)c->issue_date);
-		put32(&w, c->traced);
-		put32(&w, c->named);
-		put32(&w, c->fix_by);
-		wput(&w, &fl, 1);
+		omen_buf_put(&w, R->ids[i].id, GIT_OID_RAWSZ);
+		omen_buf_put_u64le(&w, (uint64_t)c->time);
+		omen_buf_put_u64le(&w, (uint64_t)c->issue_date);
+		omen_buf_put_u32le(&w, c->traced);
+		omen_buf_put_u32le(&w, c->named);
+		omen_buf_put_u32le(&w, c->fix_by);
+		omen_buf_put(&w, &fl, 1);
 	}
-	put32(&w, (uint32_t)R->npairs);
+	omen_buf_put_u32le(&w, (uint32_t)R->npairs);
 	for (i = 0; i < R->npairs; i++) {
-		put32(&w, R->pairs[i].ind);
-		put32(&w, R->pairs[i].fix);
-		put32(&w, R->pairs[i].lines);
+		omen_buf_put_u32le(&w, R->pairs[i].ind);
+		omen_buf_put_u32le(&w, R->pairs[i].fix);
+		omen_buf_put_u32le(&w, R->pairs[i].lines);
 	}
-	put32(&w, (uint32_t)R->ntips);
+	omen_buf_put_u32le(&w, (uint32_t)R->ntips);
 	for (i = 0; i < R->ntips; i++)
-		put32(&w, R->tips[i]);
-	put32(&w, (uint32_t)lbl_tracer_versions(R->tr));
+		omen_buf_put_u32le(&w, R->tips[i]);
+	omen_buf_put_u32le(&w, (uint32_t)lbl_tracer_versions(R->tr));
 	lbl_tracer_each(R->tr, put_version, &w);
-	if (!w.err)
-		put32(&w, omen_crc32(0, w.b.ptr, w.b.len));
-	if (w.err) {
-		omen_buf_free(&w.b);
+	/* The buffer keeps its first failed append (omen_buf_error), so an
+	 * out-of-memory run never writes a short state under a valid checksum. */
+	if (!omen_buf_error(&w))
+		omen_buf_put_u32le(&w, omen_crc32(0, w.ptr, w.len));
+	if (omen_buf_error(&w)) {
+		omen_buf_free(&w);
 		return omen_error_set(OMEN_ENOMEM, "cannot save label state '%s': out of memory", path);
 	}
-	e = omen_file_write_atomic(path, w.b.ptr, w.b.len);
-	omen_buf_free(&w.b);
+	e = omen_file_write_atomic(path, w.ptr, w.len);
+	omen_buf_free(&w);
 	return e;
 }
 
@@ -1194,10 +1153,10 @@ static int latency(lbl_run *R)
 	for (i = 0; i < R->npairs; i++)
 		if (!i || R->pairs[i].ind != R->pairs[i - 1].ind || R->pairs[i].fix != R->pairs[i - 1].fix)
 			d[k++] = (double)(R->cs[R->pairs[i].fix].time - R->cs[R->pairs[i].ind].time) / 86400.0;
-	qsort(d, k, sizeof(*d), dbl_cmp);
-	R->sum->latency_days_q[0] = quantile(d, k, 0.25);
-	R->sum->latency_days_q[1] = quantile(d, k, 0.5);
-	R->sum->latency_days_q[2] = quantile(d, k, 0.75);
+	qsort(d, k, sizeof(*d), omen_cmp_double);
+	R->sum->latency_days_q[0] = omen_quantile_sorted(d, k, 0.25);
+	R->sum->latency_days_q[1] = omen_quantile_sorted(d, k, 0.5);
+	R->sum->latency_days_q[2] = omen_quantile_sorted(d, k, 0.75);
 	free(d);
 	return 0;
 }
