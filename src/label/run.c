@@ -856,6 +856,132 @@ static int save_state(lbl_run *R, const char *path, const char *opts, const char
 	return e;
 }
 
+/* load_state's parts read one section each from c. They return 0 when the
+ * section is read, 1 when the state is not usable (a short or inconsistent
+ * section), < 0 on error. */
+
+/* The n saved commits: map[i] gets each one's place in R, old[place] = 1. */
+static int load_commits(lbl_run *R, omen_cursor *c, uint32_t n, uint32_t *map, unsigned char *old)
+{
+	const void *p;
+	uint32_t i;
+	for (i = 0; i < n; i++) {
+		git_oid id;
+		long ni;
+		uint64_t t, d;
+		uint32_t tr, nm, fb;
+		uint8_t fl;
+		lbl_commit *cm;
+		if (omen_cursor_bytes(c, &p, GIT_OID_RAWSZ))
+			return 1;
+		memcpy(id.id, p, GIT_OID_RAWSZ);
+		if ((ni = lookup_oid(R, &id)) < 0 || omen_cursor_u64le(c, &t) || omen_cursor_u64le(c, &d) ||
+		    omen_cursor_u32le(c, &tr) || omen_cursor_u32le(c, &nm) || omen_cursor_u32le(c, &fb) ||
+		    omen_cursor_u8(c, &fl))
+			return 1;
+		map[i] = (uint32_t)ni;
+		old[ni] = 1;
+		cm = &R->cs[ni];
+		cm->time = (int64_t)t;
+		cm->issue_date = (int64_t)d;
+		cm->traced = tr;
+		cm->named = nm;
+		cm->fix_by = fb;
+		cm->is_fix = fl & 1;
+		cm->merge = (fl >> 1) & 1;
+		cm->boundary = (fl >> 2) & 1;
+		cm->skipped = (fl >> 3) & 1;
+		cm->scope = (fl >> 4) & 3;
+		cm->walked = 1;
+	}
+	return 0;
+}
+
+/* The saved (inducing, fix, lines) pairs, their indices mapped through map. */
+static int load_pairs(lbl_run *R, omen_cursor *c, uint32_t n, const uint32_t *map)
+{
+	uint32_t len, i;
+	if (omen_cursor_u32le(c, &len))
+		return 1;
+	for (i = 0; i < len; i++) {
+		uint32_t a, f, l;
+		if (omen_cursor_u32le(c, &a) || omen_cursor_u32le(c, &f) || omen_cursor_u32le(c, &l) || a >= n || f >= n)
+			return 1;
+		if (OMEN_ARRAY_RESERVE(R->pairs, R->pairs_cap, R->npairs + 1))
+			return omen_error_set(OMEN_ENOMEM, "out of memory");
+		R->pairs[R->npairs++] = (lbl_pair){map[a], map[f], l};
+	}
+	return 0;
+}
+
+/* The saved tips; every new commit's parents must be new or a saved tip.
+ * Sets each old commit's pending count of children still to walk. */
+static int load_tips(lbl_run *R, omen_cursor *c, uint32_t n, const uint32_t *map, unsigned char *old,
+	uint32_t *newkids)
+{
+	uint32_t len, i;
+	for (i = 0; i < R->n; i++) {
+		git_commit *cm = NULL;
+		unsigned j, np;
+		if (old[i])
+			continue;
+		if (git_commit_lookup(&cm, omen_repo_git(R->repo), &R->ids[i]))
+			return 1;
+		np = git_commit_parentcount(cm);
+		for (j = 0; j < np; j++) {
+			long pi = lookup_oid(R, git_commit_parent_id(cm, j));
+			if (pi >= 0 && old[pi])
+				newkids[pi]++;
+		}
+		git_commit_free(cm);
+	}
+	if (omen_cursor_u32le(c, &len))
+		return 1;
+	for (i = 0; i < len; i++) {
+		uint32_t t;
+		if (omen_cursor_u32le(c, &t) || t >= n)
+			return 1;
+		old[map[t]] = 2; /* a saved tip */
+	}
+	for (i = 0; i < R->n; i++) {
+		if (old[i] == 1 && newkids[i])
+			return 1; /* a new branch from an old inner commit: no state for it */
+		if (old[i])
+			R->cs[i].pending = old[i] == 2 ? (newkids[i] ? newkids[i] : 1) : 0;
+	}
+	return 0;
+}
+
+/* The tracer's saved line versions, their origins mapped through map. */
+static int load_versions(lbl_run *R, omen_cursor *c, uint32_t n, const uint32_t *map)
+{
+	const void *p;
+	uint32_t len, i;
+	if (omen_cursor_u32le(c, &len))
+		return 1;
+	for (i = 0; i < len; i++) {
+		uint64_t pkey;
+		git_oid blob;
+		uint32_t ref, nl, j, *orig;
+		int e;
+		if (omen_cursor_u64le(c, &pkey) || omen_cursor_bytes(c, &p, GIT_OID_RAWSZ))
+			return 1;
+		memcpy(blob.id, p, GIT_OID_RAWSZ);
+		if (omen_cursor_u32le(c, &ref) || omen_cursor_u32le(c, &nl) || (size_t)nl * 4 > c->n)
+			return 1;
+		if (!(orig = malloc(((size_t)nl + 1) * sizeof(*orig))))
+			return omen_error_set(OMEN_ENOMEM, "out of memory");
+		for (j = 0; j < nl; j++) {
+			uint32_t o;
+			omen_cursor_u32le(c, &o);
+			orig[j] = o < n ? map[o] : LBL_NONE;
+		}
+		if ((e = lbl_tracer_put(R->tr, pkey, &blob, orig, nl, (int32_t)ref)))
+			return e;
+	}
+	return 0;
+}
+
 /* Restores the state saved by the previous run when it covers exactly the
  * labelled head with the same options and every new commit's old parents
  * are saved tips. Returns 1 when restored, 0 when not usable (then the
@@ -865,7 +991,7 @@ static int load_state(lbl_run *R, const char *path, const char *opts)
 	omen_buf b = OMEN_BUF_INIT;
 	omen_cursor c;
 	const void *p;
-	uint32_t ver, len, n, i, k, crc, *map = NULL, *newkids = NULL;
+	uint32_t ver, len, n, k, crc, *map = NULL, *newkids = NULL;
 	uint64_t u;
 	unsigned char *old = NULL;
 	int rc = 0, e;
@@ -889,107 +1015,21 @@ static int load_state(lbl_run *R, const char *path, const char *opts)
 	if (omen_cursor_u64le(&c, &u))
 		goto out;
 	R->sum->shallow = u != 0;
+	/* (a count over R->n reads as out of memory, as it always has) */
 	if (omen_cursor_u32le(&c, &n) || n > R->n || !(map = malloc(((size_t)n + 1) * sizeof(*map))) ||
-	    !(old = calloc(R->n + 1, 1)) || !(newkids = calloc(R->n + 1, sizeof(*newkids))))
-		goto nomem_or_out;
-	for (i = 0; i < n; i++) {
-		git_oid id;
-		long ni;
-		uint64_t t, d;
-		uint32_t tr, nm, fb;
-		uint8_t fl;
-		lbl_commit *cm;
-		if (omen_cursor_bytes(&c, &p, GIT_OID_RAWSZ))
-			goto out;
-		memcpy(id.id, p, GIT_OID_RAWSZ);
-		if ((ni = lookup_oid(R, &id)) < 0 || omen_cursor_u64le(&c, &t) || omen_cursor_u64le(&c, &d) ||
-		    omen_cursor_u32le(&c, &tr) || omen_cursor_u32le(&c, &nm) || omen_cursor_u32le(&c, &fb) ||
-		    omen_cursor_u8(&c, &fl))
-			goto out;
-		map[i] = (uint32_t)ni;
-		old[ni] = 1;
-		cm = &R->cs[ni];
-		cm->time = (int64_t)t;
-		cm->issue_date = (int64_t)d;
-		cm->traced = tr;
-		cm->named = nm;
-		cm->fix_by = fb;
-		cm->is_fix = fl & 1;
-		cm->merge = (fl >> 1) & 1;
-		cm->boundary = (fl >> 2) & 1;
-		cm->skipped = (fl >> 3) & 1;
-		cm->scope = (fl >> 4) & 3;
-		cm->walked = 1;
-	}
-	if (omen_cursor_u32le(&c, &len))
+	    !(old = calloc(R->n + 1, 1)) || !(newkids = calloc(R->n + 1, sizeof(*newkids)))) {
+		rc = omen_error_set(OMEN_ENOMEM, "out of memory");
 		goto out;
-	for (i = 0; i < len; i++) {
-		uint32_t a, f, l;
-		if (omen_cursor_u32le(&c, &a) || omen_cursor_u32le(&c, &f) || omen_cursor_u32le(&c, &l) || a >= n || f >= n)
-			goto out;
-		if (OMEN_ARRAY_RESERVE(R->pairs, R->pairs_cap, R->npairs + 1))
-			goto nomem_or_out;
-		R->pairs[R->npairs++] = (lbl_pair){map[a], map[f], l};
 	}
-	/* every new commit's parents must be new or a saved tip */
-	for (i = 0; i < R->n; i++) {
-		git_commit *cm = NULL;
-		unsigned j, np;
-		if (old[i])
-			continue;
-		if (git_commit_lookup(&cm, omen_repo_git(R->repo), &R->ids[i]))
-			goto out;
-		np = git_commit_parentcount(cm);
-		for (j = 0; j < np; j++) {
-			long pi = lookup_oid(R, git_commit_parent_id(cm, j));
-			if (pi >= 0 && old[pi])
-				newkids[pi]++;
-		}
-		git_commit_free(cm);
-	}
-	if (omen_cursor_u32le(&c, &len))
-		goto out;
-	for (i = 0; i < len; i++) {
-		uint32_t t;
-		if (omen_cursor_u32le(&c, &t) || t >= n)
-			goto out;
-		old[map[t]] = 2; /* a saved tip */
-	}
-	for (i = 0; i < R->n; i++) {
-		if (old[i] == 1 && newkids[i])
-			goto out; /* a new branch from an old inner commit: no state for it */
-		if (old[i])
-			R->cs[i].pending = old[i] == 2 ? (newkids[i] ? newkids[i] : 1) : 0;
-	}
-	if (omen_cursor_u32le(&c, &len))
-		goto out;
-	for (i = 0; i < len; i++) {
-		uint64_t pkey;
-		git_oid blob;
-		uint32_t ref, nl, j, *orig;
-		if (omen_cursor_u64le(&c, &pkey) || omen_cursor_bytes(&c, &p, GIT_OID_RAWSZ))
-			goto out;
-		memcpy(blob.id, p, GIT_OID_RAWSZ);
-		if (omen_cursor_u32le(&c, &ref) || omen_cursor_u32le(&c, &nl) || (size_t)nl * 4 > c.n)
-			goto out;
-		if (!(orig = malloc(((size_t)nl + 1) * sizeof(*orig))))
-			goto nomem_or_out;
-		for (j = 0; j < nl; j++) {
-			uint32_t o;
-			omen_cursor_u32le(&c, &o);
-			orig[j] = o < n ? map[o] : LBL_NONE;
-		}
-		if ((e = lbl_tracer_put(R->tr, pkey, &blob, orig, nl, (int32_t)ref))) {
+	if ((e = load_commits(R, &c, n, map, old)) || (e = load_pairs(R, &c, n, map)) ||
+	    (e = load_tips(R, &c, n, map, old, newkids)) || (e = load_versions(R, &c, n, map))) {
+		if (e < 0)
 			rc = e;
-			goto out;
-		}
+		goto out;
 	}
 	if (c.err || c.n)
 		goto out;
 	rc = 1;
-	goto out;
-nomem_or_out:
-	rc = omen_error_set(OMEN_ENOMEM, "out of memory");
 out:
 	free(map);
 	free(old);
