@@ -896,6 +896,163 @@ static int64_t default_horizon(const lbl_run *R)
 		OMEN_LABEL_HORIZON_DEFAULT : 0;
 }
 
+/* The numeric limits an option leaves unset (< 0, or 0 for the memory
+ * limit), from their config keys or the defaults. */
+static int read_limits(omen_label_opts *o, omen_repo *r)
+{
+	int64_t v;
+	int e;
+	if (o->window_days < 0) {
+		v = OMEN_WINDOW_DAYS;
+		if ((e = omen_config_int(&v, r, "omen.window")))
+			return e;
+		o->window_days = v;
+	}
+	if (o->max_fix_files < 0) {
+		v = 50;
+		if ((e = omen_config_int(&v, r, "omen.maxFixFiles")))
+			return e;
+		o->max_fix_files = (int)v;
+	}
+	if (!o->max_bytes) {
+		v = 0;
+		if ((e = omen_config_int(&v, r, "omen.memoryLimit")))
+			return e;
+		o->max_bytes = v;
+	}
+	return 0;
+}
+
+/* The fix rules (pattern, the list file when given) and the non-code paths. */
+static int make_rules(lbl_run *R, const char *pattern, const char *list)
+{
+	omen_fixrule_opts fo = OMEN_FIXRULE_OPTS_INIT;
+	int e;
+	fo.pattern = pattern;
+	fo.cosmetic = R->o->cosmetic_pattern;
+	fo.closing_refs = R->o->closing_refs;
+	fo.whole_message = R->o->whole_message;
+	fo.feature_subjects = R->o->feature_subjects;
+	if ((e = omen_fixrules_new_opts(&R->fr, &fo)) ||
+	    (e = omen_pathset_new(&R->nc, R->o->noncode_paths)))
+		return e;
+	R->sum->noncode_patterns = omen_pathset_count(R->nc);
+	if (list && (e = omen_fixrules_load_list(R->fr, list)))
+		return e;
+	R->sum->list_entries = omen_fixrules_list_size(R->fr);
+	return 0;
+}
+
+/* The saved state did not fit: a full pass on a clean table, keeping only
+ * that the history grew. */
+static int start_over(lbl_run *R, const char *head, const lbl_trace_opts *to)
+{
+	omen_label_summary *sum = R->sum;
+	size_t grew = sum->new_commits;
+	int e;
+	memset(sum, 0, sizeof(*sum));
+	sum->mode = OMEN_LABEL_MODE_GREW;
+	sum->new_commits = grew;
+	sum->list_entries = omen_fixrules_list_size(R->fr);
+	strcpy(sum->head, head);
+	lbl_tracer_free(R->tr);
+	R->tr = NULL;
+	free(R->cs);
+	R->cs = NULL;
+	free(R->tips);
+	R->tips = NULL;
+	R->ntips = R->npairs = 0;
+	if ((e = load_graph(R)) || (e = lbl_tracer_new(&R->tr, to)))
+		return e;
+	return 0;
+}
+
+/* The revisions of an incremental walk: revs (HEAD when none) and
+ * "^old_head", written into excl (OMEN_OID_HEX + 2 bytes). *out is freed by
+ * the caller. */
+static int revs_after(const char ***out, const char *const *rv, char *excl, const char *old_head)
+{
+	const char **walk_revs;
+	size_t k = 0;
+	while (rv && rv[k])
+		k++;
+	if (!(walk_revs = calloc(k + 3, sizeof(*walk_revs))))
+		return omen_error_set(OMEN_ENOMEM, "out of memory");
+	for (k = 0; rv && rv[k]; k++)
+		walk_revs[k] = rv[k];
+	if (!k)
+		walk_revs[k++] = "HEAD";
+	snprintf(excl, OMEN_OID_HEX + 2, "^%s", old_head);
+	walk_revs[k++] = excl;
+	*out = walk_revs;
+	return 0;
+}
+
+/* Absent blobs of a partial clone (issue 12): one pre-pass and fetch over
+ * every commit this pass reads, merges included (do_merge diffs some of
+ * their files), instead of one per walk or per merge. */
+static int prefetch_unwalked(lbl_run *R, omen_walk_opts *wo)
+{
+	git_oid *todo = NULL;
+	size_t ntodo = 0;
+	int e;
+	if (!(todo = malloc((R->n ? R->n : 1) * sizeof(*todo))))
+		return omen_error_set(OMEN_ENOMEM, "out of memory");
+	for (size_t i = 0; i < R->n; i++)
+		if (!R->cs[i].walked)
+			todo[ntodo++] = R->ids[i];
+	e = omen_history_prefetch(R->repo, wo, todo, ntodo);
+	free(todo);
+	if (e)
+		return e;
+	wo->no_prefetch = 1;
+	return 0;
+}
+
+/* Frees what the pass holds (R itself is the caller's). */
+static void free_run(lbl_run *R)
+{
+	omen_fixrules_free(R->fr);
+	lbl_tracer_free(R->tr);
+	omen_strmap_free(&R->index, NULL);
+	free(R->ids);
+	free(R->cs);
+	free(R->pairs);
+	free(R->cand);
+	free(R->cand_lines);
+	free(R->dent);
+	free(R->minor);
+	omen_buf_free(&R->path);
+	free(R->tips);
+	free(R->lab);
+	omen_pathset_free(R->nc);
+}
+
+/* The label file: out_path, else omen_labels_path's. */
+static int labels_file(char **path, omen_repo *r, const char *out_path)
+{
+	if (!out_path)
+		return omen_labels_path(path, r, NULL);
+	if (!(*path = strdup(out_path)))
+		return omen_error_set(OMEN_ENOMEM, "out of memory");
+	return 0;
+}
+
+/* The walk itself, with progress: the non-merge commits through walk_cb,
+ * the merges (do_merge) caught up to the end. */
+static int walk_all(lbl_run *R, omen_walk_opts *wo)
+{
+	int e;
+	omen_progress_start(&R->prog, "label", R->n);
+	wo->include_merges = 0; /* merges: do_merge */
+	e = omen_history_walk(R->repo, wo, walk_cb, R);
+	R->sum->blobs = *omen_repo_blob_stats(R->repo);
+	if (!e)
+		e = catch_up(R, R->n);
+	omen_progress_end(&R->prog);
+	return e;
+}
+
 int omen_label_run(omen_label_summary *sum, omen_repo *r, const omen_label_opts *opts,
 	const char *out_path)
 {
@@ -905,7 +1062,6 @@ int omen_label_run(omen_label_summary *sum, omen_repo *r, const omen_label_opts 
 	lbl_trace_opts to;
 	char *cfg_pattern = NULL, *cfg_list = NULL, *path = NULL;
 	char *cfg_cosmetic = NULL, *cfg_noncode = NULL;
-	omen_fixrule_opts fo = OMEN_FIXRULE_OPTS_INIT;
 	const char *pattern, *list;
 	omen_buf ob = OMEN_BUF_INIT, sp = OMEN_BUF_INIT;
 	char head[OMEN_OID_HEX + 1] = "", excl[OMEN_OID_HEX + 2];
@@ -913,7 +1069,6 @@ int omen_label_run(omen_label_summary *sum, omen_repo *r, const omen_label_opts 
 	int restored = 0;
 	double t0 = omen_now();
 	int e;
-	int64_t v;
 
 	memset(sum, 0, sizeof(*sum));
 	memset(&R, 0, sizeof(R));
@@ -924,49 +1079,14 @@ int omen_label_run(omen_label_summary *sum, omen_repo *r, const omen_label_opts 
 		goto out;
 	if (!o.fix_list && (e = omen_config_string(&cfg_list, r, "omen.fixList")))
 		goto out;
-	if (o.window_days < 0) {
-		v = OMEN_WINDOW_DAYS;
-		if ((e = omen_config_int(&v, r, "omen.window")))
-			goto out;
-		o.window_days = v;
-	}
-	if (o.max_fix_files < 0) {
-		v = 50;
-		if ((e = omen_config_int(&v, r, "omen.maxFixFiles")))
-			goto out;
-		o.max_fix_files = (int)v;
-	}
-	if (!o.max_bytes) {
-		v = 0;
-		if ((e = omen_config_int(&v, r, "omen.memoryLimit")))
-			goto out;
-		o.max_bytes = v;
-	}
-	if ((e = read_rule_config(&o, r, &cfg_cosmetic, &cfg_noncode)))
+	if ((e = read_limits(&o, r)) || (e = read_rule_config(&o, r, &cfg_cosmetic, &cfg_noncode)))
 		goto out;
 	pattern = o.fix_pattern ? o.fix_pattern : cfg_pattern;
 	list = o.fix_list ? o.fix_list : cfg_list;
-	fo.pattern = pattern;
-	fo.cosmetic = o.cosmetic_pattern;
-	fo.closing_refs = o.closing_refs;
-	fo.whole_message = o.whole_message;
-	fo.feature_subjects = o.feature_subjects;
-	if ((e = omen_fixrules_new_opts(&R.fr, &fo)) ||
-	    (e = omen_pathset_new(&R.nc, o.noncode_paths)))
+	if ((e = make_rules(&R, pattern, list)))
 		goto out;
-	sum->noncode_patterns = omen_pathset_count(R.nc);
-	if (list && (e = omen_fixrules_load_list(R.fr, list)))
+	if ((e = labels_file(&path, r, out_path)))
 		goto out;
-	sum->list_entries = omen_fixrules_list_size(R.fr);
-	if (out_path) {
-		if (!(path = strdup(out_path))) {
-			e = omen_error_set(OMEN_ENOMEM, "out of memory");
-			goto out;
-		}
-	} else {
-		if ((e = omen_labels_path(&path, r, NULL)))
-			goto out;
-	}
 	wo.revs = o.revs;
 	wo.include_merges = 1;
 	wo.detect_renames = o.follow_renames ? 1 : -1;
@@ -1008,69 +1128,18 @@ int omen_label_run(omen_label_summary *sum, omen_repo *r, const omen_label_opts 
 			goto out;
 		restored = e;
 		e = 0;
-		if (!restored) { /* start over on a clean table */
-			size_t grew = sum->new_commits;
-			memset(sum, 0, sizeof(*sum));
-			sum->mode = OMEN_LABEL_MODE_GREW;
-			sum->new_commits = grew;
-			sum->list_entries = omen_fixrules_list_size(R.fr);
-			strcpy(sum->head, head);
-			lbl_tracer_free(R.tr);
-			R.tr = NULL;
-			free(R.cs);
-			R.cs = NULL;
-			free(R.tips);
-			R.tips = NULL;
-			R.ntips = R.npairs = 0;
-			if ((e = load_graph(&R)) || (e = lbl_tracer_new(&R.tr, &to)))
-				goto out;
-		}
+		if (!restored && (e = start_over(&R, head, &to)))
+			goto out;
 	}
 	if (restored) {
-		size_t k = 0;
-		const char *const *rv = o.revs;
-		while (rv && rv[k])
-			k++;
-		if (!(walk_revs = calloc(k + 3, sizeof(*walk_revs)))) {
-			e = omen_error_set(OMEN_ENOMEM, "out of memory");
+		if ((e = revs_after(&walk_revs, o.revs, excl, R.old_head)))
 			goto out;
-		}
-		for (k = 0; rv && rv[k]; k++)
-			walk_revs[k] = rv[k];
-		if (!k)
-			walk_revs[k++] = "HEAD";
-		snprintf(excl, sizeof(excl), "^%s", R.old_head);
-		walk_revs[k++] = excl;
 		wo.revs = walk_revs;
 		sum->reused_commits = R.n - sum->new_commits;
 	}
-	/* absent blobs of a partial clone (issue 12): one pre-pass and fetch
-	 * over every commit this pass reads, merges included (do_merge diffs
-	 * some of their files), instead of one per walk or per merge */
-	{
-		git_oid *todo = NULL;
-		size_t ntodo = 0;
-		if (!(todo = malloc((R.n ? R.n : 1) * sizeof(*todo)))) {
-			e = omen_error_set(OMEN_ENOMEM, "out of memory");
-			goto out;
-		}
-		for (size_t i = 0; i < R.n; i++)
-			if (!R.cs[i].walked)
-				todo[ntodo++] = R.ids[i];
-		e = omen_history_prefetch(r, &wo, todo, ntodo);
-		free(todo);
-		if (e)
-			goto out;
-		wo.no_prefetch = 1;
-	}
-	omen_progress_start(&R.prog, "label", R.n);
-	wo.include_merges = 0; /* merges: do_merge */
-	e = omen_history_walk(r, &wo, walk_cb, &R);
-	sum->blobs = *omen_repo_blob_stats(r);
-	if (!e)
-		e = catch_up(&R, R.n);
-	omen_progress_end(&R.prog);
-	if (e)
+	if ((e = prefetch_unwalked(&R, &wo)))
+		goto out;
+	if ((e = walk_all(&R, &wo)))
 		goto out;
 	sum->list_unmatched = omen_fixrules_unmatched(R.fr);
 	sum->state_peak_bytes = lbl_tracer_peak_bytes(R.tr) + R.n * (sizeof(*R.cs) + sizeof(*R.ids)) +
@@ -1090,23 +1159,10 @@ out:
 	else if (R.dump)
 		omen_atomic_abort(&R.dumpf);
 	sum->seconds = omen_now() - t0;
-	omen_fixrules_free(R.fr);
-	lbl_tracer_free(R.tr);
-	omen_strmap_free(&R.index, NULL);
-	free(R.ids);
-	free(R.cs);
-	free(R.pairs);
-	free(R.cand);
-	free(R.cand_lines);
-	free(R.dent);
-	free(R.minor);
-	omen_buf_free(&R.path);
+	free_run(&R);
 	omen_buf_free(&ob);
 	omen_buf_free(&sp);
 	free(walk_revs);
-	free(R.tips);
-	free(R.lab);
-	omen_pathset_free(R.nc);
 	free(cfg_cosmetic);
 	free(cfg_noncode);
 	free(cfg_pattern);
