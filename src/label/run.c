@@ -386,6 +386,56 @@ static int catch_up(lbl_run *R, size_t upto)
 	return 0;
 }
 
+/* A fix's scope: OMEN_FIXSCOPE_LARGE over max_fix_files, COSMETIC by its
+ * subject (a named commit overrules the subject), NONCODE when every file it
+ * touches is a non-code path, else CODE. */
+static uint8_t fix_scope(const lbl_run *R, const omen_change *c, unsigned by, int cosmetic)
+{
+	size_t fi, code = 0;
+	if (R->o->max_fix_files > 0 && c->nfiles > (size_t)R->o->max_fix_files)
+		return OMEN_FIXSCOPE_LARGE;
+	if (cosmetic && !(by & OMEN_FIXBY_NAMED))
+		return OMEN_FIXSCOPE_COSMETIC;
+	if (!omen_pathset_count(R->nc))
+		return OMEN_FIXSCOPE_CODE;
+	for (fi = 0; fi < c->nfiles && !code; fi++) {
+		const omen_file *f = &c->files[fi];
+		code += !omen_pathset_match(R->nc, f->old_path ? f->old_path : f->new_path) ||
+			(f->new_path && !omen_pathset_match(R->nc, f->new_path));
+	}
+	return code ? OMEN_FIXSCOPE_CODE : OMEN_FIXSCOPE_NONCODE;
+}
+
+/* Minor candidates (more than one candidate, min_line_share set): a commit
+ * behind less than min_line_share percent of the fix's traced lines is
+ * dropped (a neighbouring line tidied on the way; README "Labels that mark
+ * real repairs" measures the effect against developer-named links). */
+static int drop_minor(lbl_run *R)
+{
+	size_t k, tot = 0, keep = 0;
+	uint32_t most = 0;
+	for (k = 0; k < R->ncand; k++) {
+		tot += R->cand_lines[k];
+		if (R->cand_lines[k] > most)
+			most = R->cand_lines[k];
+	}
+	for (k = 0; k < R->ncand; k++) {
+		/* the commit(s) behind the most lines always stay */
+		if ((uint64_t)R->cand_lines[k] * 100 >= (uint64_t)R->o->min_line_share * tot ||
+		    R->cand_lines[k] == most) {
+			R->cand[keep] = R->cand[k];
+			R->cand_lines[keep++] = R->cand_lines[k];
+		} else if (R->dump) {
+			if (OMEN_ARRAY_RESERVE(R->minor, R->minor_cap, R->nminor + 1))
+				return omen_error_set(OMEN_ENOMEM, "out of memory");
+			R->minor[R->nminor++] = R->cand[k];
+		}
+	}
+	R->sum->minor_dropped += R->ncand - keep;
+	R->ncand = keep;
+	return 0;
+}
+
 static int walk_cb(const omen_change *c, void *payload)
 {
 	lbl_run *R = payload;
@@ -444,21 +494,7 @@ static int walk_cb(const omen_change *c, void *payload)
 		cm->is_fix = 1;
 		cm->fix_by = by;
 		cm->issue_date = R->o->use_issue_dates ? omen_fix_issue_date(R->fr, &c->commit) : 0;
-		cm->scope = OMEN_FIXSCOPE_CODE;
-		if (R->o->max_fix_files > 0 && c->nfiles > (size_t)R->o->max_fix_files)
-			cm->scope = OMEN_FIXSCOPE_LARGE;
-		else if (info.cosmetic && !(by & OMEN_FIXBY_NAMED))
-			cm->scope = OMEN_FIXSCOPE_COSMETIC; /* a named commit overrules the subject */
-		else if (omen_pathset_count(R->nc)) {
-			size_t fi, code = 0;
-			for (fi = 0; fi < c->nfiles && !code; fi++) {
-				const omen_file *f = &c->files[fi];
-				code += !omen_pathset_match(R->nc, f->old_path ? f->old_path : f->new_path) ||
-					(f->new_path && !omen_pathset_match(R->nc, f->new_path));
-			}
-			if (!code)
-				cm->scope = OMEN_FIXSCOPE_NONCODE;
-		}
+		cm->scope = fix_scope(R, c, by, info.cosmetic);
 		cm->skipped = cm->scope != OMEN_FIXSCOPE_CODE;
 		R->cur_fix = (uint32_t)ci;
 		R->ncand = 0;
@@ -478,33 +514,8 @@ static int walk_cb(const omen_change *c, void *payload)
 				return e;
 			R->sum->fixes_insertion += R->ncand > 0;
 		}
-		if (R->o->min_line_share > 0 && R->ncand > 1) {
-			/* minor candidates: a commit behind less than min_line_share
-			 * percent of the fix's traced lines is dropped (a neighbouring
-			 * line tidied on the way; README "Labels that mark real
-			 * repairs" measures the effect against developer-named links) */
-			size_t tot = 0, keep = 0;
-			uint32_t most = 0;
-			for (k = 0; k < R->ncand; k++) {
-				tot += R->cand_lines[k];
-				if (R->cand_lines[k] > most)
-					most = R->cand_lines[k];
-			}
-			for (k = 0; k < R->ncand; k++) {
-				/* the commit(s) behind the most lines always stay */
-				if ((uint64_t)R->cand_lines[k] * 100 >= (uint64_t)R->o->min_line_share * tot ||
-				    R->cand_lines[k] == most) {
-					R->cand[keep] = R->cand[k];
-					R->cand_lines[keep++] = R->cand_lines[k];
-				} else if (R->dump) {
-					if (OMEN_ARRAY_RESERVE(R->minor, R->minor_cap, R->nminor + 1))
-						return omen_error_set(OMEN_ENOMEM, "out of memory");
-					R->minor[R->nminor++] = R->cand[k];
-				}
-			}
-			R->sum->minor_dropped += R->ncand - keep;
-			R->ncand = keep;
-		}
+		if (R->o->min_line_share > 0 && R->ncand > 1 && (e = drop_minor(R)))
+			return e;
 		if (nat && R->o->named_decides) {
 			/* the name decides (issue 10): drop the fix's other candidates */
 			size_t keep = 0;
