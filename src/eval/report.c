@@ -532,12 +532,93 @@ static int plot_folds(omen_buf *b, const omen_eval_result *r)
 	return 0;
 }
 
+/* The pooled figures over several seeds: mean, sd and range per method. */
+static void html_seeds(omen_buf *b, const omen_eval_result *r)
+{
+	int m, q;
+	omen_buf_printf(b, "<h2>Pooled figures over %d seeds</h2>\n<p class=\"adv\">Training "
+		"and bootstrap seeds %llu to %llu on the same folds; the tables and plots are the "
+		"first seed's. Mean, sample standard deviation and range.</p>\n<table><tr>"
+		"<th>method</th>", r->seeds.n, (unsigned long long)r->seeds.first,
+		(unsigned long long)(r->seeds.first + (uint64_t)r->seeds.n - 1));
+	for (q = 0; q < OMEN_SPREAD_N; q++)
+		omen_buf_printf(b, "<th>%s</th>", omen_spread_names[q]);
+	omen_buf_puts(b, "</tr>\n");
+	for (m = 0; m < OMEN_EV_NMETHODS; m++) {
+		omen_buf_printf(b, "<tr><td><span class=\"sw\" style=\"background:%s\"></span>%s"
+			"</td>", method_colors[m], method_titles[m]);
+		for (q = 0; q < OMEN_SPREAD_N; q++) {
+			const omen_spread *x = &r->seeds.m[m][q];
+			if (!x->n)
+				omen_buf_puts(b, "<td class=\"na\">n/a</td>");
+			else
+				omen_buf_printf(b, "<td>%.3f &plusmn; %.3f<br><small>%.3f&ndash;%.3f"
+					"</small></td>", x->mean, isnan(x->sd) ? 0.0 : x->sd, x->min, x->max);
+		}
+		omen_buf_puts(b, "</tr>\n");
+	}
+	omen_buf_puts(b, "</table>\n");
+}
+
+/* The run's notes and warnings, one list item per line of s. */
+static void html_notes(omen_buf *b, const char *s)
+{
+	const char *e;
+	omen_buf_puts(b, "<div class=\"note\"><b>Notes and warnings</b><ul>\n");
+	while (*s) {
+		char line[512];
+		size_t len;
+		e = strchr(s, '\n');
+		if (!e)
+			e = s + strlen(s);
+		len = (size_t)(e - s) < sizeof(line) - 1 ? (size_t)(e - s) : sizeof(line) - 1;
+		memcpy(line, s, len);
+		line[len] = '\0';
+		omen_buf_puts(b, "<li>");
+		svg_text_esc(b, line);
+		omen_buf_puts(b, "</li>\n");
+		s = *e ? e + 1 : e;
+	}
+	omen_buf_puts(b, "</ul></div>\n");
+}
+
+/* The table of folds, one row each. */
+static void html_folds(omen_buf *b, const omen_eval_result *r)
+{
+	char d1[16], d2[16];
+	size_t k;
+	omen_buf_puts(b, "<h2>Folds</h2>\n<table><tr><th>fold</th><th>trained before</th>"
+		"<th>test window</th><th>train</th><th>test</th><th>inducing</th><th>AUC model</th>"
+		"<th>95% CI</th><th>AUC LR</th><th>AUC lines added</th><th>largest commit's effort"
+		"</th><th>seconds</th></tr>\n");
+	for (k = 0; k < r->nfolds; k++) {
+		const omen_fold_result *f = &r->folds[k];
+		const omen_method_scores *m = &f->m[OMEN_EV_MODEL];
+		omen_format_date(d1, f->fold.train_end);
+		omen_buf_printf(b, "<tr><td>%zu</td><td>%s</td>", k + 1, d1);
+		omen_format_date(d1, f->fold.test_start);
+		omen_format_date(d2, f->fold.test_end - 1);
+		omen_buf_printf(b, "<td>%s &ndash; %s</td><td>%zu</td><td>%zu</td><td>%zu</td>", d1, d2,
+			f->fold.n_train + f->fold.n_valid, f->fold.n_test, f->fold.pos_test);
+		html_num(b, m->auc, "%.3f");
+		if (isnan(m->auc_lo))
+			omen_buf_puts(b, "<td class=\"na\">n/a</td>");
+		else
+			omen_buf_printf(b, "<td>%.3f&ndash;%.3f</td>", m->auc_lo, m->auc_hi);
+		html_num(b, f->m[OMEN_EV_LR].auc, "%.3f");
+		html_num(b, f->m[OMEN_EV_LA].auc, "%.3f");
+		html_num(b, 100 * f->top_effort_share, "%.0f%%");
+		html_num(b, f->seconds, "%.1f");
+		omen_buf_puts(b, "</tr>\n");
+	}
+}
+
 int omen_eval_write_html(omen_buf *out, const omen_eval_result *r, const char *title)
 {
 	omen_buf *b = out;
 	pooled_arrays p;
-	size_t k, i;
-	char d1[16], d2[16];
+	size_t i;
+	char d1[16];
 	int rc;
 	if ((rc = pooled_collect(&p, r)) < 0) {
 		pooled_free(&p);
@@ -570,31 +651,8 @@ int omen_eval_write_html(omen_buf *out, const omen_eval_result *r, const char *t
 	omen_buf_printf(b, "<h2>Pooled test commits (%zu, %zu inducing)</h2>\n", p.n,
 		r->pooled[0].positives);
 	html_method_table(b, r->pooled);
-	if (r->seeds.n > 1) {
-		int m, q;
-		omen_buf_printf(b, "<h2>Pooled figures over %d seeds</h2>\n<p class=\"adv\">Training "
-			"and bootstrap seeds %llu to %llu on the same folds; the tables and plots are the "
-			"first seed's. Mean, sample standard deviation and range.</p>\n<table><tr>"
-			"<th>method</th>", r->seeds.n, (unsigned long long)r->seeds.first,
-			(unsigned long long)(r->seeds.first + (uint64_t)r->seeds.n - 1));
-		for (q = 0; q < OMEN_SPREAD_N; q++)
-			omen_buf_printf(b, "<th>%s</th>", omen_spread_names[q]);
-		omen_buf_puts(b, "</tr>\n");
-		for (m = 0; m < OMEN_EV_NMETHODS; m++) {
-			omen_buf_printf(b, "<tr><td><span class=\"sw\" style=\"background:%s\"></span>%s"
-				"</td>", method_colors[m], method_titles[m]);
-			for (q = 0; q < OMEN_SPREAD_N; q++) {
-				const omen_spread *x = &r->seeds.m[m][q];
-				if (!x->n)
-					omen_buf_puts(b, "<td class=\"na\">n/a</td>");
-				else
-					omen_buf_printf(b, "<td>%.3f &plusmn; %.3f<br><small>%.3f&ndash;%.3f"
-						"</small></td>", x->mean, isnan(x->sd) ? 0.0 : x->sd, x->min, x->max);
-			}
-			omen_buf_puts(b, "</tr>\n");
-		}
-		omen_buf_puts(b, "</table>\n");
-	}
+	if (r->seeds.n > 1)
+		html_seeds(b, r);
 	omen_buf_puts(b, "<p class=\"adv\">Brier of the base rate on the same commits: ");
 	if (isnan(r->pooled[OMEN_EV_BASE].brier_base))
 		omen_buf_puts(b, "n/a");
@@ -605,25 +663,8 @@ int omen_eval_write_html(omen_buf *out, const omen_eval_result *r, const char *t
 		"within a fold it ties every commit, so its AUC is 0.5 and its inspection order, ties "
 		"broken smaller change first, is that of smallest change first; pooled over the folds "
 		"it ranks the folds by their rates.</p>\n");
-	if (r->notes.len) {
-		const char *s = r->notes.ptr, *e;
-		omen_buf_puts(b, "<div class=\"note\"><b>Notes and warnings</b><ul>\n");
-		while (*s) {
-			char line[512];
-			size_t len;
-			e = strchr(s, '\n');
-			if (!e)
-				e = s + strlen(s);
-			len = (size_t)(e - s) < sizeof(line) - 1 ? (size_t)(e - s) : sizeof(line) - 1;
-			memcpy(line, s, len);
-			line[len] = '\0';
-			omen_buf_puts(b, "<li>");
-			svg_text_esc(b, line);
-			omen_buf_puts(b, "</li>\n");
-			s = *e ? e + 1 : e;
-		}
-		omen_buf_puts(b, "</ul></div>\n");
-	}
+	if (r->notes.len)
+		html_notes(b, r->notes.ptr);
 	omen_buf_puts(b, "<h2>Plots</h2>\n<div class=\"grid\">\n");
 	if ((rc = plot_roc(b, &p)) < 0)
 		goto out;
@@ -632,30 +673,8 @@ int omen_eval_write_html(omen_buf *out, const omen_eval_result *r, const char *t
 		goto out;
 	if ((rc = plot_folds(b, r)) < 0)
 		goto out;
-	omen_buf_puts(b, "</div>\n<h2>Folds</h2>\n<table><tr><th>fold</th><th>trained before</th>"
-		"<th>test window</th><th>train</th><th>test</th><th>inducing</th><th>AUC model</th>"
-		"<th>95% CI</th><th>AUC LR</th><th>AUC lines added</th><th>largest commit's effort"
-		"</th><th>seconds</th></tr>\n");
-	for (k = 0; k < r->nfolds; k++) {
-		const omen_fold_result *f = &r->folds[k];
-		const omen_method_scores *m = &f->m[OMEN_EV_MODEL];
-		omen_format_date(d1, f->fold.train_end);
-		omen_buf_printf(b, "<tr><td>%zu</td><td>%s</td>", k + 1, d1);
-		omen_format_date(d1, f->fold.test_start);
-		omen_format_date(d2, f->fold.test_end - 1);
-		omen_buf_printf(b, "<td>%s &ndash; %s</td><td>%zu</td><td>%zu</td><td>%zu</td>", d1, d2,
-			f->fold.n_train + f->fold.n_valid, f->fold.n_test, f->fold.pos_test);
-		html_num(b, m->auc, "%.3f");
-		if (isnan(m->auc_lo))
-			omen_buf_puts(b, "<td class=\"na\">n/a</td>");
-		else
-			omen_buf_printf(b, "<td>%.3f&ndash;%.3f</td>", m->auc_lo, m->auc_hi);
-		html_num(b, f->m[OMEN_EV_LR].auc, "%.3f");
-		html_num(b, f->m[OMEN_EV_LA].auc, "%.3f");
-		html_num(b, 100 * f->top_effort_share, "%.0f%%");
-		html_num(b, f->seconds, "%.1f");
-		omen_buf_puts(b, "</tr>\n");
-	}
+	omen_buf_puts(b, "</div>\n");
+	html_folds(b, r);
 	omen_buf_puts(b, "</table>\n<h2>Riskiest test commits</h2>\n");
 	if (!r->nrisky) {
 		omen_buf_puts(b, "<p class=\"adv\">none</p>\n");
