@@ -90,19 +90,58 @@ static int cmp_pidx_desc(const void *a, const void *b)
 	return (x->i > y->i) - (x->i < y->i);
 }
 
+/* Appends fold k's top_risky riskiest test commits (by the model's
+ * probability), explained by its model m, to r->risky. 0 or < 0. */
+static int explain_riskiest(omen_eval_result *r, size_t k, const omen_dataset *ds, const omen_model *m,
+	size_t top_risky, size_t *risky_cap)
+{
+	omen_fold_result *f = &r->folds[k];
+	size_t i, nt = f->fold.n_test, want = top_risky < nt ? top_risky : nt;
+	omen_explain ex;
+	pidx *top = malloc(nt * sizeof(*top));
+	int rc = 0;
+	memset(&ex, 0, sizeof(ex));
+	if (!top || OMEN_ARRAY_RESERVE(r->risky, *risky_cap, r->nrisky + want) < 0) {
+		rc = omen_error_set(OMEN_ENOMEM, "cannot evaluate fold %zu: out of memory", k + 1);
+		goto out;
+	}
+	for (i = 0; i < nt; i++) {
+		top[i].p = f->score[OMEN_EV_MODEL][i];
+		top[i].i = i;
+	}
+	qsort(top, nt, sizeof(*top), cmp_pidx_desc);
+	for (i = 0; i < want; i++) {
+		size_t j = top[i].i;
+		const omen_sample *s = omen_dataset_get(ds, f->fold.test_idx[j]);
+		omen_risky *x = &r->risky[r->nrisky++];
+		float prob;
+		memset(x, 0, sizeof(*x));
+		memcpy(x->id, f->ids[j], sizeof(x->id));
+		x->time = f->time[j];
+		x->prob = top[i].p;
+		x->label = f->y[j];
+		x->effort = f->effort[j];
+		if (omen_model_predict(&prob, NULL, m, s, &ex) == 0)
+			explain_text(x->why, sizeof(x->why), s, &ex);
+		else
+			snprintf(x->why, sizeof(x->why), "no explanation: %s", omen_error_last());
+	}
+out:
+	omen_explain_free(&ex);
+	free(top);
+	return rc;
+}
+
 static int run_fold(omen_eval_result *r, size_t k, const omen_dataset *ds,
 	const omen_eval_opts *o, const char *const *pat, size_t npat, size_t *risky_cap)
 {
 	omen_fold_result *f = &r->folds[k];
 	omen_model *m = NULL;
 	omen_train_opts to = o->train;
-	omen_explain ex;
 	double *vs = NULL, t0 = omen_now(), base;
 	float *logits = NULL;
 	int *vy = NULL, rc = 0;
 	size_t i, nv = f->fold.n_valid, nt = f->fold.n_test, partial = 0;
-	pidx *top = NULL;
-	memset(&ex, 0, sizeof(ex));
 	if (o->progress)
 		o->progress(o->payload, k, r->nfolds, 0, 0);
 	/* training, validation, calibration and thresholds: the labels as
@@ -179,44 +218,15 @@ static int run_fold(omen_eval_result *r, size_t k, const omen_dataset *ds,
 		omen_buf_printf(&r->notes, "fold %zu: %zu test commits were capped and touch excluded "
 			"paths, so their effort may include some excluded lines\n", k + 1, partial);
 	/* the fold's riskiest commits, explained while its model is at hand */
-	if (o->top_risky > 0 && nt > 0) {
-		size_t want = (size_t)o->top_risky < nt ? (size_t)o->top_risky : nt;
-		top = malloc(nt * sizeof(*top));
-		if (!top || OMEN_ARRAY_RESERVE(r->risky, *risky_cap, r->nrisky + want) < 0) {
-			rc = omen_error_set(OMEN_ENOMEM, "cannot evaluate fold %zu: out of memory", k + 1);
-			goto out;
-		}
-		for (i = 0; i < nt; i++) {
-			top[i].p = f->score[OMEN_EV_MODEL][i];
-			top[i].i = i;
-		}
-		qsort(top, nt, sizeof(*top), cmp_pidx_desc);
-		for (i = 0; i < want; i++) {
-			size_t j = top[i].i;
-			const omen_sample *s = omen_dataset_get(ds, f->fold.test_idx[j]);
-			omen_risky *x = &r->risky[r->nrisky++];
-			float prob;
-			memset(x, 0, sizeof(*x));
-			memcpy(x->id, f->ids[j], sizeof(x->id));
-			x->time = f->time[j];
-			x->prob = top[i].p;
-			x->label = f->y[j];
-			x->effort = f->effort[j];
-			if (omen_model_predict(&prob, NULL, m, s, &ex) == 0)
-				explain_text(x->why, sizeof(x->why), s, &ex);
-			else
-				snprintf(x->why, sizeof(x->why), "no explanation: %s", omen_error_last());
-		}
-	}
+	if (o->top_risky > 0 && nt > 0 && (rc = explain_riskiest(r, k, ds, m, (size_t)o->top_risky, risky_cap)) < 0)
+		goto out;
 	f->seconds = omen_now() - t0;
 	if (o->progress)
 		o->progress(o->payload, k, r->nfolds, 1, f->seconds);
 out:
-	omen_explain_free(&ex);
 	omen_model_free(m);
 	free(vs);
 	free(vy);
-	free(top);
 	free(logits);
 	return rc;
 }
