@@ -395,6 +395,54 @@ typedef struct {
 	double best_auc;
 } fit_info;
 
+/* The optimizer's buffers: the reduced gradient, AdamW's moments, the
+ * weight-decay mask (1 where decay applies) and its settings. */
+typedef struct {
+	float *g, *mom, *vel;
+	uint8_t *decay;
+	omen_adamw aw;
+} adam_bufs;
+
+/* One batch (x->idx, x->nb, x->step set): gradients over the chunks, the
+ * exchange between parts, the clipped reduce and the AdamW step on the
+ * touched segments. *loss gets the batch's loss. */
+static int batch_step(float *loss, step_ctx *x, seglist *sl, adam_bufs *ab, omen_model *m,
+	const omen_dataset *ds, const omen_train_opts *o, int ep)
+{
+	float norm;
+	int c, e;
+	*loss = 0;
+	if ((e = run_chunks(x)))
+		return e;
+	if ((e = seg_build(sl, m, ds, x->idx, x->nb, (uint32_t)x->step)))
+		return e;
+	if (x->parts > 1 && (e = o->exchange(o->exchange_ctx, x->grad, x->loss,
+			OMEN_TRAIN_CHUNKS, sl->s, sl->n)))
+		return e;
+	for (c = 0; c < OMEN_TRAIN_CHUNKS; c++)
+		*loss += x->loss[c];
+	norm = seg_reduce_clip(ab->g, x->grad, sl, o->clip);
+	if (!isfinite(*loss) || !isfinite(norm))
+		return omen_error_set(OMEN_ERROR, "training diverged at step %zu (epoch %d): "
+			"non-finite %s; nothing saved", (size_t)x->step, ep, isfinite(*loss) ? "gradient" : "loss");
+	for (c = 0; c < (int)sl->n; c++) {
+		const seg *q = &sl->s[c];
+		omen_adamw_step(m->params + q->off, ab->g + q->off, ab->mom + q->off, ab->vel + q->off, q->n,
+			&ab->aw, (int)x->step, ab->decay + q->off);
+	}
+	return 0;
+}
+
+/* 1 when the n slice commits idx hold both classes (early stopping on the
+ * slice's AUC needs both). */
+static int both_classes(const omen_dataset *ds, const int8_t *lab, const size_t *idx, size_t n)
+{
+	size_t i, vp = 0;
+	for (i = 0; i < n; i++)
+		vp += (size_t)pos_of(ds, lab, idx[i]);
+	return vp > 0 && vp < n;
+}
+
 /* Trains m (already standardized and initialised) on train_idx; with a
  * validation slice, early-stops on its AUC and restores the best epoch;
  * without one, runs exactly o->epochs epochs. */
@@ -405,15 +453,14 @@ static int fit(omen_model *m, fit_info *fi, const omen_dataset *ds, const int8_t
 {
 	step_ctx x;
 	seglist sl;
-	omen_adamw aw = OMEN_ADAMW_DEFAULT;
-	float *g = NULL, *mom = NULL, *vel = NULL, *best = NULL, *vz = NULL;
-	uint8_t *decay = NULL;
+	adam_bufs ab = {NULL, NULL, NULL, NULL, OMEN_ADAMW_DEFAULT};
+	float *best = NULL, *vz = NULL;
 	size_t *order = NULL, i, npos = 0, step = 0;
 	int e, ep, threads = train_threads(o), since_best = 0, t;
 	double t0 = omen_now();
 	omen_rng rng;
 	float pw;
-	int use_valid = 0;
+	int use_valid;
 
 	memset(fi, 0, sizeof(*fi));
 	memset(&sl, 0, sizeof(sl));
@@ -426,30 +473,25 @@ static int fit(omen_model *m, fit_info *fi, const omen_dataset *ds, const int8_t
 		e = omen_error_set(OMEN_ENOMEM, "out of memory");
 		goto out;
 	}
-	g = aligned_alloc(64, (m->nparams * sizeof(float) + 63) / 64 * 64);
-	mom = calloc(m->nparams, sizeof(float));
-	vel = calloc(m->nparams, sizeof(float));
+	ab.g = aligned_alloc(64, (m->nparams * sizeof(float) + 63) / 64 * 64);
+	ab.mom = calloc(m->nparams, sizeof(float));
+	ab.vel = calloc(m->nparams, sizeof(float));
 	best = malloc(m->nparams * sizeof(float));
-	decay = calloc(m->nparams, 1);
+	ab.decay = calloc(m->nparams, 1);
 	order = malloc((n_train + 1) * sizeof(size_t));
 	vz = malloc((n_valid + 1) * sizeof(float));
-	if (!g || !mom || !vel || !best || !decay || !order || !vz) {
+	if (!ab.g || !ab.mom || !ab.vel || !best || !ab.decay || !order || !vz) {
 		e = omen_error_set(OMEN_ENOMEM, "out of memory");
 		goto out;
 	}
 	for (t = 0; t < P_COUNT; t++)
 		if (m->t[t].decay)
-			memset(decay + m->t[t].off, 1, m->t[t].n);
+			memset(ab.decay + m->t[t].off, 1, m->t[t].n);
 	for (i = 0; i < n_train; i++) {
 		order[i] = train_idx[i];
 		npos += (size_t)pos_of(ds, lab, train_idx[i]);
 	}
-	if (n_valid) {
-		size_t vp = 0;
-		for (i = 0; i < n_valid; i++)
-			vp += (size_t)pos_of(ds, lab, valid_idx[i]);
-		use_valid = vp > 0 && vp < n_valid;
-	}
+	use_valid = both_classes(ds, lab, valid_idx, n_valid);
 	pw = npos ? (float)(n_train - npos) / (float)npos : 1.0f;
 	x.pw = pw;
 	x.lab = lab;
@@ -458,8 +500,8 @@ static int fit(omen_model *m, fit_info *fi, const omen_dataset *ds, const int8_t
 	x.seed = o->seed;
 	x.part = o->part;
 	x.parts = o->exchange ? o->parts : 1;
-	aw.lr = o->lr;
-	aw.weight_decay = o->weight_decay;
+	ab.aw.lr = o->lr;
+	ab.aw.weight_decay = o->weight_decay;
 	memcpy(best, m->params, m->nparams * sizeof(float));
 	if (use_valid && (o->warm_start || o->init)) {
 		/* epoch 0 (the warm start) is a candidate too */
@@ -479,31 +521,12 @@ static int fit(omen_model *m, fit_info *fi, const omen_dataset *ds, const int8_t
 			order[j] = tmp;
 		}
 		for (i = 0; i < n_train; i += (size_t)o->batch) {
-			float loss = 0, norm;
-			int c;
+			float loss;
 			x.idx = order + i;
 			x.nb = (int)(n_train - i < (size_t)o->batch ? n_train - i : (size_t)o->batch);
 			x.step = ++step;
-			if ((e = run_chunks(&x)))
+			if ((e = batch_step(&loss, &x, &sl, &ab, m, ds, o, ep)))
 				goto out;
-			if ((e = seg_build(&sl, m, ds, x.idx, x.nb, (uint32_t)step)))
-				goto out;
-			if (x.parts > 1 && (e = o->exchange(o->exchange_ctx, x.grad, x.loss,
-					OMEN_TRAIN_CHUNKS, sl.s, sl.n)))
-				goto out;
-			for (c = 0; c < OMEN_TRAIN_CHUNKS; c++)
-				loss += x.loss[c];
-			norm = seg_reduce_clip(g, x.grad, &sl, o->clip);
-			if (!isfinite(loss) || !isfinite(norm)) {
-				e = omen_error_set(OMEN_ERROR, "training diverged at step %zu (epoch %d): "
-					"non-finite %s; nothing saved", step, ep, isfinite(loss) ? "gradient" : "loss");
-				goto out;
-			}
-			for (c = 0; c < (int)sl.n; c++) {
-				const seg *q = &sl.s[c];
-				omen_adamw_step(m->params + q->off, g + q->off, mom + q->off, vel + q->off, q->n,
-					&aw, (int)step, decay + q->off);
-			}
 			loss_sum += loss;
 			nb++;
 		}
@@ -541,7 +564,7 @@ static int fit(omen_model *m, fit_info *fi, const omen_dataset *ds, const int8_t
 out:
 	ctx_free(&x);
 	free(sl.s); free(sl.stamp_tok); free(sl.stamp_msg);
-	free(g); free(mom); free(vel); free(best); free(decay); free(order); free(vz);
+	free(ab.g); free(ab.mom); free(ab.vel); free(best); free(ab.decay); free(order); free(vz);
 	return e;
 }
 
