@@ -47,7 +47,7 @@ FUZZ_LF  := $(FUZZ_SRC:tests/fuzz/%.c=$(BUILD)/fuzz/%-libfuzzer)
 MANS     := $(sort $(wildcard man/*.1))
 OMEN     := $(BUILD)/git-omen
 
-.PHONY: all deps deps-test check unit shell layers mpi-check ref fuzz-replay manlint asan valgrind \
+.PHONY: all deps deps-test check unit shell layers funclen mpi-check ref fuzz-replay manlint asan valgrind \
 	bench base-model fuzz demo install uninstall clean
 
 all: deps $(OMEN)
@@ -116,6 +116,11 @@ unit: $(UNIT_BIN)
 # the layer check alone (it is also one of the shell tests)
 layers:
 	@t=$$(mktemp -d) && ROOT="$(CURDIR)" TMPDIR="$$t" sh tests/t/layers.sh; rc=$$?; rm -rf "$$t"; exit $$rc
+
+# the function-length check alone (also one of the shell tests): no function
+# in src/ over 120 lines without an "Over 120 lines:" reason above it
+funclen:
+	@t=$$(mktemp -d) && ROOT="$(CURDIR)" TMPDIR="$$t" sh tests/t/funclen.sh; rc=$$?; rm -rf "$$t"; exit $$rc
 
 shell: $(OMEN)
 	@OMEN="$(abspath $(OMEN))" sh tests/run-shell.sh
