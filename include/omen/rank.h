@@ -86,6 +86,14 @@ size_t omen_effort_curve(double *out_x, double *out_y, const double *score,
 /* ---- order statistics ---------------------------------------------------- */
 /* qsort comparator of doubles, ascending. */
 int omen_cmp_double(const void *a, const void *b);
+/* A time and an index, ordered oldest first, then by index (a stable,
+ * total order for sorting commits by date). */
+typedef struct {
+	int64_t t;
+	size_t i;
+} omen_time_key;
+/* qsort comparator of omen_time_key. */
+int omen_cmp_time_key(const void *a, const void *b);
 /* The q-quantile (0 <= q <= 1) of n ascending values, linear between order
  * statistics (numpy.percentile's default, "linear"); 0 when n is 0. */
 double omen_quantile_sorted(const double *v, size_t n, double q);

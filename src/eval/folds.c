@@ -44,19 +44,6 @@ void omen_folds_free(omen_fold *f, size_t n)
 	free(f);
 }
 
-typedef struct {
-	int64_t t;
-	size_t i;
-} tkey;
-
-static int cmp_tkey(const void *a, const void *b)
-{
-	const tkey *x = a, *y = b;
-	if (x->t != y->t)
-		return x->t < y->t ? -1 : 1;
-	return (x->i > y->i) - (x->i < y->i);
-}
-
 
 /* Over 120 lines: not split yet (issue 14, item 4, left for the next pass);
  *   the walk-forward folds: windows, then each fold's slices and labels. */
@@ -67,7 +54,7 @@ int omen_folds_build(omen_fold **out, size_t *out_n, const int64_t *time,
 	omen_label_clock own;
 	const omen_label_clock *clk;
 	omen_fold *f = NULL;
-	tkey *lab = NULL, *order = NULL;
+	omen_time_key *lab = NULL, *order = NULL;
 	size_t nl = 0, i, k, K;
 	int64_t tmin, tmax, W, gap;
 	int rc = 0;
@@ -110,7 +97,7 @@ int omen_folds_build(omen_fold **out, size_t *out_n, const int64_t *time,
 			"run 'git omen label' first", n);
 		goto out;
 	}
-	qsort(lab, nl, sizeof(*lab), cmp_tkey);
+	qsort(lab, nl, sizeof(*lab), omen_cmp_time_key);
 	/* every commit in time order: a commit unknown now is unknown at every
 	 * cut, but the training rows come from the clock, not from lab */
 	order = malloc((n ? n : 1) * sizeof(*order));
@@ -122,7 +109,7 @@ int omen_folds_build(omen_fold **out, size_t *out_n, const int64_t *time,
 		order[i].t = time[i];
 		order[i].i = i;
 	}
-	qsort(order, n, sizeof(*order), cmp_tkey);
+	qsort(order, n, sizeof(*order), omen_cmp_time_key);
 	/* Inside the verification window only inducing commits get a label
 	 * (a clean one is still "unknown"), so a test window there would hold
 	 * almost nothing but positives. Test windows end at the newest clean

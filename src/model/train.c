@@ -720,19 +720,6 @@ static void iso_time(char *buf, size_t n, int64_t t)
 	strftime(buf, n, "%Y-%m-%dT%H:%M:%SZ", &tm);
 }
 
-typedef struct {
-	int64_t t;
-	size_t i;
-} tkey;
-
-static int cmp_tkey(const void *a, const void *b)
-{
-	const tkey *x = a, *y = b;
-	if (x->t != y->t)
-		return x->t < y->t ? -1 : 1;
-	return (x->i > y->i) - (x->i < y->i);
-}
-
 /* The shipped model's check on the tail of the test slice (see
  * omen_ship_check): calibrated probabilities against the labels known now. */
 static int ship_check(omen_ship_check *c, const omen_model *m, const omen_dataset *ds,
@@ -787,7 +774,7 @@ int omen_model_train(omen_model **out, omen_train_report *rep, const omen_datase
 	size_t npool = 0, n_calib;
 	int held;
 	size_t *idx = NULL;
-	tkey *ord = NULL;
+	omen_time_key *ord = NULL;
 	int8_t *cut = NULL, *lnow = NULL;
 	int64_t *tm = NULL, t_s, gap, newest_clean = INT64_MIN;
 	omen_label_clock own;
@@ -846,7 +833,7 @@ int omen_model_train(omen_model **out, omen_train_report *rep, const omen_datase
 	/* 1. the test slice: the newest test_frac of the commits labelled now,
 	 * up to the newest clean one (after it, inside the verification
 	 * window, only inducing commits have a label) */
-	qsort(ord, n, sizeof(*ord), cmp_tkey);
+	qsort(ord, n, sizeof(*ord), omen_cmp_time_key);
 	ncand = 0;
 	for (i = 0; i < n; i++) {
 		size_t j = ord[i].i;

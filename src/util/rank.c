@@ -109,6 +109,14 @@ int omen_cmp_double(const void *a, const void *b)
 	return (x > y) - (x < y);
 }
 
+int omen_cmp_time_key(const void *a, const void *b)
+{
+	const omen_time_key *x = a, *y = b;
+	if (x->t != y->t)
+		return x->t < y->t ? -1 : 1;
+	return (x->i > y->i) - (x->i < y->i);
+}
+
 double omen_quantile_sorted(const double *v, size_t n, double q)
 {
 	double pos, f;
