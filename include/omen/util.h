@@ -142,6 +142,15 @@ uint64_t omen_rng_next(omen_rng *r);
 double omen_rng_uniform(omen_rng *r);            /* [0,1) with 53 bits */
 float omen_rng_normal(omen_rng *r);              /* Box-Muller, N(0,1) */
 
+/* ---- path patterns -------------------------------------------------------- */
+/* 1 when repository path matches pattern, the one rule of omen's path lists
+ * (vendored paths of the effort measure, non-code paths of the labeller): a
+ * pattern ending in '/' is a directory at any depth ("vendor/" matches
+ * "vendor/x" and "a/vendor/x"); one without '/' is matched (fnmatch) against
+ * the base name; any other against the whole path. An empty pattern matches
+ * nothing. */
+int omen_path_glob(const char *path, const char *pattern);
+
 /* ---- files (DEVELOPERS.md "Hardening": file rules) ----------------------- */
 /* Writes data to path atomically: <path>.tmp.<12 random hex digits> created
  * exclusively (O_EXCL | O_NOFOLLOW) in the same directory, fsync, rename. On

@@ -20,7 +20,6 @@
  * Ties in the model's score: smaller effort first, then dataset order
  * (stated in include/omen/eval.h; common practice, no single source).
  */
-#include <fnmatch.h>
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
@@ -40,33 +39,11 @@ const char *const omen_effort_exclude_default[] = {
 int omen_path_excluded(const char *path, const char *const *patterns, size_t npat)
 {
 	size_t i;
-	const char *base;
 	if (!path)
 		return 0;
-	base = strrchr(path, '/');
-	base = base ? base + 1 : path;
-	for (i = 0; i < npat; i++) {
-		const char *p = patterns[i];
-		size_t pl = strlen(p);
-		if (pl == 0)
-			continue;
-		if (p[pl - 1] == '/') {
-			/* a directory at any depth: "vendor/" matches "vendor/x" and "a/vendor/x" */
-			const char *s = path;
-			while (s) {
-				if (!strncmp(s, p, pl))
-					return 1;
-				s = strchr(s, '/');
-				if (s)
-					s++;
-			}
-		} else if (!strchr(p, '/')) {
-			if (!fnmatch(p, base, 0))
-				return 1;
-		} else if (!fnmatch(p, path, 0)) {
+	for (i = 0; i < npat; i++)
+		if (omen_path_glob(path, patterns[i]))
 			return 1;
-		}
-	}
 	return 0;
 }
 

@@ -4,10 +4,10 @@
  * and traced nowhere. Pattern forms are those of omen.effortExclude
  * (DEVELOPERS.md): "dir/" matches a directory of that name at any depth; a
  * pattern without '/' matches the base name (fnmatch); any other pattern
- * matches the whole path. The list is one setting of its own
+ * matches the whole path (one matcher for both lists: omen_path_glob,
+ * omen/util.h). The list is one setting of its own
  * (omen.nonCodePaths), since effort exclusion keeps tests and docs in the
  * effort a reviewer spends. */
-#include <fnmatch.h>
 #include <stdlib.h>
 #include <string.h>
 #include "omen/error.h"
@@ -73,28 +73,10 @@ size_t omen_pathset_count(const omen_pathset *ps) { return ps ? ps->n : 0; }
 int omen_pathset_match(const omen_pathset *ps, const char *path)
 {
 	size_t i;
-	const char *base;
 	if (!ps || !path)
 		return 0;
-	base = strrchr(path, '/');
-	base = base ? base + 1 : path;
-	for (i = 0; i < ps->n; i++) {
-		const char *p = ps->pat[i];
-		size_t pl = strlen(p);
-		if (p[pl - 1] == '/') {
-			const char *s = path;
-			while (s) {
-				if (!strncmp(s, p, pl))
-					return 1;
-				if ((s = strchr(s, '/')))
-					s++;
-			}
-		} else if (!strchr(p, '/')) {
-			if (!fnmatch(p, base, 0))
-				return 1;
-		} else if (!fnmatch(p, path, 0)) {
+	for (i = 0; i < ps->n; i++)
+		if (omen_path_glob(path, ps->pat[i]))
 			return 1;
-		}
-	}
 	return 0;
 }

@@ -3,6 +3,7 @@
  * regular files, mkdir -p, advisory locks, and the bounded cursor. */
 #include <errno.h>
 #include <fcntl.h>
+#include <fnmatch.h>
 #include <stdlib.h>
 #include <string.h>
 #include <sys/file.h>
@@ -454,4 +455,26 @@ void omen_progress_end(omen_progress *p)
 {
 	if (p->enabled && progress_fn)
 		progress_fn(p->what, 0, p->total, NULL, 1, progress_payload);
+}
+
+int omen_path_glob(const char *path, const char *p)
+{
+	size_t pl = strlen(p);
+	const char *base = strrchr(path, '/');
+	base = base ? base + 1 : path;
+	if (pl == 0)
+		return 0;
+	if (p[pl - 1] == '/') {
+		const char *s = path;
+		while (s) {
+			if (!strncmp(s, p, pl))
+				return 1;
+			if ((s = strchr(s, '/')))
+				s++;
+		}
+		return 0;
+	}
+	if (!strchr(p, '/'))
+		return !fnmatch(p, base, 0);
+	return !fnmatch(p, path, 0);
 }

@@ -108,6 +108,29 @@ static int cmp_sorted(const void *x, const void *y) { return cmp_key_idx(x, y, s
 
 /* Pushing n items and popping them gives the order qsort gives under the
  * same relation (keys with many ties), with pushes and pops interleaved. */
+/* The path rule of omen.effortExclude and omen.nonCodePaths (omen_path_glob):
+ * expected values written from the rule as DEVELOPERS.md states it, and the
+ * matcher cross-checked with Python's fnmatch.fnmatchcase for the fnmatch
+ * cases (the same answers for these patterns). */
+static void test_path_glob(void **st)
+{
+	(void)st;
+	/* a directory at any depth, on a '/' boundary */
+	assert_int_equal(omen_path_glob("vendor/x.c", "vendor/"), 1);
+	assert_int_equal(omen_path_glob("a/vendor/x.c", "vendor/"), 1);
+	assert_int_equal(omen_path_glob("myvendor/x.c", "vendor/"), 0);
+	assert_int_equal(omen_path_glob("vendor", "vendor/"), 0);
+	/* no '/': the base name */
+	assert_int_equal(omen_path_glob("src/a.min.js", "*.min.js"), 1);
+	assert_int_equal(omen_path_glob("src/a.js", "*.min.js"), 0);
+	assert_int_equal(omen_path_glob("docs/README.md", "README*"), 1);
+	/* with '/': the whole path ('*' crosses '/' without FNM_PATHNAME) */
+	assert_int_equal(omen_path_glob("src/gen/a.c", "src/*.c"), 1);
+	assert_int_equal(omen_path_glob("lib/src/a.c", "src/*.c"), 0);
+	/* an empty pattern matches nothing */
+	assert_int_equal(omen_path_glob("a.c", ""), 0);
+}
+
 static void test_heap_order(void **st)
 {
 	enum { N = 2000 };
@@ -949,6 +972,7 @@ int main(void)
 		cmocka_unit_test(test_le_round_trip),
 		cmocka_unit_test(test_cursor_lines),
 		cmocka_unit_test(test_error_state),
+		cmocka_unit_test(test_path_glob),
 	};
 	return cmocka_run_group_tests_name("util", tests, setup_dir, teardown_dir);
 }
