@@ -67,22 +67,29 @@ int64_t omen_model_trained_at(const omen_model *m)
 	return cJSON_IsString(d) ? parse_iso(d->valuestring) : 0;
 }
 
-/* Non-merge commits of HEAD that the model's head does not reach. */
-static int count_since(int64_t *out, omen_repo *r, const git_oid *head)
+/* Non-merge commits of HEAD that head does not reach, oldest first; *ids is
+ * the caller's to free. */
+static int list_since(git_oid **ids, size_t *n, omen_repo *r, const git_oid *head)
 {
 	char hide[OMEN_OID_HEX + 2];
 	const char *revs[3];
 	omen_walk_opts wo = OMEN_WALK_OPTS_INIT;
-	git_oid *ids = NULL;
-	size_t n = 0;
-	int e;
 	hide[0] = '^';
 	omen_oid_hex(hide + 1, sizeof(hide) - 1, head);
 	revs[0] = "HEAD";
 	revs[1] = hide;
 	revs[2] = NULL;
 	wo.revs = revs;
-	if ((e = omen_history_list(&ids, &n, r, &wo)))
+	return omen_history_list(ids, n, r, &wo);
+}
+
+/* Non-merge commits of HEAD that the model's head does not reach. */
+static int count_since(int64_t *out, omen_repo *r, const git_oid *head)
+{
+	git_oid *ids = NULL;
+	size_t n = 0;
+	int e;
+	if ((e = list_since(&ids, &n, r, head)))
 		return e;
 	free(ids);
 	*out = (int64_t)n;
@@ -284,16 +291,7 @@ int omen_drift_measure(omen_drift *out, omen_scorer *s, const omen_labels_brief 
 	out->have = 1;
 	/* the commits after the model's head, fed to its metrics state */
 	if (head) {
-		char hide[OMEN_OID_HEX + 2];
-		const char *revs[3];
-		omen_walk_opts wo = OMEN_WALK_OPTS_INIT;
-		hide[0] = '^';
-		omen_oid_hex(hide + 1, sizeof(hide) - 1, head);
-		revs[0] = "HEAD";
-		revs[1] = hide;
-		revs[2] = NULL;
-		wo.revs = revs;
-		if ((e = omen_history_list(&ids, &n, r, &wo))) {
+		if ((e = list_since(&ids, &n, r, head))) {
 			omen_error_clear();
 			e = 0;
 			n = 0;
@@ -303,6 +301,7 @@ int omen_drift_measure(omen_drift *out, omen_scorer *s, const omen_labels_brief 
 			n = 0;
 		}
 		if (n) {
+			omen_walk_opts wo = OMEN_WALK_OPTS_INIT;
 			p.s = s;
 			p.rm = rm;
 			p.window = window;
