@@ -177,17 +177,9 @@ int cmd_health(int argc, char **argv)
 			{&cli_opt_format, &format, cli_formats_text_json, NULL, NULL},
 		};
 		const cli_command cmd = {"health", health_usage, NULL, uses, 1};
-		const char **pos = NULL;
-		size_t npos = 0;
-		if ((rc = cli_parse(&cmd, argc, argv, &pos, &npos)) >= 0)
+		if ((rc = cli_parse_no_args(&cmd, argc, argv)) >= 0)
 			return rc;
 		rc = EXIT_OK;
-		if (npos) {
-			rc = cli_usage("health", "takes no arguments ('%s')", pos[0]);
-			free(pos);
-			return rc;
-		}
-		free(pos);
 	}
 	json = !strcmp(format, "json");
 	if (omen_repo_open(&repo, NULL)) {

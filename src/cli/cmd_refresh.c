@@ -196,17 +196,9 @@ int cmd_refresh(int argc, char **argv)
 			{&opt_verbose, &verbose, NULL, NULL, NULL},
 		};
 		const cli_command cmd = {"refresh", refresh_usage, NULL, uses, sizeof(uses) / sizeof(uses[0])};
-		const char **pos = NULL;
-		size_t npos = 0;
-		if ((rc = cli_parse(&cmd, argc, argv, &pos, &npos)) >= 0)
+		if ((rc = cli_parse_no_args(&cmd, argc, argv)) >= 0)
 			return rc;
 		rc = EXIT_OK;
-		if (npos) {
-			rc = cli_usage("refresh", "takes no arguments ('%s')", pos[0]);
-			free(pos);
-			return rc;
-		}
-		free(pos);
 		if (budget_set)
 			budget = bud;
 		if (min_set)

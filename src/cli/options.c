@@ -336,3 +336,16 @@ void cli_print_help(const cli_command *c, FILE *fp)
 		fputs(c->footer, fp);
 	}
 }
+
+int cli_parse_no_args(const cli_command *c, int argc, char **argv)
+{
+	const char **pos = NULL;
+	size_t npos = 0;
+	int rc;
+	if ((rc = cli_parse(c, argc, argv, &pos, &npos)) >= 0)
+		return rc;
+	if (npos)
+		rc = cli_usage(c->name, "takes no arguments ('%s')", pos[0]);
+	free(pos);
+	return rc;
+}

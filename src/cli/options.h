@@ -68,6 +68,10 @@ extern const char *const cli_formats_features[];         /* csv json */
  * printing the help, 129 after one usage-error line on stderr (bad value,
  * unknown option). Old spellings are accepted with one notice each. */
 int cli_parse(const cli_command *c, int argc, char **argv, const char ***pos, size_t *npos);
+/* cli_parse for a command that takes no arguments: one argument is the
+ * usage error "takes no arguments ('a')" (129). Returns -1 to go on, or the
+ * exit code to return at once. */
+int cli_parse_no_args(const cli_command *c, int argc, char **argv);
 
 /* The help text of c on fp. */
 void cli_print_help(const cli_command *c, FILE *fp);
