@@ -91,6 +91,16 @@ typedef struct {
 	int incremental;           /* reuse the previous pass's state (saved as <labels>.state) */
 	int64_t max_bytes;         /* ceiling on the tracer state, 0 = omen.memoryLimit or none */
 	const char *dump_origins;  /* testing: write every traced fix line's origin here */
+	/* A path-sharded pass (issue 13, DEVELOPERS.md "MPI"): this is part
+	 * `part` of `parts` (parts <= 1: one process, every path). Each part
+	 * walks every commit but diffs and traces only the paths it owns; then
+	 * gather brings every part's bytes to part 0 (*all malloc'd there, the
+	 * parts' bytes in part order, counts[p] each; NULL elsewhere), and only
+	 * part 0 writes the labels. A sharded pass never reads or writes the
+	 * incremental state (<labels>.state): it is always a full pass. */
+	int part, parts;
+	int (*gather)(void *ctx, const void *send, size_t n, void **all, size_t *counts);
+	void *gather_ctx;
 } omen_label_opts;
 void omen_label_opts_init(omen_label_opts *o);
 

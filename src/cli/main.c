@@ -169,9 +169,10 @@ int main(int argc, char **argv)
 		if (!strcmp(argv[1], commands[i].name)) {
 			if (omen_mpi_init(&argc, &argv))
 				return cli_fatal(NULL);
-			if (omen_mpi_size() > 1 && commands[i].fn != cmd_train) {
+			if (omen_mpi_size() > 1 && commands[i].fn != cmd_train && commands[i].fn != cmd_label) {
 				rc = omen_mpi_rank() ? EXIT_USAGE : cli_usage(commands[i].name,
-					"runs as one process; under mpirun only 'git omen train' runs in parallel");
+					"runs as one process; under mpirun only 'git omen train' and 'git omen label' "
+					"run in parallel");
 				omen_mpi_finalize();
 				return rc;
 			}
