@@ -8,6 +8,7 @@
 #include <signal.h>
 #include <stdio.h>
 #include <unistd.h>
+#include <sys/resource.h>
 #include "omen/error.h"
 #include "omen/mpi.h"
 
@@ -19,8 +20,8 @@ static float *g_buf;
 static size_t g_cap;
 /* OMEN_MPI_LOG=1: each rank writes one line at the end (exchanges, bytes,
  * time in them), the figures of tests/bench/bench_mpi.sh */
-static size_t g_nx, g_xfloats;
-static double g_xsec, g_t0;
+static size_t g_nx, g_xfloats, g_ngather, g_gbytes;
+static double g_xsec, g_gsec, g_t0;
 
 /* Set by mpirun in every process it starts; a plain run has neither. */
 static int launched_by_mpirun(void)
@@ -80,10 +81,19 @@ void omen_mpi_finalize(void)
 	const char *lg = getenv("OMEN_MPI_LOG");
 	if (!g_on)
 		return;
-	if (lg && *lg && strcmp(lg, "0"))
-		fprintf(stderr, "git omen: notice: rank %d of %d: %zu gradient exchanges of %.1f MiB in "
-			"all, %.3f s in MPI_Allreduce of %.3f s since MPI_Init\n", g_rank, g_size, g_nx,
-			(double)g_xfloats * sizeof(float) / 1048576.0, g_xsec, MPI_Wtime() - g_t0);
+	if (lg && *lg && strcmp(lg, "0")) {
+		struct rusage ru;
+		long rss = getrusage(RUSAGE_SELF, &ru) ? 0 : ru.ru_maxrss; /* kB on Linux */
+		if (g_ngather)
+			fprintf(stderr, "git omen: notice: rank %d of %d: label results of %.2f MiB gathered, "
+				"%.3f s in MPI_Gather(v) of %.3f s since MPI_Init, peak RSS %.1f MB\n", g_rank,
+				g_size, (double)g_gbytes / 1048576.0, g_gsec, MPI_Wtime() - g_t0, rss / 1024.0);
+		else
+			fprintf(stderr, "git omen: notice: rank %d of %d: %zu gradient exchanges of %.1f MiB in "
+				"all, %.3f s in MPI_Allreduce of %.3f s since MPI_Init, peak RSS %.1f MB\n", g_rank,
+				g_size, g_nx, (double)g_xfloats * sizeof(float) / 1048576.0, g_xsec,
+				MPI_Wtime() - g_t0, rss / 1024.0);
+	}
 	free(g_buf);
 	g_buf = NULL;
 	g_cap = 0;
@@ -225,9 +235,9 @@ int omen_mpi_gather_bytes(void *ctx, const void *send, size_t n, void **all, siz
 		rc = omen_error_set(OMEN_ERROR, "rank %d: MPI_Gatherv of the label results failed", g_rank);
 		goto out;
 	}
-	g_xsec += MPI_Wtime() - t;
-	g_nx++;
-	g_xfloats += n / sizeof(float);
+	g_gsec += MPI_Wtime() - t;
+	g_ngather++;
+	g_gbytes += n;
 	*all = buf;
 	buf = NULL;
 out:
