@@ -78,7 +78,8 @@ static void print_text(const omen_train_report *r, const omen_dataset *ds, const
 				"on small histories the simple baselines are often as good\n",
 				b == &r->lr_metrics ? "lr on metrics" : "lines added", b->auc, r->model.auc);
 	}
-	printf("threshold %.3f (max F1 on validation); %.1f s\n", r->threshold, r->seconds);
+	printf("threshold %.3f (fires on the riskiest %.0f%% of the validation slice; max F1 there "
+		"%.3f); %.1f s\n", r->threshold, 100.0 * r->warn_share, r->threshold_f1, r->seconds);
 	printf("wrote %s (refit on train+validation; scores are advisory)\n", path);
 }
 
@@ -390,6 +391,11 @@ int cmd_train(int argc, char **argv)
 			goto fatal;
 		if (v64 > 0)
 			o.threads = v64 > OMEN_THREADS_MAX ? OMEN_THREADS_MAX : (int)v64;
+	}
+	{
+		double prec;
+		if (omen_warn_config(&o.warn_share, &prec, repo))
+			goto fatal;
 	}
 	/* one train per repository at a time: a second one refuses. Under
 	 * mpirun (issue 13) rank 0 holds the lock and builds the dataset first

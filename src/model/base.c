@@ -18,8 +18,8 @@
 #include <unistd.h>
 #include "omen/base.h"
 #include "omen/error.h"
-#include "omen/eval.h"
-#include "model/model_int.h"
+#include "omen/rank.h"
+#include "model/internal.h"
 
 #define BASE_CHUNKS 2
 #define BASE_EVAL_BATCH 64
