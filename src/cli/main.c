@@ -214,8 +214,10 @@ int main(int argc, char **argv)
 			rc = commands[i].fn(argc - 1, argv + 1);
 			git_libgit2_shutdown();
 			/* a failed rank ends the whole run (the others may be waiting in
-			 * a collective); its error line is already written */
-			if (rc != EXIT_OK && omen_mpi_size() > 1)
+			 * a collective); its error line is already written. A usage error
+			 * comes from the command line, which every rank parses alike
+			 * before any collective: every rank returns it, none waits. */
+			if (rc != EXIT_OK && rc != EXIT_USAGE && omen_mpi_size() > 1)
 				omen_mpi_abort(rc);
 			omen_mpi_finalize();
 			return rc;
