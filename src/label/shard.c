@@ -95,8 +95,10 @@ static int pair_key_cmp(const void *a, const void *b)
 		return x->ind < y->ind ? -1 : 1;
 	if (x->fix != y->fix)
 		return x->fix < y->fix ? -1 : 1;
-	/* named pairs (0 lines) first, then traced ones */
-	return (x->lines != 0) - (y->lines != 0);
+	/* named pairs (0 lines) first, then traced ones, then dropped ones */
+	int cx = !x->lines ? 0 : x->lines == LBL_PAIR_DROPPED ? 2 : 1;
+	int cy = !y->lines ? 0 : y->lines == LBL_PAIR_DROPPED ? 2 : 1;
+	return cx - cy;
 }
 
 /* This rank's results: counters, n, traced[n], flags[n], the pairs with lines. */
@@ -198,8 +200,9 @@ int lbl_shard_gather(const lbl_shard *s, const omen_label_opts *o, uint32_t *tra
 		qsort(*pairs, *npairs, sizeof(**pairs), pair_key_cmp);
 		for (i = 1, k = 0; i < *npairs; i++) {
 			lbl_pair *p = &(*pairs)[k], *q = &(*pairs)[i];
-			if (p->ind == q->ind && p->fix == q->fix && p->lines && q->lines)
-				p->lines += q->lines;
+			int pd = p->lines == LBL_PAIR_DROPPED, qd = q->lines == LBL_PAIR_DROPPED;
+			if (p->ind == q->ind && p->fix == q->fix && p->lines && q->lines && pd == qd)
+				p->lines = pd ? p->lines : p->lines + q->lines;
 			else
 				(*pairs)[++k] = *q;
 		}

@@ -19,6 +19,10 @@ typedef struct {
 	uint32_t ind, fix, lines;
 } lbl_pair;
 
+/* lines of a sharded pass's placeholder pair: a candidate the fix's named
+ * commits dropped (issue 10), counted once per (candidate, fix) on rank 0 */
+#define LBL_PAIR_DROPPED UINT32_MAX
+
 typedef struct lbl_shard {
 	int part, parts;      /* this rank, the number of ranks (parts > 1) */
 	int renames;          /* renames with edits are followed (rename.c) */

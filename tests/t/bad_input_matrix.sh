@@ -490,6 +490,29 @@ open(sys.argv[2], "wb").write(b"\n".join(lines))' "$demo/.git/omen/labels.jsonl"
 	fi
 }
 
+# a label header whose horizon is not a number of days (issue 16 reads the
+# window and horizon behind "labels as known at the cut" from the header)
+row_label_bad_horizon() {
+	have train || { report pending "label header: bad horizon" "train --labels"; return; }
+	[ -f "$demo/.git/omen/labels.jsonl" ] || { report skip "label header: bad horizon" "no labels"; return; }
+	"${PYTHON:-/usr/bin/python3}" -c '
+import json, sys
+lines = open(sys.argv[1], "rb").read().split(b"\n")
+h = json.loads(lines[0])
+h["options"]["horizon_days"] = "a year"
+lines[0] = json.dumps(h).encode()
+open(sys.argv[2], "wb").write(b"\n".join(lines))' "$demo/.git/omen/labels.jsonl" "$here/horizon.jsonl"
+	cd "$demo" || return
+	om hz train --labels "$here/horizon.jsonl" --model "$here/unused.omen"
+	if [ "$rc" -eq 128 ] &&
+	   one_line hz "bad label file '.*horizon.jsonl': line 1: bad \"horizon_days\" in \"options\"" &&
+	   [ ! -f "$here/unused.omen" ]; then
+		report ok "label header: bad horizon" "128: $(first_err hz | cut -c1-80)"
+	else
+		report FAIL "label header: bad horizon" "rc=$rc $(first_err hz)"
+	fi
+}
+
 # waits (up to ~20 s) until the train lock is held by someone else
 wait_locked() {
 	i=0
@@ -679,8 +702,8 @@ row_shard_damaged() {
 t0=$(date +%s)
 for r in shallow empty unborn missing_objects missing_skip promisor_unreachable detached big_file binary_only invalid_utf8 crlf \
          submodule symlink mode_only many_files model_truncated model_flipped label_broken_line \
-         two_trains kill_train kill_label memory_limit bad_config warn_share refresh_while_train \
-         shard_damaged; do
+         label_bad_horizon two_trains kill_train kill_label memory_limit bad_config warn_share \
+         refresh_while_train shard_damaged; do
 	cd "$here" || exit 1
 	ts=$(date +%s)
 	row_$r
