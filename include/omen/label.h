@@ -109,6 +109,10 @@ typedef struct {
 /* In-memory label set, looked up by commit id. */
 typedef struct omen_labels omen_labels;
 int omen_labels_load(omen_labels **out, const char *path);  /* JSON Lines */
+/* The same with a ceiling on the file's size: max_bytes > 0 is
+ * omen.memoryLimit (named in the error), else OMEN_READ_MAX. A FIFO or a
+ * device is refused (omen_file_open_read). */
+int omen_labels_load_max(omen_labels **out, const char *path, int64_t max_bytes);
 /* Parses label file bytes (exposed for the fuzz target). A broken line is
  * OMEN_ECORRUPT "bad label file 'p': line N: <why>". */
 int omen_labels_parse(omen_labels **out, const char *name, const char *data, size_t n);

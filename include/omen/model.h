@@ -15,7 +15,8 @@ typedef struct omen_model omen_model;
 /* Defaults stated once (plain integers: the help text is made from them). */
 #define OMEN_SEED_DEFAULT 42     /* training, and eval's bootstrap */
 #define OMEN_EPOCHS_DEFAULT 30
-#define OMEN_THREADS_MAX 64      /* --threads and omen.threads bound */
+/* OMEN_THREADS_MAX (--threads and omen.threads): include/omen/history.h,
+ * beside the other bounds of the settings table */
 
 /* A range [off, off + n) of the parameter block. */
 typedef struct { size_t off, n; } omen_span;
@@ -152,6 +153,9 @@ void omen_metrics_transform(double out[OMEN_NMETRICS], const float raw[OMEN_NMET
  * aligned float32 tensors, CRC32 over all of it; written atomically. */
 int omen_model_save(const omen_model *m, const char *path);
 int omen_model_load(omen_model **out, const char *path);
+/* The same under a ceiling: max_bytes > 0 is omen.memoryLimit (named in the
+ * error); the file is never read past 2 GiB. Not a regular file: refused. */
+int omen_model_load_max(omen_model **out, const char *path, int64_t max_bytes);
 /* Parses model bytes without trusting any length (fuzz target entry). */
 int omen_model_parse(omen_model **out, const char *name, const void *data, size_t n);
 void omen_model_free(omen_model *m);

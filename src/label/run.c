@@ -72,6 +72,7 @@ typedef struct {
 	size_t ndent, dent_cap;
 	uint32_t *minor;        /* candidates the line share dropped, this fix */
 	size_t nminor, minor_cap;
+	omen_atomic_file dumpf; /* --dump-origins: the file rules of -o */
 	omen_label_summary *sum;
 	omen_progress prog;
 	omen_buf path;          /* scratch for tree walks */
@@ -761,7 +762,7 @@ static int previous_run(omen_label_summary *sum, lbl_run *R, const char *path, c
 	cJSON *j = NULL, *v;
 	int same = 0;
 	git_oid oh, nh;
-	if (omen_labels_load(&old, path)) {
+	if (omen_labels_load_max(&old, path, R->o ? R->o->max_bytes : 0)) {
 		omen_error_clear();
 		return 0;
 	}
@@ -1480,9 +1481,10 @@ int omen_label_run(omen_label_summary *sum, omen_repo *r, const omen_label_opts 
 	to.ws_keeps_origin = o.ws_keeps_origin;
 	if ((e = lbl_tracer_new(&R.tr, &to)))
 		goto out;
-	if (o.dump_origins && !(R.dump = fopen(o.dump_origins, "w"))) {
-		e = omen_error_set(OMEN_EIO, "cannot write '%s'", o.dump_origins);
-		goto out;
+	if (o.dump_origins) {
+		if ((e = omen_output_open(&R.dumpf, o.dump_origins)))
+			goto out;
+		R.dump = R.dumpf.fp;
 	}
 	/* with a fix list the old commits would need classifying again (the
 	 * list may have changed): no state reuse then */
@@ -1577,8 +1579,10 @@ int omen_label_run(omen_label_summary *sum, omen_repo *r, const omen_label_opts 
 	    (e = save_state(&R, sp.ptr, ob.ptr, head))))
 		goto out;
 out:
-	if (R.dump && fclose(R.dump) && !e)
-		e = omen_error_set(OMEN_EIO, "cannot write '%s'", o.dump_origins);
+	if (R.dump && !e)
+		e = omen_atomic_commit(&R.dumpf);
+	else if (R.dump)
+		omen_atomic_abort(&R.dumpf);
 	sum->seconds = omen_now() - t0;
 	omen_fixrules_free(R.fr);
 	lbl_tracer_free(R.tr);

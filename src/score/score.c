@@ -213,8 +213,12 @@ int omen_scorer_open(omen_scorer **out, omen_repo *r, const omen_score_opts *o)
 			s->model_path);
 		goto out;
 	}
-	if ((e = omen_model_load(&s->model, s->model_path)))
-		goto out;
+	{
+		int64_t lim = 0;   /* omen.memoryLimit bounds the model read too */
+		if ((e = omen_config_int(&lim, r, "omen.memoryLimit")) ||
+		    (e = omen_model_load_max(&s->model, s->model_path, lim)))
+			goto out;
+	}
 	read_meta(s);
 	if ((e = omen_config_string(&pat, r, "omen.fixPattern")) ||
 	    (e = omen_fixrules_new(&s->rules, pat && *pat ? pat : NULL)))
@@ -237,18 +241,22 @@ int omen_scorer_open(omen_scorer **out, omen_repo *r, const omen_score_opts *o)
 	if (o->threshold >= 0) {
 		s->threshold = (float)o->threshold;
 	} else {
+		/* bounds and the message with the value as written: the
+		 * settings table (omen_setting_parse) */
 		if ((e = omen_config_double(&thr, r, "omen.threshold")))
 			goto out;
 		if (thr >= 0)
 			s->threshold = (float)thr;
 	}
-	if (!(s->threshold >= 0 && s->threshold <= 1)) {
-		e = omen_error_set(OMEN_EINVAL, "bad config value 'omen.threshold': '%g' is not a probability",
-			(double)s->threshold);
+	if (!(s->threshold >= 0 && s->threshold <= 1)) {  /* only the model's own can be */
+		e = omen_error_set(OMEN_ECORRUPT, "bad model '%s': its threshold %g is not a probability",
+			s->model_path, (double)s->threshold);
 		goto out;
 	}
 	if ((e = warn_budget(s, r, o->threshold >= 0 || thr >= 0)))
 		goto out;
+	if (s->threshold == 0)
+		s->threshold = 0.0f;  /* -0 is shown as 0.00, never -0.00 */
 	*out = s;
 	s = NULL;
 out:
@@ -310,14 +318,21 @@ static void add_reason(omen_score_result *r, omen_reason *cand, int *nc, int kin
 	va_end(ap);
 }
 
+/* "path:lines" in buf; a path too long for it is cut between characters
+ * (120 bytes and "...") so the line numbers stay. */
 static void range_text(char *buf, size_t n, const omen_hunk_score *h)
 {
+	size_t plen = strlen(h->path), cut = omen_utf8_prefix(h->path, plen, 120);
+	int pl = (int)cut;
+	const char *more = cut < plen ? "..." : "";
 	if (h->new_lines > 1)
-		snprintf(buf, n, "%s:%d-%d", h->path, (int)h->new_start, (int)(h->new_start + h->new_lines - 1));
+		snprintf(buf, n, "%.*s%s:%d-%d", pl, h->path, more, (int)h->new_start,
+			(int)(h->new_start + h->new_lines - 1));
 	else if (h->new_lines == 1)
-		snprintf(buf, n, "%s:%d", h->path, (int)h->new_start);
+		snprintf(buf, n, "%.*s%s:%d", pl, h->path, more, (int)h->new_start);
 	else
-		snprintf(buf, n, "%s:%d (deleted lines)", h->path, (int)(h->new_start > 0 ? h->new_start : 1));
+		snprintf(buf, n, "%.*s%s:%d (deleted lines)", pl, h->path, more,
+			(int)(h->new_start > 0 ? h->new_start : 1));
 }
 
 static const char *metric_phrase(int j)
@@ -446,8 +461,9 @@ static const char *summary_of(omen_arena *a, const char *msg)
 	char *p;
 	if (!msg)
 		msg = "";
-	while (msg[n] && msg[n] != '\n' && n < 200)
+	while (msg[n] && msg[n] != '\n')
 		n++;
+	n = omen_utf8_prefix(msg, n, 200);   /* never half a character */
 	if (!(p = omen_arena_strndup(a, msg, n)))
 		return "";
 	for (i = 0; i < n; i++)
@@ -664,7 +680,9 @@ void score_load_labels(omen_labels **out, omen_repo *r)
 {
 	char *path = NULL;
 	*out = NULL;
-	if (omen_labels_path(&path, r, NULL) || omen_labels_load(out, path))
+	int64_t lim = 0;
+	if (omen_config_int(&lim, r, "omen.memoryLimit") || omen_labels_path(&path, r, NULL) ||
+	    omen_labels_load_max(out, path, lim))
 		*out = NULL;
 	omen_error_clear();
 	free(path);
