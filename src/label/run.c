@@ -1218,13 +1218,14 @@ static int latency(lbl_run *R)
 /* ---- a path-sharded pass (issue 13) -------------------------------------------
  * Every rank has the same commits, fixes, named links and skipped fixes;
  * what depends on the files is this rank's share: traced lines per commit,
- * the absent-blob and per-fix flags, the traced pairs and four counters.
+ * the absent-blob and per-fix flags, the traced pairs and five counters.
  * Rank 0 adds the other ranks' shares to its own (label/shard.c) and counts
  * the per-fix outcomes again from the combined flags, as walk_cb does. */
 static int gather_shards(lbl_run *R)
 {
 	omen_label_summary *s = R->sum;
-	uint64_t cnt[4] = {s->traced_lines, s->untraced_missing, s->files_absent, s->file_changes};
+	uint64_t cnt[5] = {s->traced_lines, s->untraced_missing, s->files_absent, s->file_changes,
+		s->noncode_lines};
 	uint32_t *traced = malloc((R->n ? R->n : 1) * sizeof(*traced));
 	uint8_t *flags = malloc(R->n ? R->n : 1);
 	size_t i, k;
@@ -1239,12 +1240,13 @@ static int gather_shards(lbl_run *R)
 		flags[i] = (uint8_t)(R->cs[i].sflags | (R->cs[i].absent ? LBL_SF_ABSENT : 0));
 	}
 	e = lbl_shard_gather(R->sh, R->o, traced, flags, R->n, &R->pairs, &R->npairs, &R->pairs_cap,
-		cnt, 4);
+		cnt, 5);
 	if (!e && R->sh->part == 0) {
 		s->traced_lines = (size_t)cnt[0];
 		s->untraced_missing = (size_t)cnt[1];
 		s->files_absent = (size_t)cnt[2];
 		s->file_changes = (size_t)cnt[3];
+		s->noncode_lines = (size_t)cnt[4];
 		s->fixes_traced = s->fixes_add_only = s->fixes_absent = s->named_dropped = 0;
 		for (i = 0, k = 0; i < R->npairs; i++) {
 			if (R->pairs[i].lines == LBL_PAIR_DROPPED)

@@ -37,6 +37,12 @@ SH="--min-line-share 0 --no-insertion-context"
 (cd rename && same rename --window 0 $SH)
 # the renames cross shards: the check would fail if the owner did not follow them
 grep -q '"label":"inducing"' rename.1 || fail "rename: nothing inducing"
+# the issue 10 rules (fixtures/label/rules.sh): a fix over code and test
+# files on other ranks, non-code lines, a named commit that decides
+sh "$ROOT/fixtures/label/rules.sh" rules >/dev/null
+(cd rules && same rules --window 0 $SH)
+grep -q '"non_code_lines":[1-9]' rules.1 || fail "rules: no non-code lines counted"
+grep -q '"named_dropped":[1-9]' rules.1 || fail "rules: no candidate dropped by a named commit"
 sh "$ROOT/fixtures/label/merge.sh" merge >/dev/null
 (cd merge && same merge --window 0 $SH)
 /usr/bin/python3 "$ROOT/fixtures/demo/gen.py" --seed 5 --commits 300 --out "$top/demo" --quiet
