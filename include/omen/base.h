@@ -91,4 +91,16 @@ int omen_base_logits(float *out, const omen_model *m, const omen_corpus *c, size
  * model. The metadata says so ("young") and names the base ("from_base"). */
 int omen_model_adopt_base(omen_model **out, const omen_model *base, const omen_dataset *ds);
 
+/* ---- the installed base model -----------------------------------------------
+ * `make install` puts the committed base model (fixtures/base-model/) at
+ * $PREFIX/share/git-omen/base.omen. The base model of a repository r: the
+ * file omen.baseModel names, else the installed one, looked for beside the
+ * running binary (<bindir>/../share/git-omen/, so a DESTDIR or relocated
+ * install finds its own) and then under the compiled-in OMEN_DATADIR. *out
+ * is malloc'd, or NULL when there is none (not an error). *configured is
+ * set when the path came from omen.baseModel. */
+int omen_base_model_path(char **out, int *configured, omen_repo *r);
+/* The caps the model's dataset was built with. */
+omen_caps omen_model_caps(const omen_model *m);
+
 #endif

@@ -143,6 +143,9 @@ void omen_scorer_free(omen_scorer *s);
 const omen_model *omen_scorer_model(const omen_scorer *s);
 float omen_scorer_threshold(const omen_scorer *s);
 const char *omen_scorer_model_path(const omen_scorer *s);
+/* The base model scored with when the repository has no model of its own
+ * (issue 11; NULL otherwise), and the commits it was standardized on. */
+const char *omen_scorer_base_fallback(const omen_scorer *s, size_t *commits);
 /* Scores ids (results come oldest first). The metrics state is the
  * model's, then fed every commit between the model's head and each scored
  * commit, oldest first, so each commit's metrics use only commits before
