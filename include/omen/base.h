@@ -16,7 +16,20 @@
  * population standard deviation of those earlier commits only (Welford's
  * running update), clipped to [-OMEN_REL_CLIP, OMEN_REL_CLIP]; 0 while
  * fewer than 2 earlier commits are known or they do not vary. So a commit
- * is described against its own history's past, never its future. */
+ * is described against its own history's past, never its future.
+ *
+ * The one rule for every model (DEVELOPERS.md, "Base model"): a commit's
+ * metrics are z-scores against the commits of its own repository that come
+ * before it, clipped to +-OMEN_REL_CLIP. Training the base model uses the
+ * running form above, because its training commits are spread over each
+ * history's whole life; a model applied to one repository (per-repository,
+ * fine-tuned, a young repository kept on the base, score's fallback to the
+ * base) uses the frozen form, the mean and scale of the repository's commits
+ * before the ones it scores: its training split, or every commit up to the
+ * tip when nothing is trained. The running statistics at a history's last
+ * commit are exactly the frozen ones over all its earlier commits, so the
+ * base model meets the same scale it learned; the frozen form needs no
+ * replay of the history at score time. */
 #define OMEN_REL_CLIP 8.0
 typedef struct {
 	double n;

@@ -654,6 +654,11 @@ static int base_candidate(char **out, const char *dir, size_t dlen)
 	memcpy(p, dir, dlen);
 	memcpy(p + dlen, name, sizeof(name));
 	if (stat(p, &st) == 0 && S_ISREG(st.st_mode)) {
+		char *rp = realpath(p, NULL);   /* <bindir>/.. said plainly */
+		if (rp) {
+			free(p);
+			p = rp;
+		}
 		*out = p;
 		return 0;
 	}
