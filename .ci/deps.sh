@@ -16,7 +16,8 @@ has_pc libgit2 || need="$need libgit2-dev"
 has_pc libcjson || need="$need libcjson-dev"
 if [ "$what" = test ]; then
 	has_pc cmocka || need="$need libcmocka-dev"
-	for p in python3-torch python3-sklearn python3-numpy mandoc valgrind python3-jsonschema chromium; do
+	for p in python3-torch python3-sklearn python3-numpy mandoc valgrind python3-jsonschema chromium \
+		libopenmpi-dev openmpi-bin; do
 		has_deb "$p" || need="$need $p"
 	done
 fi

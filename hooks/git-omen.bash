@@ -9,7 +9,7 @@
 # `git omen <cmd> --help` (lines whose first token starts with "-"), so they
 # stay the same as what the code accepts.
 
-__git_omen_commands="label train score explain eval features hook version help"
+__git_omen_commands="label train score explain eval features hook health refresh version help"
 
 # The options `git omen <cmd> --help` lists; long options that take a value
 # end in "=" so that git's __gitcomp leaves no space after them.
@@ -82,7 +82,11 @@ _git_omen ()
 	--*=*)
 		return ;;
 	-*)
-		__gitcomp "$(__git_omen_options "$subcommand")"
+		if [ "$subcommand" = hook ] && [ -n "$(__git_find_on_cmdline "install")" ]; then
+			__gitcomp "--refresh"
+		else
+			__gitcomp "$(__git_omen_options "$subcommand")"
+		fi
 		return ;;
 	esac
 	case "$subcommand" in

@@ -134,4 +134,18 @@ const char *omen_dataset_tip(const omen_dataset *d);
  * has no metrics state. */
 int omen_dataset_from_samples(omen_dataset **out, const omen_sample *s, size_t n);
 
+/* ---- tokenizers (language-agnostic, src/features/tokenize.c) -------------
+ * Code: identifiers (also split into parts on camelCase and '_': the whole
+ * identifier and, when it has several parts, each lowercased part),
+ * keywords and identifiers alike, operators (longest match of common
+ * multi-char operators), numbers bucketed ("<num0>", "<num1>", "<num2-9>",
+ * "<num10-99>", "<numbig>", "<float>", "<hex>"), string and char literals
+ * collapsed to "<str>", comments to "<comment>". The callback gets each token
+ * (not NUL-terminated). Invalid UTF-8 bytes are skipped, never crash. */
+typedef void (*omen_token_cb)(const char *tok, size_t len, void *payload);
+void omen_tokenize_code(const char *s, size_t n, omen_token_cb cb, void *payload);
+/* Message: lowercased words, numbers bucketed, "#123" -> "<issue>",
+ * 7-40 hex digit words -> "<sha>", URLs -> "<url>". */
+void omen_tokenize_message(const char *s, size_t n, omen_token_cb cb, void *payload);
+
 #endif

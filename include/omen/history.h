@@ -37,10 +37,6 @@ int omen_config_string(char **out, omen_repo *r, const char *key); /* malloc'd o
 int omen_config_int(int64_t *out, omen_repo *r, const char *key);  /* accepts k/m/g suffixes */
 int omen_config_bool(int *out, omen_repo *r, const char *key);
 int omen_config_double(double *out, omen_repo *r, const char *key);
-/* The label file every stage reads unless told otherwise: omen.labels when
- * set and not empty, else $GIT_DIR/omen/labels.jsonl. *configured (may be
- * NULL) says which. Caller frees. */
-int omen_labels_path(char **out, omen_repo *r, int *configured);
 /* Parses GIT_CONFIG_PARAMETERS text (exposed for the fuzz target):
  * calls cb for every key=value pair; returns OMEN_EINVAL on bad quoting. */
 int omen_config_parse_params(const char *text,
@@ -267,24 +263,25 @@ int omen_history_upstream(git_oid *out, omen_repo *r);
  * joined by spaces, leading blank lines dropped). *out malloc'd.
  * OMEN_ENOTFOUND "cannot read commit '<id>': ..." when it is not there. */
 int omen_history_subject(char **out, omen_repo *r, const git_oid *id);
+/* How many parents a commit has (a merge has two or more). OMEN_ENOTFOUND
+ * "cannot read commit '<id>': ..." when it is not there. */
+int omen_history_parent_count(size_t *out, omen_repo *r, const git_oid *id);
 
-/* ---- tokenizers (language-agnostic) -------------------------------------
- * Code: identifiers (also split into parts on camelCase and '_': the whole
- * identifier and, when it has several parts, each lowercased part),
- * keywords and identifiers alike, operators (longest match of common
- * multi-char operators), numbers bucketed ("<num0>", "<num1>", "<num2-9>",
- * "<num10-99>", "<numbig>", "<float>", "<hex>"), string and char literals
- * collapsed to "<str>", comments to "<comment>". The callback gets each token
- * (not NUL-terminated). Invalid UTF-8 bytes are skipped, never crash. */
-typedef void (*omen_token_cb)(const char *tok, size_t len, void *payload);
-void omen_tokenize_code(const char *s, size_t n, omen_token_cb cb, void *payload);
-/* Message: lowercased words, numbers bucketed, "#123" -> "<issue>",
- * 7-40 hex digit words -> "<sha>", URLs -> "<url>". */
-void omen_tokenize_message(const char *s, size_t n, omen_token_cb cb, void *payload);
+/* ---- object ids: the stages above history/ use these, never libgit2 ------ */
+/* The id's hex digits, at most n - 1 of them, NUL-terminated (n >= 1). */
+void omen_oid_hex(char *out, size_t n, const git_oid *id);
+/* A full 40-digit hex id. OMEN_EINVAL "bad commit id '<text>'" otherwise. */
+int omen_oid_parse(git_oid *out, const char *hex);
+/* 1 when the ids are the same, else 0. */
+int omen_oid_equal(const git_oid *a, const git_oid *b);
 
+/* ---- line classes (src/history/lines.c) --------------------------------- */
 /* Whether a line is blank/whitespace-only, or a comment only line in the
  * common syntaxes (//, #, /ASTERISK, ASTERISK, --, ;, %). Used by the labeller. */
 int omen_line_is_blank(const char *s, size_t n);
 int omen_line_is_comment(const char *s, size_t n);
+/* Whether s, the text after a line's '#', starts with a C preprocessor
+ * directive (include, define, if, pragma, ...): such a line is code. */
+int omen_line_is_directive(const char *s, size_t n);
 
 #endif

@@ -1,6 +1,6 @@
 /* Labeller: fix-commit identification, one oldest-first line-origin pass
- * (SZZ, Sliwerski, Zimmermann & Zeller, MSR 2005, with the refinements of
- * DESIGN.md "Labels"), label file I/O. */
+ * (SZZ, Sliwerski, Zimmermann & Zeller, MSR 2005, with the refinements in
+ * DEVELOPERS.md "Labeller"), label file I/O. */
 #ifndef OMEN_LABEL_H
 #define OMEN_LABEL_H
 
@@ -12,6 +12,9 @@ typedef enum {
 	OMEN_LABEL_CLEAN = 0,
 	OMEN_LABEL_INDUCING = 1
 } omen_label_value;
+/* The label's name in every file and output: "inducing", "clean", else
+ * "unknown". */
+const char *omen_label_name(int label);
 
 /* How a commit was identified as a fix (bit set). */
 enum {
@@ -68,6 +71,14 @@ void omen_labels_free(omen_labels *l);
 const omen_label_rec *omen_labels_get(const omen_labels *l, const char *hex);
 size_t omen_labels_count(const omen_labels *l);
 const omen_label_rec *omen_labels_at(const omen_labels *l, size_t i); /* file order */
+/* The header's counts and the labels of the newest `tail` labelled records,
+ * read without parsing the whole file (git omen health). */
+typedef struct {
+	char head[OMEN_OID_HEX + 1];
+	size_t commits, inducing, clean, unknown;
+	size_t recent, recent_inducing;
+} omen_labels_brief;
+int omen_labels_brief_read(omen_labels_brief *out, const char *path, size_t tail);
 /* The history the labels cover (newest commit id), for cache keys. */
 const char *omen_labels_head(const omen_labels *l);
 
@@ -137,5 +148,11 @@ enum {
  * (sum->mode OMEN_LABEL_MODE_UPTODATE, counts from the file's header). */
 int omen_label_run(omen_label_summary *sum, omen_repo *r, const omen_label_opts *o,
 	const char *out_path);
+
+/* ---- where the label file is (src/label/location.c) ------------------------ */
+/* The label file every stage reads unless told otherwise: omen.labels when
+ * set and not empty, else $GIT_DIR/omen/labels.jsonl. *configured (may be
+ * NULL) says which. Caller frees. */
+int omen_labels_path(char **out, omen_repo *r, int *configured);
 
 #endif

@@ -1,4 +1,4 @@
-/* The hierarchical commit model (DESIGN.md "Model"), its training loop,
+/* The hierarchical commit model (DEVELOPERS.md "Model"), its training loop,
  * Platt calibration, the two baselines and the model file format. Never
  * prints: progress goes through a callback. */
 #ifndef OMEN_MODEL_H
@@ -16,6 +16,15 @@ typedef struct omen_model omen_model;
 #define OMEN_EPOCHS_DEFAULT 30
 #define OMEN_THREADS_MAX 64      /* --threads and omen.threads bound */
 
+/* A range [off, off + n) of the parameter block. */
+typedef struct { size_t off, n; } omen_span;
+
+/* Data-parallel training (issue 13, src/util/mpi.c): fills in the chunk
+ * gradients grad[c] (over spans) and losses loss[c] that other processes
+ * computed, before the fixed-order sum of the chunks. */
+typedef int (*omen_grad_exchange)(void *ctx, float *const *grad, float *loss, int nchunks,
+	const omen_span *spans, size_t nspans);
+
 typedef struct {
 	int epochs;              /* maximum; early stopping may stop sooner (default OMEN_EPOCHS_DEFAULT) */
 	int patience;            /* epochs without validation AUC gain (default 5) */
@@ -30,6 +39,8 @@ typedef struct {
 	int channels;            /* C hidden width (default 32) */
 	omen_caps caps;          /* the caps the dataset was built with (stored in the model) */
 	int warm_start;          /* start from the metrics logistic regression (default 1) */
+	double warn_share;       /* the model's threshold fires on this share of the
+	                          * calibration slice (default OMEN_WARN_SHARE_DEFAULT) */
 	/* fine-tuning (issue 11): start from this model's weights (a base model
 	 * of the same dims) instead of fresh ones and the warm start; the
 	 * standardization is fitted on the training split as from scratch */
@@ -37,6 +48,12 @@ typedef struct {
 	/* per epoch; valid_auc is NaN during the refit on train+validation */
 	void (*progress)(void *payload, int epoch, int epochs, float loss, float valid_auc, double eta_s);
 	void *payload;
+	/* data-parallel part (issue 13): with parts > 1 this process computes
+	 * the chunks c of every batch with c % parts == part, and exchange
+	 * brings the others' in; parts <= 1: one process (the default) */
+	int part, parts;
+	omen_grad_exchange exchange;
+	void *exchange_ctx;
 } omen_train_opts;
 void omen_train_opts_init(omen_train_opts *o);
 
@@ -52,7 +69,9 @@ typedef struct {
 	int epochs_run, best_epoch;
 	double seconds;
 	omen_slice_scores model, lr_metrics, lines_added;
-	float threshold;         /* chosen on validation (max F1) */
+	float threshold;         /* fires on warn_share of the calibration slice */
+	float threshold_f1;      /* max F1 on the same slice, for reference */
+	double warn_share;       /* the share it was chosen for */
 } omen_train_report;
 
 /* Trains on the labelled samples of ds (label >= 0), time ordered.
@@ -122,6 +141,55 @@ int omen_platt_fit(double *out_a, double *out_b, const double *f, const int *y, 
 double omen_platt_apply(double a, double b, double f);
 /* Threshold of maximal F1 (prob >= t is positive); 0.5 without positives. */
 double omen_threshold_max_f1(const double *prob, const int *y, size_t n);
+
+/* Warning budget (issue 12): per share of the calibration slice (1%, 2%,
+ * ... 100%), the threshold that fires on it and the precision and recall
+ * there. Saved in the model metadata as "warn_curve". */
+#define OMEN_WARN_POINTS 100
+#define OMEN_WARN_SHARE_DEFAULT 0.10
+/* the shipped model's firing slice: the commits newer than its training,
+ * at most this many of the newest */
+#define OMEN_WARN_FIRE_MAX 1000
+typedef struct {
+	int npoints;            /* 0: none (a model from before issue 12) */
+	size_t n_slice, positives;   /* calibration slice: precision and recall */
+	size_t n_fire;               /* firing slice: thresholds and shares fired */
+	double thr[OMEN_WARN_POINTS];        /* non-increasing */
+	double fired[OMEN_WARN_POINTS];      /* share at or above thr (ties count) */
+	double precision[OMEN_WARN_POINTS], recall[OMEN_WARN_POINTS];
+} omen_warn_curve;
+typedef struct {
+	double threshold, share, precision, recall;
+	int point;
+	int unmet;              /* the precision target is out of reach: the most precise point */
+} omen_warn_choice;
+int omen_warn_curve_build(omen_warn_curve *out, const double *prob, const int *y, size_t n);
+/* The same with thresholds and shares fired counted on other commits
+ * (fire[nfire], any label) and precision and recall on prob, y. */
+int omen_warn_curve_build_on(omen_warn_curve *out, const double *fire, size_t nfire,
+	const double *prob, const int *y, size_t n);
+/* By precision when precision_target > 0 (the largest share reaching it),
+ * else by share in (0, 1). Out of range: OMEN_EINVAL naming the setting. */
+int omen_warn_pick(omen_warn_choice *out, const omen_warn_curve *c, double share,
+	double precision_target);
+/* About how often a given threshold fires on the calibration slice. */
+double omen_warn_share_at(const omen_warn_curve *c, double threshold);
+cJSON *omen_warn_curve_json(const omen_warn_curve *c);
+int omen_warn_curve_parse(omen_warn_curve *out, const cJSON *j);
+/* The curve saved with m (OMEN_ENOTFOUND when it has none). */
+int omen_model_warn_curve(omen_warn_curve *out, const omen_model *m);
+
+/* Drift reference (issue 12, src/model/drift.c): per metric, up to
+ * OMEN_DRIFT_BINS - 1 decile edges of the training slice (bin b holds
+ * edges[b-1] < x <= edges[b]), its shares per bin, and the bin of each of
+ * the newest `recent` samples, one digit each; saved as "drift" in the
+ * model metadata. */
+#define OMEN_DRIFT_BINS 10
+#define OMEN_DRIFT_RECENT 500
+int omen_drift_edges(double *edges, const float *v, size_t n);   /* count, or OMEN_ENOMEM */
+int omen_drift_bin(const double *edges, int ne, double x);
+cJSON *omen_drift_ref_json(const omen_dataset *ds, const size_t *train_idx, size_t n_train,
+	size_t recent);
 
 /* Raw logits of the samples idx[0..n) of ds, batched over threads (0 = the
  * online cores, at most 2). */

@@ -12,6 +12,7 @@
 #include "omen/nn.h"
 #include "omen/model.h"
 #include "omen/eval.h"
+#include "omen/rank.h"
 #include "omen/score.h"
 
 #endif

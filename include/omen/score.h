@@ -11,6 +11,7 @@
 #include "omen/history.h"
 #include "omen/features.h"
 #include "omen/model.h"
+#include "omen/label.h"
 
 /* ---- pre-push protocol ----------------------------------------------------
  * git feeds a pre-push hook one line per ref to update (githooks(5)):
@@ -142,6 +143,18 @@ int omen_scorer_open(omen_scorer **out, omen_repo *r, const omen_score_opts *o);
 void omen_scorer_free(omen_scorer *s);
 const omen_model *omen_scorer_model(const omen_scorer *s);
 float omen_scorer_threshold(const omen_scorer *s);
+/* About which share of commits the threshold fires on (the model's
+ * calibration slice), NAN for a model without a warning curve. */
+double omen_scorer_fires(const omen_scorer *s);
+/* Notices for the user, one line each (without the "git omen: notice: "
+ * tag the command adds), NULL if none. */
+const char *omen_scorer_notices(const omen_scorer *s);
+/* The warning budget settings: omen.warnShare (default
+ * OMEN_WARN_SHARE_DEFAULT) and omen.warnPrecision (-1 unset); a value
+ * outside (0, 1) is OMEN_EINVAL naming the setting. */
+int omen_warn_config(double *share, double *precision, omen_repo *r);
+/* "1 in 10" style rate of a share (buf of at least 32 bytes). */
+const char *omen_warn_rate_text(char *buf, size_t n, double share);
 const char *omen_scorer_model_path(const omen_scorer *s);
 /* The base model scored with when the repository has no model of its own
  * (issue 11; NULL otherwise), and the commits it was standardized on. */
@@ -160,6 +173,52 @@ int omen_scorer_commits(omen_score_set *out, omen_scorer *s, const git_oid *ids,
 int omen_scorer_staged(omen_score_set *out, omen_scorer *s, const char *msg);
 /* Per-commit explanation of the last sample scored by the calls above is
  * not kept; explain uses omen_score_explain below. */
+
+/* ---- freshness and drift (issue 12, src/score/health.c) ------------------ */
+#define OMEN_STALE_DAYS_DEFAULT 90
+#define OMEN_STALE_COMMITS_DEFAULT 1000
+enum { OMEN_STALE_AGE = 1, OMEN_STALE_BEHIND = 2, OMEN_STALE_FOREIGN = 4 };
+typedef struct {
+	int64_t trained_at;           /* training date (seconds, UTC), 0 unknown */
+	double age_days;              /* NAN unknown */
+	int head_known;               /* the model's head is a commit of this repository */
+	int is_base;                  /* the base model (issue 11): no notice for a foreign head */
+	int64_t behind;               /* non-merge commits of HEAD after the model's head, -1 unknown */
+	int64_t stale_days, stale_commits;   /* omen.staleDays, omen.staleCommits (0 = off) */
+	unsigned stale;               /* OMEN_STALE_* */
+} omen_freshness;
+/* The model says it is a base model: a "base" section in its metadata (as
+ * src/model/base.c writes it) or "base_model": true. */
+int omen_model_is_base(const omen_model *m);
+/* The training date from the metadata, 0 when unknown. */
+int64_t omen_model_trained_at(const omen_model *m);
+int omen_freshness_check(omen_freshness *out, omen_scorer *s, int64_t now);
+/* One notice line for a stale or foreign model, nothing otherwise. */
+void omen_freshness_text(omen_buf *out, const omen_freshness *f);
+/* Non-merge commits of HEAD that commit hex does not reach; OMEN_ENOTFOUND
+ * when hex is not a commit here. */
+int omen_commits_since(int64_t *out, omen_repo *r, const char *hex);
+/* omen_freshness_check now, its notice added to omen_scorer_notices. */
+int omen_scorer_check_fresh(omen_scorer *s);
+
+typedef struct {
+	int have;                     /* the model carries a drift reference */
+	size_t window;                /* commits compared */
+	size_t from_history;          /* of them, read after the model's head */
+	size_t replay_skipped;        /* commits after the head not read: over max_replay */
+	double psi[OMEN_NMETRICS];    /* NAN without a reference */
+	size_t n_train;               /* commits of the training slice */
+	double base_train;            /* inducing share of the training slice */
+	double base_recent;           /* of the newest labelled commits (NAN without labels) */
+	size_t recent_labelled;
+} omen_drift;
+/* PSI of each metric, training slice against the last `window` commits:
+ * those after the model's head (read from history and fed to the model's
+ * metrics state, at most max_replay of them, else none) and before them the
+ * newest training commits from the reference. labels (may be NULL) read
+ * with omen_labels_brief_read for the newest `window` labelled commits. */
+int omen_drift_measure(omen_drift *out, omen_scorer *s, const omen_labels_brief *labels,
+	size_t window, size_t max_replay);
 
 /* ---- explanation --------------------------------------------------------- */
 typedef struct {
@@ -248,7 +307,6 @@ typedef enum {
 	OMEN_HOOK_CHAINED,   /* our shim, the user's hook chained after it */
 	OMEN_HOOK_FOREIGN    /* someone else's hook, ours not installed */
 } omen_hook_state;
-extern const char *const omen_hook_state_names[4];
 
 /* The hooks directory git uses: core.hooksPath (relative paths are taken
  * from the top of the working tree, or GIT_DIR when bare; "~/" expanded),
@@ -262,5 +320,15 @@ int omen_hook_install(int *out, const char *dir);
 /* Removes our shim and renames a chained hook back, byte for byte. A
  * foreign hook is left alone (OMEN_EUSAGE). */
 int omen_hook_uninstall(int *out, const char *dir);
+/* The same for either hook: the pre-push shim, or the post-merge shim that
+ * starts 'git omen refresh' in the background (issue 12), chained the same
+ * way under OMEN_REFRESH_CHAINED_NAME. */
+enum { OMEN_HOOK_KIND_PUSH, OMEN_HOOK_KIND_REFRESH };
+extern const char omen_refresh_shim[];
+#define OMEN_REFRESH_MARK "# git-omen post-merge shim"
+#define OMEN_REFRESH_CHAINED_NAME "post-merge.omen-chained"
+int omen_hook_status_as(int *out, const char *dir, int kind);
+int omen_hook_install_as(int *out, const char *dir, int kind);
+int omen_hook_uninstall_as(int *out, const char *dir, int kind);
 
 #endif

@@ -1,5 +1,5 @@
 /* Small shared helpers: growable buffers, arenas, hashing, a seeded RNG,
- * atomic file writes, bounded cursors, progress output. No git, no models. */
+ * atomic file writes, bounded cursors, progress through a callback. No git, no models. */
 #ifndef OMEN_UTIL_H
 #define OMEN_UTIL_H
 
@@ -8,13 +8,21 @@
 #include <stdio.h>
 
 /* ---- growable byte buffer ------------------------------------------------ */
+/* A buffer remembers its first error: once an append fails, every later
+ * append is a no-op that returns the same code, and omen_buf_error() gives
+ * it. A writer of many pieces may then check once, at the end, and a
+ * failure partway never reads as success. omen_buf_clear, _free and _detach
+ * forget it. */
 typedef struct {
 	char *ptr;   /* always NUL-terminated when non-NULL */
 	size_t len;
 	size_t cap;
+	int err;     /* first failed append's OMEN_E* code, 0 when none */
 } omen_buf;
 
-#define OMEN_BUF_INIT {NULL, 0, 0}
+#define OMEN_BUF_INIT {NULL, 0, 0, 0}
+/* 0, or the code of the buffer's first failed append. */
+int omen_buf_error(const omen_buf *b);
 int omen_buf_grow(omen_buf *b, size_t extra);
 int omen_buf_put(omen_buf *b, const void *data, size_t n);
 int omen_buf_puts(omen_buf *b, const char *s);
@@ -26,14 +34,56 @@ int omen_buf_printf(omen_buf *b, const char *fmt, ...)
 /* Appends s as a JSON string literal (quotes included). Invalid UTF-8 bytes
  * become U+FFFD so the output is always valid JSON. */
 int omen_buf_put_json_string(omen_buf *b, const char *s, size_t n);
+/* omen_buf_put_json_string of a NUL-terminated string; NULL writes "". */
+int omen_buf_put_json_cstr(omen_buf *b, const char *s);
+/* Appends v as a JSON number with printf's "%.*g" at the given significant
+ * digits (6: a figure to read, 9: round-trips a float), or null when v is
+ * NaN or infinite (JSON has neither). */
+int omen_buf_put_json_number(omen_buf *b, double v, int digits);
 /* Append v as 4 or 8 little-endian bytes: the byte order of every binary file
  * omen writes, whatever the host's (read back with omen_cursor_u32le/u64le). */
 int omen_buf_put_u32le(omen_buf *b, uint32_t v);
 int omen_buf_put_u64le(omen_buf *b, uint64_t v);
+/* The encoder under them: the low n bytes of v (n <= 8), least significant
+ * first, to out. Writers that stream to a file use it directly. */
+void omen_le_encode(unsigned char *out, uint64_t v, size_t n);
 void omen_buf_clear(omen_buf *b);
 void omen_buf_free(omen_buf *b);
 /* Detaches the memory; caller frees. */
 char *omen_buf_detach(omen_buf *b);
+
+/* ---- index over a caller's items -------------------------------------------
+ * Open addressing (linear probing, power-of-two capacity, at most half full)
+ * from a key to the int32 index of the caller's item that holds it: the map
+ * keeps only indices, the keys stay in the caller's array (the revision
+ * walk's object ids: an id is not stored twice). ops->hash gives an item's
+ * key hash (to rehash when growing), ops->is whether an item holds a key. */
+typedef struct {
+	int32_t *slots;   /* -1: empty */
+	size_t cap, n;
+} omen_index;
+typedef struct {
+	uint64_t (*hash)(int32_t item, const void *ctx);
+	int (*is)(int32_t item, const void *key, const void *ctx);
+} omen_index_ops;
+/* The item holding key (h: its hash, as ops->hash gives), else -1. */
+int32_t omen_index_find(const omen_index *x, const void *key, uint64_t h,
+	const omen_index_ops *ops, const void *ctx);
+/* Adds item, whose key (hash h) the index does not hold yet. */
+int omen_index_add(omen_index *x, int32_t item, uint64_t h, const omen_index_ops *ops,
+	const void *ctx);
+void omen_index_free(omen_index *x);
+
+/* ---- binary heap of int32 items ------------------------------------------
+ * The caller owns the array and its count; before(a, b, ctx) is a strict
+ * order saying whether a leaves the heap before b (break ties in it, e.g. by
+ * index, so that the order is total and the pops are deterministic). */
+typedef int (*omen_heap_before_fn)(int32_t a, int32_t b, const void *ctx);
+/* h[0..n-1] is a heap: puts v at h[n] and sifts it up (n + 1 items then;
+ * the caller makes room). */
+void omen_heap_push(int32_t *h, size_t n, int32_t v, omen_heap_before_fn before, const void *ctx);
+/* Takes h[0] off a heap of n >= 1 items (n - 1 left) and returns it. */
+int32_t omen_heap_pop(int32_t *h, size_t n, omen_heap_before_fn before, const void *ctx);
 
 /* ---- growable typed arrays ---------------------------------------------- */
 /* Grows *ptr (elements of size elem) so that at least need elements fit. */
@@ -124,7 +174,14 @@ int omen_cursor_line(omen_cursor *c, const char **out, size_t *len);
 double omen_now(void);  /* monotonic seconds */
 /* UTC date of t (seconds since the epoch) as YYYY-MM-DD, "?" if out of range. */
 void omen_format_date(char out[16], int64_t t);
-/* Progress to stderr when it is a terminal: "label: 1234/5678 commits". */
+/* Progress of long work ("label: 1234/5678"). The library never prints it:
+ * it calls the sink the program installed (the command line installs one
+ * that writes to a terminal's stderr), at most every 0.2 s and at the end
+ * of the total. No sink, no progress. done/total: total 0 when unknown;
+ * extra may be NULL; finished: 1 once, when the work ends (clear the line). */
+typedef void (*omen_progress_fn)(const char *what, uint64_t done, uint64_t total,
+	const char *extra, int finished, void *payload);
+void omen_progress_set_sink(omen_progress_fn fn, void *payload);
 typedef struct {
 	const char *what;
 	uint64_t total;

@@ -5,7 +5,7 @@
 #include <stdio.h>
 #include "omen/omen.h"
 
-/* Exit codes (DESIGN.md "Command line"). */
+/* Exit codes (DEVELOPERS.md "Error and ownership rules"). */
 enum { EXIT_OK = 0, EXIT_RISK = 1, EXIT_FATAL = 128, EXIT_USAGE = 129 };
 
 int cmd_label(int argc, char **argv);
@@ -15,6 +15,8 @@ int cmd_explain(int argc, char **argv);
 int cmd_eval(int argc, char **argv);
 int cmd_features(int argc, char **argv);
 int cmd_hook(int argc, char **argv);
+int cmd_health(int argc, char **argv);
+int cmd_refresh(int argc, char **argv);
 int cmd_version(int argc, char **argv);
 /* train --base <dir> (src/cli/cmd_train_base.c) */
 int cmd_train_base(const char *dir, const char *out_path, omen_train_opts *o, const char *format);
@@ -60,6 +62,8 @@ void cli_notice(const char *fmt, ...)
 	__attribute__((format(printf, 1, 2)))
 #endif
 	;
+/* cli_notice for each line of lines (NULL or "" prints nothing). */
+void cli_notices(const char *lines);
 /* Absent blobs (issue 12): the fetch notice and the count of file changes
  * read without lines, on stderr, once at the end of a command. */
 void cli_blob_notice(omen_repo *r);

@@ -144,7 +144,28 @@ static int read_config(omen_eval_opts *o, omen_dataset_opts *dso, char ***excl,
 	if (omen_config_int(&lim, repo, "omen.memoryLimit") < 0)
 		return -1;
 	dso->max_bytes = lim;
+	{
+		/* the model's threshold fires on omen.warnShare of each fold's validation slice */
+		double prec;
+		if (omen_warn_config(&o->train.warn_share, &prec, repo) < 0)
+			return -1;
+	}
 	return 0;
+}
+
+/* The last figures, for 'git omen health' (issue 12): the JSON report as
+ * $GIT_DIR/omen/eval.json, written atomically; a failure is a notice. */
+static void save_summary(const omen_eval_result *res, omen_repo *repo)
+{
+	char *sum = NULL;
+	omen_buf j = OMEN_BUF_INIT;
+	if (omen_repo_omen_path(&sum, repo, "eval.json") < 0 || omen_eval_write_json(&j, res) < 0 ||
+	    omen_file_write_atomic(sum, j.ptr, j.len) < 0) {
+		cli_notice("could not save the evaluation summary: %s", omen_error_last());
+		omen_error_clear();
+	}
+	omen_buf_free(&j);
+	free(sum);
 }
 
 /* The report on standard output, and the HTML file when asked for. */
@@ -226,6 +247,7 @@ int cmd_eval(int argc, char **argv)
 	}
 	if (write_reports(&res, &a) < 0)
 		goto fatal;
+	save_summary(&res, repo);
 	goto done;
 fatal:
 	rc = cli_fatal(NULL);

@@ -6,94 +6,82 @@
 #include "cli/cli.h"
 #include "cli/options.h"
 
-static void put_num(omen_buf *b, double v)
-{
-	if (isfinite(v))
-		omen_buf_printf(b, "%.6g", v);
-	else
-		omen_buf_puts(b, "null");
-}
-
-static void put_str(omen_buf *b, const char *s)
-{
-	omen_buf_put_json_string(b, s ? s : "", s ? strlen(s) : 0);
-}
 
 static void write_json(omen_buf *b, const omen_explanation *x, float thr, size_t top)
 {
 	const omen_score_result *r = &x->result;
 	size_t i;
 	omen_buf_puts(b, "{\"id\":");
-	put_str(b, r->id);
+	omen_buf_put_json_cstr(b, r->id);
 	omen_buf_puts(b, ",\"summary\":");
-	put_str(b, r->summary);
+	omen_buf_put_json_cstr(b, r->summary);
 	omen_buf_puts(b, ",\"probability\":");
-	put_num(b, r->prob);
+	omen_buf_put_json_number(b, r->prob, 6);
 	omen_buf_puts(b, ",\"logit\":");
-	put_num(b, r->logit);
+	omen_buf_put_json_number(b, r->logit, 6);
 	omen_buf_puts(b, ",\"threshold\":");
-	put_num(b, thr);
+	omen_buf_put_json_number(b, thr, 6);
 	omen_buf_printf(b, ",\"band\":\"%s\",\"reasons\":[", omen_band_names[r->band]);
 	for (i = 0; i < (size_t)r->nreasons; i++) {
 		omen_buf_printf(b, "%s{\"kind\":\"%s\",\"text\":", i ? "," : "", omen_reason_names[r->reasons[i].kind]);
-		put_str(b, r->reasons[i].text);
+		omen_buf_put_json_cstr(b, r->reasons[i].text);
 		omen_buf_puts(b, "}");
 	}
 	omen_buf_puts(b, "],\"files\":[");
 	for (i = 0; i < x->nfiles && i < top; i++) {
 		omen_buf_puts(b, i ? ",{\"path\":" : "{\"path\":");
-		put_str(b, x->files[i].path);
+		omen_buf_put_json_cstr(b, x->files[i].path);
 		omen_buf_puts(b, ",\"attention\":");
-		put_num(b, x->files[i].weight);
+		omen_buf_put_json_number(b, x->files[i].weight, 6);
 		omen_buf_puts(b, ",\"contribution\":");
-		put_num(b, x->files[i].contrib);
+		omen_buf_put_json_number(b, x->files[i].contrib, 6);
 		omen_buf_printf(b, ",\"added\":%d,\"deleted\":%d}", (int)x->files[i].added, (int)x->files[i].deleted);
 	}
 	omen_buf_puts(b, "],\"hunks\":[");
 	for (i = 0; i < x->nhunks && i < top; i++) {
 		const omen_hunk_score *h = &x->hunks[i];
 		omen_buf_puts(b, i ? ",{\"path\":" : "{\"path\":");
-		put_str(b, h->path);
+		omen_buf_put_json_cstr(b, h->path);
 		omen_buf_printf(b, ",\"new_start\":%d,\"new_lines\":%d,\"old_start\":%d,\"old_lines\":%d,\"weight\":",
 			(int)h->new_start, (int)h->new_lines, (int)h->old_start, (int)h->old_lines);
-		put_num(b, h->weight);
+		omen_buf_put_json_number(b, h->weight, 6);
 		omen_buf_puts(b, ",\"contribution\":");
-		put_num(b, h->contrib);
+		omen_buf_put_json_number(b, h->contrib, 6);
 		omen_buf_puts(b, "}");
 	}
 	omen_buf_puts(b, "],\"lines\":[");
 	for (i = 0; i < x->nlines; i++) {
 		const omen_line_score *l = &x->lines[i];
 		omen_buf_puts(b, i ? ",{\"path\":" : "{\"path\":");
-		put_str(b, l->path);
+		omen_buf_put_json_cstr(b, l->path);
 		omen_buf_printf(b, ",\"line\":%d,\"origin\":\"%c\",\"contribution\":", (int)l->line, l->origin);
-		put_num(b, l->contrib);
+		omen_buf_put_json_number(b, l->contrib, 6);
 		omen_buf_puts(b, ",\"text\":");
-		put_str(b, l->text);
+		omen_buf_put_json_cstr(b, l->text);
 		omen_buf_puts(b, "}");
 	}
 	omen_buf_puts(b, "],\"metrics\":[");
 	for (i = 0; i < OMEN_NMETRICS; i++) {
 		const omen_metric_score *m = &x->metrics[i];
 		omen_buf_printf(b, "%s{\"name\":\"%s\",\"value\":", i ? "," : "", omen_metric_names[m->metric]);
-		put_num(b, m->value);
+		omen_buf_put_json_number(b, m->value, 6);
 		omen_buf_puts(b, ",\"typical\":");
-		put_num(b, m->typical);
+		omen_buf_put_json_number(b, m->typical, 6);
 		omen_buf_puts(b, ",\"contribution\":");
-		put_num(b, m->contrib);
+		omen_buf_put_json_number(b, m->contrib, 6);
 		omen_buf_puts(b, "}");
 	}
 	omen_buf_puts(b, "],\"message_contribution\":");
-	put_num(b, x->message_contrib);
+	omen_buf_put_json_number(b, x->message_contrib, 6);
 	omen_buf_puts(b, ",\"neighbours\":[");
 	for (i = 0; i < x->nneighbours; i++) {
 		const omen_neighbour *n = &x->neighbours[i];
 		omen_buf_puts(b, i ? ",{\"id\":" : "{\"id\":");
-		put_str(b, n->id);
+		omen_buf_put_json_cstr(b, n->id);
 		omen_buf_puts(b, ",\"summary\":");
-		put_str(b, n->summary);
+		omen_buf_put_json_cstr(b, n->summary);
 		omen_buf_puts(b, ",\"distance\":");
-		put_num(b, n->distance);
+		omen_buf_put_json_number(b, n->distance, 6);
 		omen_buf_printf(b, ",\"fixes\":%d}", n->nfixes);
 	}
 	omen_buf_puts(b, "]}\n");

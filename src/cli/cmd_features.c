@@ -29,11 +29,6 @@ static int oid_cmp(const void *a, const void *b)
 	return git_oid_cmp(a, b);
 }
 
-static const char *label_name(int v)
-{
-	return v == OMEN_LABEL_INDUCING ? "inducing" : v == OMEN_LABEL_CLEAN ? "clean" : "unknown";
-}
-
 /* Printed before the first row (so a failed walk prints nothing on stdout). */
 static void put_header(fstate *s)
 {
@@ -83,7 +78,7 @@ static int on_change(const omen_change *c, void *payload)
 			for (int k = 0; k < OMEN_NMETRICS; k++)
 				omen_buf_printf(b, ",\"%s\":%.6g", omen_metric_names[k], v[k]);
 			if (lr)
-				omen_buf_printf(b, ",\"label\":\"%s\"", label_name(lr->label));
+				omen_buf_printf(b, ",\"label\":\"%s\"", omen_label_name(lr->label));
 			else
 				omen_buf_puts(b, ",\"label\":null");
 			omen_buf_puts(b, "}\n");
@@ -91,7 +86,7 @@ static int on_change(const omen_change *c, void *payload)
 			omen_buf_printf(b, "%s,%lld", c->commit.hex, (long long)c->commit.author_time);
 			for (int k = 0; k < OMEN_NMETRICS; k++)
 				omen_buf_printf(b, ",%.6g", v[k]);
-			omen_buf_printf(b, ",%s\n", lr ? label_name(lr->label) : "");
+			omen_buf_printf(b, ",%s\n", lr ? omen_label_name(lr->label) : "");
 		}
 		if (!b->ptr || fwrite(b->ptr, 1, b->len, s->fp) != b->len)
 			return omen_error_set(OMEN_EIO, "cannot write features: %s", "write failed");

@@ -10,18 +10,28 @@
 #include "cli/options.h"
 
 static const char hook_usage[] =
-	"usage: git omen hook install | uninstall | status\n"
+	"usage: git omen hook install [--refresh] | uninstall | status\n"
 	"   or: git omen hook run <remote-name> <remote-url>\n"
 	"\n"
 	"install     put the pre-push shim in the hooks directory (core.hooksPath honoured);\n"
-	"            an existing pre-push hook is kept and runs after ours\n"
-	"uninstall   remove the shim and restore the kept hook byte for byte\n"
+	"            an existing pre-push hook is kept and runs after ours; with --refresh\n"
+	"            also a post-merge shim that starts 'git omen refresh' in the background\n"
+	"            after a merge or pull (an existing post-merge hook is kept the same way)\n"
+	"uninstall   remove the shims and restore the kept hooks byte for byte\n"
 	"status      say whether the hook is installed\n"
 	"run         score the commits a push sends (git's pre-push lines on standard input)\n";
 static const char hook_footer[] =
 	"The hook warns about risky commits and lets the push through unless\n"
 	"omen.onRisk=block. Scores are advisory; 'git push --no-verify' skips it.\n";
-static const cli_command hook_cmd = {"hook", hook_usage, hook_footer, NULL, 0};
+static int hook_refresh_flag;
+static const cli_option opt_refresh = {
+	"--refresh", CLI_FLAG, NULL, 0, 0, NULL,
+	"with install: also the post-merge hook that runs git omen refresh"};
+static const cli_use hook_uses[] = {
+	{&opt_refresh, &hook_refresh_flag, NULL, NULL, NULL},
+};
+static const cli_command hook_cmd = {"hook", hook_usage, hook_footer, hook_uses,
+	sizeof(hook_uses) / sizeof(hook_uses[0])};
 
 #define HOOK_MAX_INPUT (8u << 20)
 #define HOOK_MAX_COMMITS 200
@@ -167,6 +177,11 @@ static int hook_run(int argc, char **argv)
 		goto done;
 	}
 	disarm_alarm();
+	if (omen_scorer_check_fresh(sc)) {
+		rc = hook_error(block_error, NULL);
+		goto done;
+	}
+	cli_notices(omen_scorer_notices(sc));
 	for (i = 0; i < set.n; i++) {
 		const omen_score_result *r = &set.v[i];
 		if (r->prob < set.threshold)
@@ -184,8 +199,10 @@ static int hook_run(int argc, char **argv)
 			risky, set.n, (double)set.threshold);
 		rc = EXIT_RISK;
 	} else if (risky) {
-		fprintf(stderr, "git omen: %zu of %zu commits look risky; scores are advisory, the push goes on\n",
-			risky, set.n);
+		char rate[64];
+		fprintf(stderr, "git omen: %zu of %zu commits look risky (the threshold %.2f fires on %s); "
+			"scores are advisory, the push goes on\n", risky, set.n, (double)set.threshold,
+			omen_warn_rate_text(rate, sizeof(rate), omen_scorer_fires(sc)));
 	}
 done:
 	disarm_alarm();
@@ -206,7 +223,7 @@ int cmd_hook(int argc, char **argv)
 	char *dir = NULL;
 	const char **pos = NULL, *sub;
 	size_t npos;
-	int rc = EXIT_OK, st = 0;
+	int rc = EXIT_OK, st = 0, rst = 0;
 
 	if ((rc = cli_parse(&hook_cmd, argc, argv, &pos, &npos)) >= 0)
 		return rc;
@@ -227,6 +244,8 @@ int cmd_hook(int argc, char **argv)
 		return cli_usage("hook", "unknown subcommand '%s'; use install, uninstall, status or run", sub);
 	if (npos > 1)
 		return cli_usage("hook", "'%s' takes no arguments", sub);
+	if (hook_refresh_flag && strcmp(sub, "install"))
+		return cli_usage("hook", "--refresh goes with install");
 	if (omen_repo_open(&repo, NULL) || omen_hook_dir(&dir, repo)) {
 		rc = cli_fatal(NULL);
 		goto done;
@@ -238,7 +257,29 @@ int cmd_hook(int argc, char **argv)
 		}
 		printf("installed the pre-push hook in '%s'%s\n", dir,
 			st == OMEN_HOOK_CHAINED ? "; the existing hook is kept and runs after it" : "");
+		if (hook_refresh_flag) {
+			if (omen_hook_install_as(&rst, dir, OMEN_HOOK_KIND_REFRESH)) {
+				rc = cli_fatal(NULL);
+				goto done;
+			}
+			printf("installed the post-merge hook in '%s': 'git omen refresh' runs in the "
+				"background after a merge or pull%s\n", dir, rst == OMEN_HOOK_CHAINED ?
+				"; the existing hook is kept and runs after it" : "");
+		}
 	} else if (!strcmp(sub, "uninstall")) {
+		/* the post-merge shim goes too, when it is ours */
+		if (omen_hook_status_as(&rst, dir, OMEN_HOOK_KIND_REFRESH)) {
+			rc = cli_fatal(NULL);
+			goto done;
+		}
+		if (rst == OMEN_HOOK_OURS || rst == OMEN_HOOK_CHAINED) {
+			if (omen_hook_uninstall_as(&rst, dir, OMEN_HOOK_KIND_REFRESH)) {
+				rc = cli_fatal(NULL);
+				goto done;
+			}
+			printf("removed the post-merge hook from '%s'%s\n", dir,
+				rst == OMEN_HOOK_FOREIGN ? "; the previous hook is back" : "");
+		}
 		if (omen_hook_status(&st, dir)) {
 			rc = cli_fatal(NULL);
 			goto done;
@@ -262,6 +303,15 @@ int cmd_hook(int argc, char **argv)
 			st == OMEN_HOOK_OURS ? "installed" :
 			st == OMEN_HOOK_CHAINED ? "installed, the previous hook runs after it" :
 			"not installed; another pre-push hook is there", dir);
+		if (omen_hook_status_as(&rst, dir, OMEN_HOOK_KIND_REFRESH)) {
+			rc = cli_fatal(NULL);
+			goto done;
+		}
+		if (rst != OMEN_HOOK_ABSENT)
+			printf("post-merge refresh hook: %s (%s/post-merge)\n",
+				rst == OMEN_HOOK_OURS ? "installed" :
+				rst == OMEN_HOOK_CHAINED ? "installed, the previous hook runs after it" :
+				"not installed; another post-merge hook is there", dir);
 	}
 done:
 	free(dir);

@@ -129,8 +129,10 @@ static int render(omen_buf *out, const omen_score_set *set, omen_scorer *sc, con
 			"reasons | summary");
 		for (i = 0; i < set->n; i++)
 			text_line(out, set, &set->v[i], color);
-		omen_buf_printf(out, "%zu scored; risky at %.2f or more; scores are advisory\n",
-			set->n, (double)set->threshold);
+		char rate[64];
+		omen_buf_printf(out, "%zu scored; risky at %.2f or more (%s); scores are advisory\n",
+			set->n, (double)set->threshold,
+			omen_warn_rate_text(rate, sizeof(rate), omen_scorer_fires(sc)));
 	}
 	return 0;
 }
@@ -162,6 +164,9 @@ int cmd_score(int argc, char **argv)
 	if ((e = collect(&set, sc, repo, &a)))
 		goto fatal;
 	set.threshold = omen_scorer_threshold(sc);
+	if ((e = omen_scorer_check_fresh(sc)))
+		goto fatal;
+	cli_notices(omen_scorer_notices(sc));
 	if ((e = omen_score_set_sort(&set, sort)) || (e = render(&out, &set, sc, &a)))
 		goto fatal;
 	if (a.outpath) {

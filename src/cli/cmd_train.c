@@ -7,6 +7,7 @@
 #include <string.h>
 #include <unistd.h>
 #include "cli/cli.h"
+#include "omen/mpi.h"
 #include "cli/options.h"
 #include "omen/base.h"
 #include "omen/shard.h"
@@ -77,7 +78,8 @@ static void print_text(const omen_train_report *r, const omen_dataset *ds, const
 				"on small histories the simple baselines are often as good\n",
 				b == &r->lr_metrics ? "lr on metrics" : "lines added", b->auc, r->model.auc);
 	}
-	printf("threshold %.3f (max F1 on validation); %.1f s\n", r->threshold, r->seconds);
+	printf("threshold %.3f (fires on the riskiest %.0f%% of the validation slice; max F1 there "
+		"%.3f); %.1f s\n", r->threshold, 100.0 * r->warn_share, r->threshold_f1, r->seconds);
 	printf("wrote %s (refit on train+validation; scores are advisory)\n", path);
 }
 
@@ -359,7 +361,7 @@ int cmd_train(int argc, char **argv)
 	train_args a;
 	char *from_cfg = NULL;
 	char *model_path = NULL, *lock_path = NULL;
-	int rc, lock_fd = -1, e;
+	int rc, lock_fd = -1, e, rank = omen_mpi_rank();
 	int64_t v64;
 
 	omen_train_opts_init(&o);
@@ -390,12 +392,23 @@ int cmd_train(int argc, char **argv)
 		if (v64 > 0)
 			o.threads = v64 > OMEN_THREADS_MAX ? OMEN_THREADS_MAX : (int)v64;
 	}
-	/* one train per repository at a time: a second one refuses */
-	if (take_lock(&lock_fd, &lock_path, repo) || build_dataset(&ds, &dopt, repo, &a))
+	{
+		double prec;
+		if (omen_warn_config(&o.warn_share, &prec, repo))
+			goto fatal;
+	}
+	/* one train per repository at a time: a second one refuses. Under
+	 * mpirun (issue 13) rank 0 holds the lock and builds the dataset first
+	 * (it writes the dataset cache); the other ranks then read it. */
+	if (rank == 0 && (take_lock(&lock_fd, &lock_path, repo) || build_dataset(&ds, &dopt, repo, &a)))
+		goto fatal;
+	if (omen_mpi_barrier() || (rank != 0 && build_dataset(&ds, &dopt, repo, &a)))
 		goto fatal;
 	o.caps = dopt.caps;
 	if (a.shard) {
 		size_t k, nl = 0, np = 0;
+		if (rank != 0)
+			goto out;   /* rank 0 writes the shard */
 		if (omen_shard_write(ds, &dopt.caps, a.shard))
 			goto fatal;
 		for (k = 0; k < omen_dataset_size(ds); k++) {
@@ -428,7 +441,8 @@ int cmd_train(int argc, char **argv)
 		omen_model_free(probe);
 		o.init = base;
 	}
-	ps.tty = isatty(2);
+	omen_mpi_train_setup(&o);
+	ps.tty = rank == 0 && isatty(2);
 	ps.start = omen_now();
 	o.progress = on_progress;
 	o.payload = &ps;
@@ -439,6 +453,8 @@ int cmd_train(int argc, char **argv)
 		/* a young repository: the base model, standardized on its commits */
 		char why[512];
 		snprintf(why, sizeof(why), "%s", omen_error_last());
+		if (rank != 0)
+			goto out;   /* rank 0 writes the model */
 		if (omen_model_adopt_base(&m, base, ds) || omen_model_save(m, model_path))
 			goto fatal;
 		cli_notice("%s: keeping the base model '%s', standardized on this repository's %zu "
@@ -454,7 +470,11 @@ int cmd_train(int argc, char **argv)
 				"advisory)\n", model_path);
 		goto out;
 	}
-	if (e || omen_model_save(m, model_path))
+	if (e)
+		goto fatal;
+	if (rank != 0)
+		goto out;   /* rank 0 writes the model (atomically) and the report */
+	if (omen_model_save(m, model_path))
 		goto fatal;
 	if (!strcmp(a.format, "json"))
 		print_json(&rep, ds, model_path);

@@ -12,6 +12,7 @@
 #include <sys/stat.h>
 #include "cli/cli.h"
 #include "omen/base.h"
+#include "omen/mpi.h"
 
 void cli_note_base_model(const omen_scorer *sc)
 {
@@ -164,9 +165,15 @@ int cmd_train_base(const char *dir, const char *out_path, omen_train_opts *o, co
 	}
 	o->progress = on_base_progress;
 	o->payload = &tty;
+	/* under mpirun (issue 13): data-parallel, rank 0 writes and reports */
+	omen_mpi_train_setup(o);
+	if (omen_mpi_rank() != 0)
+		tty = 0;
 	e = omen_base_train(&m, &rep, c, o, when);
 	if (tty)
 		fputs("\r\033[K", stderr);
+	if (!e && omen_mpi_rank() != 0)
+		goto out;
 	if (e || omen_model_save(m, out_path)) {
 		rc = cli_fatal(NULL);
 		goto out;

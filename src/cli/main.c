@@ -9,6 +9,7 @@
 #endif
 #include "cli/cli.h"
 #include "cli/options.h"
+#include "omen/mpi.h"
 
 static const struct {
 	const char *name;
@@ -22,6 +23,8 @@ static const struct {
 	{"eval", cmd_eval, "walk-forward evaluation of the model against baselines"},
 	{"features", cmd_features, "export per-commit change metrics as CSV or JSON Lines"},
 	{"hook", cmd_hook, "install, remove or run the pre-push hook"},
+	{"refresh", cmd_refresh, "relabel, and retrain when enough new labels exist (cron, timer, hook)"},
+	{"health", cmd_health, "labels, model, their ages, last evaluation and drift on one screen"},
 	{"version", cmd_version, "print the version"},
 };
 
@@ -37,7 +40,11 @@ static void usage(FILE *fp)
 
 static void tagged(const char *tag, const char *fmt, va_list ap)
 {
-	fprintf(stderr, "git omen: %s: ", tag);
+	/* under mpirun (issue 13) every line names the rank that wrote it */
+	if (omen_mpi_size() > 1)
+		fprintf(stderr, "git omen: %s: rank %d of %d: ", tag, omen_mpi_rank(), omen_mpi_size());
+	else
+		fprintf(stderr, "git omen: %s: ", tag);
 	vfprintf(stderr, fmt, ap);
 	fputc('\n', stderr);
 }
@@ -86,6 +93,20 @@ void cli_notice(const char *fmt, ...)
 	va_end(ap);
 }
 
+void cli_notices(const char *lines)
+{
+	const char *nl;
+	while (lines && *lines) {
+		nl = strchr(lines, '\n');
+		if (!nl) {
+			cli_notice("%s", lines);
+			break;
+		}
+		cli_notice("%.*s", (int)(nl - lines), lines);
+		lines = nl + 1;
+	}
+}
+
 int cli_use_color(FILE *fp)
 {
 	const char *nc = getenv("NO_COLOR");
@@ -123,6 +144,22 @@ static void malloc_setup(void)
 #endif
 }
 
+/* The progress sink of the command line: one line on stderr, rewritten in
+ * place, when stderr is a terminal and OMEN_NO_PROGRESS is not set. */
+static void progress_line(const char *what, uint64_t done, uint64_t total, const char *extra,
+	int finished, void *payload)
+{
+	(void)payload;
+	if (finished)
+		fprintf(stderr, "\r\033[K");
+	else if (total)
+		fprintf(stderr, "\r%s: %llu/%llu%s%s\033[K", what, (unsigned long long)done,
+			(unsigned long long)total, extra ? " " : "", extra ? extra : "");
+	else
+		fprintf(stderr, "\r%s: %llu%s%s\033[K", what, (unsigned long long)done,
+			extra ? " " : "", extra ? extra : "");
+}
+
 /* "'x' is not an omen command", with the nearest command name. */
 static int unknown_command(const char *name)
 {
@@ -145,6 +182,8 @@ int main(int argc, char **argv)
 	size_t i;
 	int rc;
 	malloc_setup();
+	if (isatty(2) && !getenv("OMEN_NO_PROGRESS"))
+		omen_progress_set_sink(progress_line, NULL);
 	if (argc < 2) {
 		usage(stderr);
 		return EXIT_USAGE;
@@ -163,9 +202,22 @@ int main(int argc, char **argv)
 		return cmd_version(argc - 1, argv + 1);
 	for (i = 0; i < sizeof(commands) / sizeof(commands[0]); i++) {
 		if (!strcmp(argv[1], commands[i].name)) {
+			if (omen_mpi_init(&argc, &argv))
+				return cli_fatal(NULL);
+			if (omen_mpi_size() > 1 && commands[i].fn != cmd_train) {
+				rc = omen_mpi_rank() ? EXIT_USAGE : cli_usage(commands[i].name,
+					"runs as one process; under mpirun only 'git omen train' runs in parallel");
+				omen_mpi_finalize();
+				return rc;
+			}
 			git_libgit2_init();
 			rc = commands[i].fn(argc - 1, argv + 1);
 			git_libgit2_shutdown();
+			/* a failed rank ends the whole run (the others may be waiting in
+			 * a collective); its error line is already written */
+			if (rc != EXIT_OK && omen_mpi_size() > 1)
+				omen_mpi_abort(rc);
+			omen_mpi_finalize();
 			return rc;
 		}
 	}

@@ -2,7 +2,7 @@
  * logic is tested without a model. Test windows tile the newest part of
  * the labelled history; each fold trains on every labelled commit older
  * than its test window minus a gap. The gap equals the verification window
- * (DESIGN.md "Labels" step 4): a commit younger than that at the cut would
+ * (DEVELOPERS.md "Labeller", Run): a commit younger than that at the cut would
  * still be "unknown" to someone standing at the cut, so its label must not
  * be used for training (common practice in time-aware evaluation, e.g.
  * Tan, Tan, Dara & Mayeux, ICSE 2015, "online change classification"). */

@@ -1,11 +1,15 @@
 /* Writers of a walk-forward result: JSON, text tables and one
  * self-contained HTML page with inline SVG plots (no scripts, no outside
- * resources). Undefined figures are JSON null and "n/a" in text. */
+ * resources). Undefined figures are JSON null and "n/a" in text. The many
+ * appends do not check their results one by one: the buffer remembers its
+ * first failed append (omen_buf_error), and each writer checks that once at
+ * its end, so a failure anywhere fails the whole write. */
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
 #include <time.h>
 #include "omen/eval.h"
+#include "omen/label.h"
 #include "omen/error.h"
 #include "eval/svg.h"
 
@@ -21,20 +25,10 @@ static const char advisory[] = "scores are advisory: a probability learned from 
 	"repository's own fixes, not a verdict";
 
 /* ---- JSON ---------------------------------------------------------------------- */
-static void jval(omen_buf *b, double v)
-{
-	if (isnan(v) || isinf(v))
-		omen_buf_puts(b, "null");
-	else
-		omen_buf_printf(b, "%.6g", v);
-}
-
 static void jnum(omen_buf *b, const char *key, double v, int comma)
 {
-	if (isnan(v) || isinf(v))
-		omen_buf_printf(b, "\"%s\":null", key);
-	else
-		omen_buf_printf(b, "\"%s\":%.6g", key, v);
+	omen_buf_printf(b, "\"%s\":", key);
+	omen_buf_put_json_number(b, v, 6);
 	if (comma)
 		omen_buf_puts(b, ",");
 }
@@ -46,9 +40,9 @@ static void json_method(omen_buf *b, const omen_method_scores *m)
 	omen_buf_printf(b, "\"n\":%zu,\"positives\":%zu,", m->n, m->positives);
 	jnum(b, "auc", m->auc, 1);
 	omen_buf_puts(b, "\"auc_ci95\":[");
-	jval(b, m->auc_lo);
+	omen_buf_put_json_number(b, m->auc_lo, 6);
 	omen_buf_puts(b, ",");
-	jval(b, m->auc_hi);
+	omen_buf_put_json_number(b, m->auc_hi, 6);
 	omen_buf_puts(b, "],");
 	jnum(b, "ap", m->ap, 1);
 	jnum(b, "brier", m->brier, 1);
@@ -146,7 +140,7 @@ int omen_eval_write_json(omen_buf *out, const omen_eval_result *r)
 		s = *e ? e + 1 : e;
 	}
 	omen_buf_puts(b, "]}\n");
-	return b->ptr ? 0 : omen_error_set(OMEN_ENOMEM, "cannot write the evaluation: out of memory");
+	return omen_buf_error(b) ? omen_error_set(OMEN_ENOMEM, "cannot write the evaluation: out of memory") : 0;
 }
 
 /* ---- text ---------------------------------------------------------------------- */
@@ -170,6 +164,8 @@ static void text_method_row(omen_buf *b, const char *name, const omen_method_sco
 	tnum(b, m->ap, "%*.3f", 7);
 	tnum(b, m->brier, "%*.4f", 8);
 	tnum(b, m->ece, "%*.3f", 7);
+	tnum(b, m->has_cls ? m->cls.precision : NAN, "%*.3f", 7);
+	tnum(b, m->has_cls ? m->cls.recall : NAN, "%*.3f", 7);
 	tnum(b, m->has_cls ? m->cls.f1 : NAN, "%*.3f", 7);
 	tnum(b, m->has_cls ? m->cls.mcc : NAN, "%*.3f", 7);
 	tnum(b, m->eff.recall_at_20, "%*.3f", 8);
@@ -185,8 +181,8 @@ static void text_method_row(omen_buf *b, const char *name, const omen_method_sco
 static void text_method_table(omen_buf *b, const omen_method_scores *ms)
 {
 	int m;
-	omen_buf_printf(b, "%-16s%6s %-13s%7s%8s%7s%7s%7s%8s%8s%7s%8s%7s\n", "method", "auc",
-		"[95% ci]", "ap", "brier", "ece", "f1", "mcc", "r@20%e", "e@20%r", "popt",
+	omen_buf_printf(b, "%-16s%6s %-13s%7s%8s%7s%7s%7s%7s%7s%8s%8s%7s%8s%7s\n", "method", "auc",
+		"[95% ci]", "ap", "brier", "ece", "prec", "rec", "f1", "mcc", "r@20%e", "e@20%r", "popt",
 		"c@20%e", "fa1st");
 	for (m = 0; m < OMEN_EV_NMETHODS; m++)
 		text_method_row(b, omen_eval_method_names[m], &ms[m]);
@@ -227,6 +223,9 @@ int omen_eval_write_text(omen_buf *out, const omen_eval_result *r)
 	omen_buf_printf(b, "\npooled over the folds: %zu test commits, %zu inducing\n",
 		r->pooled[0].n, r->pooled[0].positives);
 	text_method_table(b, r->pooled);
+	omen_buf_puts(b, "prec, rec, f1, mcc at each method's threshold: the model's fires on the "
+		"riskiest share (omen.warnShare, default 10%) of its fold's validation slice, the "
+		"baselines' is their max F1 there\n");
 	omen_buf_puts(b, "r@20%e recall at 20% effort, e@20%r effort at 20% recall, c@20%e share "
 		"of commits inspected at 20% effort, fa1st false alarms before the first hit; "
 		"effort = lines added + deleted\n");
@@ -240,12 +239,12 @@ int omen_eval_write_text(omen_buf *out, const omen_eval_result *r)
 			const omen_risky *x = &r->risky[i];
 			omen_format_date(d1, x->time);
 			omen_buf_printf(b, "  %.12s %s p=%.3f %-8s %s\n", x->id, d1, x->prob,
-				x->label ? "inducing" : "clean", x->why);
+				omen_label_name(x->label ? OMEN_LABEL_INDUCING : OMEN_LABEL_CLEAN), x->why);
 		}
 	}
 	if (r->notes.len)
 		omen_buf_printf(b, "\nnotes:\n%s", r->notes.ptr);
-	return b->ptr ? 0 : omen_error_set(OMEN_ENOMEM, "cannot write the evaluation: out of memory");
+	return omen_buf_error(b) ? omen_error_set(OMEN_ENOMEM, "cannot write the evaluation: out of memory") : 0;
 }
 
 /* ---- HTML -------------------------------------------------------------------------- */
@@ -589,7 +588,7 @@ int omen_eval_write_html(omen_buf *out, const omen_eval_result *r, const char *t
 			omen_format_date(d1, x->time);
 			omen_buf_printf(b, "<tr><td><code>%.12s</code></td><td>%s</td><td>%.3f</td>"
 				"<td>%s</td><td>%.0f</td><td class=\"why\">", x->id, d1, x->prob,
-				x->label ? "inducing" : "clean", x->effort);
+				omen_label_name(x->label ? OMEN_LABEL_INDUCING : OMEN_LABEL_CLEAN), x->effort);
 			svg_text_esc(b, x->why);
 			omen_buf_puts(b, "</td></tr>\n");
 		}
@@ -600,5 +599,5 @@ out:
 	pooled_free(&p);
 	if (rc < 0)
 		return omen_error_set(OMEN_ENOMEM, "cannot write the report: out of memory");
-	return b->ptr ? 0 : omen_error_set(OMEN_ENOMEM, "cannot write the report: out of memory");
+	return omen_buf_error(b) ? omen_error_set(OMEN_ENOMEM, "cannot write the report: out of memory") : 0;
 }

@@ -14,7 +14,7 @@
 #include "omen/error.h"
 #include "omen/features.h"
 #include "omen/label.h"
-#include "features/sample_int.h"
+#include "features/internal.h"
 
 #define DS_MAGIC "OMENDSET"
 #define DS_VERSION 2u
@@ -120,7 +120,7 @@ static void set_tip(omen_dataset *d, omen_repo *r, const char *const *revs)
 	if (!spec || (revs && revs[1]) || spec[0] == '^' || strstr(spec, ".."))
 		return;
 	if (omen_history_resolve(&id, r, spec) == 0)
-		git_oid_tostr(d->tip, sizeof(d->tip), &id);
+		omen_oid_hex(d->tip, sizeof(d->tip), &id);
 	omen_error_clear();
 }
 
@@ -279,16 +279,10 @@ static void cs_put(cstream *s, const void *p, size_t n)
 		s->crc = omen_crc32(s->crc, p, n);
 }
 
-static void put_le(unsigned char *b, uint64_t v, int n)
-{
-	for (int i = 0; i < n; i++)
-		b[i] = (unsigned char)(v >> (8 * i));
-}
-
 static void cs_put_u64(cstream *s, uint64_t v)
 {
 	unsigned char b[8];
-	put_le(b, v, 8);
+	omen_le_encode(b, v, 8);
 	cs_put(s, b, 8);
 }
 
@@ -338,7 +332,7 @@ static int cache_write(const omen_dataset *d, const char *path, const omen_buf *
 	}
 	cs_put_u64(&s, ms.len);
 	cs_put(&s, ms.ptr, ms.len);
-	put_le(tail, s.crc, 4);
+	omen_le_encode(tail, s.crc, 4);
 	if (!s.err && fwrite(tail, 1, 4, f.fp) != 4)
 		s.err = errno ? errno : EIO;
 	if (s.err) {
@@ -540,7 +534,7 @@ static int ds_extend(build_ctx *x, omen_repo *r, const omen_walk_opts *wo, const
 	for (i = 0; i < old; i++) {
 		ds_rec *q = &d->rec[i];
 		const omen_label_rec *lr;
-		git_oid_tostr(hex, sizeof(hex), &ids[i]);
+		omen_oid_hex(hex, sizeof(hex), &ids[i]);
 		if (memcmp(q->id, hex, OMEN_OID_HEX + 1))
 			return 0;
 		lr = x->labels ? omen_labels_get(x->labels, hex) : NULL;

@@ -190,16 +190,71 @@ static size_t count_distinct(span *v, size_t n)
 	return k;
 }
 
+/* Normalised Shannon entropy of the change over its files (Hassan, ICSE
+ * 2009; Kamei et al. 2013): 0 for one file or no changed lines. */
+static double change_entropy(const omen_change *c, double total)
+{
+	size_t nf = c->nfiles;
+	double h = 0;
+	if (nf > 1 && total > 0) {
+		for (size_t i = 0; i < nf; i++) {
+			double x = (double)c->files[i].added + (double)c->files[i].deleted;
+			if (x > 0)
+				h -= (x / total) * log2(x / total);
+		}
+		h /= log2((double)nf);
+	}
+	return h;
+}
+
+/* The developer's experience metrics EXP, REXP and SEXP; sids are the
+ * developer's subsystem ids of the change's files (sorted here). */
+static int experience(double out[OMEN_NMETRICS], const mdev *dv, int64_t now, uint32_t *sids,
+	size_t nsids)
+{
+	uint32_t *sexp = NULL;
+	size_t sexp_n = 0;
+	double rexp = 0;
+	size_t tot = 0;
+	out[OMEN_M_EXP] = (double)dv->ntimes;
+	for (size_t i = 0; i < dv->ntimes; i++) {
+		double y = (double)(now - dv->times[i]) / YEAR;
+		rexp += 1.0 / ((y > 0 ? y : 0) + 1.0);
+	}
+	out[OMEN_M_REXP] = rexp;
+	/* SEXP: distinct prior commits of the developer that touched
+	 * any subsystem this change touches */
+	qsort(sids, nsids, sizeof(*sids), cmp_u32);
+	for (size_t i = 0; i < nsids; i++)
+		if (!i || sids[i] != sids[i - 1])
+			tot += dv->sub[sids[i]].n;
+	if (tot) {
+		if (!(sexp = malloc(tot * sizeof(*sexp))))
+			return oom();
+		for (size_t i = 0; i < nsids; i++) {
+			const u32vec *v = &dv->sub[sids[i]];
+			if (i && sids[i] == sids[i - 1])
+				continue;
+			if (v->n)  /* v->v is NULL when empty: memcpy(NULL) is UB */
+				memcpy(sexp + sexp_n, v->v, v->n * sizeof(*sexp));
+			sexp_n += v->n;
+		}
+		out[OMEN_M_SEXP] = (double)count_unique(sexp, sexp_n);
+	}
+	free(sexp);
+	return 0;
+}
+
 /* ---- compute ------------------------------------------------------------ */
 int omen_metrics_compute(double out[OMEN_NMETRICS], const omen_metrics *m,
 	const omen_change *c, int is_fix)
 {
-	size_t nf = c->nfiles, nuc_n = 0, dev_n = 0, sexp_n = 0;
+	size_t nf = c->nfiles, nuc_n = 0, dev_n = 0;
 	span *ss = NULL, *ds = NULL;
 	uint32_t *sids = NULL;
 	size_t nsids = 0;
-	uint32_t *nuc = NULL, *devs = NULL, *sexp = NULL;
-	double la = 0, ld = 0, lt = 0, total = 0, h = 0, age_sum = 0;
+	uint32_t *nuc = NULL, *devs = NULL;
+	double la = 0, ld = 0, lt = 0, total = 0, h, age_sum = 0;
 	size_t age_n = 0;
 	const mdev *dv = dev_find(m, &c->commit);
 	int64_t now = c->commit.author_time;
@@ -263,14 +318,7 @@ int omen_metrics_compute(double out[OMEN_NMETRICS], const omen_metrics *m,
 		}
 	}
 	total = la + ld;
-	if (nf > 1 && total > 0) {
-		for (size_t i = 0; i < nf; i++) {
-			double x = (double)c->files[i].added + (double)c->files[i].deleted;
-			if (x > 0)
-				h -= (x / total) * log2(x / total);
-		}
-		h /= log2((double)nf);
-	}
+	h = change_entropy(c, total);
 	out[OMEN_M_NS] = (double)count_distinct(ss, nf);
 	out[OMEN_M_ND] = (double)count_distinct(ds, nf);
 	out[OMEN_M_NF] = (double)nf;
@@ -282,44 +330,14 @@ int omen_metrics_compute(double out[OMEN_NMETRICS], const omen_metrics *m,
 	out[OMEN_M_NDEV] = (double)count_unique(devs, dev_n);
 	out[OMEN_M_AGE] = age_n ? age_sum / (double)age_n : 0;
 	out[OMEN_M_NUC] = (double)count_unique(nuc, nuc_n);
-	if (dv) {
-		double rexp = 0;
-		size_t tot = 0;
-		out[OMEN_M_EXP] = (double)dv->ntimes;
-		for (size_t i = 0; i < dv->ntimes; i++) {
-			double y = (double)(now - dv->times[i]) / YEAR;
-			rexp += 1.0 / ((y > 0 ? y : 0) + 1.0);
-		}
-		out[OMEN_M_REXP] = rexp;
-		/* SEXP: distinct prior commits of the developer that touched
-		 * any subsystem this change touches */
-		qsort(sids, nsids, sizeof(*sids), cmp_u32);
-		for (size_t i = 0; i < nsids; i++)
-			if (!i || sids[i] != sids[i - 1])
-				tot += dv->sub[sids[i]].n;
-		if (tot) {
-			if (!(sexp = malloc(tot * sizeof(*sexp)))) {
-				rc = oom();
-				goto out;
-			}
-			for (size_t i = 0; i < nsids; i++) {
-				const u32vec *v = &dv->sub[sids[i]];
-				if (i && sids[i] == sids[i - 1])
-					continue;
-				if (v->n)  /* v->v is NULL when empty: memcpy(NULL) is UB */
-					memcpy(sexp + sexp_n, v->v, v->n * sizeof(*sexp));
-				sexp_n += v->n;
-			}
-			out[OMEN_M_SEXP] = (double)count_unique(sexp, sexp_n);
-		}
-	}
+	if (dv)
+		rc = experience(out, dv, now, sids, nsids);
 out:
 	free(ss);
 	free(ds);
 	free(sids);
 	free(nuc);
 	free(devs);
-	free(sexp);
 	return rc;
 }
 
@@ -498,14 +516,13 @@ int omen_metrics_save(const omen_metrics *m, omen_buf *out)
 {
 	size_t start = out->len, nfiles = 0;
 	file_entry *fe;
-	int e = 0;
-	e |= omen_buf_put(out, MAGIC, 4);
-	e |= omen_buf_put_u32le(out, VERSION);
-	e |= omen_buf_put_u32le(out, m->seq);
-	e |= omen_buf_put_u32le(out, (uint32_t)m->nsubs);
-	for (size_t i = 0; i < m->nsubs && !e; i++)
-		e |= put_str(out, m->subname[i]);
-	e |= omen_buf_put_u32le(out, (uint32_t)m->ndev);
+	omen_buf_put(out, MAGIC, 4);
+	omen_buf_put_u32le(out, VERSION);
+	omen_buf_put_u32le(out, m->seq);
+	omen_buf_put_u32le(out, (uint32_t)m->nsubs);
+	for (size_t i = 0; i < m->nsubs; i++)
+		put_str(out, m->subname[i]);
+	omen_buf_put_u32le(out, (uint32_t)m->ndev);
 	/* developer keys in id order */
 	{
 		const char **keys = calloc(m->ndev + 1, sizeof(*keys));
@@ -514,15 +531,15 @@ int omen_metrics_save(const omen_metrics *m, omen_buf *out)
 		for (size_t i = 0; i < m->devs.cap; i++)
 			if (m->devs.keys[i])
 				keys[(uintptr_t)m->devs.vals[i] - 1] = m->devs.keys[i];
-		for (size_t i = 0; i < m->ndev && !e; i++) {
+		for (size_t i = 0; i < m->ndev; i++) {
 			const mdev *d = &m->dv[i];
-			e |= put_str(out, keys[i] ? keys[i] : "");
-			e |= omen_buf_put_u32le(out, (uint32_t)d->ntimes);
-			for (size_t j = 0; j < d->ntimes && !e; j++)
-				e |= omen_buf_put_u64le(out, (uint64_t)d->times[j]);
-			e |= omen_buf_put_u32le(out, (uint32_t)d->nsub);
-			for (size_t j = 0; j < d->nsub && !e; j++)
-				e |= put_vec(out, &d->sub[j]);
+			put_str(out, keys[i] ? keys[i] : "");
+			omen_buf_put_u32le(out, (uint32_t)d->ntimes);
+			for (size_t j = 0; j < d->ntimes; j++)
+				omen_buf_put_u64le(out, (uint64_t)d->times[j]);
+			omen_buf_put_u32le(out, (uint32_t)d->nsub);
+			for (size_t j = 0; j < d->nsub; j++)
+				put_vec(out, &d->sub[j]);
 		}
 		free(keys);
 	}
@@ -530,7 +547,7 @@ int omen_metrics_save(const omen_metrics *m, omen_buf *out)
 	 * same bytes however it was reached (built, or loaded and extended) */
 	for (size_t i = 0; i < m->files.cap; i++)
 		nfiles += m->files.keys[i] && m->files.vals[i];
-	e |= omen_buf_put_u32le(out, (uint32_t)nfiles);
+	omen_buf_put_u32le(out, (uint32_t)nfiles);
 	if (!(fe = malloc((nfiles ? nfiles : 1) * sizeof(*fe))))
 		return oom();
 	nfiles = 0;
@@ -540,17 +557,18 @@ int omen_metrics_save(const omen_metrics *m, omen_buf *out)
 			fe[nfiles++].f = m->files.vals[i];
 		}
 	qsort(fe, nfiles, sizeof(*fe), by_file_path);
-	for (size_t k = 0; k < nfiles && !e; k++) {
+	for (size_t k = 0; k < nfiles; k++) {
 		const mfile *f = fe[k].f;
-		e |= put_str(out, fe[k].path);
-		e |= omen_buf_put_u64le(out, (uint64_t)f->last_time);
-		e |= omen_buf_put_u32le(out, f->nchanges);
-		e |= omen_buf_put_u32le(out, f->nfixes);
-		e |= put_vec(out, &f->devs);
-		e |= put_vec(out, &f->seqs);
+		put_str(out, fe[k].path);
+		omen_buf_put_u64le(out, (uint64_t)f->last_time);
+		omen_buf_put_u32le(out, f->nchanges);
+		omen_buf_put_u32le(out, f->nfixes);
+		put_vec(out, &f->devs);
+		put_vec(out, &f->seqs);
 	}
 	free(fe);
-	if (e)
+	/* the buffer remembers its first failed append: one check for all */
+	if (omen_buf_error(out))
 		return oom();
 	return omen_buf_put_u32le(out, omen_crc32(0, out->ptr + start, out->len - start)) ? oom() : 0;
 }
@@ -590,6 +608,71 @@ static int get_vec(omen_cursor *c, u32vec *v, uint32_t limit)
 			return corrupt("index out of range");
 		v->n++;
 	}
+	return 0;
+}
+
+/* Reads developer i of the state: key, commit times, subsystem vectors. */
+static int load_dev(omen_metrics *m, omen_cursor *c, uint32_t i, uint32_t nsubs)
+{
+	uint32_t id, nt, ns;
+	mdev *d;
+	char *s = NULL;
+	int rc;
+	if ((rc = get_str(c, &s)) < 0 || (rc = dev_get(m, s, &id)) < 0) {
+		free(s);
+		return rc;
+	}
+	free(s);
+	if (id != i)
+		return corrupt("duplicate developer");
+	d = &m->dv[id];
+	if (omen_cursor_u32le(c, &nt) || (uint64_t)nt * 8 > c->n)
+		return corrupt("truncated developer");
+	if (nt && !(d->times = malloc((size_t)nt * sizeof(*d->times))))
+		return oom();
+	d->tcap = nt;
+	for (uint32_t j = 0; j < nt; j++) {
+		uint64_t t;
+		omen_cursor_u64le(c, &t);
+		d->times[d->ntimes++] = (int64_t)t;
+	}
+	if (omen_cursor_u32le(c, &ns) || ns > nsubs || (uint64_t)ns * 4 > c->n)
+		return corrupt("bad developer subsystems");
+	if (ns && !(d->sub = calloc(ns, sizeof(*d->sub))))
+		return oom();
+	d->nsub = ns;
+	for (uint32_t j = 0; j < ns; j++)
+		if ((rc = get_vec(c, &d->sub[j], m->seq)) < 0)
+			return rc;
+	return 0;
+}
+
+/* Reads one file of the state: path, last change, counts, developer and
+ * commit vectors. */
+static int load_file(omen_metrics *m, omen_cursor *c, uint32_t ndev)
+{
+	mfile *f;
+	uint64_t t;
+	void **slot;
+	char *s = NULL;
+	int created, rc;
+	if ((rc = get_str(c, &s)) < 0)
+		return rc;
+	slot = omen_strmap_slot(&m->files, s, &created);
+	free(s);
+	if (!slot)
+		return OMEN_ENOMEM;
+	if (!created)
+		return corrupt("duplicate file");
+	if (!(f = calloc(1, sizeof(*f))))
+		return oom();
+	*slot = f;
+	if (omen_cursor_u64le(c, &t) || omen_cursor_u32le(c, &f->nchanges) ||
+	    omen_cursor_u32le(c, &f->nfixes))
+		return corrupt("truncated file");
+	f->last_time = (int64_t)t;
+	if ((rc = get_vec(c, &f->devs, ndev)) < 0 || (rc = get_vec(c, &f->seqs, m->seq)) < 0)
+		return rc;
 	return 0;
 }
 
@@ -634,80 +717,16 @@ int omen_metrics_load(omen_metrics **out, const void *data, size_t n)
 		rc = corrupt("truncated developers");
 		goto out;
 	}
-	for (uint32_t i = 0; i < ndev; i++) {
-		uint32_t id, nt, ns;
-		mdev *d;
-		if ((rc = get_str(&c, &s)) < 0 || (rc = dev_get(m, s, &id)) < 0)
+	for (uint32_t i = 0; i < ndev; i++)
+		if ((rc = load_dev(m, &c, i, nsubs)) < 0)
 			goto out;
-		free(s);
-		s = NULL;
-		if (id != i) {
-			rc = corrupt("duplicate developer");
-			goto out;
-		}
-		d = &m->dv[id];
-		if (omen_cursor_u32le(&c, &nt) || (uint64_t)nt * 8 > c.n) {
-			rc = corrupt("truncated developer");
-			goto out;
-		}
-		if (nt && !(d->times = malloc((size_t)nt * sizeof(*d->times)))) {
-			rc = oom();
-			goto out;
-		}
-		d->tcap = nt;
-		for (uint32_t j = 0; j < nt; j++) {
-			uint64_t t;
-			omen_cursor_u64le(&c, &t);
-			d->times[d->ntimes++] = (int64_t)t;
-		}
-		if (omen_cursor_u32le(&c, &ns) || ns > nsubs || (uint64_t)ns * 4 > c.n) {
-			rc = corrupt("bad developer subsystems");
-			goto out;
-		}
-		if (ns && !(d->sub = calloc(ns, sizeof(*d->sub)))) {
-			rc = oom();
-			goto out;
-		}
-		d->nsub = ns;
-		for (uint32_t j = 0; j < ns; j++)
-			if ((rc = get_vec(&c, &d->sub[j], m->seq)) < 0)
-				goto out;
-	}
 	if (omen_cursor_u32le(&c, &nfiles) || nfiles > c.n / 16) {
 		rc = corrupt("truncated files");
 		goto out;
 	}
-	for (uint32_t i = 0; i < nfiles; i++) {
-		mfile *f;
-		uint64_t t;
-		void **slot;
-		int created;
-		if ((rc = get_str(&c, &s)) < 0)
+	for (uint32_t i = 0; i < nfiles; i++)
+		if ((rc = load_file(m, &c, ndev)) < 0)
 			goto out;
-		if (!(slot = omen_strmap_slot(&m->files, s, &created))) {
-			rc = OMEN_ENOMEM;
-			goto out;
-		}
-		free(s);
-		s = NULL;
-		if (!created) {
-			rc = corrupt("duplicate file");
-			goto out;
-		}
-		if (!(f = calloc(1, sizeof(*f)))) {
-			rc = oom();
-			goto out;
-		}
-		*slot = f;
-		if (omen_cursor_u64le(&c, &t) || omen_cursor_u32le(&c, &f->nchanges) ||
-		    omen_cursor_u32le(&c, &f->nfixes)) {
-			rc = corrupt("truncated file");
-			goto out;
-		}
-		f->last_time = (int64_t)t;
-		if ((rc = get_vec(&c, &f->devs, ndev)) < 0 || (rc = get_vec(&c, &f->seqs, m->seq)) < 0)
-			goto out;
-	}
 	if (c.err || c.n) {
 		rc = corrupt(c.err ? "truncated" : "trailing bytes");
 		goto out;

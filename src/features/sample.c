@@ -6,7 +6,7 @@
 #include <string.h>
 #include "omen/error.h"
 #include "omen/features.h"
-#include "features/sample_int.h"
+#include "features/internal.h"
 
 int omen_sample_buf_new(omen_sample_buf **out)
 {
@@ -19,7 +19,7 @@ void omen_sample_buf_free(omen_sample_buf *b)
 	if (!b)
 		return;
 	free(b->file_off); free(b->hunk_off); free(b->tok); free(b->tok_line); free(b->msg);
-	free(b->facts); free(b->hs); free(b->paths); free(b->order); free(b->keep);
+	free(b->facts); free(b->hs); free(b->paths); free(b->order); free(b->path_ptr);
 	free(b->hunk_new_start); free(b->hunk_new_lines); free(b->hunk_old_start); free(b->hunk_old_lines);
 	omen_buf_free(&b->names);
 	free(b);
@@ -114,6 +114,133 @@ static int pick_largest(keyed *out, const int64_t *size, int n, int k)
 	return n;
 }
 
+/* A commit-wide token budget shared by its kept hunks, so that one huge
+ * commit costs at most a few ordinary ones in time and memory: the limit
+ * of tokens per hunk (never under 32). */
+static int32_t hunk_token_limit(const omen_change *c, const keyed *fsel, int nf,
+	const omen_caps *caps)
+{
+	int64_t kept_hunks = 0;
+	int32_t limit;
+	for (int i = 0; i < nf; i++) {
+		int64_t nh = c->files[fsel[i].idx].nhunks;
+		if (caps->max_hunks_per_file > 0 && nh > caps->max_hunks_per_file)
+			nh = caps->max_hunks_per_file;
+		kept_hunks += nh;
+	}
+	limit = caps->max_tokens_per_hunk > 0 ? caps->max_tokens_per_hunk : INT32_MAX;
+	if (kept_hunks > 0 && OMEN_SAMPLE_TOKEN_BUDGET / kept_hunks < limit)
+		limit = (int32_t)(OMEN_SAMPLE_TOKEN_BUDGET / kept_hunks > 32
+			? OMEN_SAMPLE_TOKEN_BUDGET / kept_hunks : 32);
+	return limit;
+}
+
+/* Appends hunk h: its position (new start, new lines, old start, old lines)
+ * and the tokens of its lines up to limit. *capped is set when tokens were
+ * dropped. */
+static int add_hunk(omen_sample_buf *b, const omen_change *c, const omen_hunk *h,
+	int32_t limit, int *capped)
+{
+	int32_t *hs;
+	tok_ctx t;
+	if (OMEN_ARRAY_RESERVE(b->hs, b->hs_cap, ((size_t)b->nhunks + 1) * 4))
+		return omen_error_set(OMEN_ENOMEM, "out of memory");
+	hs = b->hs + (size_t)b->nhunks * 4;
+	hs[0] = h->new_start; hs[1] = h->new_lines;
+	hs[2] = h->old_start; hs[3] = h->old_lines;
+	memset(&t, 0, sizeof(t));
+	t.b = b;
+	t.limit = limit;
+	for (uint32_t l = 0; l < h->nlines && !t.full; l++) {
+		const omen_line *ln = &c->lines[h->line_off + l];
+		t.deleted = ln->origin == '-';
+		t.line = t.deleted ? ln->old_lineno : ln->new_lineno;
+		omen_tokenize_code(omen_line_text(c, ln), ln->text_len, on_code_token, &t);
+	}
+	if (t.err)
+		return omen_error_set(OMEN_ENOMEM, "out of memory");
+	*capped |= t.full;
+	b->nhunks++;
+	b->hunk_off[b->nhunks] = b->ntok;
+	return 0;
+}
+
+/* Appends the i-th kept file (change index fi): its path, facts and its
+ * largest hunks. sizes and hsel are scratch of at least the change's hunk
+ * count. */
+static int add_file(omen_sample_buf *b, const omen_change *c, const omen_metrics *m, int i,
+	int fi, const omen_caps *caps, int32_t hunk_limit, int64_t *sizes, keyed *hsel, int *capped)
+{
+	const omen_file *f = &c->files[fi];
+	int nh = (int)f->nhunks, k, kept, e;
+	const char *nm = omen_file_path(f);
+	b->order[i] = fi;
+	b->paths[i] = b->names.len;   /* offset, turned into a pointer at the end */
+	if ((e = omen_buf_put(&b->names, nm, strlen(nm) + 1)))
+		return e;
+	if (m) {
+		if ((e = omen_metrics_file_facts(b->facts + (size_t)i * OMEN_NFACTS, m, c, (size_t)fi)))
+			return e;
+	} else {
+		memset(b->facts + (size_t)i * OMEN_NFACTS, 0, OMEN_NFACTS * sizeof(float));
+	}
+	for (k = 0; k < nh; k++) {
+		const omen_hunk *h = &c->hunks[f->hunk_off + k];
+		sizes[k] = (int64_t)h->old_lines + h->new_lines;
+	}
+	kept = pick_largest(hsel, sizes, nh,
+		caps->max_hunks_per_file > 0 ? caps->max_hunks_per_file : nh);
+	*capped |= kept < nh;
+	if (OMEN_ARRAY_RESERVE(b->hunk_off, b->hunk_off_cap, (size_t)b->nhunks + kept + 1) ||
+		OMEN_ARRAY_RESERVE(b->hs, b->hs_cap, (size_t)b->nhunks + kept + 1))
+		return omen_error_set(OMEN_ENOMEM, "out of memory");
+	for (k = 0; k < kept; k++)
+		if ((e = add_hunk(b, c, &c->hunks[f->hunk_off + hsel[k].idx], hunk_limit, capped)))
+			return e;
+	b->nfiles++;
+	b->file_off[b->nfiles] = b->nhunks;
+	return 0;
+}
+
+/* Points the sample at the buffer's arrays: path pointers and the hunk
+ * position columns are made here from the offsets and the packed rows. */
+static int set_views(omen_sample *out, omen_sample_buf *b, int capped)
+{
+	int i;
+	if (OMEN_ARRAY_RESERVE(b->path_ptr, b->path_ptr_cap, (size_t)b->nfiles + 1))
+		return omen_error_set(OMEN_ENOMEM, "out of memory");
+	for (i = 0; i < b->nfiles; i++)
+		b->path_ptr[i] = b->names.ptr + b->paths[i];
+	if (OMEN_ARRAY_RESERVE(b->hunk_new_start, b->hunk_new_start_cap, (size_t)b->nhunks + 1) ||
+		OMEN_ARRAY_RESERVE(b->hunk_new_lines, b->hunk_new_lines_cap, (size_t)b->nhunks + 1) ||
+		OMEN_ARRAY_RESERVE(b->hunk_old_start, b->hunk_old_start_cap, (size_t)b->nhunks + 1) ||
+		OMEN_ARRAY_RESERVE(b->hunk_old_lines, b->hunk_old_lines_cap, (size_t)b->nhunks + 1))
+		return omen_error_set(OMEN_ENOMEM, "out of memory");
+	for (i = 0; i < b->nhunks; i++) {
+		b->hunk_new_start[i] = b->hs[(size_t)i * 4];
+		b->hunk_new_lines[i] = b->hs[(size_t)i * 4 + 1];
+		b->hunk_old_start[i] = b->hs[(size_t)i * 4 + 2];
+		b->hunk_old_lines[i] = b->hs[(size_t)i * 4 + 3];
+	}
+	out->capped = (uint8_t)capped;
+	out->nfiles = b->nfiles;
+	out->nhunks = b->nhunks;
+	out->ntok = b->ntok;
+	out->nmsg = b->nmsg;
+	out->file_off = b->file_off;
+	out->hunk_off = b->hunk_off;
+	out->tok = b->tok;
+	out->tok_line = b->tok_line;
+	out->msg = b->msg;
+	out->file_facts = b->facts;
+	out->hunk_new_start = b->hunk_new_start;
+	out->hunk_new_lines = b->hunk_new_lines;
+	out->hunk_old_start = b->hunk_old_start;
+	out->hunk_old_lines = b->hunk_old_lines;
+	out->file_path = (const char *const *)b->path_ptr;
+	return 0;
+}
+
 int omen_sample_build(omen_sample *out, omen_sample_buf *b, const omen_change *c,
 	const omen_metrics *m, int is_fix, const omen_caps *caps)
 {
@@ -166,79 +293,10 @@ int omen_sample_build(omen_sample *out, omen_sample_buf *b, const omen_change *c
 	}
 	b->file_off[0] = 0;
 	b->hunk_off[0] = 0;
-	/* a commit-wide token budget shared by its kept hunks, so that one
-	 * huge commit costs at most a few ordinary ones in time and memory */
-	{
-		int64_t kept_hunks = 0;
-		for (i = 0; i < nf; i++) {
-			int64_t nh = c->files[fsel[i].idx].nhunks;
-			if (caps->max_hunks_per_file > 0 && nh > caps->max_hunks_per_file)
-				nh = caps->max_hunks_per_file;
-			kept_hunks += nh;
-		}
-		hunk_limit = caps->max_tokens_per_hunk > 0 ? caps->max_tokens_per_hunk : INT32_MAX;
-		if (kept_hunks > 0 && OMEN_SAMPLE_TOKEN_BUDGET / kept_hunks < hunk_limit)
-			hunk_limit = (int32_t)(OMEN_SAMPLE_TOKEN_BUDGET / kept_hunks > 32
-				? OMEN_SAMPLE_TOKEN_BUDGET / kept_hunks : 32);
-	}
-	for (i = 0; i < nf; i++) {
-		const omen_file *f = &c->files[fsel[i].idx];
-		int nh = (int)f->nhunks, k, kept;
-		const char *nm = omen_file_path(f);
-		b->order[i] = fsel[i].idx;
-		b->paths[i] = b->names.len;   /* offset, turned into a pointer at the end */
-		if ((e = omen_buf_put(&b->names, nm, strlen(nm) + 1)))
+	hunk_limit = hunk_token_limit(c, fsel, nf, caps);
+	for (i = 0; i < nf; i++)
+		if ((e = add_file(b, c, m, i, fsel[i].idx, caps, hunk_limit, sizes, hsel, &capped)))
 			goto out;
-		if (m) {
-			if ((e = omen_metrics_file_facts(b->facts + (size_t)i * OMEN_NFACTS, m, c,
-					(size_t)fsel[i].idx)))
-				goto out;
-		} else {
-			memset(b->facts + (size_t)i * OMEN_NFACTS, 0, OMEN_NFACTS * sizeof(float));
-		}
-		for (k = 0; k < nh; k++) {
-			const omen_hunk *h = &c->hunks[f->hunk_off + k];
-			sizes[k] = (int64_t)h->old_lines + h->new_lines;
-		}
-		kept = pick_largest(hsel, sizes, nh,
-			caps->max_hunks_per_file > 0 ? caps->max_hunks_per_file : nh);
-		capped |= kept < nh;
-		if (OMEN_ARRAY_RESERVE(b->hunk_off, b->hunk_off_cap, (size_t)b->nhunks + kept + 1) ||
-			OMEN_ARRAY_RESERVE(b->hs, b->hs_cap, (size_t)b->nhunks + kept + 1)) {
-			e = omen_error_set(OMEN_ENOMEM, "out of memory");
-			goto out;
-		}
-		for (k = 0; k < kept; k++) {
-			const omen_hunk *h = &c->hunks[f->hunk_off + hsel[k].idx];
-			uint32_t l;
-			int32_t *hs = b->hs + (size_t)b->nhunks * 4;
-			if (OMEN_ARRAY_RESERVE(b->hs, b->hs_cap, ((size_t)b->nhunks + 1) * 4)) {
-				e = omen_error_set(OMEN_ENOMEM, "out of memory");
-				goto out;
-			}
-			hs = b->hs + (size_t)b->nhunks * 4;
-			hs[0] = h->new_start; hs[1] = h->new_lines;
-			hs[2] = h->old_start; hs[3] = h->old_lines;
-			memset(&t, 0, sizeof(t));
-			t.b = b;
-			t.limit = hunk_limit;
-			for (l = 0; l < h->nlines && !t.full; l++) {
-				const omen_line *ln = &c->lines[h->line_off + l];
-				t.deleted = ln->origin == '-';
-				t.line = t.deleted ? ln->old_lineno : ln->new_lineno;
-				omen_tokenize_code(omen_line_text(c, ln), ln->text_len, on_code_token, &t);
-			}
-			if (t.err) {
-				e = omen_error_set(OMEN_ENOMEM, "out of memory");
-				goto out;
-			}
-			capped |= t.full;
-			b->nhunks++;
-			b->hunk_off[b->nhunks] = b->ntok;
-		}
-		b->nfiles++;
-		b->file_off[b->nfiles] = b->nhunks;
-	}
 	memset(&t, 0, sizeof(t));
 	t.b = b;
 	t.limit = caps->max_msg_tokens > 0 ? caps->max_msg_tokens : INT32_MAX;
@@ -256,42 +314,7 @@ int omen_sample_build(omen_sample *out, omen_sample_buf *b, const omen_change *c
 		for (j = 0; j < OMEN_NMETRICS; j++)
 			out->metrics[j] = (float)met[j];
 	}
-	/* views */
-	if (OMEN_ARRAY_RESERVE(b->keep, b->keep_cap, (size_t)b->nfiles + 1)) {
-		e = omen_error_set(OMEN_ENOMEM, "out of memory");
-		goto out;
-	}
-	for (i = 0; i < b->nfiles; i++)
-		b->keep[i] = b->names.ptr + b->paths[i];
-	if (OMEN_ARRAY_RESERVE(b->hunk_new_start, b->hcols_cap, (size_t)b->nhunks + 1) ||
-		OMEN_ARRAY_RESERVE(b->hunk_new_lines, b->hcols_cap2, (size_t)b->nhunks + 1) ||
-		OMEN_ARRAY_RESERVE(b->hunk_old_start, b->hcols_cap3, (size_t)b->nhunks + 1) ||
-		OMEN_ARRAY_RESERVE(b->hunk_old_lines, b->hcols_cap4, (size_t)b->nhunks + 1)) {
-		e = omen_error_set(OMEN_ENOMEM, "out of memory");
-		goto out;
-	}
-	for (i = 0; i < b->nhunks; i++) {
-		b->hunk_new_start[i] = b->hs[(size_t)i * 4];
-		b->hunk_new_lines[i] = b->hs[(size_t)i * 4 + 1];
-		b->hunk_old_start[i] = b->hs[(size_t)i * 4 + 2];
-		b->hunk_old_lines[i] = b->hs[(size_t)i * 4 + 3];
-	}
-	out->capped = (uint8_t)capped;
-	out->nfiles = b->nfiles;
-	out->nhunks = b->nhunks;
-	out->ntok = b->ntok;
-	out->nmsg = b->nmsg;
-	out->file_off = b->file_off;
-	out->hunk_off = b->hunk_off;
-	out->tok = b->tok;
-	out->tok_line = b->tok_line;
-	out->msg = b->msg;
-	out->file_facts = b->facts;
-	out->hunk_new_start = b->hunk_new_start;
-	out->hunk_new_lines = b->hunk_new_lines;
-	out->hunk_old_start = b->hunk_old_start;
-	out->hunk_old_lines = b->hunk_old_lines;
-	out->file_path = (const char *const *)b->keep;
+	e = set_views(out, b, capped);
 out:
 	free(sizes);
 	free(fsel);

@@ -147,25 +147,6 @@ int omen_config_string(char **out, omen_repo *r, const char *key)
 	return 0;
 }
 
-int omen_labels_path(char **out, omen_repo *r, int *configured)
-{
-	char *v = NULL;
-	int e;
-	*out = NULL;
-	if (configured)
-		*configured = 0;
-	if ((e = omen_config_string(&v, r, "omen.labels")))
-		return e;
-	if (v && *v) {
-		*out = v;
-		if (configured)
-			*configured = 1;
-		return 0;
-	}
-	free(v);
-	return omen_repo_omen_path(out, r, "labels.jsonl");
-}
-
 static int bad_value(const char *key, const char *val, const char *what)
 {
 	return omen_error_set(OMEN_EINVAL, "bad config value '%s': '%s' is not %s", key, val, what);

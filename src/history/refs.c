@@ -162,3 +162,42 @@ out:
 	git_commit_free(c);
 	return e;
 }
+
+int omen_history_parent_count(size_t *out, omen_repo *r, const git_oid *id)
+{
+	git_commit *c = NULL;
+	char hex[GIT_OID_HEXSZ + 1];
+
+	*out = 0;
+	if (git_commit_lookup(&c, omen_repo_git(r), id) < 0) {
+		const git_error *ge = git_error_last();
+		int e;
+		git_oid_tostr(hex, sizeof(hex), id);
+		e = omen_error_set(OMEN_ENOTFOUND, "cannot read commit '%s': %s", hex,
+			ge && ge->message ? ge->message : "not found");
+		git_error_clear();
+		return e;
+	}
+	*out = git_commit_parentcount(c);
+	git_commit_free(c);
+	return 0;
+}
+
+void omen_oid_hex(char *out, size_t n, const git_oid *id)
+{
+	git_oid_tostr(out, n, id);
+}
+
+int omen_oid_parse(git_oid *out, const char *hex)
+{
+	if (strlen(hex) != GIT_OID_HEXSZ || git_oid_fromstr(out, hex) < 0) {
+		git_error_clear();
+		return omen_error_set(OMEN_EINVAL, "bad commit id '%s'", hex);
+	}
+	return 0;
+}
+
+int omen_oid_equal(const git_oid *a, const git_oid *b)
+{
+	return git_oid_equal(a, b) ? 1 : 0;
+}

@@ -37,84 +37,65 @@ typedef struct {
 	git_repository *repo;
 	node *nodes; size_t n, cap;
 	git_oid *pids; size_t npids, pids_cap;
-	int32_t *slots; size_t nslots;   /* open addressing oid -> node index */
+	omen_index index;   /* oid -> node index */
 	int32_t *heap; size_t hn, hcap;
 	size_t interesting_in_queue;
 	int first_parent;
 } lister;
 
-static size_t oid_hash(const git_oid *id)
+static uint64_t oid_hash(const git_oid *id)
 {
-	size_t h;
+	uint64_t h;
 	memcpy(&h, id->id, sizeof(h));
 	return h;
 }
 
-static int map_grow(lister *l)
+static uint64_t node_hash(int32_t v, const void *ctx)
 {
-	size_t cap = l->nslots ? l->nslots * 2 : 1024;
-	int32_t *s = malloc(cap * sizeof(*s));
-	if (!s)
-		return omen_error_set(OMEN_ENOMEM, "out of memory");
-	memset(s, 0xff, cap * sizeof(*s));
-	for (size_t i = 0; i < l->n; i++) {
-		size_t k = oid_hash(&l->nodes[i].id) & (cap - 1);
-		while (s[k] >= 0)
-			k = (k + 1) & (cap - 1);
-		s[k] = (int32_t)i;
-	}
-	free(l->slots);
-	l->slots = s;
-	l->nslots = cap;
-	return 0;
+	return oid_hash(&((const lister *)ctx)->nodes[v].id);
 }
+
+static int node_is(int32_t v, const void *key, const void *ctx)
+{
+	return git_oid_equal(&((const lister *)ctx)->nodes[v].id, key);
+}
+
+static const omen_index_ops node_ops = {node_hash, node_is};
 
 /* Node index of id, created (unloaded) when absent. */
 static int node_get(lister *l, const git_oid *id, int32_t *out)
 {
-	size_t k;
-	if ((l->n + 1) * 2 > l->nslots && map_grow(l) < 0)
-		return OMEN_ENOMEM;
-	k = oid_hash(id) & (l->nslots - 1);
-	while (l->slots[k] >= 0) {
-		if (git_oid_equal(&l->nodes[l->slots[k]].id, id)) {
-			*out = l->slots[k];
-			return 0;
-		}
-		k = (k + 1) & (l->nslots - 1);
+	int32_t v = omen_index_find(&l->index, id, oid_hash(id), &node_ops, l);
+	if (v >= 0) {
+		*out = v;
+		return 0;
 	}
 	if (OMEN_ARRAY_RESERVE(l->nodes, l->cap, l->n + 1) < 0)
 		return OMEN_ENOMEM;
 	memset(&l->nodes[l->n], 0, sizeof(node));
 	git_oid_cpy(&l->nodes[l->n].id, id);
 	l->nodes[l->n].seq = (uint32_t)l->n;
-	l->slots[k] = (int32_t)l->n;
+	if (omen_index_add(&l->index, (int32_t)l->n, oid_hash(id), &node_ops, l) < 0)
+		return OMEN_ENOMEM;
 	*out = (int32_t)l->n++;
 	return 0;
 }
 
-/* Max-heap on (time, -seq): newest first, FIFO among equal times. */
-static int heap_less(const lister *l, int32_t a, int32_t b)
+/* The date queue: newest first, FIFO among equal times (time, then -seq). */
+static int queue_before(int32_t a, int32_t b, const void *ctx)
 {
+	const lister *l = ctx;
 	const node *x = &l->nodes[a], *y = &l->nodes[b];
 	if (x->time != y->time)
-		return x->time < y->time;
-	return x->seq > y->seq;
+		return x->time > y->time;
+	return x->seq < y->seq;
 }
 
 static int heap_push(lister *l, int32_t v)
 {
-	size_t i;
 	if (OMEN_ARRAY_RESERVE(l->heap, l->hcap, l->hn + 1) < 0)
 		return OMEN_ENOMEM;
-	i = l->hn++;
-	l->heap[i] = v;
-	while (i && heap_less(l, l->heap[(i - 1) / 2], l->heap[i])) {
-		int32_t t = l->heap[i];
-		l->heap[i] = l->heap[(i - 1) / 2];
-		l->heap[(i - 1) / 2] = t;
-		i = (i - 1) / 2;
-	}
+	omen_heap_push(l->heap, l->hn++, v, queue_before, l);
 	l->nodes[v].flags |= N_INQ | N_QUEUED;
 	if (!(l->nodes[v].flags & N_UNINT))
 		l->interesting_in_queue++;
@@ -123,22 +104,7 @@ static int heap_push(lister *l, int32_t v)
 
 static int32_t heap_pop(lister *l)
 {
-	int32_t top = l->heap[0];
-	size_t i = 0;
-	l->heap[0] = l->heap[--l->hn];
-	for (;;) {
-		size_t a = 2 * i + 1, b = a + 1, m = i;
-		if (a < l->hn && heap_less(l, l->heap[m], l->heap[a]))
-			m = a;
-		if (b < l->hn && heap_less(l, l->heap[m], l->heap[b]))
-			m = b;
-		if (m == i)
-			break;
-		int32_t t = l->heap[i];
-		l->heap[i] = l->heap[m];
-		l->heap[m] = t;
-		i = m;
-	}
+	int32_t top = omen_heap_pop(l->heap, l->hn--, queue_before, l);
 	l->nodes[top].flags &= (uint8_t)~N_INQ;
 	if (!(l->nodes[top].flags & N_UNINT))
 		l->interesting_in_queue--;
@@ -369,8 +335,22 @@ static void lister_free(lister *l)
 {
 	free(l->nodes);
 	free(l->pids);
-	free(l->slots);
+	omen_index_free(&l->index);
 	free(l->heap);
+}
+
+/* The ready queue of the topological order: older commit time first, then
+ * position in the result set. */
+typedef struct {
+	const lister *l;
+	const int32_t *res;
+} ready_ctx;
+
+static int ready_before(int32_t a, int32_t b, const void *ctx)
+{
+	const ready_ctx *r = ctx;
+	int64_t ta = r->l->nodes[r->res[a]].time, tb = r->l->nodes[r->res[b]].time;
+	return ta != tb ? ta < tb : a < b;
 }
 
 /* Kahn's order over the result set: parents first, oldest commit time first
@@ -381,6 +361,7 @@ static int topo_order(lister *l, const int32_t *res, size_t nres, git_oid **out,
 	int32_t *pos = NULL, *indeg = NULL, *coff = NULL, *child = NULL, *heap = NULL;
 	size_t nedges = 0, hn = 0, k = 0;
 	git_oid *ids = NULL;
+	ready_ctx rs = {l, res};
 	int rc = 0;
 	pos = malloc((l->n + 1) * sizeof(*pos));
 	indeg = calloc(nres + 1, sizeof(*indeg));
@@ -424,30 +405,12 @@ static int topo_order(lister *l, const int32_t *res, size_t nres, git_oid **out,
 		}
 	}
 	/* after pass 1, coff[i] is the end of i's children; start = coff[i-1] */
-#define T(i) (l->nodes[res[i]].time)
-#define LESS(a, b) (T(a) != T(b) ? T(a) < T(b) : (a) < (b))
-	for (size_t i = 0; i < nres; i++) {
-		if (indeg[i])
-			continue;
-		size_t x = hn++;
-		heap[x] = (int32_t)i;
-		while (x && LESS(heap[x], heap[(x - 1) / 2])) {
-			int32_t t = heap[x]; heap[x] = heap[(x - 1) / 2]; heap[(x - 1) / 2] = t;
-			x = (x - 1) / 2;
-		}
-	}
+	for (size_t i = 0; i < nres; i++)
+		if (!indeg[i])
+			omen_heap_push(heap, hn++, (int32_t)i, ready_before, &rs);
 	while (hn) {
-		int32_t v = heap[0];
-		size_t x = 0, start, end;
-		heap[0] = heap[--hn];
-		for (;;) {
-			size_t a = 2 * x + 1, b = a + 1, m = x;
-			if (a < hn && LESS(heap[a], heap[m])) m = a;
-			if (b < hn && LESS(heap[b], heap[m])) m = b;
-			if (m == x) break;
-			int32_t t = heap[x]; heap[x] = heap[m]; heap[m] = t;
-			x = m;
-		}
+		int32_t v = omen_heap_pop(heap, hn--, ready_before, &rs);
+		size_t start, end;
 		node *nd = &l->nodes[res[v]];
 		if (o->include_merges || nd->nparents <= 1)
 			git_oid_cpy(&ids[k++], &nd->id);
@@ -457,16 +420,9 @@ static int topo_order(lister *l, const int32_t *res, size_t nres, git_oid **out,
 			int32_t ch = child[e];
 			if (--indeg[ch])
 				continue;
-			size_t y = hn++;
-			heap[y] = ch;
-			while (y && LESS(heap[y], heap[(y - 1) / 2])) {
-				int32_t t = heap[y]; heap[y] = heap[(y - 1) / 2]; heap[(y - 1) / 2] = t;
-				y = (y - 1) / 2;
-			}
+			omen_heap_push(heap, hn++, ch, ready_before, &rs);
 		}
 	}
-#undef LESS
-#undef T
 	if (o->newest_first)
 		for (size_t i = 0; i < k / 2; i++) {
 			git_oid t = ids[i];

@@ -1,4 +1,4 @@
-/* Fix-commit identification (DESIGN.md "Labels" 1): a message pattern, the
+/* Fix-commit identification (DEVELOPERS.md "Labeller"): a message pattern, the
  * user's fix list (commit ids or issue ids, optionally with the issue's open
  * date), and explicit references to the repaired commit (Fixes:, revert
  * trailers). Keyword matching of fix messages follows Mockus & Votta (ICSM

@@ -4,7 +4,6 @@
 
 #include "omen/label.h"
 
-const char *lbl_label_name(int label);
 /* Appends one commit's JSON line (with '\n'). */
 int lbl_write_record(omen_buf *b, const omen_label_rec *r);
 /* The header line of a loaded label file (raw JSON). */

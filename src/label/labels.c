@@ -24,7 +24,7 @@ struct omen_labels {
 	char *header_json;   /* the header line as read */
 };
 
-const char *lbl_label_name(int label)
+const char *omen_label_name(int label)
 {
 	return label == OMEN_LABEL_INDUCING ? "inducing" : label == OMEN_LABEL_CLEAN ? "clean" : "unknown";
 }
@@ -36,7 +36,7 @@ int lbl_write_record(omen_buf *b, const omen_label_rec *r)
 	uint32_t i;
 	int first = 1, k;
 	omen_buf_printf(b, "{\"id\":\"%s\",\"time\":%lld,\"label\":\"%s\",\"lines\":%u,\"fixes\":[",
-		r->id, (long long)r->time, lbl_label_name(r->label), (unsigned)r->traced_lines);
+		r->id, (long long)r->time, omen_label_name(r->label), (unsigned)r->traced_lines);
 	for (i = 0; i < r->nfixes; i++)
 		omen_buf_printf(b, "%s\"%s\"", i ? "," : "", r->fixes[i]);
 	omen_buf_printf(b, "],\"fix\":%s,\"fix_by\":[", r->is_fix ? "true" : "false");
@@ -260,3 +260,123 @@ size_t omen_labels_count(const omen_labels *l) { return l ? l->n : 0; }
 const omen_label_rec *omen_labels_at(const omen_labels *l, size_t i) { return i < l->n ? &l->recs[i] : NULL; }
 const char *omen_labels_head(const omen_labels *l) { return l->head; }
 const char *lbl_labels_header(const omen_labels *l) { return l->header_json; }
+
+/* ---- brief read (issue 12): header counts and the newest records --------
+ * For `git omen health`: the header's summary and the labels of the newest
+ * `tail` labelled records, reading the header line and then ever larger
+ * chunks from the end of the file instead of parsing every record. */
+static size_t count_of(const cJSON *o, const char *k)
+{
+	const cJSON *v = o ? cJSON_GetObjectItemCaseSensitive(o, k) : NULL;
+	return cJSON_IsNumber(v) && v->valuedouble >= 0 ? (size_t)v->valuedouble : 0;
+}
+
+static int read_at(omen_buf *b, FILE *fp, long off, size_t n, const char *path)
+{
+	omen_buf_clear(b);
+	if (omen_buf_grow(b, n + 1))
+		return omen_error_set(OMEN_ENOMEM, "out of memory");
+	if (fseek(fp, off, SEEK_SET) || fread(b->ptr, 1, n, fp) != n)
+		return omen_error_set(OMEN_EIO, "cannot read label file '%s'", path);
+	b->len = n;
+	b->ptr[n] = '\0';
+	return 0;
+}
+
+int omen_labels_brief_read(omen_labels_brief *out, const char *path, size_t tail)
+{
+	FILE *fp = fopen(path, "rb");
+	omen_buf b = OMEN_BUF_INIT;
+	omen_cursor cur;
+	const char *line;
+	size_t len, chunk = 256 * 1024, want;
+	long size;
+	cJSON *j = NULL;
+	int e = 0;
+	memset(out, 0, sizeof(*out));
+	if (!fp)
+		return omen_error_set(OMEN_ENOTFOUND, "cannot read label file '%s'", path);
+	if (fseek(fp, 0, SEEK_END) || (size = ftell(fp)) < 0) {
+		e = omen_error_set(OMEN_EIO, "cannot read label file '%s'", path);
+		goto out;
+	}
+	/* the header: the first line */
+	want = (size_t)size < (1u << 20) ? (size_t)size : (1u << 20);
+	if ((e = read_at(&b, fp, 0, want, path)))
+		goto out;
+	omen_cursor_init(&cur, b.ptr, b.len);
+	if (!omen_cursor_line(&cur, &line, &len) ||
+	    !(j = cJSON_ParseWithLength(line, len)) ||
+	    !cJSON_IsNumber(cJSON_GetObjectItemCaseSensitive(j, "omen_labels"))) {
+		e = omen_error_set(OMEN_ECORRUPT, "bad label file '%s': line 1: not a label header", path);
+		goto out;
+	}
+	{
+		const cJSON *h = cJSON_GetObjectItemCaseSensitive(j, "head");
+		const cJSON *s = cJSON_GetObjectItemCaseSensitive(j, "summary");
+		if (cJSON_IsString(h) && is_hex40(h->valuestring))
+			strcpy(out->head, h->valuestring);
+		out->commits = count_of(s, "commits");
+		out->inducing = count_of(s, "inducing");
+		out->clean = count_of(s, "clean");
+		out->unknown = count_of(s, "unknown");
+	}
+	cJSON_Delete(j);
+	j = NULL;
+	/* the newest records: chunks from the end until enough are labelled */
+	for (;;) {
+		long off = (size_t)size > chunk ? size - (long)chunk : 0;
+		size_t got = 0, pos = 0, nlines = 0, k;
+		const char **ls = NULL;
+		size_t *ln = NULL, cap = 0;
+		if ((e = read_at(&b, fp, off, (size_t)(size - off), path)))
+			goto out;
+		omen_cursor_init(&cur, b.ptr, b.len);
+		if (off > 0)
+			omen_cursor_line(&cur, &line, &len);   /* a partial line */
+		while (omen_cursor_line(&cur, &line, &len)) {
+			if (nlines == cap) {
+				size_t nc = cap ? cap * 2 : 1024;
+				const char **nls = realloc(ls, nc * sizeof(*ls));
+				size_t *nln = nls ? realloc(ln, nc * sizeof(*ln)) : NULL;
+				if (nls) ls = nls;
+				if (!nls || !nln) {
+					free(ls);
+					free(nln ? nln : ln);
+					e = omen_error_set(OMEN_ENOMEM, "out of memory");
+					goto out;
+				}
+				ln = nln;
+				cap = nc;
+			}
+			ls[nlines] = line;
+			ln[nlines++] = len;
+		}
+		for (k = nlines; k-- > 0 && got < tail;) {
+			cJSON *r, *v;
+			if (off == 0 && k == 0)
+				break;   /* the header */
+			if (!ln[k])
+				continue;
+			r = cJSON_ParseWithLength(ls[k], ln[k]);
+			v = r ? cJSON_GetObjectItemCaseSensitive(r, "label") : NULL;
+			if (cJSON_IsString(v) && strcmp(v->valuestring, "unknown")) {
+				got++;
+				pos += !strcmp(v->valuestring, "inducing");
+			}
+			cJSON_Delete(r);
+		}
+		free(ls);
+		free(ln);
+		out->recent = got;
+		out->recent_inducing = pos;
+		if (got >= tail || off == 0)
+			break;
+		chunk *= 4;
+	}
+out:
+	cJSON_Delete(j);
+	omen_buf_free(&b);
+	fclose(fp);
+	return e;
+}

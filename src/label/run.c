@@ -939,7 +939,7 @@ int omen_label_run(omen_label_summary *sum, omen_repo *r, const omen_label_opts 
 	omen_walk_opts wo = OMEN_WALK_OPTS_INIT;
 	lbl_run R;
 	lbl_trace_opts to;
-	char *cfg_pattern = NULL, *cfg_list = NULL, *cfg_labels = NULL, *path = NULL;
+	char *cfg_pattern = NULL, *cfg_list = NULL, *path = NULL;
 	const char *pattern, *list;
 	omen_buf ob = OMEN_BUF_INIT, sp = OMEN_BUF_INIT;
 	char head[OMEN_OID_HEX + 1] = "", excl[OMEN_OID_HEX + 2];
@@ -989,14 +989,8 @@ int omen_label_run(omen_label_summary *sum, omen_repo *r, const omen_label_opts 
 			goto out;
 		}
 	} else {
-		if ((e = omen_config_string(&cfg_labels, r, "omen.labels")))
+		if ((e = omen_labels_path(&path, r, NULL)))
 			goto out;
-		if (cfg_labels) {
-			path = cfg_labels;
-			cfg_labels = NULL;
-		} else if ((e = omen_repo_omen_path(&path, r, "labels.jsonl"))) {
-			goto out;
-		}
 	}
 	wo.revs = o.revs;
 	wo.include_merges = 1;
@@ -1132,7 +1126,6 @@ out:
 	free(R.tips);
 	free(cfg_pattern);
 	free(cfg_list);
-	free(cfg_labels);
 	free(path);
 	return e;
 }

@@ -20,8 +20,8 @@
 #include "omen/base.h"
 #include "omen/history.h"
 #include "omen/error.h"
-#include "omen/eval.h"
-#include "model/model_int.h"
+#include "omen/rank.h"
+#include "model/internal.h"
 
 #define BASE_CHUNKS 2
 #define BASE_EVAL_BATCH 64
@@ -31,7 +31,7 @@ typedef struct {
 	const omen_model *m;
 	const omen_corpus *c;
 	const omen_corpus_ref *ref;
-	int nb, nthreads, train, cap;
+	int nb, nthreads, train, cap, part, parts;
 	float p, pw;
 	uint64_t seed, step;
 	omen_ws ws[BASE_CHUNKS];
@@ -52,8 +52,8 @@ static void bchunk(bctx *x, int c)
 	omen_ws *w = &x->ws[c];
 	omen_rng rng;
 	x->loss[c] = 0;
-	if (n <= 0)
-		return;
+	if (n <= 0 || (x->train && x->parts > 1 && c % x->parts != x->part))
+		return;   /* another data-parallel process's chunk (issue 13) */
 	for (i = 0; i < n; i++) {
 		const omen_corpus_ref *r = &x->ref[lo + i];
 		int e = omen_shard_read(&x->smp[c][i], omen_corpus_shard(x->c, r->h), r->i,
@@ -519,6 +519,8 @@ int omen_base_train(omen_model **out, omen_base_report *rep, const omen_corpus *
 	x.p = o->dropout;
 	x.train = 1;
 	x.seed = o->seed;
+	x.part = o->part;
+	x.parts = o->exchange ? o->parts : 1;
 	g = aligned_alloc(64, (m->nparams * sizeof(float) + 63) / 64 * 64);
 	mom = calloc(m->nparams, sizeof(float));
 	vel = calloc(m->nparams, sizeof(float));
@@ -554,6 +556,11 @@ int omen_base_train(omen_model **out, omen_base_report *rep, const omen_corpus *
 			x.step = ++step;
 			if ((e = brun(&x)))
 				goto out;
+			if (x.parts > 1) {   /* the other processes' chunks (issue 13): dense */
+				omen_span all = {0, m->nparams};
+				if ((e = o->exchange(o->exchange_ctx, x.grad, x.loss, BASE_CHUNKS, &all, 1)))
+					goto out;
+			}
 			for (q = 0; q < BASE_CHUNKS; q++)
 				loss += x.loss[q];
 			omen_reduce_fixed(g, x.grad, BASE_CHUNKS, m->nparams);

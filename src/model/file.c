@@ -1,4 +1,4 @@
-/* Model file format (DESIGN.md "Files"), little-endian:
+/* Model file format (DEVELOPERS.md "Model file (file.c)"), little-endian:
  *
  *   0   8  magic "OMENMODL"
  *   8   4  u32 format version (OMEN_MODEL_VERSION)
@@ -20,7 +20,7 @@
 #include <stdlib.h>
 #include <string.h>
 #include "omen/error.h"
-#include "model/model_int.h"
+#include "model/internal.h"
 
 #define OMEN_MODEL_MAGIC "OMENMODL"
 #define OMEN_MODEL_VERSION 1u
@@ -100,6 +100,10 @@ static cJSON *meta_for_write(const omen_model *m, size_t param_off)
 	cJSON_AddNumberToObject(cal, "b", m->platt_b);
 	set_item(j, "calibration", cal);
 	set_item(j, "threshold", cJSON_CreateNumber(m->threshold));
+	if (m->warn.npoints) {
+		set_item(j, "warn_curve", omen_warn_curve_json(&m->warn));
+		set_item(j, "threshold_max_f1", cJSON_CreateNumber(m->threshold_f1));
+	}
 	caps = cJSON_CreateObject();
 	cJSON_AddNumberToObject(caps, "max_files", m->caps.max_files);
 	cJSON_AddNumberToObject(caps, "max_hunks_per_file", m->caps.max_hunks_per_file);
@@ -208,7 +212,10 @@ static int get_int(int *out, const cJSON *o, const char *k, int lo, int hi)
 	return 0;
 }
 
-static int farray(float *out, const cJSON *o, const char *k, int n)
+/* The n finite numbers of array k of o, to fout as floats or dout as
+ * doubles (the other NULL). -1 when absent, of another length or not
+ * finite numbers. */
+static int num_array(float *fout, double *dout, const cJSON *o, const char *k, int n)
 {
 	const cJSON *a = cJSON_GetObjectItemCaseSensitive(o, k), *v;
 	int i = 0;
@@ -217,83 +224,36 @@ static int farray(float *out, const cJSON *o, const char *k, int n)
 	cJSON_ArrayForEach(v, a) {
 		if (!cJSON_IsNumber(v) || !isfinite(v->valuedouble))
 			return -1;
-		out[i++] = (float)v->valuedouble;
+		if (fout)
+			fout[i++] = (float)v->valuedouble;
+		else
+			dout[i++] = v->valuedouble;
 	}
 	return 0;
+}
+
+static int farray(float *out, const cJSON *o, const char *k, int n)
+{
+	return num_array(out, NULL, o, k, n);
 }
 
 static int darray(double *out, const cJSON *o, const char *k, int n)
 {
-	const cJSON *a = cJSON_GetObjectItemCaseSensitive(o, k), *v;
-	int i = 0;
-	if (!cJSON_IsArray(a) || cJSON_GetArraySize(a) != n)
-		return -1;
-	cJSON_ArrayForEach(v, a) {
-		if (!cJSON_IsNumber(v) || !isfinite(v->valuedouble))
-			return -1;
-		out[i++] = v->valuedouble;
-	}
-	return 0;
+	return num_array(NULL, out, o, k, n);
 }
 
 #define BAD(...) do { e = omen_error_set(OMEN_ECORRUPT, __VA_ARGS__); goto out; } while (0)
 
-int omen_model_parse(omen_model **out, const char *name, const void *data, size_t n)
+/* The tensor table in the metadata names the tensors these dimensions give,
+ * in order, at the offsets they give. */
+static int check_tensors(const omen_model *m, const cJSON *j, size_t param_off, const char *name)
 {
-	omen_cursor c;
-	omen_model *m = NULL;
-	cJSON *j = NULL;
-	const cJSON *dims, *tens, *st, *cal, *caps, *lr, *t, *head;
-	const void *magic, *mj, *pb, *sb;
-	uint32_t version, reserved, crc;
-	uint64_t total, ml, sl;
-	size_t param_off;
-	int e = 0, D, C, V, VM, NE, NM, NFN, K, i;
+	const cJSON *tens, *t;
 	double d;
-
-	*out = NULL;
-	omen_cursor_init(&c, data, n);
-	if (omen_cursor_bytes(&c, &magic, 8) || memcmp(magic, OMEN_MODEL_MAGIC, 8))
-		BAD("cannot read model '%s': not an omen model file", name);
-	if (omen_cursor_u32le(&c, &version) || omen_cursor_u32le(&c, &reserved) ||
-		omen_cursor_u64le(&c, &total) || omen_cursor_u64le(&c, &ml))
-		BAD("cannot read model '%s': truncated header", name);
-	if (version != OMEN_MODEL_VERSION)
-		BAD("cannot read model '%s': format version %u, this build reads version %u", name,
-			version, OMEN_MODEL_VERSION);
-	if (total != n)
-		BAD("cannot read model '%s': truncated or padded (%zu bytes, header says %llu)", name, n,
-			(unsigned long long)total);
-	/* the CRC trailer comes off the cursor here, so what is left ends at
-	 * the metrics state */
-	if (omen_cursor_tail_u32le(&c, &crc) || omen_crc32(0, data, n - 4) != crc)
-		BAD("cannot read model '%s': bad checksum", name);
-	if (ml > c.n || omen_cursor_bytes(&c, &mj, (size_t)ml))
-		BAD("cannot read model '%s': metadata length out of bounds", name);
-	j = cJSON_ParseWithLength(mj, (size_t)ml);
-	if (!j || !cJSON_IsObject(j))
-		BAD("cannot read model '%s': bad metadata json", name);
-	t = cJSON_GetObjectItemCaseSensitive(j, "arch");
-	if (!cJSON_IsString(t) || strcmp(t->valuestring, OMEN_MODEL_ARCH))
-		BAD("cannot read model '%s': architecture '%s', this build runs '%s'", name,
-			cJSON_IsString(t) ? t->valuestring : "?", OMEN_MODEL_ARCH);
-	dims = cJSON_GetObjectItemCaseSensitive(j, "dims");
-	if (get_int(&D, dims, "D", 1, 1024) || get_int(&C, dims, "C", 1, 1024) ||
-		get_int(&V, dims, "V", 1, 1 << 30) || get_int(&VM, dims, "VM", 1, 1 << 30) ||
-		get_int(&NE, dims, "NE", 1, 1 << 30) || get_int(&NM, dims, "NM", 1, 1000) ||
-		get_int(&NFN, dims, "NFN", 1, 1000) || get_int(&K, dims, "K", 1, 99))
-		BAD("cannot read model '%s': bad dimensions", name);
-	if (V != (int)OMEN_VOCAB || VM != (int)OMEN_MSG_VOCAB || NE != OMEN_EXT_BUCKETS ||
-		NM != OMEN_NMETRICS || NFN != OMEN_MODEL_NFN || K != OMEN_MODEL_KW)
-		BAD("cannot read model '%s': other architecture (vocabulary %d/%d, metrics %d, facts %d, "
-			"width %d)", name, V, VM, NM, NFN, K);
-	if ((e = omen_model_alloc(&m, D, C)))
-		goto out;
-	/* tensor table must match the one these dimensions give */
+	int e = 0, i;
 	tens = cJSON_GetObjectItemCaseSensitive(j, "tensors");
 	if (!cJSON_IsArray(tens) || cJSON_GetArraySize(tens) != P_COUNT)
 		BAD("cannot read model '%s': other architecture (tensor table)", name);
-	param_off = (HDR + (size_t)ml + 63) / 64 * 64;
 	i = 0;
 	cJSON_ArrayForEach(t, tens) {
 		const cJSON *nm = cJSON_GetObjectItemCaseSensitive(t, "name");
@@ -303,17 +263,17 @@ int omen_model_parse(omen_model **out, const char *name, const void *data, size_
 				cJSON_IsString(nm) ? nm->valuestring : "?");
 		i++;
 	}
-	if (param_off - HDR - ml > c.n || omen_cursor_bytes(&c, &pb, param_off - HDR - (size_t)ml))
-		BAD("cannot read model '%s': truncated", name);
-	if (m->nparams > c.n / sizeof(float) ||
-		omen_cursor_bytes(&c, &pb, m->nparams * sizeof(float)))
-		BAD("cannot read model '%s': truncated parameters", name);
-	memcpy(m->params, pb, m->nparams * sizeof(float));
-	if (!omen_all_finite(m->params, m->nparams))
-		BAD("cannot read model '%s': non-finite weights", name);
-	if (omen_cursor_u64le(&c, &sl) || sl > c.n || omen_cursor_bytes(&c, &sb, (size_t)sl) ||
-		c.n != 0)
-		BAD("cannot read model '%s': bad metrics-state length", name);
+out:
+	return e;
+}
+
+/* The metadata fields beside the weights: standardization, calibration,
+ * threshold, caps, head and the logistic-regression baseline. */
+static int parse_fields(omen_model *m, const cJSON *j, const char *name)
+{
+	const cJSON *st, *cal, *caps, *lr, *head;
+	double d;
+	int e = 0, i;
 	st = cJSON_GetObjectItemCaseSensitive(j, "standardize");
 	if (farray(m->metric_mean, st, "metric_mean", OMEN_NMETRICS) ||
 		farray(m->metric_scale, st, "metric_scale", OMEN_NMETRICS) ||
@@ -359,6 +319,77 @@ int omen_model_parse(omen_model **out, const char *name, const void *data, size_
 			if (!(m->lr.scale[i] > 0))
 				BAD("cannot read model '%s': bad baseline", name);
 	}
+out:
+	return e;
+}
+
+int omen_model_parse(omen_model **out, const char *name, const void *data, size_t n)
+{
+	omen_cursor c;
+	omen_model *m = NULL;
+	cJSON *j = NULL;
+	const cJSON *dims, *t;
+	const void *magic, *mj, *pb, *sb;
+	uint32_t version, reserved, crc;
+	uint64_t total, ml, sl;
+	size_t param_off;
+	int e = 0, D, C, V, VM, NE, NM, NFN, K;
+
+	*out = NULL;
+	omen_cursor_init(&c, data, n);
+	if (omen_cursor_bytes(&c, &magic, 8) || memcmp(magic, OMEN_MODEL_MAGIC, 8))
+		BAD("cannot read model '%s': not an omen model file", name);
+	if (omen_cursor_u32le(&c, &version) || omen_cursor_u32le(&c, &reserved) ||
+		omen_cursor_u64le(&c, &total) || omen_cursor_u64le(&c, &ml))
+		BAD("cannot read model '%s': truncated header", name);
+	if (version != OMEN_MODEL_VERSION)
+		BAD("cannot read model '%s': format version %u, this build reads version %u", name,
+			version, OMEN_MODEL_VERSION);
+	if (total != n)
+		BAD("cannot read model '%s': truncated or padded (%zu bytes, header says %llu)", name, n,
+			(unsigned long long)total);
+	/* the CRC trailer comes off the cursor here, so what is left ends at
+	 * the metrics state */
+	if (omen_cursor_tail_u32le(&c, &crc) || omen_crc32(0, data, n - 4) != crc)
+		BAD("cannot read model '%s': bad checksum", name);
+	if (ml > c.n || omen_cursor_bytes(&c, &mj, (size_t)ml))
+		BAD("cannot read model '%s': metadata length out of bounds", name);
+	j = cJSON_ParseWithLength(mj, (size_t)ml);
+	if (!j || !cJSON_IsObject(j))
+		BAD("cannot read model '%s': bad metadata json", name);
+	t = cJSON_GetObjectItemCaseSensitive(j, "arch");
+	if (!cJSON_IsString(t) || strcmp(t->valuestring, OMEN_MODEL_ARCH))
+		BAD("cannot read model '%s': architecture '%s', this build runs '%s'", name,
+			cJSON_IsString(t) ? t->valuestring : "?", OMEN_MODEL_ARCH);
+	dims = cJSON_GetObjectItemCaseSensitive(j, "dims");
+	if (get_int(&D, dims, "D", 1, 1024) || get_int(&C, dims, "C", 1, 1024) ||
+		get_int(&V, dims, "V", 1, 1 << 30) || get_int(&VM, dims, "VM", 1, 1 << 30) ||
+		get_int(&NE, dims, "NE", 1, 1 << 30) || get_int(&NM, dims, "NM", 1, 1000) ||
+		get_int(&NFN, dims, "NFN", 1, 1000) || get_int(&K, dims, "K", 1, 99))
+		BAD("cannot read model '%s': bad dimensions", name);
+	if (V != (int)OMEN_VOCAB || VM != (int)OMEN_MSG_VOCAB || NE != OMEN_EXT_BUCKETS ||
+		NM != OMEN_NMETRICS || NFN != OMEN_MODEL_NFN || K != OMEN_MODEL_KW)
+		BAD("cannot read model '%s': other architecture (vocabulary %d/%d, metrics %d, facts %d, "
+			"width %d)", name, V, VM, NM, NFN, K);
+	if ((e = omen_model_alloc(&m, D, C)))
+		goto out;
+	/* tensor table must match the one these dimensions give */
+	param_off = (HDR + (size_t)ml + 63) / 64 * 64;
+	if ((e = check_tensors(m, j, param_off, name)))
+		goto out;
+	if (param_off - HDR - ml > c.n || omen_cursor_bytes(&c, &pb, param_off - HDR - (size_t)ml))
+		BAD("cannot read model '%s': truncated", name);
+	if (m->nparams > c.n / sizeof(float) ||
+		omen_cursor_bytes(&c, &pb, m->nparams * sizeof(float)))
+		BAD("cannot read model '%s': truncated parameters", name);
+	memcpy(m->params, pb, m->nparams * sizeof(float));
+	if (!omen_all_finite(m->params, m->nparams))
+		BAD("cannot read model '%s': non-finite weights", name);
+	if (omen_cursor_u64le(&c, &sl) || sl > c.n || omen_cursor_bytes(&c, &sb, (size_t)sl) ||
+		c.n != 0)
+		BAD("cannot read model '%s': bad metrics-state length", name);
+	if ((e = parse_fields(m, j, name)))
+		goto out;
 	if (sl) {
 		if ((e = omen_buf_put(&m->mstate_blob, sb, (size_t)sl)))
 			goto out;

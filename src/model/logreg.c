@@ -10,7 +10,7 @@
 #include <string.h>
 #include "omen/error.h"
 #include "omen/model.h"
-#include "model/model_int.h"
+#include "model/internal.h"
 
 /* Solves A x = r for symmetric positive definite A [k,k] in place by
  * Cholesky; returns -1 when A is not positive definite. */

@@ -1,5 +1,5 @@
 /* The hierarchical commit model: forward and backward passes composed from
- * the kernels of src/nn/ (DESIGN.md "Model"; DEVELOPERS.md "Model" has the
+ * the kernels of src/nn/ (DEVELOPERS.md "Model" has the
  * dimension table and the derivations).
  *
  *   tokens [T] -> embed [T,D] -> conv1d k=3 per hunk [T,C] -> ReLU
@@ -16,7 +16,7 @@
 #include <string.h>
 #include "omen/error.h"
 #include "omen/base.h"
-#include "model/model_int.h"
+#include "model/internal.h"
 
 static const char *const tensor_names[P_COUNT] = {
 	"tok_emb", "conv_w", "conv_b", "q_tok", "q_hunk", "fact_w", "fact_b", "ext_emb",

@@ -1,20 +1,23 @@
 /* Training loop: weighted BCE, AdamW, gradient clipping, early stopping on
  * a time-later validation slice, Platt calibration, the two baselines and
- * the refit of the shipped model (DESIGN.md "Model", issue "Train").
+ * the refit of the shipped model (DEVELOPERS.md "Training (train.c)").
  *
  * Determinism: each batch is split into OMEN_TRAIN_CHUNKS fixed chunks
  * whatever the thread count; every chunk has its own gradient buffer and
  * dropout stream (seeded by seed, step and chunk), and the buffers are
  * summed in chunk order (omen_reduce_fixed). So 1 and 2 threads give
- * bit-identical weights. */
+ * bit-identical weights. Data-parallel processes (issue 13) split the same
+ * fixed chunks between them (omen_train_opts.part/parts) and exchange the
+ * chunk gradients before that sum, so any process count gives the weights
+ * of one process too. */
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
 #include <time.h>
 #include <unistd.h>
 #include "omen/error.h"
-#include "omen/eval.h"
-#include "model/model_int.h"
+#include "omen/rank.h"
+#include "model/internal.h"
 
 #define OMEN_TRAIN_CHUNKS 2
 #define MIN_LABELLED 50
@@ -36,6 +39,7 @@ void omen_train_opts_init(omen_train_opts *o)
 	o->test_frac = 0.15;
 	o->refit = 1;
 	o->warm_start = 1;
+	o->warn_share = OMEN_WARN_SHARE_DEFAULT;
 	o->dim = 32;
 	o->channels = 32;
 	{
@@ -64,7 +68,7 @@ typedef struct {
 	const omen_model *m;
 	const omen_dataset *ds;
 	const size_t *idx;
-	int nb, nthreads, train;
+	int nb, nthreads, train, part, parts;
 	float p, pw;
 	uint64_t seed, step;
 	omen_ws ws[OMEN_TRAIN_CHUNKS];
@@ -82,7 +86,7 @@ static void chunk_run(step_ctx *x, int c)
 	omen_ws *w = &x->ws[c];
 	omen_rng rng;
 	x->loss[c] = 0;
-	if (n <= 0)
+	if (n <= 0 || (x->train && x->parts > 1 && c % x->parts != x->part))
 		return;
 	for (i = 0; i < n; i++)
 		x->sp[c][i] = omen_dataset_get(x->ds, x->idx[lo + i]);
@@ -291,7 +295,7 @@ static int fit_lr(omen_logreg *out, const omen_dataset *ds, const size_t *idx, s
  * row the batch uses. Rows a batch does not use keep their moments as they
  * are (the "lazy" Adam of TensorFlow Addons and torch.optim.SparseAdam);
  * embeddings carry no weight decay, so nothing else differs from AdamW. */
-typedef struct { size_t off, n; } seg;
+typedef omen_span seg;
 
 typedef struct {
 	seg *s;
@@ -434,6 +438,8 @@ static int fit(omen_model *m, fit_info *fi, const omen_dataset *ds, const size_t
 	x.p = o->dropout;
 	x.train = 1;
 	x.seed = o->seed;
+	x.part = o->part;
+	x.parts = o->exchange ? o->parts : 1;
 	aw.lr = o->lr;
 	aw.weight_decay = o->weight_decay;
 	memcpy(best, m->params, m->nparams * sizeof(float));
@@ -462,10 +468,13 @@ static int fit(omen_model *m, fit_info *fi, const omen_dataset *ds, const size_t
 			x.step = ++step;
 			if ((e = run_chunks(&x)))
 				goto out;
-			for (c = 0; c < OMEN_TRAIN_CHUNKS; c++)
-				loss += x.loss[c];
 			if ((e = seg_build(&sl, m, ds, x.idx, x.nb, (uint32_t)step)))
 				goto out;
+			if (x.parts > 1 && (e = o->exchange(o->exchange_ctx, x.grad, x.loss,
+					OMEN_TRAIN_CHUNKS, sl.s, sl.n)))
+				goto out;
+			for (c = 0; c < OMEN_TRAIN_CHUNKS; c++)
+				loss += x.loss[c];
 			norm = seg_reduce_clip(g, x.grad, &sl, o->clip);
 			if (!isfinite(loss) || !isfinite(norm)) {
 				e = omen_error_set(OMEN_ERROR, "training diverged at step %zu (epoch %d): "
@@ -518,14 +527,17 @@ out:
 	return e;
 }
 
-/* Platt scaling and the max-F1 threshold of m on idx. */
-static int calibrate(omen_model *m, const omen_dataset *ds, const size_t *idx, size_t n, int threads)
+/* Platt scaling and the threshold (warning budget, calib.c) of m on idx. */
+static int calibrate(omen_model *m, const omen_dataset *ds, const size_t *idx, size_t n, int threads,
+	double share, const size_t *fire_idx, size_t nfire)
 {
-	float *z = malloc((n + 1) * sizeof(float));
+	size_t nz = n > nfire ? n : nfire;
+	float *z = malloc((nz + 1) * sizeof(float));
 	double *f = malloc((n + 1) * sizeof(double)), *p = malloc((n + 1) * sizeof(double));
+	double *q = malloc((nfire + 1) * sizeof(double));
 	int *y = malloc((n + 1) * sizeof(int)), e = 0;
 	size_t i, pos = 0;
-	if (!z || !f || !p || !y) {
+	if (!z || !f || !p || !y || !q) {
 		e = omen_error_set(OMEN_ENOMEM, "out of memory");
 		goto out;
 	}
@@ -548,9 +560,13 @@ static int calibrate(omen_model *m, const omen_dataset *ds, const size_t *idx, s
 	}
 	for (i = 0; i < n; i++)
 		p[i] = omen_platt_apply(m->platt_a, m->platt_b, f[i]);
-	m->threshold = (float)omen_threshold_max_f1(p, y, n);
+	if (nfire && (e = eval_logits(z, m, ds, fire_idx, nfire, threads)))
+		goto out;
+	for (i = 0; i < nfire; i++)
+		q[i] = omen_platt_apply(m->platt_a, m->platt_b, z[i]);
+	e = omen_calib_threshold(m, p, y, n, nfire ? q : NULL, nfire, share);
 out:
-	free(z); free(f); free(p); free(y);
+	free(z); free(f); free(p); free(y); free(q);
 	return e;
 }
 
@@ -603,7 +619,7 @@ static int train_core(omen_model **out, fit_info *fi, const omen_dataset *ds,
 	}
 	if ((e = fit(m, fi, ds, train_idx, n_train, valid_idx, n_valid, o, epochs, report)))
 		goto out;
-	if (n_valid && (e = calibrate(m, ds, valid_idx, n_valid, train_threads(o))))
+	if (n_valid && (e = calibrate(m, ds, valid_idx, n_valid, train_threads(o), o->warn_share, NULL, 0)))
 		goto out;
 	*out = m;
 	m = NULL;
@@ -742,13 +758,31 @@ int omen_model_train(omen_model **out, omen_train_report *rep, const omen_datase
 	slice_scores(&rep->lr_metrics, lrp, lrp, y, ef, n_test);
 	slice_scores(&rep->lines_added, la, NULL, y, ef, n_test);
 	rep->threshold = eval_m->threshold;
+	rep->threshold_f1 = eval_m->threshold_f1;
+	rep->warn_share = o->warn_share;
 	/* 3. shipped model: refit on train+valid for the chosen epoch count,
 	 * calibrated on the test slice it has not seen */
 	if (o->refit) {
 		if ((e = train_core(&m, &fi2, ds, idx, n_train + n_valid, NULL, 0, o,
 				fi.best_epoch > 0 ? fi.best_epoch : 1, 1)))
 			goto out;
-		if ((e = calibrate(m, ds, idx + n_train + n_valid, n_test, threads)))
+		/* the warning budget counts its share on every commit newer than
+		 * the last one this model trained on, labelled or not: the test
+		 * slice and the unlabelled newest commits, what the hook sees
+		 * next (issue 12) */
+		size_t first = idx[n_train + n_valid - 1] + 1, nfire, *fire;
+		if (n - first > OMEN_WARN_FIRE_MAX)
+			first = n - OMEN_WARN_FIRE_MAX;   /* the newest of them */
+		nfire = n - first;
+		if (!(fire = malloc((nfire + 1) * sizeof(size_t)))) {
+			e = omen_error_set(OMEN_ENOMEM, "out of memory");
+			goto out;
+		}
+		for (i = 0; i < nfire; i++)
+			fire[i] = first + i;
+		e = calibrate(m, ds, idx + n_train + n_valid, n_test, threads, o->warn_share, fire, nfire);
+		free(fire);
+		if (e)
 			goto out;
 		omen_model_free(eval_m);
 		eval_m = NULL;
@@ -817,6 +851,11 @@ int omen_model_train(omen_model **out, omen_train_report *rep, const omen_datase
 	cJSON_AddItemToObject(te, "lines_added", scores_json(&rep->lines_added));
 	cJSON_AddNumberToObject(te, "threshold", rep->threshold);
 	cJSON_AddItemToObject(meta, "test", te);
+	{
+		cJSON *dr = omen_drift_ref_json(ds, idx, n_train, OMEN_DRIFT_RECENT);
+		if (dr)
+			cJSON_AddItemToObject(meta, "drift", dr);
+	}
 	m->meta = meta;
 	meta = NULL;
 	*out = m;

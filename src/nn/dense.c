@@ -5,7 +5,7 @@
  * All the arithmetic goes through nn_tile (gemm.c). No allocation: the
  * transposed weight panel for input gradients lives on the stack. */
 #include <string.h>
-#include "nn_internal.h"
+#include "nn/internal.h"
 #include "omen/nn.h"
 
 #define MIN(a, b) ((a) < (b) ? (a) : (b))

@@ -7,7 +7,7 @@
  * never depends on how rows are grouped into tiles or threads. */
 #include <stdlib.h>
 #include <string.h>
-#include "nn_internal.h"
+#include "nn/internal.h"
 #include "omen/nn.h"
 
 #if defined(__x86_64__) && defined(__GNUC__)

@@ -8,7 +8,7 @@
 #include "omen/error.h"
 #include "omen/label.h"
 #include "omen/score.h"
-#include "score/score_int.h"
+#include "score/internal.h"
 
 typedef struct {
 	omen_explanation *x;
@@ -249,7 +249,7 @@ static int neighbours(omen_explanation *x, omen_scorer *s, omen_repo *r, int top
 		nb->distance = cs[i].d;
 		nb->nfixes = lr ? (int)lr->nfixes : 0;
 		nb->summary = "";
-		if (git_oid_fromstr(&oid, sm->id) == 0 && omen_history_subject(&sum, r, &oid) == 0) {
+		if (omen_oid_parse(&oid, sm->id) == 0 && omen_history_subject(&sum, r, &oid) == 0) {
 			char *p = omen_arena_strndup(&x->arena, sum, strlen(sum) > 200 ? 200 : strlen(sum));
 			if (p)
 				nb->summary = p;
@@ -287,7 +287,7 @@ int omen_score_explain(omen_explanation *out, omen_scorer *s, omen_repo *r,
 		return e;
 	if (!cx.seen) {
 		char hex[GIT_OID_HEXSZ + 1];
-		git_oid_tostr(hex, sizeof(hex), id);
+		omen_oid_hex(hex, sizeof(hex), id);
 		return omen_error_set(OMEN_EUSAGE, "cannot explain '%.12s': merge commits are not scored", hex);
 	}
 	/* the result's hunks live in the set: all of them (detail) by weight */

@@ -11,54 +11,20 @@
 #include "omen/error.h"
 #include "omen/score.h"
 
-/* Keep identical to hooks/pre-push (tests/t/hook_install.sh compares them). */
-const char omen_hook_shim[] =
-	"#!/bin/sh\n"
-	"# git-omen pre-push shim\n"
-	"# Installed by 'git omen hook install'. It scores the commits this push would\n"
-	"# send (the scores are advisory) and then runs the pre-push hook that was here\n"
-	"# before, if any: ours first, theirs always. It only stops a push when asked\n"
-	"# to (omen.onRisk=block, omen.onError=block). 'git push --no-verify' skips\n"
-	"# every pre-push hook, this one included.\n"
-	"chained=\"$(dirname \"$0\")/pre-push.omen-chained\"\n"
-	"input=$(mktemp \"${TMPDIR:-/tmp}/omen-push.XXXXXX\" 2>/dev/null) || input=\n"
-	"if [ -z \"$input\" ]; then\n"
-	"	echo \"git omen: cannot make a temporary file; push not checked (advisory)\" >&2\n"
-	"	if [ -x \"$chained\" ]; then exec \"$chained\" \"$@\"; fi\n"
-	"	exit 0\n"
-	"fi\n"
-	"trap 'rm -f \"$input\"' 0\n"
-	"cat >\"$input\"\n"
-	"ours=0\n"
-	"if command -v git-omen >/dev/null 2>&1 || [ -x \"$(git --exec-path 2>/dev/null)/git-omen\" ]; then\n"
-	"	git omen hook run \"$@\" <\"$input\"\n"
-	"	ours=$?\n"
-	"else\n"
-	"	ours=127\n"
-	"fi\n"
-	"case $ours in\n"
-	"0|1) ;;\n"
-	"*)\n"
-	"	if [ \"$ours\" -eq 127 ]; then why=\"git-omen is not on PATH\"; else why=\"the hook failed (exit $ours)\"; fi\n"
-	"	if [ \"$(git config --get omen.onError 2>/dev/null)\" = block ]; then\n"
-	"		echo \"git omen: $why and omen.onError=block: push stopped\" >&2\n"
-	"		ours=1\n"
-	"	else\n"
-	"		echo \"git omen: $why; push not checked (scores are advisory)\" >&2\n"
-	"		ours=0\n"
-	"	fi\n"
-	"	;;\n"
-	"esac\n"
-	"theirs=0\n"
-	"if [ -f \"$chained\" ] && [ -x \"$chained\" ]; then\n"
-	"	\"$chained\" \"$@\" <\"$input\"\n"
-	"	theirs=$?\n"
-	"fi\n"
-	"if [ \"$theirs\" -ne 0 ]; then exit \"$theirs\"; fi\n"
-	"exit \"$ours\"\n"
-;
+/* omen_hook_shim and omen_refresh_shim (the bytes of hooks/pre-push and
+ * hooks/post-merge) are generated at build time: the Makefile's rule for
+ * $(BUILD)/gen/hook_shim.c. The post-merge shim (issue 12) starts a refresh
+ * in the background after a merge or a pull, then runs the hook that was
+ * there before. */
 
-const char *const omen_hook_state_names[4] = {"absent", "installed", "installed, chained", "foreign"};
+typedef struct {
+	const char *name, *chained, *shim, *mark;
+} hook_kind;
+
+static const hook_kind kinds[2] = {
+	{"pre-push", OMEN_HOOK_CHAINED_NAME, omen_hook_shim, "\n" OMEN_HOOK_MARK "\n"},
+	{"post-merge", OMEN_REFRESH_CHAINED_NAME, omen_refresh_shim, "\n" OMEN_REFRESH_MARK "\n"},
+};
 
 static int join(char **out, const char *dir, const char *name)
 {
@@ -119,7 +85,7 @@ static int exists(const char *path)
 
 /* Ours when the mark is one of the first lines (read at most 4 KiB: a
  * foreign hook may be any size, even a binary). */
-static int is_ours(int *out, const char *path)
+static int is_ours(int *out, const char *path, const char *mark)
 {
 	char buf[4097];
 	size_t n;
@@ -132,11 +98,11 @@ static int is_ours(int *out, const char *path)
 	n = fread(buf, 1, sizeof(buf) - 1, fp);
 	fclose(fp);
 	buf[n] = '\0';
-	*out = strstr(buf, "\n" OMEN_HOOK_MARK "\n") != NULL;
+	*out = strstr(buf, mark) != NULL;
 	return 0;
 }
 
-static int state_of(int *out, const char *hook, const char *chained)
+static int state_of(int *out, const char *hook, const char *chained, const char *mark)
 {
 	int e, ours;
 	if ((e = exists(hook)) < 0)
@@ -145,7 +111,7 @@ static int state_of(int *out, const char *hook, const char *chained)
 		*out = OMEN_HOOK_ABSENT;
 		return 0;
 	}
-	if ((e = is_ours(&ours, hook)))
+	if ((e = is_ours(&ours, hook, mark)))
 		return e;
 	if (!ours) {
 		*out = OMEN_HOOK_FOREIGN;
@@ -157,27 +123,28 @@ static int state_of(int *out, const char *hook, const char *chained)
 	return 0;
 }
 
-int omen_hook_status(int *out, const char *dir)
+int omen_hook_status_as(int *out, const char *dir, int kind)
 {
+	const hook_kind *k = &kinds[kind == OMEN_HOOK_KIND_REFRESH];
 	char *hook = NULL, *chained = NULL;
 	int e;
 	*out = OMEN_HOOK_ABSENT;
-	if ((e = join(&hook, dir, "pre-push")) || (e = join(&chained, dir, OMEN_HOOK_CHAINED_NAME)))
+	if ((e = join(&hook, dir, k->name)) || (e = join(&chained, dir, k->chained)))
 		goto out;
-	e = state_of(out, hook, chained);
+	e = state_of(out, hook, chained, k->mark);
 out:
 	free(hook);
 	free(chained);
 	return e;
 }
 
-static int write_shim(const char *hook)
+static int write_shim(const char *hook, const char *shim)
 {
 	omen_atomic_file f;
 	int e;
 	if ((e = omen_atomic_open(&f, hook)))
 		return e;
-	if (fputs(omen_hook_shim, f.fp) == EOF || fchmod(fileno(f.fp), 0755)) {
+	if (fputs(shim, f.fp) == EOF || fchmod(fileno(f.fp), 0755)) {
 		e = omen_error_set(OMEN_EIO, "cannot write hook '%s': %s", hook, strerror(errno));
 		omen_atomic_abort(&f);
 		return e;
@@ -185,14 +152,15 @@ static int write_shim(const char *hook)
 	return omen_atomic_commit(&f);
 }
 
-int omen_hook_install(int *out, const char *dir)
+int omen_hook_install_as(int *out, const char *dir, int kind)
 {
+	const hook_kind *k = &kinds[kind == OMEN_HOOK_KIND_REFRESH];
 	char *hook = NULL, *chained = NULL;
 	int e, st, moved = 0;
 	*out = OMEN_HOOK_ABSENT;
-	if ((e = join(&hook, dir, "pre-push")) || (e = join(&chained, dir, OMEN_HOOK_CHAINED_NAME)))
+	if ((e = join(&hook, dir, k->name)) || (e = join(&chained, dir, k->chained)))
 		goto out;
-	if ((e = omen_mkdirs(dir, 1)) || (e = state_of(&st, hook, chained)))
+	if ((e = omen_mkdirs(dir, 1)) || (e = state_of(&st, hook, chained, k->mark)))
 		goto out;
 	if (st == OMEN_HOOK_FOREIGN) {
 		if ((e = exists(chained)) != 0) {
@@ -208,33 +176,34 @@ int omen_hook_install(int *out, const char *dir)
 		}
 		moved = 1;
 	}
-	if ((e = write_shim(hook))) {
+	if ((e = write_shim(hook, k->shim))) {
 		if (moved && rename(chained, hook) == 0)
 			moved = 0;
 		goto out;
 	}
-	e = state_of(out, hook, chained);
+	e = state_of(out, hook, chained, k->mark);
 out:
 	free(hook);
 	free(chained);
 	return e;
 }
 
-int omen_hook_uninstall(int *out, const char *dir)
+int omen_hook_uninstall_as(int *out, const char *dir, int kind)
 {
+	const hook_kind *k = &kinds[kind == OMEN_HOOK_KIND_REFRESH];
 	char *hook = NULL, *chained = NULL;
 	int e, st;
 	*out = OMEN_HOOK_ABSENT;
-	if ((e = join(&hook, dir, "pre-push")) || (e = join(&chained, dir, OMEN_HOOK_CHAINED_NAME)))
+	if ((e = join(&hook, dir, k->name)) || (e = join(&chained, dir, k->chained)))
 		goto out;
-	if ((e = state_of(&st, hook, chained)))
+	if ((e = state_of(&st, hook, chained, k->mark)))
 		goto out;
 	switch (st) {
 	case OMEN_HOOK_ABSENT:
 		break;
 	case OMEN_HOOK_FOREIGN:
 		*out = st;
-		e = omen_error_set(OMEN_EUSAGE, "pre-push hook '%s' is not omen's: left alone", hook);
+		e = omen_error_set(OMEN_EUSAGE, "%s hook '%s' is not omen's: left alone", k->name, hook);
 		goto out;
 	case OMEN_HOOK_OURS:
 		if (unlink(hook)) {
@@ -258,3 +227,7 @@ out:
 	free(chained);
 	return e;
 }
+
+int omen_hook_status(int *out, const char *dir) { return omen_hook_status_as(out, dir, OMEN_HOOK_KIND_PUSH); }
+int omen_hook_install(int *out, const char *dir) { return omen_hook_install_as(out, dir, OMEN_HOOK_KIND_PUSH); }
+int omen_hook_uninstall(int *out, const char *dir) { return omen_hook_uninstall_as(out, dir, OMEN_HOOK_KIND_PUSH); }

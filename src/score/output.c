@@ -6,7 +6,7 @@
 #include <stdlib.h>
 #include <string.h>
 #include "omen/error.h"
-#include "omen/eval.h"
+#include "omen/rank.h"
 #include "omen/score.h"
 
 const char *const omen_band_names[3] = {"low", "medium", "high"};
@@ -65,74 +65,61 @@ void omen_score_set_free(omen_score_set *s)
 	s->n = s->cap = s->nhunks = s->hunks_cap = 0;
 }
 
-static int put_str(omen_buf *b, const char *s)
-{
-	return omen_buf_put_json_string(b, s ? s : "", s ? strlen(s) : 0);
-}
-
-/* JSON has no NaN or infinity: write null for them. */
-static int put_num(omen_buf *b, double v)
-{
-	if (!isfinite(v))
-		return omen_buf_puts(b, "null");
-	return omen_buf_printf(b, "%.9g", v);   /* round-trips a float */
-}
-
 int omen_score_write_json(omen_buf *out, const omen_score_set *s, const char *model_path)
 {
 	size_t i, j;
-	int e = 0;
-	for (i = 0; i < s->n && !e; i++) {
+	for (i = 0; i < s->n && !omen_buf_error(out); i++) {
 		const omen_score_result *r = &s->v[i];
-		e |= omen_buf_puts(out, "{\"id\":");
-		e |= put_str(out, r->id);
-		e |= omen_buf_puts(out, ",\"staged\":");
-		e |= omen_buf_puts(out, strspn(r->id, "0") == strlen(r->id) ? "true" : "false");
-		e |= omen_buf_puts(out, ",\"summary\":");
-		e |= put_str(out, r->summary);
-		e |= omen_buf_printf(out, ",\"time\":%lld,\"probability\":", (long long)r->time);
-		e |= put_num(out, r->prob);
-		e |= omen_buf_puts(out, ",\"logit\":");
-		e |= put_num(out, r->logit);
-		e |= omen_buf_puts(out, ",\"baseline_probability\":");
-		e |= put_num(out, r->lr_prob);
-		e |= omen_buf_puts(out, ",\"threshold\":");
-		e |= put_num(out, s->threshold);
-		e |= omen_buf_printf(out, ",\"risky\":%s,\"band\":\"%s\",\"is_fix\":%s,\"capped\":%s",
+		omen_buf_puts(out, "{\"id\":");
+		omen_buf_put_json_cstr(out, r->id);
+		omen_buf_puts(out, ",\"staged\":");
+		omen_buf_puts(out, strspn(r->id, "0") == strlen(r->id) ? "true" : "false");
+		omen_buf_puts(out, ",\"summary\":");
+		omen_buf_put_json_cstr(out, r->summary);
+		omen_buf_printf(out, ",\"time\":%lld,\"probability\":", (long long)r->time);
+		omen_buf_put_json_number(out, r->prob, 9);
+		omen_buf_puts(out, ",\"logit\":");
+		omen_buf_put_json_number(out, r->logit, 9);
+		omen_buf_puts(out, ",\"baseline_probability\":");
+		omen_buf_put_json_number(out, r->lr_prob, 9);
+		omen_buf_puts(out, ",\"threshold\":");
+		omen_buf_put_json_number(out, s->threshold, 9);
+		omen_buf_printf(out, ",\"risky\":%s,\"band\":\"%s\",\"is_fix\":%s,\"capped\":%s",
 			r->prob >= s->threshold ? "true" : "false", omen_band_names[r->band],
 			r->is_fix ? "true" : "false", r->capped ? "true" : "false");
-		e |= omen_buf_printf(out, ",\"lines_added\":%d,\"lines_deleted\":%d,\"files\":%d,\"hunks\":%d",
+		omen_buf_printf(out, ",\"lines_added\":%d,\"lines_deleted\":%d,\"files\":%d,\"hunks\":%d",
 			(int)r->la, (int)r->ld, (int)r->nfiles, (int)r->nhunks);
-		e |= omen_buf_puts(out, ",\"metrics\":{");
+		omen_buf_puts(out, ",\"metrics\":{");
 		for (j = 0; j < OMEN_NMETRICS; j++) {
-			e |= omen_buf_printf(out, "%s\"%s\":", j ? "," : "", omen_metric_names[j]);
-			e |= put_num(out, r->metrics[j]);
+			omen_buf_printf(out, "%s\"%s\":", j ? "," : "", omen_metric_names[j]);
+			omen_buf_put_json_number(out, r->metrics[j], 9);
 		}
-		e |= omen_buf_puts(out, "},\"reasons\":[");
+		omen_buf_puts(out, "},\"reasons\":[");
 		for (j = 0; j < (size_t)r->nreasons; j++) {
-			e |= omen_buf_printf(out, "%s{\"kind\":\"%s\",\"text\":", j ? "," : "",
+			omen_buf_printf(out, "%s{\"kind\":\"%s\",\"text\":", j ? "," : "",
 				omen_reason_names[r->reasons[j].kind]);
-			e |= put_str(out, r->reasons[j].text);
-			e |= omen_buf_puts(out, "}");
+			omen_buf_put_json_cstr(out, r->reasons[j].text);
+			omen_buf_puts(out, "}");
 		}
-		e |= omen_buf_puts(out, "],\"top_hunks\":[");
+		omen_buf_puts(out, "],\"top_hunks\":[");
 		for (j = 0; j < r->nhunk_scores; j++) {
 			const omen_hunk_score *h = &s->hunks[r->hunk_off + j];
-			e |= omen_buf_puts(out, j ? ",{\"path\":" : "{\"path\":");
-			e |= put_str(out, h->path);
-			e |= omen_buf_printf(out, ",\"new_start\":%d,\"new_lines\":%d,\"old_start\":%d,"
+			omen_buf_puts(out, j ? ",{\"path\":" : "{\"path\":");
+			omen_buf_put_json_cstr(out, h->path);
+			omen_buf_printf(out, ",\"new_start\":%d,\"new_lines\":%d,\"old_start\":%d,"
 				"\"old_lines\":%d,\"weight\":", (int)h->new_start, (int)h->new_lines,
 				(int)h->old_start, (int)h->old_lines);
-			e |= put_num(out, h->weight);
-			e |= omen_buf_puts(out, ",\"contribution\":");
-			e |= put_num(out, h->contrib);
-			e |= omen_buf_puts(out, "}");
+			omen_buf_put_json_number(out, h->weight, 9);
+			omen_buf_puts(out, ",\"contribution\":");
+			omen_buf_put_json_number(out, h->contrib, 9);
+			omen_buf_puts(out, "}");
 		}
-		e |= omen_buf_puts(out, "],\"model\":");
-		e |= put_str(out, model_path);
-		e |= omen_buf_puts(out, "}\n");
+		omen_buf_puts(out, "],\"model\":");
+		omen_buf_put_json_cstr(out, model_path);
+		omen_buf_puts(out, "}\n");
 	}
-	return e ? omen_error_set(OMEN_ENOMEM, "out of memory") : 0;
+	/* the buffer remembers its first failed append: one check for all */
+	return omen_buf_error(out) ? omen_error_set(OMEN_ENOMEM, "out of memory") : 0;
 }
 
 /* RFC 3986 relative reference: unreserved characters and '/' stay, every
@@ -153,7 +140,7 @@ static int put_uri(omen_buf *b, const char *path)
 		}
 	}
 	if (!e)
-		e = put_str(b, u.ptr ? u.ptr : "");
+		e = omen_buf_put_json_cstr(b, u.ptr ? u.ptr : "");
 	omen_buf_free(&u);
 	return e;
 }
@@ -164,12 +151,12 @@ int omen_score_write_sarif(omen_buf *out, const omen_score_set *s, const char *t
 {
 	size_t i, j, nres = 0;
 	int e = 0;
-	e |= omen_buf_puts(out,
+	omen_buf_puts(out,
 		"{\n  \"$schema\": \"https://json.schemastore.org/sarif-2.1.0.json\",\n"
 		"  \"version\": \"2.1.0\",\n  \"runs\": [\n    {\n      \"tool\": {\n"
 		"        \"driver\": {\n          \"name\": \"git-omen\",\n          \"version\": ");
-	e |= put_str(out, tool_version);
-	e |= omen_buf_puts(out, ",\n          \"rules\": [\n            {\n"
+	omen_buf_put_json_cstr(out, tool_version);
+	omen_buf_puts(out, ",\n          \"rules\": [\n            {\n"
 		"              \"id\": \"" SARIF_RULE "\",\n"
 		"              \"name\": \"RiskyChange\",\n"
 		"              \"shortDescription\": {\"text\": \"A commit that is likely to need a follow-up fix (advisory)\"},\n"
@@ -197,45 +184,63 @@ int omen_score_write_sarif(omen_buf *out, const omen_score_set *s, const char *t
 			end = h->new_lines > 0 ? start + h->new_lines - 1 : start;
 			memcpy(shortid, r->id, 10);
 			shortid[10] = '\0';
-			e |= omen_buf_puts(out, nres ? ",\n        {\n" : "\n        {\n");
-			e |= omen_buf_puts(out, "          \"ruleId\": \"" SARIF_RULE "\",\n"
+			omen_buf_puts(out, nres ? ",\n        {\n" : "\n        {\n");
+			omen_buf_puts(out, "          \"ruleId\": \"" SARIF_RULE "\",\n"
 				"          \"ruleIndex\": 0,\n          \"level\": \"warning\",\n"
 				"          \"message\": {\"text\": ");
 			{
 				omen_buf m = OMEN_BUF_INIT;
-				e |= omen_buf_printf(&m, "commit %s has risk %.2f (%s; threshold %.2f; advisory): "
+				omen_buf_printf(&m, "commit %s has risk %.2f (%s; threshold %.2f; advisory): "
 					"this hunk carries %.0f%% of the model's attention%s%s",
 					strspn(r->id, "0") == strlen(r->id) ? "(staged)" : shortid, r->prob,
 					omen_band_names[r->band], s->threshold, 100.0 * h->weight,
 					r->summary && *r->summary ? " - " : "", r->summary ? r->summary : "");
-				e |= put_str(out, m.ptr);
+				if (!(e = omen_buf_error(&m)))
+					omen_buf_put_json_cstr(out, m.ptr);
 				omen_buf_free(&m);
 			}
-			e |= omen_buf_puts(out, "},\n          \"locations\": [\n            {\n"
+			omen_buf_puts(out, "},\n          \"locations\": [\n            {\n"
 				"              \"physicalLocation\": {\n"
 				"                \"artifactLocation\": {\"uri\": ");
-			e |= put_uri(out, h->path);
-			e |= omen_buf_printf(out, "},\n                \"region\": {\"startLine\": %d, \"endLine\": %d}\n"
+			if (!e)
+				e = put_uri(out, h->path);
+			omen_buf_printf(out, "},\n                \"region\": {\"startLine\": %d, \"endLine\": %d}\n"
 				"              }\n            }\n          ],\n",
 				(int)start, (int)end);
-			e |= omen_buf_puts(out, "          \"partialFingerprints\": {\"omenCommitHunk/v1\": ");
+			omen_buf_puts(out, "          \"partialFingerprints\": {\"omenCommitHunk/v1\": ");
 			{
 				omen_buf fp = OMEN_BUF_INIT;
-				e |= omen_buf_printf(&fp, "%s:%s:%d", r->id, h->path, (int)h->new_start);
-				e |= put_str(out, fp.ptr);
+				omen_buf_printf(&fp, "%s:%s:%d", r->id, h->path, (int)h->new_start);
+				if (!(e = omen_buf_error(&fp)))
+					omen_buf_put_json_cstr(out, fp.ptr);
 				omen_buf_free(&fp);
 			}
-			e |= omen_buf_puts(out, "},\n          \"properties\": {\"commit\": ");
-			e |= put_str(out, r->id);
-			e |= omen_buf_puts(out, ", \"probability\": ");
-			e |= put_num(out, r->prob);
-			e |= omen_buf_puts(out, ", \"attention\": ");
-			e |= put_num(out, h->weight);
-			e |= omen_buf_puts(out, ", \"advisory\": true}\n        }");
+			omen_buf_puts(out, "},\n          \"properties\": {\"commit\": ");
+			omen_buf_put_json_cstr(out, r->id);
+			omen_buf_puts(out, ", \"probability\": ");
+			omen_buf_put_json_number(out, r->prob, 9);
+			omen_buf_puts(out, ", \"attention\": ");
+			omen_buf_put_json_number(out, h->weight, 9);
+			omen_buf_puts(out, ", \"advisory\": true}\n        }");
 			nres++;
 			taken++;
 		}
 	}
-	e |= omen_buf_puts(out, nres ? "\n      ]\n    }\n  ]\n}\n" : "]\n    }\n  ]\n}\n");
-	return e ? omen_error_set(OMEN_ENOMEM, "out of memory") : 0;
+	omen_buf_puts(out, nres ? "\n      ]\n    }\n  ]\n}\n" : "]\n    }\n  ]\n}\n");
+	/* out remembers its first failed append; e holds a failure of the
+	 * message, fingerprint or URI built beside it */
+	return e || omen_buf_error(out) ? omen_error_set(OMEN_ENOMEM, "out of memory") : 0;
+}
+
+const char *omen_warn_rate_text(char *buf, size_t n, double share)
+{
+	if (!(share >= 0))
+		snprintf(buf, n, "an unknown share of commits");
+	else if (share < 0.001)
+		snprintf(buf, n, "almost no commits");
+	else if (share > 0.75)
+		snprintf(buf, n, "almost every commit");
+	else
+		snprintf(buf, n, "about 1 in %.0f commits", 1.0 / share < 2 ? 2 : round(1.0 / share));
+	return buf;
 }

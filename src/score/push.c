@@ -78,7 +78,7 @@ int omen_push_select(git_oid **out, size_t *n, omen_repo *r, const char *remote,
 		if ((e = omen_history_remote_refs(&known, &nknown, r, remote)))
 			goto out;
 		for (j = 0; j < nknown && !e; j++) {
-			git_oid_tostr(hex, sizeof(hex), &known[j]);
+			omen_oid_hex(hex, sizeof(hex), &known[j]);
 			e = strvec_push(&hide, "^", hex);
 		}
 		free(known);
@@ -116,7 +116,7 @@ int omen_score_resolve(git_oid **out, size_t *n, char **out_desc, omen_repo *r,
 		if ((e = omen_history_upstream(&up, r)) == 0) {
 			/* the range is "@{upstream}..HEAD"; walk it by id */
 			hex[0] = '^';
-			git_oid_tostr(hex + 1, sizeof(hex) - 1, &up);
+			omen_oid_hex(hex + 1, sizeof(hex) - 1, &up);
 			if ((e = strvec_push(&revs, hex, NULL)) || (e = strvec_push(&revs, "HEAD", NULL)) ||
 			    (e = omen_buf_puts(&desc, "@{upstream}..HEAD")))
 				goto out;
@@ -154,7 +154,7 @@ int omen_score_resolve(git_oid **out, size_t *n, char **out_desc, omen_repo *r,
 			if ((e = omen_history_resolve(&id, r, revs.v[i])))
 				goto out;
 			for (j = 0; j < k; j++)
-				if (git_oid_equal(&ids[j], &id))
+				if (omen_oid_equal(&ids[j], &id))
 					break;
 			if (j == k)
 				ids[k++] = id;

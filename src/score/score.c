@@ -13,7 +13,7 @@
 #include "omen/error.h"
 #include "omen/label.h"
 #include "omen/score.h"
-#include "score/score_int.h"
+#include "score/internal.h"
 
 struct omen_scorer {
 	omen_repo *repo;
@@ -23,6 +23,10 @@ struct omen_scorer {
 	git_oid head;
 	int head_known;          /* the model's head exists in this repository */
 	float threshold;
+	float medium;            /* lower edge of the medium band */
+	double fires;            /* share of the calibration slice at or over the threshold, NAN unknown */
+	double share;            /* omen.warnShare (or the default) */
+	omen_buf notices;        /* one line each, for the caller to print */
 	omen_caps caps;
 	double mean[OMEN_NMETRICS], scale[OMEN_NMETRICS];
 	int have_std;
@@ -37,6 +41,8 @@ struct omen_scorer {
 
 const omen_model *omen_scorer_model(const omen_scorer *s) { return s->model; }
 float omen_scorer_threshold(const omen_scorer *s) { return s->threshold; }
+double omen_scorer_fires(const omen_scorer *s) { return s->fires; }
+const char *omen_scorer_notices(const omen_scorer *s) { return s->notices.len ? s->notices.ptr : NULL; }
 const char *omen_scorer_model_path(const omen_scorer *s)
 {
 	return s->base_path ? s->base_path : s->model_path;
@@ -178,6 +184,72 @@ missing:
 		s->model_path);
 }
 
+int omen_warn_config(double *share, double *precision, omen_repo *r)
+{
+	double v = NAN;
+	int e;
+	*share = OMEN_WARN_SHARE_DEFAULT;
+	*precision = -1;
+	if ((e = omen_config_double(&v, r, "omen.warnShare")))
+		return e;
+	if (!isnan(v)) {
+		if (!(v > 0 && v < 1))
+			return omen_error_set(OMEN_EINVAL, "bad config value 'omen.warnShare': '%g' is not "
+				"a share between 0 and 1", v);
+		*share = v;
+	}
+	v = NAN;
+	if ((e = omen_config_double(&v, r, "omen.warnPrecision")))
+		return e;
+	if (!isnan(v)) {
+		if (!(v > 0 && v < 1))
+			return omen_error_set(OMEN_EINVAL, "bad config value 'omen.warnPrecision': '%g' is not "
+				"a precision between 0 and 1", v);
+		*precision = v;
+	}
+	return 0;
+}
+
+/* The warning budget (issue 12): unless a threshold was given, the
+ * model's warning curve turns omen.warnShare (or omen.warnPrecision) into
+ * the threshold; the medium band is the next two shares' worth (it fires
+ * on three times the share in all). Without a curve (an older model) the
+ * model's threshold stays and medium starts at half of it. */
+static int warn_budget(omen_scorer *s, omen_repo *r, int explicit_thr)
+{
+	omen_warn_curve wc;
+	omen_warn_choice ch;
+	double prec;
+	int e;
+	s->fires = NAN;
+	s->medium = s->threshold / 2;
+	if ((e = omen_warn_config(&s->share, &prec, r)))
+		return e;
+	if (omen_model_warn_curve(&wc, s->model)) {
+		omen_error_clear();
+		return 0;
+	}
+	if (!explicit_thr) {
+		if ((e = omen_warn_pick(&ch, &wc, s->share, prec)))
+			return e;
+		s->threshold = (float)ch.threshold;
+		if (ch.unmet)
+			omen_buf_printf(&s->notices, "the precision target %g "
+				"(omen.warnPrecision) is out of reach on the model's calibration slice; "
+				"warning on the riskiest %.0f%% of commits instead (precision %.2f there)\n",
+				prec, 100.0 * ch.share, ch.precision);
+	}
+	s->fires = omen_warn_share_at(&wc, s->threshold);
+	{
+		double m3 = 3 * (s->fires > 0 ? s->fires : s->share);
+		if (m3 < 0.99 && omen_warn_pick(&ch, &wc, m3, 0) == 0 && ch.threshold < s->threshold)
+			s->medium = (float)ch.threshold;
+		else
+			omen_error_clear();
+	}
+	return 0;
+}
+
 int omen_scorer_open(omen_scorer **out, omen_repo *r, const omen_score_opts *o)
 {
 	static const omen_score_opts defaults = OMEN_SCORE_OPTS_INIT;
@@ -236,6 +308,8 @@ int omen_scorer_open(omen_scorer **out, omen_repo *r, const omen_score_opts *o)
 			(double)s->threshold);
 		goto out;
 	}
+	if ((e = warn_budget(s, r, o->threshold >= 0 || thr >= 0)))
+		goto out;
 	*out = s;
 	s = NULL;
 out:
@@ -252,12 +326,18 @@ void omen_scorer_free(omen_scorer *s)
 	omen_model_free(s->model);
 	omen_fixrules_free(s->rules);
 	omen_buf_free(&s->state);
+	omen_buf_free(&s->notices);
 	free(s->model_path);
 	free(s->base_path);
 	free(s);
 }
 
 /* A fresh copy of the metrics state at the model's head. */
+static int state_clone(omen_metrics **out, const omen_scorer *s);
+int score_state_clone(omen_metrics **out, const omen_scorer *s) { return state_clone(out, s); }
+const git_oid *score_head(const omen_scorer *s) { return s->head_known ? &s->head : NULL; }
+omen_buf *score_notices(omen_scorer *s) { return &s->notices; }
+
 static int state_clone(omen_metrics **out, const omen_scorer *s)
 {
 	if (!s->state.len)
@@ -486,7 +566,7 @@ static int score_sample(omen_score_set *set, const omen_scorer *s, const omen_ch
 		}
 	}
 	r->band = r->prob >= s->threshold ? OMEN_BAND_HIGH :
-		r->prob >= s->threshold / 2 ? OMEN_BAND_MEDIUM : OMEN_BAND_LOW;
+		r->prob >= s->medium ? OMEN_BAND_MEDIUM : OMEN_BAND_LOW;
 	first = set->nhunks;
 	total = 0;
 	for (h = 0; h < sm.nhunks; h++)
@@ -546,6 +626,7 @@ typedef struct {
 	omen_metrics *state;
 	const git_oid *ids;
 	size_t n;
+	omen_index idx;          /* ids -> position (find_id) */
 	unsigned char *done;
 	omen_sample_buf *sb;
 	omen_explain ex;
@@ -556,13 +637,43 @@ typedef struct {
 	void *payload;
 } walk_ctx;
 
-static int find_id(const git_oid *ids, size_t n, const git_oid *id)
+/* ---- the scored ids: an index, so a replay of the whole history looks each
+ * walked commit up in constant time ------------------------------------------ */
+static uint64_t oid_key_hash(const git_oid *id)
 {
-	size_t i;
-	for (i = 0; i < n; i++)
-		if (git_oid_equal(&ids[i], id))
-			return (int)i;
-	return -1;
+	uint64_t h;
+	memcpy(&h, id->id, sizeof(h));
+	return h;
+}
+
+static uint64_t id_hash(int32_t v, const void *ctx)
+{
+	return oid_key_hash(&((const walk_ctx *)ctx)->ids[v]);
+}
+
+static int id_is(int32_t v, const void *key, const void *ctx)
+{
+	return omen_oid_equal(&((const walk_ctx *)ctx)->ids[v], key);
+}
+
+static const omen_index_ops id_ops = {id_hash, id_is};
+
+/* Indexes w->ids; a repeated id keeps its first position. */
+static int index_ids(walk_ctx *w)
+{
+	for (size_t i = 0; i < w->n; i++) {
+		uint64_t h = oid_key_hash(&w->ids[i]);
+		if (omen_index_find(&w->idx, &w->ids[i], h, &id_ops, w) < 0 &&
+			omen_index_add(&w->idx, (int32_t)i, h, &id_ops, w) < 0)
+			return OMEN_ENOMEM;
+	}
+	return 0;
+}
+
+/* Position of id among the scored ids (its first), else -1. */
+static int find_id(const walk_ctx *w, const git_oid *id)
+{
+	return omen_index_find(&w->idx, id, oid_key_hash(id), &id_ops, w);
 }
 
 static int past_deadline(walk_ctx *w)
@@ -583,7 +694,7 @@ static int on_change(const omen_change *c, void *payload)
 		return e;
 	lr = w->labels ? omen_labels_get(w->labels, c->commit.hex) : NULL;
 	is_fix = lr ? lr->is_fix != 0 : score_is_fix(w->s, &c->commit);
-	k = find_id(w->ids, w->n, &c->commit.id);
+	k = find_id(w, &c->commit.id);
 	if (k >= 0 && !w->done[k]) {
 		omen_sample sm;
 		w->done[k] = 1;
@@ -605,7 +716,7 @@ static int push_hex(char **revs, size_t *nr, const char *prefix, const git_oid *
 	char hex[GIT_OID_HEXSZ + 2];
 	size_t k = strlen(prefix);
 	memcpy(hex, prefix, k);
-	git_oid_tostr(hex + k, sizeof(hex) - k, id);
+	omen_oid_hex(hex + k, sizeof(hex) - k, id);
 	if (!(revs[(*nr)++] = strdup(hex)))
 		return omen_error_set(OMEN_ENOMEM, "out of memory");
 	return 0;
@@ -624,12 +735,8 @@ void score_load_labels(omen_labels **out, omen_repo *r)
 /* Merges are never scored: one left over needs no replay. */
 static int is_merge(omen_repo *r, const git_oid *id)
 {
-	git_commit *c = NULL;
-	int m = 0;
-	if (git_commit_lookup(&c, omen_repo_git(r), id) == 0)
-		m = git_commit_parentcount(c) > 1;
-	git_commit_free(c);
-	return m;
+	size_t np;
+	return omen_history_parent_count(&np, r, id) == 0 && np > 1;
 }
 
 /* 2a. commits of the training history: their samples, built when training
@@ -649,7 +756,7 @@ static int score_cached(walk_ctx *w, const omen_walk_opts *wo)
 	int e = 0, k;
 
 	memset(&dopt, 0, sizeof(dopt));
-	git_oid_tostr(head, sizeof(head), &w->s->head);
+	omen_oid_hex(head, sizeof(head), &w->s->head);
 	dopt.revs = revs;
 	dopt.caps = w->s->caps;
 	dopt.use_cache = 1;
@@ -664,7 +771,7 @@ static int score_cached(walk_ctx *w, const omen_walk_opts *wo)
 	for (i = 0; i < nd && !e; i++) {
 		const omen_sample *sm = omen_dataset_get(ds, i);
 		git_oid id;
-		if (git_oid_fromstr(&id, sm->id) || (k = find_id(w->ids, w->n, &id)) < 0 || w->done[k])
+		if (omen_oid_parse(&id, sm->id) || (k = find_id(w, &id)) < 0 || w->done[k])
 			continue;
 		if ((e = past_deadline(w)) || (e = omen_history_change(&c, w->s->repo, &id, wo)))
 			break;
@@ -704,6 +811,8 @@ int score_walk(omen_score_set *set, omen_scorer *s, const git_oid *ids, size_t n
 		e = omen_error_set(OMEN_ENOMEM, "out of memory");
 		goto out;
 	}
+	if ((e = index_ids(&w)))
+		goto out;
 	if ((e = omen_sample_buf_new(&w.sb)))
 		goto out;
 	/* absent blobs of a partial clone (issue 12): the scored commits' in
@@ -795,6 +904,7 @@ out:
 		free(revs[i]);
 	free(revs);
 	free(w.done);
+	omen_index_free(&w.idx);
 	omen_sample_buf_free(w.sb);
 	omen_metrics_free(w.state);
 	omen_labels_free(w.labels);
@@ -835,10 +945,10 @@ int omen_scorer_staged(omen_score_set *out, omen_scorer *s, const char *msg)
 	have_head = omen_history_resolve(&headid, s->repo, "HEAD") == 0;
 	if (!have_head)
 		omen_error_clear();
-	if (have_head && s->head_known && !git_oid_equal(&headid, &s->head)) {
+	if (have_head && s->head_known && !omen_oid_equal(&headid, &s->head)) {
 		revs[0] = "HEAD";
 		hex[0] = '^';
-		git_oid_tostr(hex + 1, sizeof(hex) - 1, &s->head);
+		omen_oid_hex(hex + 1, sizeof(hex) - 1, &s->head);
 		revs[1] = hex;
 		wo.revs = (const char *const *)revs;
 		if ((e = omen_history_walk(s->repo, &wo, feed_only, &w)))

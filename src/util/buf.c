@@ -1,16 +1,29 @@
 /* Growable buffers, typed arrays and arenas. */
+#include <math.h>
 #include <stdarg.h>
 #include <stdlib.h>
 #include <string.h>
 #include "omen/error.h"
 #include "omen/util.h"
 
+int omen_buf_error(const omen_buf *b) { return b->err; }
+
+/* Records the first error of b and returns it. */
+static int buf_fail(omen_buf *b, int e)
+{
+	if (!b->err)
+		b->err = e;
+	return e;
+}
+
 int omen_buf_grow(omen_buf *b, size_t extra)
 {
 	size_t need = b->len + extra + 1, cap;
 	char *p;
+	if (b->err)
+		return b->err;
 	if (need < b->len)
-		return omen_error_set(OMEN_ENOMEM, "out of memory");
+		return buf_fail(b, omen_error_set(OMEN_ENOMEM, "out of memory"));
 	if (need <= b->cap)
 		return 0;
 	cap = b->cap ? b->cap : 64;
@@ -18,7 +31,7 @@ int omen_buf_grow(omen_buf *b, size_t extra)
 		cap = cap * 2 > cap ? cap * 2 : need;
 	p = realloc(b->ptr, cap);
 	if (!p)
-		return omen_error_set(OMEN_ENOMEM, "out of memory (%zu bytes)", cap);
+		return buf_fail(b, omen_error_set(OMEN_ENOMEM, "out of memory (%zu bytes)", cap));
 	p[b->len] = '\0';  /* keeps "always NUL-terminated" true for a fresh buffer */
 	b->ptr = p;
 	b->cap = cap;
@@ -39,17 +52,24 @@ int omen_buf_put(omen_buf *b, const void *data, size_t n)
 
 int omen_buf_puts(omen_buf *b, const char *s) { return omen_buf_put(b, s, strlen(s)); }
 
+void omen_le_encode(unsigned char *out, uint64_t v, size_t n)
+{
+	for (size_t i = 0; i < n; i++)
+		out[i] = (unsigned char)(v >> (8 * i));
+}
+
 int omen_buf_put_u32le(omen_buf *b, uint32_t v)
 {
-	unsigned char x[4] = {(unsigned char)v, (unsigned char)(v >> 8), (unsigned char)(v >> 16),
-		(unsigned char)(v >> 24)};
+	unsigned char x[4];
+	omen_le_encode(x, v, 4);
 	return omen_buf_put(b, x, 4);
 }
 
 int omen_buf_put_u64le(omen_buf *b, uint64_t v)
 {
-	int e = omen_buf_put_u32le(b, (uint32_t)v);
-	return e ? e : omen_buf_put_u32le(b, (uint32_t)(v >> 32));
+	unsigned char x[8];
+	omen_le_encode(x, v, 8);
+	return omen_buf_put(b, x, 8);
 }
 
 int omen_buf_printf(omen_buf *b, const char *fmt, ...)
@@ -59,8 +79,10 @@ int omen_buf_printf(omen_buf *b, const char *fmt, ...)
 	va_start(ap, fmt);
 	n = vsnprintf(NULL, 0, fmt, ap);
 	va_end(ap);
+	if (b->err)
+		return b->err;
 	if (n < 0)
-		return omen_error_set(OMEN_EINVAL, "bad format");
+		return buf_fail(b, omen_error_set(OMEN_EINVAL, "bad format"));
 	if ((e = omen_buf_grow(b, (size_t)n)))
 		return e;
 	va_start(ap, fmt);
@@ -104,6 +126,18 @@ int omen_utf8_valid(const char *s, size_t n)
 	return 1;
 }
 
+int omen_buf_put_json_cstr(omen_buf *b, const char *s)
+{
+	return omen_buf_put_json_string(b, s ? s : "", s ? strlen(s) : 0);
+}
+
+int omen_buf_put_json_number(omen_buf *b, double v, int digits)
+{
+	if (!isfinite(v))
+		return omen_buf_puts(b, "null");
+	return omen_buf_printf(b, "%.*g", digits, v);
+}
+
 int omen_buf_put_json_string(omen_buf *b, const char *s, size_t n)
 {
 	const unsigned char *p = (const unsigned char *)s;
@@ -131,13 +165,13 @@ int omen_buf_put_json_string(omen_buf *b, const char *s, size_t n)
 	return e ? e : omen_buf_put(b, "\"", 1);
 }
 
-void omen_buf_clear(omen_buf *b) { b->len = 0; if (b->ptr) b->ptr[0] = '\0'; }
-void omen_buf_free(omen_buf *b) { free(b->ptr); b->ptr = NULL; b->len = b->cap = 0; }
+void omen_buf_clear(omen_buf *b) { b->len = 0; b->err = 0; if (b->ptr) b->ptr[0] = '\0'; }
+void omen_buf_free(omen_buf *b) { free(b->ptr); b->ptr = NULL; b->len = b->cap = 0; b->err = 0; }
 char *omen_buf_detach(omen_buf *b)
 {
 	char *p = b->ptr;
 	if (!p) p = calloc(1, 1);
-	b->ptr = NULL; b->len = b->cap = 0;
+	b->ptr = NULL; b->len = b->cap = 0; b->err = 0;
 	return p;
 }
 

@@ -262,33 +262,37 @@ void omen_format_date(char out[16], int64_t t)
 		strcpy(out, "?");
 }
 
+static omen_progress_fn progress_fn;
+static void *progress_payload;
+
+void omen_progress_set_sink(omen_progress_fn fn, void *payload)
+{
+	progress_fn = fn;
+	progress_payload = payload;
+}
+
 void omen_progress_start(omen_progress *p, const char *what, uint64_t total)
 {
 	p->what = what;
 	p->total = total;
 	p->last = 0;
-	p->enabled = isatty(2) && !getenv("OMEN_NO_PROGRESS");
+	p->enabled = progress_fn != NULL;
 }
 
 void omen_progress_update(omen_progress *p, uint64_t done, const char *extra)
 {
 	double t;
-	if (!p->enabled)
+	if (!p->enabled || !progress_fn)
 		return;
 	t = omen_now();
 	if (t - p->last < 0.2 && done != p->total)
 		return;
 	p->last = t;
-	if (p->total)
-		fprintf(stderr, "\r%s: %llu/%llu%s%s\033[K", p->what, (unsigned long long)done,
-			(unsigned long long)p->total, extra ? " " : "", extra ? extra : "");
-	else
-		fprintf(stderr, "\r%s: %llu%s%s\033[K", p->what, (unsigned long long)done,
-			extra ? " " : "", extra ? extra : "");
+	progress_fn(p->what, done, p->total, extra, 0, progress_payload);
 }
 
 void omen_progress_end(omen_progress *p)
 {
-	if (p->enabled)
-		fprintf(stderr, "\r\033[K");
+	if (p->enabled && progress_fn)
+		progress_fn(p->what, 0, p->total, NULL, 1, progress_payload);
 }

@@ -10,7 +10,8 @@
  *   3  the tiny model with the bytes as its metrics-state section
  * Oracles: errors are OMEN_ECORRUPT (or ENOMEM/EINVAL) with a message
  * starting "cannot read model 'fuzz'"; a model that parses saves and loads
- * back with the same parameters, threshold and head.
+ * back with the same parameters, threshold and head; its warning curve, when
+ * the metadata has one that reads, is ordered and usable.
  * Corpus: fixtures/corpora/model/. */
 #include <stdint.h>
 #include <stdio.h>
@@ -19,7 +20,7 @@
 #include <unistd.h>
 #include "omen/error.h"
 #include "omen/model.h"
-#include "model/model_int.h"
+#include "model/internal.h"
 
 static omen_buf base;          /* the tiny model's file image */
 static size_t base_ml;         /* its metadata length */
@@ -127,6 +128,23 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
 		if (!(omen_model_threshold(m) >= 0 && omen_model_threshold(m) <= 1))
 			abort();
 		check_roundtrip(m);
+		{
+			/* the warning curve in the metadata (issue 12): absent, refused,
+			 * or thresholds non-increasing in [0, 1] that a share can pick */
+			omen_warn_curve c;
+			omen_warn_choice ch;
+			int k, we = omen_model_warn_curve(&c, m);
+			if (we && we != OMEN_ENOTFOUND && we != OMEN_ECORRUPT)
+				abort();
+			if (!we) {
+				for (k = 0; k < c.npoints; k++)
+					if (!(c.thr[k] >= 0 && c.thr[k] <= 1) || (k && c.thr[k] > c.thr[k - 1]))
+						abort();
+				if (omen_warn_pick(&ch, &c, 0.1, 0) || !(ch.threshold >= 0 && ch.threshold <= 1))
+					abort();
+			}
+			omen_error_clear();
+		}
 		omen_model_free(m);
 	}
 	omen_buf_free(&img);

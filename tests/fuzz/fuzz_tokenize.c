@@ -10,6 +10,7 @@
 #include <stdint.h>
 #include <stdlib.h>
 #include <string.h>
+#include "omen/features.h"
 #include "omen/history.h"
 
 struct acc {

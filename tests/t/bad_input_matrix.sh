@@ -5,7 +5,7 @@
 # fails. A row whose command is not built yet prints "pending"; a row that
 # cannot run here says why ("skip"). Run by tests/run-shell.sh with $OMEN and
 # $ROOT, in a fresh temporary directory. Expected behaviours come from
-# DESIGN.md, the contracts in include/omen/*.h and the CLI contract:
+# DEVELOPERS.md, the contracts in include/omen/*.h and the CLI contract:
 # one-line errors "git omen: <message>", exit 128 for fatal errors, atomic
 # writes (an interrupted run leaves the old file), advisory locks.
 set -u
@@ -613,6 +613,42 @@ row_bad_config() {
 	fi
 }
 
+# issue 12: a warning budget outside (0, 1) is one line; a refresh while a
+# train holds the lock skips and says so (exit 0: safe from cron)
+row_warn_share() {
+	have score || { report pending "omen.warnShare outside (0, 1)" "score"; return; }
+	[ -n "$model" ] || { report skip "omen.warnShare outside (0, 1)" "no model"; return; }
+	cd "$demo" || return
+	git -c omen.warnShare=1.5 omen score HEAD > /dev/null 2> "$here/ws.err"; rc=$?
+	if [ "$rc" -eq 128 ] && one_line ws "^git omen: error: bad config value 'omen.warnShare': '1.5' is not a share between 0 and 1$"; then
+		report ok "omen.warnShare outside (0, 1)" "128: $(first_err ws | cut -c1-70)"
+	else
+		report FAIL "omen.warnShare outside (0, 1)" "rc=$rc $(first_err ws)"
+	fi
+}
+
+row_refresh_while_train() {
+	have refresh || { report pending "refresh while train runs" "refresh"; return; }
+	[ -n "$model" ] || { report skip "refresh while train runs" "no model"; return; }
+	command -v flock > /dev/null || { report skip "refresh while train runs" "no flock(1)"; return; }
+	cd "$demo" || return
+	"$OMEN" train --epochs 30 --no-cache -o "$here/rt.omen" > /dev/null 2>&1 &
+	pa=$!; pids="$pids $pa"
+	if ! wait_locked .git/omen/train.lock "$pa"; then
+		wait "$pa"
+		report skip "refresh while train runs" "train finished before refresh could start"
+		return
+	fi
+	om rf refresh
+	rcr=$rc
+	wait "$pa"
+	if [ "$rcr" -eq 0 ] && grep -q "skipped: 'git omen train' is running" "$here/rf.out"; then
+		report ok "refresh while train runs" "0: $(head -1 "$here/rf.out" | cut -c1-70)"
+	else
+		report FAIL "refresh while train runs" "rc=$rcr $(head -1 "$here/rf.out") $(first_err rf)"
+	fi
+}
+
 # a corpus shard (issue 11) with a flipped byte in a sample, or cut short:
 # train --base stops with one line naming the shard, writes no model
 row_shard_damaged() {
@@ -643,7 +679,8 @@ row_shard_damaged() {
 t0=$(date +%s)
 for r in shallow empty unborn missing_objects missing_skip promisor_unreachable detached big_file binary_only invalid_utf8 crlf \
          submodule symlink mode_only many_files model_truncated model_flipped label_broken_line \
-         two_trains kill_train kill_label memory_limit bad_config shard_damaged; do
+         two_trains kill_train kill_label memory_limit bad_config warn_share refresh_while_train \
+         shard_damaged; do
 	cd "$here" || exit 1
 	ts=$(date +%s)
 	row_$r

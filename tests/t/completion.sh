@@ -39,10 +39,10 @@ check() { # what, got, want
 	fi
 }
 
-want=$(printf '%s\n' label train score explain eval features hook version help | sort)
+want=$(printf '%s\n' label train score explain eval features hook health refresh version help | sort)
 check "subcommands" "$(comp 'git omen ')" "$want"
 check "prefix 'sc'" "$(comp 'git omen sc')" "score"
-for cmd in label train score explain eval features; do
+for cmd in label train score explain eval features health refresh; do
 	# the long options the --help text lists, "=" after those taking a value
 	want=$("$OMEN" "$cmd" --help | awk '$1 ~ /^-/ { for (i = 1; i <= NF; i++) { t = $i; sub(/,$/, "", t)
 		if (t ~ /^--/) { print t (($(i + 1) ~ /^</) ? "=" : ""); break } else if (t !~ /^-/) break } }' | sort -u)
@@ -52,4 +52,5 @@ check "score --format=" "$(comp 'git omen score --format=')" "$(printf '%s\n' js
 check "score --sort " "$(comp 'git omen score --sort ')" "$(printf '%s\n' history per-line risk)"
 check "features --format " "$(comp 'git omen features --format ')" "$(printf '%s\n' csv json)"
 check "hook actions" "$(comp 'git omen hook ')" "$(printf '%s\n' install run status uninstall)"
+check "hook install --" "$(comp 'git omen hook install --')" "--refresh"
 exit $fail

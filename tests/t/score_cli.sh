@@ -41,16 +41,18 @@ for line in open(sys.argv[1]):
     p, t = o["probability"], o["threshold"]
     assert 0 <= p <= 1 and 0 <= t <= 1
     assert o["risky"] == (p >= t)
-    assert o["band"] == ("high" if p >= t else "medium" if p >= t / 2 else "low")
+    assert (o["band"] == "high") == (p >= t)
     assert 1 <= len(o["reasons"]) <= 2 and all(r["kind"] in ("hunk","large","diffuse","fix-history","metric") for r in o["reasons"])
     assert len(o["top_hunks"]) <= 3
     w = [h["weight"] for h in o["top_hunks"]]
     assert w == sorted(w, reverse=True)
     assert o["model"].endswith("model.omen")
-    rows.append((o["logit"], p))
-# Platt scaling is monotone: ordering by logit orders by probability
+    rows.append((o["logit"], p, ["low", "medium", "high"].index(o["band"])))
+# Platt scaling is monotone: ordering by logit orders by probability, and
+# the bands (cut from the warning curve) follow the probability
 rows.sort()
-assert [p for _, p in rows] == sorted(p for _, p in rows), rows
+assert [p for _, p, _ in rows] == sorted(p for _, p, _ in rows), rows
+assert [b for _, _, b in rows] == sorted(b for _, _, b in rows), rows
 PYEOF
 
 # text: a header, one line per commit, a closing line that says advisory

@@ -18,6 +18,7 @@
 #include <cmocka.h>
 #include "omen/error.h"
 #include "omen/history.h"
+#include "omen/label.h"
 
 struct kv {
 	char k[8][64];

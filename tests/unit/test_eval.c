@@ -371,7 +371,7 @@ static void test_folds_basic(void **state)
 	omen_folds_free(f, nf);
 
 	/* inducing commits inside the verification window are labelled while
-	 * clean ones there are unknown (DESIGN.md "Labels" 4): they must stay
+	 * clean ones there are unknown (DEVELOPERS.md "Labeller", Run): they must stay
 	 * out of every test window, or the last window is nearly all positives */
 	for (i = N - 270; i < N; i += 7)
 		y[i] = 1;

@@ -1,5 +1,5 @@
 /* The metrics baseline (Newton/IRLS logistic regression with L2), Platt
- * scaling and the max-F1 threshold. The scikit-learn comparison lives in
+ * scaling, the max-F1 threshold and the warning curve (issue 12). The scikit-learn comparison lives in
  * tests/ref/logreg_sklearn.py; here: optimality conditions and known cases. */
 #include <stdarg.h>
 #include <stddef.h>
@@ -107,6 +107,65 @@ static void test_threshold_f1(void **state)
 	assert_true(fabs(omen_threshold_max_f1(p, z, 5) - 0.5) < 1e-12);
 }
 
+/* Warning curve on probs {.9 .8 .7 .2 .1}, labels {1 1 0 1 0}: share s
+ * fires on the ceil(5 s) riskiest, so 10% -> {.9} (precision 1, recall
+ * 1/3), 50% -> {.9 .8 .7} (2/3, 2/3), 80% -> four (3/4, 1). Worked by hand. */
+static void test_warn_curve(void **state)
+{
+	double p[5] = {0.9, 0.8, 0.7, 0.2, 0.1}, t[4] = {0.5, 0.5, 0.5, 0.1};
+	int y[5] = {1, 1, 0, 1, 0}, y2[5] = {0, 1, 1, 0, 0}, yt[4] = {1, 0, 0, 0};
+	omen_warn_curve c, c2;
+	omen_warn_choice ch;
+	cJSON *j;
+	int k;
+	(void)state;
+	assert_int_equal(omen_warn_curve_build(&c, p, y, 5), 0);
+	assert_int_equal(c.npoints, OMEN_WARN_POINTS);
+	for (k = 1; k < c.npoints; k++)
+		assert_true(c.thr[k] <= c.thr[k - 1]);
+	assert_int_equal(omen_warn_pick(&ch, &c, 0.10, 0), 0);
+	assert_true(ch.threshold == 0.9 && fabs(ch.share - 0.2) < 1e-12);
+	assert_true(fabs(ch.precision - 1) < 1e-12 && fabs(ch.recall - 1.0 / 3) < 1e-12);
+	assert_int_equal(omen_warn_pick(&ch, &c, 0.5, 0), 0);
+	assert_true(ch.threshold == 0.7 && fabs(ch.share - 0.6) < 1e-12);
+	assert_true(fabs(ch.precision - 2.0 / 3) < 1e-12 && fabs(ch.recall - 2.0 / 3) < 1e-12);
+	/* precision target 0.7: the largest share reaching it is 80% (3/4),
+	 * although 60% (2/3) misses it: precision is not monotone */
+	assert_int_equal(omen_warn_pick(&ch, &c, 0.1, 0.7), 0);
+	assert_true(ch.threshold == 0.2 && !ch.unmet);
+	assert_true(fabs(ch.precision - 0.75) < 1e-12 && fabs(ch.recall - 1) < 1e-12);
+	/* shares outside (0, 1) and impossible precisions are refused */
+	assert_int_equal(omen_warn_pick(&ch, &c, 0, 0), OMEN_EINVAL);
+	assert_int_equal(omen_warn_pick(&ch, &c, 1, 0), OMEN_EINVAL);
+	assert_int_equal(omen_warn_pick(&ch, &c, -0.1, 0), OMEN_EINVAL);
+	assert_int_equal(omen_warn_pick(&ch, &c, NAN, 0), OMEN_EINVAL);
+	assert_int_equal(omen_warn_pick(&ch, &c, 0.1, 1.5), OMEN_EINVAL);
+	/* an explicit threshold: how often it fires */
+	assert_true(fabs(omen_warn_share_at(&c, 0.7) - 0.6) < 1e-12);
+	assert_true(fabs(omen_warn_share_at(&c, 0.75) - 0.4) < 1e-12);
+	assert_true(omen_warn_share_at(&c, 0.95) == 0);
+	/* unmet target: the most precise point (2/3 at three commits), flagged */
+	assert_int_equal(omen_warn_curve_build(&c2, p, y2, 5), 0);
+	assert_int_equal(omen_warn_pick(&ch, &c2, 0.1, 0.99), 0);
+	assert_true(ch.unmet && ch.threshold == 0.7 && fabs(ch.precision - 2.0 / 3) < 1e-12);
+	/* ties fire together: a 25% share of {.5 .5 .5 .1} fires on 75% */
+	assert_int_equal(omen_warn_curve_build(&c2, t, yt, 4), 0);
+	assert_int_equal(omen_warn_pick(&ch, &c2, 0.25, 0), 0);
+	assert_true(ch.threshold == 0.5 && fabs(ch.share - 0.75) < 1e-12);
+	/* the metadata form reads back to the same curve; a broken one is refused */
+	j = omen_warn_curve_json(&c);
+	assert_int_equal(omen_warn_curve_parse(&c2, j), 0);
+	for (k = 0; k < c.npoints; k++)
+		assert_true(c2.thr[k] == c.thr[k] && c2.fired[k] == c.fired[k] &&
+			c2.precision[k] == c.precision[k] && c2.recall[k] == c.recall[k]);
+	cJSON_ReplaceItemInArray(cJSON_GetObjectItemCaseSensitive(j, "threshold"), 3,
+		cJSON_CreateNumber(0.95));   /* no longer non-increasing */
+	assert_int_equal(omen_warn_curve_parse(&c2, j), OMEN_ECORRUPT);
+	assert_int_equal(c2.npoints, 0);
+	cJSON_Delete(j);
+	omen_error_clear();
+}
+
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
@@ -114,6 +173,7 @@ int main(void)
 		cmocka_unit_test(test_logreg_separable),
 		cmocka_unit_test(test_platt_recovers),
 		cmocka_unit_test(test_threshold_f1),
+		cmocka_unit_test(test_warn_curve),
 	};
 	return cmocka_run_group_tests(tests, NULL, NULL);
 }

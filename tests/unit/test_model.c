@@ -13,6 +13,7 @@
 #include <stdlib.h>
 #include <string.h>
 #include <signal.h>
+#include <pthread.h>
 #include <sys/resource.h>
 #include <unistd.h>
 #include <cmocka.h>
@@ -241,6 +242,112 @@ static void test_threads_identical(void **state)
 	synth_free(&x);
 }
 
+/* The data-parallel hook of issue 13 without MPI: two threads train as
+ * parts 0 and 1 of 2, each computing one of the two chunks, and exchange the
+ * chunk gradients and losses through shared memory (what src/util/mpi.c's
+ * MPI_Allreduce does between processes); both get the weights of one
+ * process, bit for bit. */
+typedef struct {
+	pthread_barrier_t bar;
+	float *const *grad[2];
+	float *loss[2];
+	int calls[2];
+} parts_shared;
+
+typedef struct {
+	parts_shared *sh;
+	int part;
+	const omen_dataset *ds;
+	const size_t *idx;
+	omen_model *m;
+	int rc;
+} parts_arg;
+
+static __thread parts_arg *parts_self;
+
+static int parts_exchange(void *ctx, float *const *grad, float *loss, int nchunks,
+	const omen_span *spans, size_t nspans)
+{
+	parts_arg *a = ctx;
+	parts_shared *sh = a->sh;
+	int c, other = 1 - a->part;
+	size_t i;
+	if (a != parts_self || nchunks != 2)
+		return -1;
+	sh->grad[a->part] = grad;
+	sh->loss[a->part] = loss;
+	sh->calls[a->part]++;
+	pthread_barrier_wait(&sh->bar);
+	for (c = 0; c < nchunks; c++) {
+		if (c % 2 != other)
+			continue;
+		for (i = 0; i < nspans; i++)
+			memcpy(grad[c] + spans[i].off, sh->grad[other][c] + spans[i].off,
+				spans[i].n * sizeof(float));
+		loss[c] = sh->loss[other][c];
+	}
+	pthread_barrier_wait(&sh->bar);   /* the owner clears its buffers after this */
+	return 0;
+}
+
+static void *parts_main(void *p)
+{
+	parts_arg *a = p;
+	omen_train_opts o;
+	parts_self = a;
+	small_opts(&o);
+	o.epochs = 2;
+	o.part = a->part;
+	o.parts = 2;
+	o.exchange = parts_exchange;
+	o.exchange_ctx = a;
+	a->rc = omen_model_train_subset(&a->m, a->ds, a->idx, 160, a->idx + 160, 40, &o);
+	return NULL;
+}
+
+static void test_parts_identical(void **state)
+{
+	synth x;
+	omen_dataset *ds;
+	omen_model *one;
+	omen_train_opts o;
+	parts_shared sh;
+	parts_arg arg[2];
+	pthread_t th[2];
+	size_t *idx, i;
+	int k;
+	(void)state;
+	small_opts(&o);
+	o.epochs = 2;
+	synth_make(&x, 200, 4, 1);
+	assert_int_equal(omen_dataset_from_samples(&ds, x.s, x.n), 0);
+	idx = malloc(200 * sizeof(size_t));
+	for (i = 0; i < 200; i++)
+		idx[i] = i;
+	assert_int_equal(omen_model_train_subset(&one, ds, idx, 160, idx + 160, 40, &o), 0);
+	memset(&sh, 0, sizeof(sh));
+	pthread_barrier_init(&sh.bar, NULL, 2);
+	for (k = 0; k < 2; k++) {
+		arg[k] = (parts_arg){&sh, k, ds, idx, NULL, -1};
+		assert_int_equal(pthread_create(&th[k], NULL, parts_main, &arg[k]), 0);
+	}
+	for (k = 0; k < 2; k++)
+		pthread_join(th[k], NULL);
+	pthread_barrier_destroy(&sh.bar);
+	for (k = 0; k < 2; k++) {
+		assert_int_equal(arg[k].rc, 0);
+		/* 160 commits in batches of 32, 2 epochs, plus the refit's steps */
+		assert_true(sh.calls[k] >= 10);
+		assert_memory_equal(omen_model_params(one), omen_model_params(arg[k].m),
+			omen_model_nparams(one) * sizeof(float));
+		omen_model_free(arg[k].m);
+	}
+	free(idx);
+	omen_model_free(one);
+	omen_dataset_free(ds);
+	synth_free(&x);
+}
+
 static void expect_parse_error(const unsigned char *img, size_t n, const char *what)
 {
 	omen_model *m = (omen_model *)1;
@@ -387,6 +494,7 @@ int main(void)
 		cmocka_unit_test(test_file_format),
 		cmocka_unit_test(test_too_few),
 		cmocka_unit_test(test_threads_identical),
+		cmocka_unit_test(test_parts_identical),
 		cmocka_unit_test(test_learns_and_chance),
 	};
 	return cmocka_run_group_tests(tests, NULL, NULL);

@@ -27,7 +27,7 @@
 #include "omen/model.h"
 #include "omen/shard.h"
 #include "omen/util.h"
-#include "model/model_int.h"
+#include "model/internal.h"
 
 #include "git_repo.h"
 

@@ -1,7 +1,7 @@
 /* Unit tests of the code and message tokenizers and the blank/comment line
- * tests (src/history/tokenize.c) on C, Python, JavaScript and Go snippets.
+ * tests (src/features/tokenize.c, src/history/lines.c) on C, Python, JavaScript and Go snippets.
  * Expected token streams are written out by hand from the rules in
- * include/omen/history.h; identifier splitting on camelCase and '_' is
+ * include/omen/features.h and omen/history.h; identifier splitting on camelCase and '_' is
  * common practice in code-token models (e.g. Hellendoorn & Devanbu, FSE 2017). */
 #include <setjmp.h>
 #include <stdarg.h>
@@ -10,6 +10,7 @@
 #include <stdio.h>
 #include <string.h>
 #include <cmocka.h>
+#include "omen/features.h"
 #include "omen/history.h"
 
 typedef struct {

@@ -50,6 +50,123 @@ static void test_buf_basic(void **st)
 
 /* Regression: grow on a fresh buffer must leave "" (util.h: ptr is always
  * NUL-terminated when non-NULL); it returned uninitialised memory. */
+/* ---- index over a caller's items ------------------------------------------- */
+/* Keys are strings in an array; the hash takes only the first byte, so most
+ * keys collide and the probing is what is tested. A linear search over the
+ * same array is the reference. */
+static uint64_t first_byte(const char *s) { return (unsigned char)s[0]; }
+static uint64_t item_hash(int32_t v, const void *ctx) { return first_byte(((char *const *)ctx)[v]); }
+static int item_is(int32_t v, const void *key, const void *ctx)
+{
+	return !strcmp(((char *const *)ctx)[v], key);
+}
+
+static void test_index_find_add(void **st)
+{
+	enum { N = 3000 };
+	static char buf[N][12];
+	static char *keys[N];
+	const omen_index_ops ops = {item_hash, item_is};
+	omen_index x = {NULL, 0, 0};
+	(void)st;
+	assert_int_equal(omen_index_find(&x, "a", 'a', &ops, keys), -1);  /* empty, no table yet */
+	for (int i = 0; i < N; i++) {
+		snprintf(buf[i], sizeof(buf[i]), "%c%d", 'a' + i % 7, i);
+		keys[i] = buf[i];
+		assert_int_equal(omen_index_find(&x, keys[i], first_byte(keys[i]), &ops, keys), -1);
+		assert_int_equal(omen_index_add(&x, i, first_byte(keys[i]), &ops, keys), 0);
+	}
+	assert_int_equal(x.n, N);
+	assert_true(x.cap >= 2 * N);   /* grown through several rehashes, half full at most */
+	for (int i = 0; i < N; i++)
+		assert_int_equal(omen_index_find(&x, keys[i], first_byte(keys[i]), &ops, keys), i);
+	assert_int_equal(omen_index_find(&x, "a-1", 'a', &ops, keys), -1);
+	assert_int_equal(omen_index_find(&x, "z0", 'z', &ops, keys), -1);
+	omen_index_free(&x);
+	omen_index_free(&x);
+	assert_int_equal(omen_index_find(&x, keys[0], 'a', &ops, keys), -1);
+}
+
+/* ---- heap ------------------------------------------------------------------ */
+/* Items are indices into keys; ties broken by index, as the walk does. */
+static int before_key(int32_t a, int32_t b, const void *ctx)
+{
+	const int *k = ctx;
+	return k[a] != k[b] ? k[a] < k[b] : a < b;
+}
+
+static int cmp_key_idx(const void *x, const void *y, const int *k)
+{
+	int32_t a = *(const int32_t *)x, b = *(const int32_t *)y;
+	return before_key(a, b, k) ? -1 : before_key(b, a, k) ? 1 : 0;
+}
+
+static const int *sort_keys;
+static int cmp_sorted(const void *x, const void *y) { return cmp_key_idx(x, y, sort_keys); }
+
+/* Pushing n items and popping them gives the order qsort gives under the
+ * same relation (keys with many ties), with pushes and pops interleaved. */
+static void test_heap_order(void **st)
+{
+	enum { N = 2000 };
+	static int keys[N];
+	static int32_t heap[N], got[N], want[N];
+	size_t hn = 0, k = 0;
+	uint64_t x = 88172645463325252ULL;
+	(void)st;
+	for (int i = 0; i < N; i++) {
+		x ^= x << 13; x ^= x >> 7; x ^= x << 17;   /* xorshift64 */
+		keys[i] = (int)(x % 50);
+		want[i] = i;
+	}
+	sort_keys = keys;
+	qsort(want, N, sizeof(*want), cmp_sorted);
+	for (int i = 0; i < N; i++)
+		omen_heap_push(heap, hn++, i, before_key, keys);
+	while (hn)
+		got[k++] = omen_heap_pop(heap, hn--, before_key, keys);
+	assert_int_equal(k, N);
+	assert_memory_equal(got, want, sizeof(got));
+	/* interleaved: every pop returns the least of what is in the heap */
+	hn = 0;
+	for (int i = 0; i < N; i++) {
+		omen_heap_push(heap, hn++, i, before_key, keys);
+		if (i % 3 == 2) {
+			int32_t top = omen_heap_pop(heap, hn--, before_key, keys);
+			for (size_t j = 0; j < hn; j++)
+				assert_false(before_key(heap[j], top, keys));
+		}
+	}
+}
+
+/* The buffer remembers its first failed append: later appends change
+ * nothing and return the same code, so a writer that checks only at its end
+ * still sees the failure. The failure is a length that wraps size_t (the
+ * overflow guard in omen_buf_grow), which no allocator can meet. */
+static void test_buf_first_error_sticks(void **st)
+{
+	omen_buf b = OMEN_BUF_INIT;
+	(void)st;
+	assert_int_equal(omen_buf_puts(&b, "ab"), 0);
+	assert_int_equal(omen_buf_error(&b), 0);
+	assert_int_equal(omen_buf_put(&b, "x", SIZE_MAX - 2), OMEN_ENOMEM);
+	assert_int_equal(omen_buf_error(&b), OMEN_ENOMEM);
+	assert_int_equal(omen_buf_puts(&b, "cd"), OMEN_ENOMEM);
+	assert_int_equal(omen_buf_printf(&b, "%d", 7), OMEN_ENOMEM);
+	assert_int_equal(omen_buf_put_u32le(&b, 1), OMEN_ENOMEM);
+	assert_int_equal(omen_buf_put_json_string(&b, "e", 1), OMEN_ENOMEM);
+	assert_int_equal(b.len, 2);
+	assert_string_equal(b.ptr, "ab");
+	omen_buf_clear(&b);  /* a cleared buffer starts again */
+	assert_int_equal(omen_buf_error(&b), 0);
+	assert_int_equal(omen_buf_puts(&b, "ok"), 0);
+	assert_string_equal(b.ptr, "ok");
+	assert_int_equal(omen_buf_put(&b, "x", SIZE_MAX - 2), OMEN_ENOMEM);
+	omen_buf_free(&b);
+	assert_int_equal(omen_buf_error(&b), 0);
+	omen_buf_free(&b);
+}
+
 static void test_buf_grow_fresh_is_terminated(void **st)
 {
 	omen_buf b = OMEN_BUF_INIT;
@@ -581,6 +698,9 @@ int main(void)
 {
 	const struct CMUnitTest tests[] = {
 		cmocka_unit_test(test_buf_basic),
+		cmocka_unit_test(test_buf_first_error_sticks),
+		cmocka_unit_test(test_heap_order),
+		cmocka_unit_test(test_index_find_add),
 		cmocka_unit_test(test_buf_grow_fresh_is_terminated),
 		cmocka_unit_test(test_json_string_escapes),
 		cmocka_unit_test(test_json_string_utf8),

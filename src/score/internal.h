@@ -1,6 +1,6 @@
 /* Internal to src/score/: shared by score.c and explain.c. */
-#ifndef OMEN_SCORE_INT_H
-#define OMEN_SCORE_INT_H
+#ifndef OMEN_SCORE_INTERNAL_H
+#define OMEN_SCORE_INTERNAL_H
 
 #include "omen/label.h"
 #include "omen/score.h"
@@ -27,5 +27,11 @@ float score_typical(const omen_scorer *s, int j);
 void score_load_labels(omen_labels **out, omen_repo *r);
 omen_repo *score_repo(const omen_scorer *s);
 void score_set_detail(omen_scorer *s, int detail);
+/* A fresh copy of the metrics state at the model's head (empty without one). */
+int score_state_clone(omen_metrics **out, const omen_scorer *s);
+/* The model's head when it is a commit of this repository, else NULL. */
+const git_oid *score_head(const omen_scorer *s);
+/* The notices omen_scorer_notices returns, for health.c to add to. */
+omen_buf *score_notices(omen_scorer *s);
 
 #endif

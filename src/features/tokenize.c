@@ -1,5 +1,6 @@
-/* Language-agnostic tokenizers for code lines and commit messages, and the
- * blank/comment line tests the labeller uses. Rules (common practice in
+/* Language-agnostic tokenizers for code lines and commit messages (the
+ * blank/comment line tests the labeller uses are in src/history/lines.c,
+ * which also says what a C preprocessor line is). Rules (common practice in
  * code-token models; identifier splitting on camelCase and '_' as in
  * Hellendoorn & Devanbu, "Are deep neural networks the best choice for
  * modeling source code?", FSE 2017):
@@ -16,6 +17,7 @@
  *    one punctuation byte; whitespace and invalid UTF-8 bytes are skipped. */
 #include <ctype.h>
 #include <string.h>
+#include "omen/features.h"
 #include "omen/history.h"
 
 static size_t utf8_len(const unsigned char *s, size_t n)
@@ -176,25 +178,6 @@ static const char *const ops[] = {
 	"*=", "/=", "%=", "&=", "|=", "^=", "**", ":=", "<-", "?.", "??", "&^", NULL
 };
 
-static const char *const cpp_directives[] = {
-	"include", "define", "undef", "if", "ifdef", "ifndef", "elif", "else", "endif", "pragma",
-	"error", "warning", "line", "import", NULL
-};
-
-static int is_directive(const char *s, size_t n)
-{
-	size_t i = 0, k;
-	while (i < n && (s[i] == ' ' || s[i] == '\t'))
-		i++;
-	for (k = 0; cpp_directives[k]; k++) {
-		size_t l = strlen(cpp_directives[k]);
-		if (n - i >= l && !memcmp(s + i, cpp_directives[k], l) &&
-		    (n - i == l || !is_id_char((unsigned char)s[i + l])))
-			return 1;
-	}
-	return 0;
-}
-
 /* End of a quoted literal starting at s[0] == q. */
 static size_t string_len(const char *s, size_t n)
 {
@@ -271,7 +254,7 @@ void omen_tokenize_code(const char *str, size_t n, omen_token_cb cb, void *paylo
 			cb("<comment>", 9, payload);
 			continue;
 		}
-		if (c == '#' && !is_directive(str + i + 1, n - i - 1) &&
+		if (c == '#' && !omen_line_is_directive(str + i + 1, n - i - 1) &&
 		    !(i + 1 < n && (s[i + 1] == '[' || s[i + 1] == '!'))) {
 			while (i < n && s[i] != '\n')
 				i++;
@@ -373,54 +356,4 @@ void omen_tokenize_message(const char *str, size_t n, omen_token_cb cb, void *pa
 			}
 		}
 	}
-}
-
-/* ---- line classes -------------------------------------------------------- */
-int omen_line_is_blank(const char *s, size_t n)
-{
-	for (size_t i = 0; i < n; i++)
-		if (!strchr(" \t\r\n\v\f", s[i]) || !s[i])
-			return 0;
-	return 1;
-}
-
-/* A comment-only line in the common syntaxes: //, #, /ASTERISK, a leading
- * ASTERISK of a block comment's continuation, --, ;, % and <!--. Lines such
- * as "#include", "*p = 1;" and "--i;" are code. */
-int omen_line_is_comment(const char *str, size_t n)
-{
-	const unsigned char *s = (const unsigned char *)str;
-	size_t i = 0;
-	while (i < n && (s[i] == ' ' || s[i] == '\t'))
-		i++;
-	if (i >= n)
-		return 0;
-	{
-		const char *p = str + i;
-		size_t m = n - i;
-		unsigned nx = m > 1 ? s[i + 1] : 0;
-		int nx_blank = m == 1 || nx == ' ' || nx == '\t' || nx == '\r';
-		if (m >= 2 && p[0] == '/' && p[1] == '/')
-			return 1;
-		if (m >= 4 && !memcmp(p, "<!--", 4))
-			return 1;
-		if (m >= 2 && p[0] == '/' && p[1] == '*') {
-			/* only a comment when nothing but blanks follows its end */
-			for (size_t j = 2; j + 1 < m; j++)
-				if (p[j] == '*' && p[j + 1] == '/')
-					return omen_line_is_blank(p + j + 2, m - j - 2);
-			return 1;
-		}
-		if (p[0] == '#')
-			return !is_directive(p + 1, m - 1) && !(m >= 2 && (p[1] == '!' || p[1] == '['));
-		if (p[0] == '*')
-			return nx_blank || nx == '*' || nx == '/';
-		if (m >= 2 && p[0] == '-' && p[1] == '-')
-			return m == 2 || p[2] == ' ' || p[2] == '\t' || p[2] == '-' || p[2] == '\r';
-		if (p[0] == ';')
-			return m >= 2 && (nx == ' ' || nx == ';' || nx == '\t');
-		if (p[0] == '%')
-			return nx_blank || nx == '%';
-	}
-	return 0;
 }

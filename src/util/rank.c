@@ -15,7 +15,8 @@
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
-#include "omen/eval.h"
+#include "omen/rank.h"
+#include "omen/util.h"
 #include "omen/error.h"
 
 /* ---- sorting --------------------------------------------------------------- */
@@ -102,17 +103,21 @@ double omen_auc(const double *score, const int *y, size_t n)
 	return r;
 }
 
-static int cmp_double(const void *a, const void *b)
+int omen_cmp_double(const void *a, const void *b)
 {
 	double x = *(const double *)a, y = *(const double *)b;
 	return (x > y) - (x < y);
 }
 
-/* numpy.percentile's default (linear between order statistics) */
-static double percentile_sorted(const double *v, size_t n, double q)
+double omen_quantile_sorted(const double *v, size_t n, double q)
 {
-	double pos = q * (double)(n - 1), f = floor(pos);
-	size_t lo = (size_t)f;
+	double pos, f;
+	size_t lo;
+	if (!n)
+		return 0;
+	pos = q * (double)(n - 1);
+	f = floor(pos);
+	lo = (size_t)f;
 	if (lo + 1 >= n)
 		return v[n - 1];
 	return v[lo] + (pos - f) * (v[lo + 1] - v[lo]);
@@ -176,9 +181,9 @@ int omen_auc_bootstrap(double *out_lo, double *out_hi, const double *score,
 			aucs[got++] = sum / (pt * nt);
 	}
 	if (got > 0) {
-		qsort(aucs, got, sizeof(*aucs), cmp_double);
-		*out_lo = percentile_sorted(aucs, got, 0.025);
-		*out_hi = percentile_sorted(aucs, got, 0.975);
+		qsort(aucs, got, sizeof(*aucs), omen_cmp_double);
+		*out_lo = omen_quantile_sorted(aucs, got, 0.025);
+		*out_hi = omen_quantile_sorted(aucs, got, 0.975);
 	}
 out:
 	free(ord);
@@ -375,4 +380,17 @@ size_t omen_roc_curve(double *out_fpr, double *out_tpr, const double *score,
 	}
 	free(ord);
 	return k;
+}
+
+/* ---- population stability index -------------------------------------------- */
+double omen_psi(const double *expected, const double *actual, int k)
+{
+	double psi = 0;
+	int i;
+	for (i = 0; i < k; i++) {
+		double e = expected[i] > 1e-4 ? expected[i] : 1e-4;
+		double a = actual[i] > 1e-4 ? actual[i] : 1e-4;
+		psi += (a - e) * log(a / e);
+	}
+	return psi;
 }

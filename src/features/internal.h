@@ -1,6 +1,6 @@
 /* Internals shared by sample.c and dataset.c. */
-#ifndef OMEN_SAMPLE_INT_H
-#define OMEN_SAMPLE_INT_H
+#ifndef OMEN_FEATURES_INTERNAL_H
+#define OMEN_FEATURES_INTERNAL_H
 
 #include "omen/features.h"
 
@@ -14,11 +14,11 @@ struct omen_sample_buf {
 	int32_t *hs; size_t hs_cap;          /* [nhunks*4] new start, new lines, old start, old lines */
 	size_t *paths; size_t paths_cap;     /* offsets into names */
 	int32_t *order; size_t order_cap;    /* kept file -> index in the change */
-	char **keep; size_t keep_cap;        /* path pointers */
-	int32_t *hunk_new_start; size_t hcols_cap;
-	int32_t *hunk_new_lines; size_t hcols_cap2;
-	int32_t *hunk_old_start; size_t hcols_cap3;
-	int32_t *hunk_old_lines; size_t hcols_cap4;
+	char **path_ptr; size_t path_ptr_cap;    /* file paths (pointers into names), kept file order */
+	int32_t *hunk_new_start; size_t hunk_new_start_cap;
+	int32_t *hunk_new_lines; size_t hunk_new_lines_cap;
+	int32_t *hunk_old_start; size_t hunk_old_start_cap;
+	int32_t *hunk_old_lines; size_t hunk_old_lines_cap;
 	omen_buf names;
 	int32_t nfiles, nhunks, ntok, nmsg;
 };

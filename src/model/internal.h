@@ -1,7 +1,7 @@
 /* Internals of src/model/: the model struct, its parameter table and the
  * per-chunk workspace of the forward/backward pass. */
-#ifndef OMEN_MODEL_INT_H
-#define OMEN_MODEL_INT_H
+#ifndef OMEN_MODEL_INTERNAL_H
+#define OMEN_MODEL_INTERNAL_H
 
 #include <math.h>
 #include "omen/model.h"
@@ -66,6 +66,8 @@ struct omen_model {
 	float fact_mean[OMEN_MODEL_NFN], fact_scale[OMEN_MODEL_NFN];
 	double platt_a, platt_b;
 	float threshold;
+	float threshold_f1;      /* max F1 on the calibration slice (reference) */
+	omen_warn_curve warn;    /* npoints 0 after a load: it lives in meta */
 	omen_caps caps;
 	omen_logreg lr;          /* metrics baseline (p = 0 when absent) */
 	cJSON *meta;
@@ -73,6 +75,14 @@ struct omen_model {
 	omen_buf mstate_blob;    /* its serialised bytes */
 	char head[OMEN_OID_HEX + 1];
 };
+
+/* The threshold from the calibrated probabilities p of the calibration
+ * slice (calib.c): the warning curve, the threshold firing on share of the
+ * firing slice (fire, nfire: the newest commits of the history, whatever
+ * their label; NULL = the calibration slice), precision and recall on the
+ * calibration slice, and the max-F1 threshold for reference. */
+int omen_calib_threshold(omen_model *m, const double *p, const int *y, size_t n,
+	const double *fire, size_t nfire, double share);
 
 /* Builds the parameter table for the dims already set in m and allocates
  * the (zeroed) block. */

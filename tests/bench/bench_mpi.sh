@@ -1,0 +1,58 @@
+#!/bin/sh
+# Strong scaling of data-parallel training under Open MPI (issue 13) on the
+# invented demo history (fixtures/demo/gen.py --commits 3000), or the
+# repository in $OMEN_BENCH_REPO: one process with 1 thread (the reference,
+# measured in the same run), one process with 2 threads (the shared-memory
+# path), and `mpirun -np 2` with 1 thread per rank. Prints wall and CPU
+# seconds (the machine may be shared: CPU time is the steadier figure), the
+# throughput ratios against the reference, the share of each rank's time
+# spent in MPI_Allreduce (waiting for the slower rank included), and the peak
+# RSS per process. Asserts nothing about time; never in `make check`.
+# Needs OMEN_MPI (a build with -DOMEN_MPI: make MPI=1, or make mpi-check's
+# build/mpi-test/git-omen).
+set -e
+[ -n "$OMEN_MPI" ] || { echo "bench_mpi.sh: set OMEN_MPI (a git-omen built with MPI=1)"; exit 1; }
+root=$(cd "$(dirname "$0")/../.." && pwd)
+tmp=$(mktemp -d)
+trap 'rm -rf "$tmp"' EXIT
+export OMPI_ALLOW_RUN_AS_ROOT=1 OMPI_ALLOW_RUN_AS_ROOT_CONFIRM=1
+EPOCHS=${EPOCHS:-4}
+if [ -n "$OMEN_BENCH_REPO" ]; then
+	cd "$OMEN_BENCH_REPO"
+else
+	/usr/bin/python3 "$root/fixtures/demo/gen.py" --seed 7 --commits "${COMMITS:-3000}" --years 6 \
+		--out "$tmp/repo" --quiet
+	cd "$tmp/repo"
+	"$OMEN_MPI" label >/dev/null
+fi
+"$OMEN_MPI" train --epochs 1 --model "$tmp/warm.omen" >/dev/null 2>&1   # dataset cache
+run() { # name, command...: wall s, user+sys s (children), peak RSS kB
+	name=$1; shift
+	/usr/bin/time -f "%e %U %S %M" -o "$tmp/$name.time" "$@" >/dev/null 2>"$tmp/$name.err" ||
+		{ cat "$tmp/$name.err"; exit 1; }
+}
+run t1 "$OMEN_MPI" train --epochs "$EPOCHS" --threads 1 --model "$tmp/t1.omen"
+run t2 "$OMEN_MPI" train --epochs "$EPOCHS" --threads 2 --model "$tmp/t2.omen"
+OMEN_MPI_LOG=1 run np2 mpirun -q -np 2 "$OMEN_MPI" train --epochs "$EPOCHS" --threads 1 \
+	--model "$tmp/np2.omen"
+/usr/bin/python3 "$root/tests/mpi/cmp_models.py" "$tmp/t1.omen" "$tmp/np2.omen" 0
+/usr/bin/python3 - "$tmp" <<'PY'
+import re, sys
+d = sys.argv[1]
+def t(n):
+    w, u, s, m = open("%s/%s.time" % (d, n)).read().split()[-4:]
+    return float(w), float(u) + float(s), int(m)
+ref = t("t1")
+for name, what in (("t1", "1 process, 1 thread (reference)"), ("t2", "1 process, 2 threads"),
+                   ("np2", "mpirun -np 2, 1 thread each")):
+    w, c, m = t(name)
+    print("%-34s wall %6.2f s  cpu %6.2f s  speed-up %.2fx  peak RSS %s" %
+          (what, w, c, ref[0] / w, "%.0f MB" % (m / 1024) + (" (largest process)" if name == "np2" else "")))
+for line in open("%s/np2.err" % d):
+    m = re.search(r"rank (\d+) of 2: (\d+) gradient exchanges of ([\d.]+) MiB in all, ([\d.]+) s "
+                  r"in MPI_Allreduce of ([\d.]+) s", line)
+    if m:
+        r, n, mib, xs, tot = m.groups()
+        print("rank %s: %s exchanges, %.2f MiB each, MPI_Allreduce %.1f%% of the rank's time" %
+              (r, n, float(mib) / max(1, int(n)), 100 * float(xs) / float(tot)))
+PY
