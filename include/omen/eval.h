@@ -22,16 +22,19 @@ typedef struct {
 	int folds;            /* test windows (default 5) */
 	int64_t fold_days;    /* width of a test window (0 = auto: half of the
 	                         labelled span shared among the folds, >= 7) */
-	int64_t gap_days;     /* between training and test (default OMEN_WINDOW_DAYS:
-	                         the verification window) */
+	int64_t gap_days;     /* between training and test (-1, the default: the
+	                         window of the labels' rule, see clock; OMEN_WINDOW_DAYS
+	                         without one) */
 	size_t min_train;     /* labelled training commits required (default 100) */
 	double valid_frac;    /* newest share of the training commits used for
 	                         validation and threshold choice (default 0.15) */
-	const int64_t *label_known;  /* optional, per commit: when its label became
-	                         known (an inducing commit: its first fix's time;
-	                         else INT64_MIN). A training commit whose label
-	                         was not yet known at the fold's test start is
-	                         left out of that fold's training. */
+	int64_t test_end;     /* end of the newest test window (0 = auto: just after
+	                         the newest clean commit); pinned, the folds do not
+	                         move when labels newer than a cut change */
+	const omen_label_clock *clock;  /* optional, same commits and order: the
+	                         training and validation rows of a fold are labelled
+	                         as known at its test start (omen_label_at); without
+	                         it every label counts as known at every time */
 } omen_fold_opts;
 void omen_fold_opts_init(omen_fold_opts *o);
 
@@ -41,16 +44,22 @@ typedef struct {
 	size_t *train_idx; size_t n_train;  /* oldest first, validation excluded */
 	size_t *valid_idx; size_t n_valid;
 	size_t *test_idx;  size_t n_test;
-	size_t pos_train, pos_valid, pos_test;
-	size_t n_late;        /* inducing commits left out: fixed only after test_start */
+	size_t pos_train, pos_valid, pos_test;   /* train, valid: as known at the cut */
+	size_t n_late;        /* training or validation commits inducing now but
+	                         clean at test_start (fixed only later): kept, as clean */
+	int8_t *label_at_cut; /* [n] every commit's label as known at test_start;
+	                         training and validation read their labels here */
+	int64_t labels_known; /* that time (= test_start) */
 } omen_fold;
 
-/* Builds the folds over n commits (time[i], label[i] in {-1,0,1}; index
- * order is the dataset's). Test windows tile the newest part of the
- * labelled history, oldest fold first, and end at the newest clean commit
- * (newer labelled commits are inducing ones inside the verification
- * window, where clean ones are still unknown: they are left out). Too short a history: OMEN_EINVAL
- * with the numbers. */
+/* Builds the folds over n commits (time[i], label[i] in {-1,0,1} as known
+ * now; index order is the dataset's). Test windows tile the newest part of
+ * the labelled history, oldest fold first, and end at the newest clean
+ * commit (newer labelled commits are inducing ones inside the verification
+ * window, where clean ones are still unknown: they are left out). Test
+ * labels are label[]; training and validation take the commits older than
+ * test_start - gap that are labelled as known at test_start (o->clock),
+ * with those labels. Too short a history: OMEN_EINVAL with the numbers. */
 int omen_folds_build(omen_fold **out, size_t *out_n, const int64_t *time,
 	const int8_t *label, size_t n, const omen_fold_opts *o);
 void omen_folds_free(omen_fold *f, size_t n);
@@ -103,6 +112,28 @@ typedef struct {
 	omen_method_scores m[OMEN_EV_NMETHODS];
 } omen_fold_result;
 
+/* Mean, sample standard deviation (n - 1) and range of one figure over
+ * seeds; n counts the seeds where it was defined. */
+typedef struct {
+	double mean, sd, min, max;
+	size_t n;
+} omen_spread;
+
+/* The pooled figures of every method over several seeds (eval --seeds). */
+enum {
+	OMEN_SPREAD_AUC, OMEN_SPREAD_AP, OMEN_SPREAD_BRIER, OMEN_SPREAD_ECE, OMEN_SPREAD_F1,
+	OMEN_SPREAD_R20, OMEN_SPREAD_POPT, OMEN_SPREAD_N
+};
+extern const char *const omen_spread_names[OMEN_SPREAD_N];
+typedef struct {
+	int n;                        /* seeds run; <= 1: no summary */
+	uint64_t first;               /* training seed of the first run (then +1, +2 ...) */
+	omen_spread m[OMEN_EV_NMETHODS][OMEN_SPREAD_N];
+} omen_seed_summary;
+/* Folds the pooled figures of n results (one per seed) into out. */
+void omen_seed_summarize(omen_seed_summary *out, const omen_method_scores (*pooled)[OMEN_EV_NMETHODS],
+	int n);
+
 typedef struct {
 	omen_fold_result *folds;
 	size_t nfolds;
@@ -114,6 +145,8 @@ typedef struct {
 	int64_t gap_days, fold_days;
 	size_t n_commits, n_labelled;
 	omen_buf notes;               /* warnings, one per line */
+	omen_seed_summary seeds;      /* eval --seeds N > 1: pooled figures over N seeds
+	                                 (the rest of the result is the first seed's) */
 } omen_eval_result;
 
 /* Allocates the per-commit arrays of fold k for n test commits. */
@@ -137,7 +170,9 @@ typedef struct {
 	omen_train_opts train;        /* per-fold training settings */
 	int bootstrap;                /* AUC resamples (default 1000) */
 	uint64_t seed;                /* bootstrap seed (default OMEN_SEED_DEFAULT) */
-	const char *labels_path;      /* for label_known (NULL: every label counts as known) */
+	const char *labels_path;      /* for the label clock (NULL: every label counts as
+	                                 known at every time) */
+	int seeds;                    /* runs over seeds seed, seed+1, ... (default 1) */
 	const char *const *effort_exclude;   /* NULL = omen_effort_exclude_default */
 	size_t n_effort_exclude;
 	int top_risky;                /* riskiest test commits kept (default 10) */
@@ -153,14 +188,18 @@ void omen_eval_opts_init(omen_eval_opts *o);
 double omen_sample_effort(const omen_sample *s, const char *const *patterns, size_t npat,
 	int *out_partial, int *out_excluded);
 
-/* Per dataset commit, when its label became known (see label_known):
- * the author time of the earliest fix that traced to it, from the label
- * file; INT64_MIN for clean or unknown commits. */
-int omen_eval_label_times(int64_t **out, const omen_dataset *ds, const char *labels_path);
+/* The label clock of ds (omen_label_at's inputs per dataset commit): its
+ * time and label, and the author time of the earliest fix that traced to
+ * it from the label file, with the file's window and horizon. labels_path
+ * NULL: every label counts as known at every time (first_fix INT64_MIN for
+ * inducing commits), window 90 days. */
+int omen_label_clock_load(omen_label_clock *out, const omen_dataset *ds, const char *labels_path);
 
 /* Builds the folds over ds, trains the model (and its baselines) per fold
  * with omen_model_train_subset, scores each test window and fills out (free
- * with omen_eval_result_free, also on error). */
+ * with omen_eval_result_free, also on error). With o->seeds N > 1 the whole
+ * evaluation runs again with training and bootstrap seeds +1 .. +N-1; out
+ * is the first run, with out->seeds summarising the N pooled results. */
 int omen_eval_run(omen_eval_result *out, const omen_dataset *ds, const omen_eval_opts *o);
 
 #endif

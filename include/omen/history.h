@@ -28,15 +28,64 @@ int omen_repo_is_shallow(omen_repo *r);
 int omen_repo_omen_path(char **out, omen_repo *r, const char *name);
 
 /* ---- configuration (git config section "omen") --------------------------
- * Looks in GIT_CONFIG_PARAMETERS first (what `git -c k=v` sets; libgit2
- * does not read it), then the repository's config stack. Key names are
- * case-insensitive as in git ("omen.maxFixFiles"). Missing key: returns 0
- * and leaves *out at the caller's default. Bad value: OMEN_EINVAL with
- * "bad config value 'omen.x': 'y' is not an integer". */
-int omen_config_string(char **out, omen_repo *r, const char *key); /* malloc'd or untouched */
-int omen_config_int(int64_t *out, omen_repo *r, const char *key);  /* accepts k/m/g suffixes */
-int omen_config_bool(int *out, omen_repo *r, const char *key);
-int omen_config_double(double *out, omen_repo *r, const char *key);
+ * Settings are read once per opened repository the way git reads them:
+ * through `git config` itself when git runs (every file, includeIf,
+ * GIT_CONFIG_GLOBAL/SYSTEM, GIT_CONFIG_COUNT/KEY_n/VALUE_n, `git -c`), else
+ * from libgit2's config stack with GIT_CONFIG_COUNT and
+ * GIT_CONFIG_PARAMETERS on top. Without a repository (r NULL) only those two
+ * environment sources count. Key names are case-insensitive as in git
+ * ("omen.maxFixFiles"). Missing key: returns 0 and leaves *out at the
+ * caller's default. Every key is a row of the settings table, which gives
+ * its kind and bounds; a bad value is OMEN_EINVAL with the value as written:
+ * "bad config value 'omen.window': '-5' is not a number of days from 0 to
+ * 100000". A key not in the table, or read as another kind, is OMEN_EUSAGE. */
+typedef enum {
+	OMEN_SETTING_TEXT,    /* any text: paths, patterns, lists */
+	OMEN_SETTING_INT,     /* git's integer (k, m, g suffixes) within [min, max] */
+	OMEN_SETTING_PROB,    /* a number from 0 to 1 (-0 read as 0) */
+	OMEN_SETTING_SHARE,   /* a number strictly between 0 and 1 */
+	OMEN_SETTING_CHOICE,  /* exactly one of choices */
+	OMEN_SETTING_BOOL     /* git's boolean words; a key without a value is true */
+} omen_setting_kind;
+
+typedef struct {
+	const char *key;             /* as documented: "omen.maxBlobBytes" */
+	omen_setting_kind kind;
+	int64_t min, max;            /* OMEN_SETTING_INT: inclusive bounds */
+	const char *const *choices;  /* OMEN_SETTING_CHOICE: NULL-terminated */
+	const char *what;            /* the rule in words: "'x' is not <what>" */
+	const char *def;             /* the default in words */
+} omen_setting;
+
+typedef struct {
+	const char *text;  /* as given (NULL: a key without a value) */
+	int64_t i;         /* INT, BOOL (0 or 1) */
+	double d;          /* PROB, SHARE */
+	int choice;        /* CHOICE: index into choices */
+} omen_setting_value;
+
+/* Bounds shared with the command-line options of the same meaning. */
+#define OMEN_WINDOW_MAX_DAYS 100000         /* omen.window, --window */
+#define OMEN_THREADS_MAX 64                 /* omen.threads, --threads */
+#define OMEN_HOOK_TIMEOUT_MAX_MS 3600000    /* omen.hookTimeout: one hour */
+
+const omen_setting *omen_settings_table(size_t *n);
+const omen_setting *omen_setting_find(const char *key);  /* NULL when not a row */
+/* Checks text against s's kind and bounds; the error names s->key. */
+int omen_setting_parse(omen_setting_value *out, const omen_setting *s, const char *text);
+
+int omen_config_string(char **out, omen_repo *r, const char *key); /* TEXT or CHOICE; malloc'd or untouched */
+/* (omen_config_string also reads a git key outside "omen." that is not a
+ * row, such as remote.<name>.url: the environment's pairs, then libgit2's
+ * stack, unchecked) */
+int omen_config_int(int64_t *out, omen_repo *r, const char *key);  /* INT */
+int omen_config_bool(int *out, omen_repo *r, const char *key);     /* BOOL */
+int omen_config_double(double *out, omen_repo *r, const char *key); /* PROB or SHARE */
+int omen_config_choice(int *out, omen_repo *r, const char *key);   /* CHOICE: the index */
+/* The omen.* keys set for r (any source) that are not rows of the table,
+ * each name once: typos such as omen.onRsik, which git and the typed reads
+ * ignore. Start with *pos = 0; NULL when there are no more. */
+const char *omen_config_next_unknown(omen_repo *r, size_t *pos);
 /* Parses GIT_CONFIG_PARAMETERS text (exposed for the fuzz target):
  * calls cb for every key=value pair; returns OMEN_EINVAL on bad quoting. */
 int omen_config_parse_params(const char *text,
@@ -251,6 +300,18 @@ int omen_history_resolve(git_oid *out, omen_repo *r, const char *spec);
  * skipped, and a remote without refs gives *n = 0. *out malloc'd (NULL when
  * none). Only running out of memory fails (OMEN_ENOMEM). */
 int omen_history_remote_refs(git_oid **out, size_t *n, omen_repo *r, const char *remote);
+/* The same for every remote-tracking ref (refs/remotes/STAR). */
+int omen_history_tracking_refs(git_oid **out, size_t *n, omen_repo *r);
+/* The same for every ref but those named in except (full names such as
+ * "refs/heads/main"; NULL entries ignored). */
+int omen_history_other_refs(git_oid **out, size_t *n, omen_repo *r, const char *const *except,
+	size_t nexcept);
+/* What `git ls-remote -- <url>` lists, as the local commits those ids name
+ * (ids not in this repository are dropped), asked of git with
+ * GIT_TERMINAL_PROMPT=0 and killed after timeout_ms (> 0): OMEN_ELIMIT.
+ * git failing (unreachable, no such repository) is OMEN_ENOTFOUND with git's
+ * first line; no git to run is OMEN_ENOTFOUND too. */
+int omen_history_ls_remote(git_oid **out, size_t *n, omen_repo *r, const char *url, int timeout_ms);
 /* The commit of the current branch's upstream, as git's @{upstream}:
  * branch.<b>.remote and branch.<b>.merge from the config, the merge ref
  * mapped through remote.<remote>.fetch refspecs ("." as the remote means a

@@ -8,13 +8,15 @@
 #include <stdint.h>
 #include <cjson/cJSON.h>
 #include "omen/features.h"
+#include "omen/label.h"
 
 typedef struct omen_model omen_model;
 
 /* Defaults stated once (plain integers: the help text is made from them). */
 #define OMEN_SEED_DEFAULT 42     /* training, and eval's bootstrap */
 #define OMEN_EPOCHS_DEFAULT 30
-#define OMEN_THREADS_MAX 64      /* --threads and omen.threads bound */
+/* OMEN_THREADS_MAX (--threads and omen.threads): include/omen/history.h,
+ * beside the other bounds of the settings table */
 
 /* A range [off, off + n) of the parameter block. */
 typedef struct { size_t off, n; } omen_span;
@@ -39,6 +41,16 @@ typedef struct {
 	int channels;            /* C hidden width (default 32) */
 	omen_caps caps;          /* the caps the dataset was built with (stored in the model) */
 	int warm_start;          /* start from the metrics logistic regression (default 1) */
+	/* omen_model_train_subset: per dataset commit, the labels to train,
+	 * validate and calibrate on (e.g. as known at a fold's cut); NULL = the
+	 * samples' own labels */
+	const int8_t *labels;
+	/* omen_model_train: fix times of the dataset's commits, so that the
+	 * training and validation slices are labelled as known at the test
+	 * start (omen_label_at); NULL = every label counts as known at every
+	 * time (no fix times: in-memory datasets) */
+	const omen_label_clock *clock;
+	int64_t test_start;      /* omen_model_train: pinned test start (0 = auto) */
 	double warn_share;       /* the model's threshold fires on this share of the
 	                          * calibration slice (default OMEN_WARN_SHARE_DEFAULT) */
 	/* fine-tuning (issue 11): start from this model's weights (a base model
@@ -63,6 +75,21 @@ typedef struct {
 	double auc, ap, brier, recall20;
 } omen_slice_scores;
 
+/* The shipped model's own check: refit on train+validation, calibrated and
+ * thresholded on the older part of the test slice, checked on its newest
+ * part (the tail), which it was never trained nor calibrated on. */
+typedef struct {
+	size_t n_calib, pos_calib;   /* calibration part: older half of the test slice */
+	size_t n, positives;         /* the tail */
+	int64_t start;               /* time of the tail's oldest commit */
+	double brier, brier_base;    /* brier_base: the calibration part's positive rate */
+	double ece;                  /* 10 equal-width bins */
+	double mean_prob;            /* mean calibrated probability on the tail */
+	float threshold;             /* the shipped threshold (max F1 on the calibration part) */
+	double precision, recall, f1;   /* at that threshold on the tail (NaN: undefined) */
+	size_t tp, fp, fn;
+} omen_ship_check;
+
 typedef struct {
 	size_t n_train, n_valid, n_test, pos_train, pos_valid, pos_test;
 	size_t capped_commits;
@@ -72,11 +99,26 @@ typedef struct {
 	float threshold;         /* fires on warn_share of the calibration slice */
 	float threshold_f1;      /* max F1 on the same slice, for reference */
 	double warn_share;       /* the share it was chosen for */
+	/* the split (issue 16): training and validation are the commits older
+	 * than test_start - gap_days, labelled as known on labels_known
+	 * (= test_start); the test slice uses the labels known now */
+	int64_t labels_known, test_start, test_end;
+	int64_t gap_days;
+	size_t n_gap;            /* labelled-now commits inside the gap, used nowhere */
+	size_t n_relabelled;     /* inducing now, clean at the cut: trained on as clean */
+	size_t n_window_left_out;/* labelled-now commits newer than the newest clean one
+	                            (inducing ones inside the verification window) */
+	int refit;               /* 1: check below is of the refit model */
+	omen_ship_check check;
 } omen_train_report;
 
-/* Trains on the labelled samples of ds (label >= 0), time ordered.
- * Too few labelled commits or no positives: OMEN_EINVAL with a message that
- * says how many there are and how many are needed. */
+/* Trains on the labelled samples of ds, time ordered (DEVELOPERS.md
+ * "Training (train.c)"): the test slice is the newest test_frac of the
+ * commits labelled now, up to the newest clean one; training and validation
+ * are the commits older than its start less the labels' window, labelled
+ * as known at its start (o->clock). Too few labelled commits or no
+ * positives: OMEN_EINVAL with a message that says how many there are and
+ * how many are needed. */
 int omen_model_train(omen_model **out, omen_train_report *rep, const omen_dataset *ds,
 	const omen_train_opts *o);
 /* Trains on an explicit subset (indices into ds, oldest first) with explicit

@@ -47,10 +47,22 @@ void omen_prepush_free(omen_push_list *l);
 
 /* Commits new to the remote, oldest first: for each update that is not a
  * deletion, its local id, hiding the remote id when that object exists
- * locally, else hiding every refs/remotes/<remote>/ ref. Deletions add
- * nothing. Merges are left out (they are not scored). *out malloc'd. */
-int omen_push_select(git_oid **out, size_t *n, omen_repo *r, const char *remote,
-	const omen_push_list *l);
+ * locally. When it does not (a new ref, or someone else pushed), what the
+ * remote has comes from, in this order (issue 15): refs/remotes/<remote>/
+ * when there are any; else `git ls-remote -- <url>` within ls_ms (0: not
+ * asked); else every remote-tracking ref; else every ref but the pushed
+ * local refs (only commits on no other ref are new). *how (may be NULL)
+ * says which was used: OMEN_PUSH_BY_*. Deletions add nothing. Merges are
+ * left out (they are not scored). *out malloc'd. */
+enum {
+	OMEN_PUSH_BY_ID,            /* every remote id was known here */
+	OMEN_PUSH_BY_TRACKING,      /* refs/remotes/<remote>/ */
+	OMEN_PUSH_BY_LS_REMOTE,     /* the remote's own list */
+	OMEN_PUSH_BY_ANY_TRACKING,  /* every remote-tracking ref */
+	OMEN_PUSH_BY_OTHER_REFS     /* nothing known about the remote */
+};
+int omen_push_select(git_oid **out, size_t *n, int *how, omen_repo *r, const char *remote,
+	const char *url, int ls_ms, const omen_push_list *l);
 
 /* ---- revision arguments -------------------------------------------------- */
 /* The commits named by the score/explain arguments, oldest first. An

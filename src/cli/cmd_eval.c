@@ -49,14 +49,19 @@ static const cli_option opt_fold_days = {
 	"width of a test window in days (default: half the labelled history shared among the folds)"};
 static const cli_option opt_html = {
 	"--html", CLI_STRING, "<file>", 0, 0, NULL, "also write a self-contained HTML report with plots"};
+static const cli_option opt_seeds = {
+	"--seeds", CLI_INT, "<n>", 1, 100, "a count from 1 to 100",
+	"run the folds over n seeds (--seed, then one more each run) and report the mean and "
+	"spread of the pooled figures (default 1)"};
 static const cli_option opt_bootstrap = {
 	"--bootstrap", CLI_INT, "<n>", 0, 1000000, "a count from 0 to 1000000",
 	"resamples for the AUC intervals (default 1000)"};
 
 typedef struct {
 	const char *format, *html, *labels, *rev;
-	long long folds, fold_days, window, seed, bootstrap, epochs, threads;
-	int folds_set, fold_days_set, window_set, seed_set, bootstrap_set, epochs_set, threads_set;
+	long long folds, fold_days, window, seed, seeds, bootstrap, epochs, threads;
+	int folds_set, fold_days_set, window_set, seed_set, seeds_set, bootstrap_set, epochs_set;
+	int threads_set;
 	int no_cache;
 } eval_args;
 
@@ -67,13 +72,14 @@ static int parse_args(omen_eval_opts *o, eval_args *a, int argc, char **argv)
 		{&opt_folds, &a->folds, NULL, NULL, &a->folds_set},
 		{&opt_fold_days, &a->fold_days, NULL, NULL, &a->fold_days_set},
 		{&cli_opt_window, &a->window, NULL,
-			"days left out between training and test (default omen.window, else "
-			OMEN_STR(OMEN_WINDOW_DAYS) ")", &a->window_set},
+			"days left out between training and test (default omen.window, else the "
+			"window the labels were made with, " OMEN_STR(OMEN_WINDOW_DAYS) ")", &a->window_set},
 		{&cli_opt_format, &a->format, cli_formats_text_json, NULL, NULL},
 		{&opt_html, &a->html, NULL, NULL, NULL},
 		{&cli_opt_seed, &a->seed, NULL,
 			"random seed of the training runs and of the bootstrap (default "
 			OMEN_STR(OMEN_SEED_DEFAULT) ")", &a->seed_set},
+		{&opt_seeds, &a->seeds, NULL, NULL, &a->seeds_set},
 		{&opt_bootstrap, &a->bootstrap, NULL, NULL, &a->bootstrap_set},
 		{&cli_opt_epochs, &a->epochs, NULL, NULL, &a->epochs_set},
 		{&cli_opt_threads, &a->threads, NULL, NULL, &a->threads_set},
@@ -107,6 +113,8 @@ static int parse_args(omen_eval_opts *o, eval_args *a, int argc, char **argv)
 		o->seed = (uint64_t)a->seed;
 		o->train.seed = (uint64_t)a->seed;
 	}
+	if (a->seeds_set)
+		o->seeds = (int)a->seeds;
 	if (a->bootstrap_set)
 		o->bootstrap = (int)a->bootstrap;
 	if (a->epochs_set)
@@ -123,6 +131,8 @@ static int read_config(omen_eval_opts *o, omen_dataset_opts *dso, char ***excl,
 {
 	size_t nexcl = 0;
 	int64_t lim = 0;
+	/* unset, the gap stays -1: the window the labels were made with (their
+	 * header), the rule behind "labels as known at the cut" (issue 16) */
 	if (!a->window_set && omen_config_int(&o->folds.gap_days, repo, "omen.window") < 0)
 		return -1;
 	if (!a->threads_set) {

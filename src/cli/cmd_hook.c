@@ -1,6 +1,7 @@
 /* git omen hook: install, remove or report the pre-push hook, and run it
  * (what hooks/pre-push calls with git's pre-push lines on standard input).
  * The hook never stops a push unless the user asked for blocking. */
+#include <ctype.h>
 #include <signal.h>
 #include <stdlib.h>
 #include <string.h>
@@ -11,7 +12,7 @@
 
 static const char hook_usage[] =
 	"usage: git omen hook install [--refresh] | uninstall | status\n"
-	"   or: git omen hook run <remote-name> <remote-url>\n"
+	"   or: git omen hook run [--] <remote-name> <remote-url>\n"
 	"\n"
 	"install     put the pre-push shim in the hooks directory (core.hooksPath honoured);\n"
 	"            an existing pre-push hook is kept and runs after ours; with --refresh\n"
@@ -104,6 +105,39 @@ static int read_stdin(omen_buf *b)
 	return 0;
 }
 
+/* An omen.* key that is no setting (omen.onRsik=block) would be ignored
+ * without a word, and the push not blocked as its author meant: say so,
+ * with the nearest setting's name (issue 15). */
+static void warn_unknown_settings(omen_repo *repo)
+{
+	size_t pos = 0, n, i;
+	const omen_setting *t = omen_settings_table(&n);
+	const char *k;
+	while ((k = omen_config_next_unknown(repo, &pos))) {
+		char a[256], b[256];
+		const char *best = NULL;
+		size_t bd = (size_t)-1, j;
+		for (j = 0; k[j] && j + 1 < sizeof(a); j++)
+			a[j] = (char)tolower((unsigned char)k[j]);
+		a[j] = '\0';
+		for (i = 0; i < n; i++) {
+			size_t d;
+			for (j = 0; t[i].key[j] && j + 1 < sizeof(b); j++)
+				b[j] = (char)tolower((unsigned char)t[i].key[j]);
+			b[j] = '\0';
+			d = cli_edit_distance(a, b);
+			if (d < bd) {
+				bd = d;
+				best = t[i].key;
+			}
+		}
+		if (best && bd <= 3)
+			cli_warning("unknown setting '%s' is ignored; did you mean '%s'?", k, best);
+		else
+			cli_warning("unknown setting '%s' is ignored", k);
+	}
+}
+
 static int hook_run(int argc, char **argv)
 {
 	omen_repo *repo = NULL;
@@ -114,10 +148,12 @@ static int hook_run(int argc, char **argv)
 	omen_buf in = OMEN_BUF_INIT;
 	git_oid *ids = NULL;
 	size_t nids = 0, i, risky = 0, skip = 0;
-	char *on_risk = NULL, *on_error = NULL;
+	int on_risk = 0, on_error = 0;  /* indexes: warn|block, allow|block */
 	int64_t timeout_ms = 3000;
 	int block_risk = 0, block_error = 0, rc = EXIT_OK;
-	const char *remote = argc > 1 ? argv[1] : "";   /* argv: run <remote> <url> */
+	/* argv: run <remote> <url> */
+	const char *remote = argc > 1 ? argv[1] : "", *url = argc > 2 ? argv[2] : "";
+	int how = OMEN_PUSH_BY_ID;
 	double t0 = omen_now();
 
 	omen_score_set_init(&set);
@@ -126,27 +162,21 @@ static int hook_run(int argc, char **argv)
 		rc = hook_error(0, NULL);
 		goto done;
 	}
-	if (omen_config_string(&on_error, repo, "omen.onError")) {
+	warn_unknown_settings(repo);
+	/* the settings table holds the words and bounds (allow|block,
+	 * warn|block, 1 ms to one hour); a bad onError lets the push through,
+	 * as the shim does for anything but "block" */
+	if (omen_config_choice(&on_error, repo, "omen.onError")) {
 		rc = hook_error(0, NULL);
 		goto done;
 	}
-	block_error = on_error && !strcmp(on_error, "block");
-	if (on_error && strcmp(on_error, "block") && strcmp(on_error, "allow")) {
-		rc = hook_error(0, "bad config value 'omen.onError': use allow or block");
-		goto done;
-	}
-	if (omen_config_string(&on_risk, repo, "omen.onRisk") ||
+	block_error = on_error == 1;
+	if (omen_config_choice(&on_risk, repo, "omen.onRisk") ||
 	    omen_config_int(&timeout_ms, repo, "omen.hookTimeout")) {
 		rc = hook_error(block_error, NULL);
 		goto done;
 	}
-	if (on_risk && strcmp(on_risk, "warn") && strcmp(on_risk, "block")) {
-		rc = hook_error(block_error, "bad config value 'omen.onRisk': use warn or block");
-		goto done;
-	}
-	block_risk = on_risk && !strcmp(on_risk, "block");
-	if (timeout_ms <= 0)
-		timeout_ms = 3000;
+	block_risk = on_risk == 1;
 	arm_alarm((long)timeout_ms, block_error);
 	so.deadline = t0 + (double)timeout_ms / 1000.0;
 	so.lazy = 1;   /* attention only for the commits it reports */
@@ -162,10 +192,21 @@ static int hook_run(int argc, char **argv)
 		goto done;
 	}
 	cli_note_base_model(sc);
-	if (omen_push_select(&ids, &nids, repo, remote, &pl)) {
-		rc = hook_error(block_error, NULL);
-		goto done;
+	{
+		/* half of what is left of the budget to ask the remote what it has
+		 * (a new branch, a push to a URL), the rest to score */
+		double left = so.deadline - omen_now();
+		int ls_ms = left > 0.002 ? (int)(left * 500) : 0;
+		if (omen_push_select(&ids, &nids, &how, repo, remote, url, ls_ms, &pl)) {
+			rc = hook_error(block_error, NULL);
+			goto done;
+		}
 	}
+	if (how == OMEN_PUSH_BY_ANY_TRACKING && nids)
+		cli_notice("cannot list what '%s' has; leaving out commits any remote-tracking "
+			"ref holds", remote);
+	else if (how == OMEN_PUSH_BY_OTHER_REFS && nids)
+		cli_notice("cannot tell what '%s' has; scoring only commits on no other ref", remote);
 	if (nids == 0)
 		goto done;
 	if (nids > HOOK_MAX_COMMITS) {
@@ -212,8 +253,6 @@ done:
 	omen_scorer_free(sc);
 	omen_repo_free(repo);
 	free(ids);
-	free(on_risk);
-	free(on_error);
 	return rc;
 }
 
@@ -225,6 +264,13 @@ int cmd_hook(int argc, char **argv)
 	size_t npos;
 	int rc = EXIT_OK, st = 0, rst = 0;
 
+	/* git passes a pre-push hook exactly two words, the remote's name and
+	 * URL, and a name may look like an option ('-h', issue 15): "run" with
+	 * two words is never a request for help, even from a shim installed
+	 * before the shim passed '--' (which cli_parse takes as the end of
+	 * options) */
+	if (argc == 4 && !strcmp(argv[1], "run") && strcmp(argv[2], "--"))
+		return hook_run(argc - 1, argv + 1);
 	if ((rc = cli_parse(&hook_cmd, argc, argv, &pos, &npos)) >= 0)
 		return rc;
 	rc = EXIT_OK;

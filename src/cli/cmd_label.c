@@ -42,20 +42,39 @@ static void print_text(const omen_label_summary *s, const char *path)
 	printf("commits     %zu (%zu merges, never candidates)\n", s->commits, s->merges);
 	printf("inducing    %zu\n", s->inducing);
 	printf("clean       %zu\n", s->clean);
-	printf("unknown     %zu (newer than the window, merges, shallow boundary)\n", s->unknown);
+	if (s->horizon_days > 0)
+		printf("unknown     %zu (newer than the %lld-day horizon, merges, shallow boundary)\n", s->unknown,
+			(long long)s->horizon_days);
+	else
+		printf("unknown     %zu (newer than the window, merges, shallow boundary)\n", s->unknown);
 	if (!s->fixes) {
 		printf("no fix commits found: nothing is inducing; every commit is clean or unknown\n");
 	} else {
 		printf("fixes       %zu (pattern %zu, list %zu, issue %zu, named %zu)\n", s->fixes,
 			s->fixes_by_pattern, s->fixes_by_list, s->fixes_by_issue, s->fixes_by_named);
 		printf("traced      %zu fixes, %zu lines\n", s->fixes_traced, s->traced_lines);
-		printf("add-only    %zu fixes (%.1f%%, untraceable)\n", s->fixes_add_only,
-			100.0 * share(s->fixes_add_only, s->fixes));
+		printf("not traced  %zu cosmetic, %zu non-code only; %zu non-code lines left out\n",
+			s->fixes_cosmetic, s->fixes_noncode, s->noncode_lines);
+		if (s->minor_dropped)
+			printf("minor       %zu candidates dropped (under the minimum share of their fix's lines)\n",
+				s->minor_dropped);
+		if (s->named_dropped)
+			printf("named       %zu other candidates dropped (the named commit decides)\n", s->named_dropped);
+		printf("add-only    %zu fixes (%.1f%%), %zu of them traced through the lines around their "
+			"insertions\n", s->fixes_add_only, 100.0 * share(s->fixes_add_only, s->fixes),
+			s->fixes_insertion);
 		if (s->fixes_skipped_large)
 			printf("skipped     %zu fixes touching too many files\n", s->fixes_skipped_large);
 		printf("latency     %.1f / %.1f / %.1f days (quartiles, inducing to fix)\n",
 			s->latency_days_q[0], s->latency_days_q[1], s->latency_days_q[2]);
 	}
+	if (s->closing_only || s->outside_only || s->feature_only)
+		printf("not fixes   %zu with only a closing word and number, %zu with fix words only in "
+			"trailers or quotes, %zu announcing new work\n", s->closing_only, s->outside_only,
+			s->feature_only);
+	if (s->horizon_days > 0)
+		printf("horizon     %lld days: inducing = needs a fix within %lld days; %zu commits fixed only "
+			"later\n", (long long)s->horizon_days, (long long)s->horizon_days, s->beyond_horizon);
 	if (s->shallow)
 		printf("shallow history: %zu boundary commits are unknown\n", s->boundary);
 	if (s->blobs.wanted)
@@ -86,7 +105,11 @@ static void print_json(const omen_label_summary *s)
 		"\"state_peak_bytes\":%zu,\"blobs\":{\"partial\":%s,\"scanned_commits\":%zu,"
 		"\"absent\":%zu,\"fetched\":%zu,\"trees_absent\":%zu,\"trees_fetched\":%zu,"
 		"\"batches\":%zu,\"scan_seconds\":%.3f,\"fetch_seconds\":%.3f,\"fetch_cpu_seconds\":%.3f,"
-		"\"skipped_files\":%zu,\"file_changes\":%zu,\"fixes_unreadable\":%zu},\"seconds\":%.3f}\n",
+		"\"skipped_files\":%zu,\"file_changes\":%zu,\"fixes_unreadable\":%zu},"
+		"\"horizon_days\":%lld,\"beyond_horizon\":%zu,"
+		"\"rules\":{\"closing_only\":%zu,\"outside_only\":%zu,\"feature_only\":%zu,\"fixes_cosmetic\":%zu,"
+		"\"fixes_non_code\":%zu,\"non_code_lines\":%zu,\"non_code_patterns\":%zu,"
+		"\"named_dropped\":%zu,\"fixes_insertion\":%zu,\"minor_dropped\":%zu},\"seconds\":%.3f}\n",
 		mode_name(s->mode), s->head, s->commits, s->merges, s->inducing, s->clean, s->unknown,
 		s->fixes, s->fixes_by_pattern, s->fixes_by_list, s->fixes_by_issue, s->fixes_by_named,
 		s->fixes_traced, s->traced_lines, s->fixes_add_only, share(s->fixes_add_only, s->fixes),
@@ -96,7 +119,10 @@ static void print_json(const omen_label_summary *s)
 		s->blobs.partial ? "true" : "false", s->blobs.scanned, s->blobs.wanted, s->blobs.fetched,
 		s->blobs.trees_wanted, s->blobs.trees_fetched, s->blobs.batches, s->blobs.scan_seconds,
 		s->blobs.fetch_seconds, s->blobs.fetch_cpu_seconds, s->files_absent,
-		s->file_changes, s->fixes_absent, s->seconds);
+		s->file_changes, s->fixes_absent, (long long)s->horizon_days, s->beyond_horizon,
+		s->closing_only, s->outside_only, s->feature_only, s->fixes_cosmetic, s->fixes_noncode,
+		s->noncode_lines, s->noncode_patterns, s->named_dropped, s->fixes_insertion, s->minor_dropped,
+		s->seconds);
 }
 
 static const cli_option opt_fix_pattern = {
@@ -119,6 +145,34 @@ static const cli_option opt_no_renames = {
 static const cli_option opt_no_issue_dates = {
 	"--no-issue-dates", CLI_FLAG, NULL, 0, 0, NULL,
 	"keep candidates newer than the fix's issue date"};
+/* issue 10 rules */
+static const cli_option opt_horizon = {
+	"--horizon", CLI_STRING, "<days>", 0, 0, NULL,
+	"inducing = fixed within this many days; 0 = none (default 365 on a history of 5 years or "
+	"more, else none)"};
+static const cli_option opt_cosmetic = {
+	"--cosmetic-pattern", CLI_STRING, "<re>", 0, 0, NULL,
+	"fixes that are cosmetic: recorded, not traced ('' = off)"};
+static const cli_option opt_noncode = {
+	"--non-code-paths", CLI_STRING, "<globs>", 0, 0, NULL,
+	"paths never traced (docs, tests, build, CI, vendored; '' = off)"};
+static const cli_option opt_closing = {
+	"--closing-refs", CLI_FLAG, NULL, 0, 0, NULL, "'closes #12' alone makes a fix"};
+static const cli_option opt_whole = {
+	"--whole-message", CLI_FLAG, NULL, 0, 0, NULL,
+	"trailers, quoted text and revert subjects count as fix words"};
+static const cli_option opt_feature = {
+	"--feature-subjects", CLI_FLAG, NULL, 0, 0, NULL,
+	"'Add crash recovery' may be a fix without the word fix or bug"};
+static const cli_option opt_keep_other = {
+	"--keep-other-candidates", CLI_FLAG, NULL, 0, 0, NULL,
+	"a fix that names its commit keeps its other traced commits"};
+static const cli_option opt_no_insertion = {
+	"--no-insertion-context", CLI_FLAG, NULL, 0, 0, NULL,
+	"an add-only fix is not traced through the lines around it"};
+static const cli_option opt_min_share = {
+	"--min-line-share", CLI_INT, "<pct>", 0, 100, "a percentage from 0 to 100",
+	"drop candidates behind less than this share of a fix's lines (default 25; 0 = off)"};
 static const cli_option opt_full = {
 	"--full", CLI_FLAG, NULL, 0, 0, NULL, "relabel even when the previous labels are up to date"};
 static const cli_option opt_dump_origins = {
@@ -129,6 +183,9 @@ typedef struct {
 	const char *labels, *format, *fix_pattern, *fix_list, *dump;
 	long long window, max_fix_files;
 	int window_set, max_set, no_blank, no_comments, no_ws, no_renames, no_issue, full;
+	const char *horizon, *cosmetic, *noncode;
+	long long min_share;
+	int min_share_set, closing, whole, feature, keep_other, no_insertion;
 } label_args;
 
 /* Parses argv into o and a; -1 to go on, else the exit code. */
@@ -146,6 +203,15 @@ static int parse_args(omen_label_opts *o, label_args *a, const char ***revs, int
 		{&opt_no_ws_origin, &a->no_ws, NULL, NULL, NULL},
 		{&opt_no_renames, &a->no_renames, NULL, NULL, NULL},
 		{&opt_no_issue_dates, &a->no_issue, NULL, NULL, NULL},
+		{&opt_horizon, &a->horizon, NULL, NULL, NULL},
+		{&opt_cosmetic, &a->cosmetic, NULL, NULL, NULL},
+		{&opt_noncode, &a->noncode, NULL, NULL, NULL},
+		{&opt_closing, &a->closing, NULL, NULL, NULL},
+		{&opt_whole, &a->whole, NULL, NULL, NULL},
+		{&opt_feature, &a->feature, NULL, NULL, NULL},
+		{&opt_keep_other, &a->keep_other, NULL, NULL, NULL},
+		{&opt_no_insertion, &a->no_insertion, NULL, NULL, NULL},
+		{&opt_min_share, &a->min_share, NULL, NULL, &a->min_share_set},
 		{&opt_full, &a->full, NULL, NULL, NULL},
 		{&cli_opt_format, &a->format, cli_formats_text_json, NULL, NULL},
 		{&opt_dump_origins, &a->dump, NULL, NULL, NULL},
@@ -177,6 +243,31 @@ static int parse_args(omen_label_opts *o, label_args *a, const char ***revs, int
 		o->use_issue_dates = 0;
 	if (a->full || o->dump_origins)
 		o->incremental = 0;
+	o->cosmetic_pattern = a->cosmetic;
+	o->noncode_paths = a->noncode;
+	if (a->closing)
+		o->closing_refs = 1;
+	if (a->whole)
+		o->whole_message = 1;
+	if (a->feature)
+		o->feature_subjects = 1;
+	if (a->keep_other)
+		o->named_decides = 0;
+	if (a->no_insertion)
+		o->insertion_context = 0;
+	if (a->min_share_set)
+		o->min_line_share = (int)a->min_share;
+	if (a->horizon) {
+		/* a bad horizon is a fatal error (issue 10: 128, old labels kept) */
+		char *end;
+		long long h = strtoll(a->horizon, &end, 10);
+		if (end == a->horizon || *end || h < 0 || h > 1000000) {
+			omen_error_set(OMEN_EINVAL, "bad horizon '%s': not a number of days (0 = no horizon)",
+				a->horizon);
+			return cli_fatal(NULL);
+		}
+		o->horizon_days = h;
+	}
 	o->revs = n ? *revs : NULL;
 	return -1;
 }
@@ -208,6 +299,10 @@ int cmd_label(int argc, char **argv)
 			s.untraced_missing);
 	else if (s.untraced_missing)
 		cli_warning("%zu deleted lines had no origin state", s.untraced_missing);
+	/* the non-code list took every line (not absent blobs, issue 12) */
+	if (s.fixes && !s.traced_lines && !s.files_absent && (s.fixes_noncode || s.noncode_lines))
+		cli_notice("nothing was traced: every line the fixes changed is in a non-code path "
+			"(omen.nonCodePaths / --non-code-paths)");
 	if (!strcmp(a.format, "json"))
 		print_json(&s);
 	else

@@ -104,7 +104,8 @@ out:
 }
 
 /* The report of set in a's format, into out. */
-static int render(omen_buf *out, const omen_score_set *set, omen_scorer *sc, const score_args *a)
+static int render(omen_buf *out, const omen_score_set *set, omen_scorer *sc, const score_args *a,
+	int64_t horizon)
 {
 	size_t i;
 	int color;
@@ -130,9 +131,16 @@ static int render(omen_buf *out, const omen_score_set *set, omen_scorer *sc, con
 		for (i = 0; i < set->n; i++)
 			text_line(out, set, &set->v[i], color);
 		char rate[64];
-		omen_buf_printf(out, "%zu scored; risky at %.2f or more (%s); scores are advisory\n",
-			set->n, (double)set->threshold,
-			omen_warn_rate_text(rate, sizeof(rate), omen_scorer_fires(sc)));
+		/* issue 10: with a label horizon, say what the probability is of */
+		if (horizon > 0)
+			omen_buf_printf(out, "%zu scored; risky at %.2f or more (%s); risk = probability "
+				"that the commit needs a fix within %lld days; scores are advisory\n", set->n,
+				(double)set->threshold,
+				omen_warn_rate_text(rate, sizeof(rate), omen_scorer_fires(sc)), (long long)horizon);
+		else
+			omen_buf_printf(out, "%zu scored; risky at %.2f or more (%s); scores are advisory\n",
+				set->n, (double)set->threshold,
+				omen_warn_rate_text(rate, sizeof(rate), omen_scorer_fires(sc)));
 	}
 	return 0;
 }
@@ -148,6 +156,8 @@ int cmd_score(int argc, char **argv)
 	omen_score_opts so = OMEN_SCORE_OPTS_INIT;
 	omen_score_set set;
 	omen_buf out = OMEN_BUF_INIT;
+	char *lp = NULL;
+	int64_t horizon = 0;
 
 	omen_score_set_init(&set);
 	if ((rc = parse_args(&a, argc, argv)) >= 0)
@@ -167,7 +177,10 @@ int cmd_score(int argc, char **argv)
 	if ((e = omen_scorer_check_fresh(sc)))
 		goto fatal;
 	cli_notices(omen_scorer_notices(sc));
-	if ((e = omen_score_set_sort(&set, sort)) || (e = render(&out, &set, sc, &a)))
+	if (!omen_labels_path(&lp, repo, NULL))
+		horizon = omen_labels_file_horizon(lp);
+	omen_error_clear();
+	if ((e = omen_score_set_sort(&set, sort)) || (e = render(&out, &set, sc, &a, horizon)))
 		goto fatal;
 	if (a.outpath) {
 		if ((e = omen_file_write_atomic(a.outpath, out.ptr ? out.ptr : "", out.len)))
@@ -188,6 +201,7 @@ done:
 	omen_score_set_free(&set);
 	omen_scorer_free(sc);
 	cli_blob_notice(repo);
+	free(lp);
 	omen_repo_free(repo);
 	free(a.revs);
 	return rc;

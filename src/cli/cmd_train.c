@@ -60,11 +60,27 @@ static void print_text(const omen_train_report *r, const omen_dataset *ds, const
 			reused, n - reused);
 	else
 		printf("dataset: %zu commits, read from history\n", n);
-	printf("split (time-ordered): train %zu (%zu inducing), validation %zu (%zu), test %zu (%zu)\n",
-		r->n_train, r->pos_train, r->n_valid, r->pos_valid, r->n_test, r->pos_test);
+	{
+		char d1[16];
+		omen_format_date(d1, r->labels_known);
+		printf("split (time-ordered): train %zu (%zu inducing), validation %zu (%zu), labels as "
+			"known on %s; a %lld-day gap; test %zu (%zu), labels as known now\n",
+			r->n_train, r->pos_train, r->n_valid, r->pos_valid, d1, (long long)r->gap_days,
+			r->n_test, r->pos_test);
+		if (r->n_relabelled)
+			printf("labels as known on %s: %zu training commits inducing now were still clean "
+				"then (fixed later) and are trained on as clean\n", d1, r->n_relabelled);
+	}
 	printf("epochs: %d run, best %d by validation AUC; %zu commits capped (largest files and "
 		"hunks kept)\n", r->epochs_run, r->best_epoch, r->capped_commits);
-	printf("test slice, newest %zu labelled commits:\n", r->n_test);
+	{
+		char d1[16], d2[16];
+		omen_format_date(d1, r->test_start);
+		omen_format_date(d2, r->test_end);
+		printf("test slice, %zu labelled commits from %s to %s (%zu newer inducing ones, inside "
+			"the verification window, left out); model trained on labels as known on %s:\n",
+			r->n_test, d1, d2, r->n_window_left_out, d1);
+	}
 	printf("  %-16s %7s %7s %7s %10s\n", "", "AUC", "AP", "Brier", "Recall@20%");
 	print_row("model", &r->model);
 	print_row("lr on metrics", &r->lr_metrics);
@@ -78,9 +94,36 @@ static void print_text(const omen_train_report *r, const omen_dataset *ds, const
 				"on small histories the simple baselines are often as good\n",
 				b == &r->lr_metrics ? "lr on metrics" : "lines added", b->auc, r->model.auc);
 	}
-	printf("threshold %.3f (fires on the riskiest %.0f%% of the validation slice; max F1 there "
-		"%.3f); %.1f s\n", r->threshold, 100.0 * r->warn_share, r->threshold_f1, r->seconds);
-	printf("wrote %s (refit on train+validation; scores are advisory)\n", path);
+	{
+		const omen_ship_check *c = &r->check;
+		char d1[16], p[16], q[16], b1[16], b2[16], e1[16];
+		omen_format_date(d1, c->start);
+		if (!c->n) {
+			printf("shipped model (%s): %s; too few inducing or clean commits in the test "
+				"slice's older half (%d of each needed) for a held-out check of its "
+				"calibration\n", r->refit ? "refit on train+validation" : "the evaluation model",
+				r->refit ? "calibrated on the whole test slice" : "calibrated on validation",
+				5);
+			goto done;
+		}
+		fmt_num(p, sizeof(p), c->precision);
+		fmt_num(q, sizeof(q), c->recall);
+		fmt_num(b1, sizeof(b1), c->brier);
+		fmt_num(b2, sizeof(b2), c->brier_base);
+		fmt_num(e1, sizeof(e1), c->ece);
+		printf("shipped model (%s), calibrated on the test slice's older %zu commits, checked "
+			"on its newest %zu (%zu inducing, from %s; never trained nor calibrated on):\n",
+			r->refit ? "refit on train+validation" : "the evaluation model", c->n_calib, c->n,
+			c->positives, d1);
+		printf("  threshold %.3f: precision %s, recall %s; Brier %s (%s for the calibration "
+			"part's base rate), ECE %s, mean probability %.3f\n", c->threshold, p, q, b1, b2, e1,
+			c->mean_prob);
+	}
+done:
+	printf("evaluation model threshold %.3f (fires on the riskiest %.0f%% of the validation "
+		"slice; max F1 there %.3f); %.1f s\n", r->threshold, 100.0 * r->warn_share,
+		r->threshold_f1, r->seconds);
+	printf("wrote %s (scores are advisory)\n", path);
 }
 
 static void json_scores(omen_buf *b, const char *name, const omen_slice_scores *s)
@@ -110,7 +153,29 @@ static void print_json(const omen_train_report *r, const omen_dataset *ds, const
 	json_scores(&b, "lr_metrics", &r->lr_metrics);
 	omen_buf_puts(&b, ",");
 	json_scores(&b, "lines_added", &r->lines_added);
-	omen_buf_puts(&b, "}}\n");
+	omen_buf_puts(&b, "}");
+	{
+		char d1[16], d2[16];
+		const omen_ship_check *c = &r->check;
+		omen_format_date(d1, r->labels_known);
+		omen_format_date(d2, c->start);
+		omen_buf_printf(&b, ",\"labels_known\":\"%s\",\"gap_days\":%lld,"
+			"\"relabelled_clean_at_cut\":%zu", d1, (long long)r->gap_days, r->n_relabelled);
+		if (!c->n) {
+			omen_buf_puts(&b, ",\"check\":null}\n");
+			goto print;
+		}
+		omen_buf_printf(&b, ",\"check\":{\"start\":\"%s\",\"n\":%zu,"
+			"\"positives\":%zu,\"n_calib\":%zu,\"threshold\":%.6f,\"mean_prob\":%.6f",
+			d2, c->n, c->positives, c->n_calib, c->threshold, c->mean_prob);
+		if (isfinite(c->precision)) omen_buf_printf(&b, ",\"precision\":%.6f", c->precision);
+		if (isfinite(c->recall)) omen_buf_printf(&b, ",\"recall\":%.6f", c->recall);
+		if (isfinite(c->brier)) omen_buf_printf(&b, ",\"brier\":%.6f", c->brier);
+		if (isfinite(c->brier_base)) omen_buf_printf(&b, ",\"brier_base\":%.6f", c->brier_base);
+		if (isfinite(c->ece)) omen_buf_printf(&b, ",\"ece\":%.6f", c->ece);
+		omen_buf_puts(&b, "}}\n");
+	}
+print:
 	if (b.ptr)
 		fputs(b.ptr, stdout);
 	omen_buf_free(&b);
@@ -353,6 +418,7 @@ int cmd_train(int argc, char **argv)
 {
 	omen_train_opts o;
 	omen_train_report rep;
+	omen_label_clock clock;
 	omen_dataset_opts dopt;
 	omen_repo *repo = NULL;
 	omen_dataset *ds = NULL;
@@ -365,6 +431,7 @@ int cmd_train(int argc, char **argv)
 	int64_t v64;
 
 	omen_train_opts_init(&o);
+	memset(&clock, 0, sizeof(clock));
 	if ((rc = parse_args(&o, &a, argc, argv)) >= 0)
 		return rc;
 	if (a.info)
@@ -418,6 +485,17 @@ int cmd_train(int argc, char **argv)
 		printf("wrote shard %s: %zu commits, %zu labelled (%zu inducing), %zu capped\n",
 			a.shard, omen_dataset_size(ds), nl, np, omen_dataset_capped(ds));
 		goto out;
+	}
+	/* the fix times behind "labels as known at the test start" (issue 16) */
+	{
+		char *lp = NULL;
+		if (!a.labels && omen_labels_path(&lp, repo, NULL))
+			goto fatal;
+		e = omen_label_clock_load(&clock, ds, a.labels ? a.labels : lp);
+		free(lp);
+		if (e)
+			goto fatal;
+		o.clock = &clock;
 	}
 	/* fine-tuning: the base model named, else omen.baseModel, else the
 	 * installed one (omen_base_model_path); one that cannot be used is a
@@ -489,6 +567,7 @@ out:
 	if (lock_fd >= 0)
 		omen_lock_release(lock_fd);
 	omen_model_free(m);
+	omen_label_clock_free(&clock);
 	omen_model_free(base);
 	free(from_cfg);
 	omen_dataset_free(ds);

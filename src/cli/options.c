@@ -32,7 +32,8 @@ const cli_option cli_opt_output = {
 	"-o", CLI_STRING, "<file>", 0, 0, NULL,
 	"write to <file> (atomically) instead of standard output"};
 const cli_option cli_opt_window = {
-	"--window", CLI_INT, "<days>", 0, 100000, "a number of days from 0 to 100000",
+	"--window", CLI_INT, "<days>", 0, OMEN_WINDOW_MAX_DAYS,
+	"a number of days from 0 to " OMEN_STR(OMEN_WINDOW_MAX_DAYS),
 	"commits newer than this before the newest stay unknown (default omen.window, else "
 	OMEN_STR(OMEN_WINDOW_DAYS) ")"};
 const cli_option cli_opt_no_cache = {
@@ -148,7 +149,7 @@ static int store(const cli_use *u, const char *v, const char **word_old)
 		double x = strtod(v, &end);
 		if (end == v || *end || !(x >= 0 && x <= 1))
 			return -1;
-		*(double *)u->dst = x;
+		*(double *)u->dst = x == 0 ? 0.0 : x;  /* -0 is 0, as omen.threshold */
 		return 0;
 	}
 	case CLI_CHOICE: {

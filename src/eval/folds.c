@@ -5,7 +5,11 @@
  * (DEVELOPERS.md "Labeller", Run): a commit younger than that at the cut would
  * still be "unknown" to someone standing at the cut, so its label must not
  * be used for training (common practice in time-aware evaluation, e.g.
- * Tan, Tan, Dara & Mayeux, ICSE 2015, "online change classification"). */
+ * Tan, Tan, Dara & Mayeux, ICSE 2015, "online change classification").
+ * The training rows are also labelled as they were known at the fold's
+ * test start (omen_label_at, issue 16): a commit fixed only after it was
+ * clean then, and stays in as clean. So no label, and no choice of rows,
+ * depends on a fix made after the cut. */
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
@@ -21,7 +25,7 @@ void omen_fold_opts_init(omen_fold_opts *o)
 	memset(o, 0, sizeof(*o));
 	o->folds = 5;
 	o->fold_days = 0;
-	o->gap_days = OMEN_WINDOW_DAYS;
+	o->gap_days = -1;
 	o->min_train = 100;
 	o->valid_frac = 0.15;
 }
@@ -35,6 +39,7 @@ void omen_folds_free(omen_fold *f, size_t n)
 		free(f[i].train_idx);
 		free(f[i].valid_idx);
 		free(f[i].test_idx);
+		free(f[i].label_at_cut);
 	}
 	free(f);
 }
@@ -52,18 +57,15 @@ static int cmp_tkey(const void *a, const void *b)
 	return (x->i > y->i) - (x->i < y->i);
 }
 
-/* Label of commit i not yet known at time t (fixed only later). */
-static int late(const omen_fold_opts *o, size_t i, int64_t t)
-{
-	return o->label_known && o->label_known[i] != INT64_MIN && o->label_known[i] >= t;
-}
 
 int omen_folds_build(omen_fold **out, size_t *out_n, const int64_t *time,
 	const int8_t *label, size_t n, const omen_fold_opts *o)
 {
 	omen_fold_opts def;
+	omen_label_clock own;
+	const omen_label_clock *clk;
 	omen_fold *f = NULL;
-	tkey *lab = NULL;
+	tkey *lab = NULL, *order = NULL;
 	size_t nl = 0, i, k, K;
 	int64_t tmin, tmax, W, gap;
 	int rc = 0;
@@ -73,15 +75,29 @@ int omen_folds_build(omen_fold **out, size_t *out_n, const int64_t *time,
 		omen_fold_opts_init(&def);
 		o = &def;
 	}
-	if (o->folds < 1 || o->fold_days < 0 || o->gap_days < 0 || o->valid_frac < 0 ||
+	memset(&own, 0, sizeof(own));
+	if (o->folds < 1 || o->fold_days < 0 || o->gap_days < -1 || o->valid_frac < 0 ||
 	    o->valid_frac >= 1)
 		return omen_error_set(OMEN_EINVAL, "bad fold settings: %d folds of %lld days",
 			o->folds, (long long)o->fold_days);
+	if (o->clock && o->clock->n != n)
+		return omen_error_set(OMEN_EINVAL, "cannot build folds: the label clock covers %zu "
+			"commits, not %zu", o->clock->n, n);
 	K = (size_t)o->folds;
-	gap = o->gap_days * DAY;
+	if (o->clock) {
+		clk = o->clock;
+	} else {
+		/* no fix times: every label counts as known at every time */
+		if ((rc = omen_label_clock_known(&own, time, label, n)) < 0)
+			return rc;
+		clk = &own;
+	}
+	gap = (o->gap_days < 0 ? omen_label_clock_window(clk) : o->gap_days) * DAY;
 	lab = malloc((n ? n : 1) * sizeof(*lab));
-	if (!lab)
+	if (!lab) {
+		omen_label_clock_free(&own);
 		return omen_error_set(OMEN_ENOMEM, "cannot build folds: out of memory");
+	}
 	for (i = 0; i < n; i++)
 		if (label[i] >= 0) {
 			lab[nl].t = time[i];
@@ -93,6 +109,18 @@ int omen_folds_build(omen_fold **out, size_t *out_n, const int64_t *time,
 		goto out;
 	}
 	qsort(lab, nl, sizeof(*lab), cmp_tkey);
+	/* every commit in time order: a commit unknown now is unknown at every
+	 * cut, but the training rows come from the clock, not from lab */
+	order = malloc((n ? n : 1) * sizeof(*order));
+	if (!order) {
+		rc = omen_error_set(OMEN_ENOMEM, "cannot build folds: out of memory");
+		goto out;
+	}
+	for (i = 0; i < n; i++) {
+		order[i].t = time[i];
+		order[i].i = i;
+	}
+	qsort(order, n, sizeof(*order), cmp_tkey);
 	/* Inside the verification window only inducing commits get a label
 	 * (a clean one is still "unknown"), so a test window there would hold
 	 * almost nothing but positives. Test windows end at the newest clean
@@ -100,10 +128,15 @@ int omen_folds_build(omen_fold **out, size_t *out_n, const int64_t *time,
 	for (i = nl; i > 0; i--)
 		if (label[lab[i - 1].i] == 0)
 			break;
-	if (i > 0 && i < nl)
+	if (i > 0 && i < nl && !o->test_end)
 		nl = i;
 	tmin = lab[0].t;
-	tmax = lab[nl - 1].t;
+	tmax = o->test_end ? o->test_end - 1 : lab[nl - 1].t;
+	if (tmax < tmin) {
+		rc = omen_error_set(OMEN_EINVAL, "cannot build folds: the test end is older than "
+			"every labelled commit");
+		goto out;
+	}
 	if (o->fold_days > 0) {
 		W = o->fold_days * DAY;
 	} else {
@@ -122,16 +155,21 @@ int omen_folds_build(omen_fold **out, size_t *out_n, const int64_t *time,
 		fk->test_start = tmax + 1 - (int64_t)(K - k) * W;
 		fk->test_end = fk->test_start + W;
 		fk->train_end = fk->test_start - gap;
-		for (j = 0; j < nl; j++) {
-			if (lab[j].t < fk->train_end) {
-				if (late(o, lab[j].i, fk->test_start))
-					fk->n_late++;
-				else
-					ntr++;
-			}
-			else if (lab[j].t >= fk->test_start && lab[j].t < fk->test_end)
-				nte++;
+		fk->labels_known = fk->test_start;
+		fk->label_at_cut = malloc(n ? n : 1);
+		if (!fk->label_at_cut) {
+			rc = omen_error_set(OMEN_ENOMEM, "cannot build folds: out of memory");
+			goto out;
 		}
+		omen_label_clock_at(fk->label_at_cut, clk, fk->test_start);
+		/* training: every commit before the gap, labelled as known at the
+		 * cut (the clock's own order, whatever labels came later) */
+		for (j = 0; j < n; j++)
+			if (time[j] < fk->train_end && fk->label_at_cut[j] >= 0)
+				ntr++;
+		for (j = 0; j < nl; j++)
+			if (lab[j].t >= fk->test_start && lab[j].t < fk->test_end)
+				nte++;
 		if (k == 0 && ntr < (o->min_train ? o->min_train : 1)) {
 			char a[16], b[16], c[16];
 			omen_format_date(a, fk->train_end);
@@ -141,7 +179,7 @@ int omen_folds_build(omen_fold **out, size_t *out_n, const int64_t *time,
 				"with a %lld-day gap: the first fold would train on the %zu labelled "
 				"commits before %s, %zu are needed (labelled history: %zu commits over "
 				"%lld days, %s to %s); use fewer --folds or a smaller --fold-days",
-				K, (long long)(W / DAY), (long long)o->gap_days, ntr, a,
+				K, (long long)(W / DAY), (long long)(gap / DAY), ntr, a,
 				o->min_train ? o->min_train : (size_t)1, nl,
 				(long long)((tmax - tmin) / DAY), b, c);
 			goto out;
@@ -158,22 +196,25 @@ int omen_folds_build(omen_fold **out, size_t *out_n, const int64_t *time,
 			rc = omen_error_set(OMEN_ENOMEM, "cannot build folds: out of memory");
 			goto out;
 		}
+		for (j = 0; j < n; j++) {
+			size_t id = order[j].i;
+			int pos = fk->label_at_cut[id] > 0;
+			if (order[j].t >= fk->train_end || fk->label_at_cut[id] < 0)
+				continue;
+			fk->n_late += label[id] > 0 && !pos;
+			if (fk->n_train < ntr - nv) {
+				fk->train_idx[fk->n_train++] = id;
+				fk->pos_train += pos;
+			} else {
+				fk->valid_idx[fk->n_valid++] = id;
+				fk->pos_valid += pos;
+			}
+		}
 		for (j = 0; j < nl; j++) {
 			size_t id = lab[j].i;
-			int pos = label[id] > 0;
-			if (lab[j].t < fk->train_end) {
-				if (late(o, id, fk->test_start))
-					continue;
-				if (fk->n_train < ntr - nv) {
-					fk->train_idx[fk->n_train++] = id;
-					fk->pos_train += pos;
-				} else {
-					fk->valid_idx[fk->n_valid++] = id;
-					fk->pos_valid += pos;
-				}
-			} else if (lab[j].t >= fk->test_start && lab[j].t < fk->test_end) {
+			if (lab[j].t >= fk->test_start && lab[j].t < fk->test_end) {
 				fk->test_idx[fk->n_test++] = id;
-				fk->pos_test += pos;
+				fk->pos_test += label[id] > 0;
 			}
 		}
 		if (k == 0 && fk->pos_train + fk->pos_valid == 0) {
@@ -190,6 +231,8 @@ int omen_folds_build(omen_fold **out, size_t *out_n, const int64_t *time,
 	f = NULL;
 out:
 	omen_folds_free(f, K);
+	omen_label_clock_free(&own);
 	free(lab);
+	free(order);
 	return rc;
 }

@@ -101,7 +101,7 @@ int omen_eval_write_json(omen_buf *out, const omen_eval_result *r)
 		omen_format_date(d3, f->fold.test_end);
 		omen_buf_printf(b, "%s{\"fold\":%zu,\"train_before\":\"%s\",\"test_from\":\"%s\","
 			"\"test_until\":\"%s\",\"n_train\":%zu,\"pos_train\":%zu,\"n_valid\":%zu,"
-			"\"pos_valid\":%zu,\"late_labels_left_out\":%zu,\"n_test\":%zu,\"pos_test\":%zu,"
+			"\"pos_valid\":%zu,\"relabelled_clean_at_cut\":%zu,\"n_test\":%zu,\"pos_test\":%zu,"
 			"\"no_positives\":%s,",
 			k ? "," : "", k + 1, d1, d2, d3, f->fold.n_train, f->fold.pos_train,
 			f->fold.n_valid, f->fold.pos_valid, f->fold.n_late, f->fold.n_test, f->fold.pos_test,
@@ -116,6 +116,26 @@ int omen_eval_write_json(omen_buf *out, const omen_eval_result *r)
 	omen_buf_printf(b, "],\"pooled\":{\"n\":%zu,\"positives\":%zu,\"methods\":",
 		r->pooled[0].n, r->pooled[0].positives);
 	json_methods(b, r->pooled);
+	if (r->seeds.n > 1) {
+		int m, q;
+		omen_buf_printf(b, "},\"seeds\":{\"n\":%d,\"first\":%llu,\"methods\":{", r->seeds.n,
+			(unsigned long long)r->seeds.first);
+		for (m = 0; m < OMEN_EV_NMETHODS; m++) {
+			omen_buf_printf(b, "%s\"%s\":{", m ? "," : "", omen_eval_method_names[m]);
+			for (q = 0; q < OMEN_SPREAD_N; q++) {
+				const omen_spread *x = &r->seeds.m[m][q];
+				omen_buf_printf(b, "%s\"%s\":{\"n\":%zu,", q ? "," : "", omen_spread_names[q],
+					x->n);
+				jnum(b, "mean", x->mean, 1);
+				jnum(b, "sd", x->sd, 1);
+				jnum(b, "min", x->min, 1);
+				jnum(b, "max", x->max, 0);
+				omen_buf_puts(b, "}");
+			}
+			omen_buf_puts(b, "}");
+		}
+		omen_buf_puts(b, "}");
+	}
 	omen_buf_puts(b, "},\"riskiest\":[");
 	for (i = 0; i < r->nrisky; i++) {
 		const omen_risky *x = &r->risky[i];
@@ -197,8 +217,9 @@ int omen_eval_write_text(omen_buf *out, const omen_eval_result *r)
 	size_t k, i;
 	char d1[16], d2[16];
 	omen_buf_printf(b, "walk-forward evaluation: %zu folds, %lld-day test windows, %lld-day gap "
-		"before each; %zu of %zu commits labelled\n", r->nfolds, (long long)r->fold_days,
-		(long long)r->gap_days, r->n_labelled, r->n_commits);
+		"before each; %zu of %zu commits labelled; training labels as known when each test "
+		"window opens\n", r->nfolds, (long long)r->fold_days, (long long)r->gap_days,
+		r->n_labelled, r->n_commits);
 	omen_buf_printf(b, "%s\n\n", advisory);
 	omen_buf_printf(b, "%-5s%-23s%7s%7s%6s%7s %-13s%8s%8s%8s\n", "fold", "test window", "train",
 		"test", "pos", "auc", "[95% ci]", "auc-lr", "auc-la", "seconds");
@@ -223,6 +244,36 @@ int omen_eval_write_text(omen_buf *out, const omen_eval_result *r)
 	omen_buf_printf(b, "\npooled over the folds: %zu test commits, %zu inducing\n",
 		r->pooled[0].n, r->pooled[0].positives);
 	text_method_table(b, r->pooled);
+	if (r->seeds.n > 1) {
+		int m, q;
+		static const int cols[] = {OMEN_SPREAD_AUC, OMEN_SPREAD_AP, OMEN_SPREAD_BRIER,
+			OMEN_SPREAD_POPT, OMEN_SPREAD_R20};
+		static const char *const heads[] = {"auc", "ap", "brier", "popt", "r@20%e"};
+		omen_buf_printf(b, "\npooled over %d seeds (training and bootstrap seeds %llu..%llu; "
+			"the tables above are the first): mean, sd [min-max]\n", r->seeds.n,
+			(unsigned long long)r->seeds.first,
+			(unsigned long long)(r->seeds.first + (uint64_t)r->seeds.n - 1));
+		omen_buf_printf(b, "%-16s", "method");
+		for (q = 0; q < 5; q++)
+			omen_buf_printf(b, "  %-27s", heads[q]);
+		omen_buf_puts(b, "\n");
+		for (m = 0; m < OMEN_EV_NMETHODS; m++) {
+			omen_buf_printf(b, "%-16s", omen_eval_method_names[m]);
+			for (q = 0; q < 5; q++) {
+				const omen_spread *x = &r->seeds.m[m][cols[q]];
+				char cell[64];
+				if (!x->n)
+					snprintf(cell, sizeof(cell), "n/a");
+				else if (isnan(x->sd) || x->max == x->min)
+					snprintf(cell, sizeof(cell), "%.3f, 0 [%.3f-%.3f]", x->mean, x->min, x->max);
+				else
+					snprintf(cell, sizeof(cell), "%.3f, %.3f [%.3f-%.3f]", x->mean, x->sd,
+						x->min, x->max);
+				omen_buf_printf(b, "  %-27s", cell);
+			}
+			omen_buf_puts(b, "\n");
+		}
+	}
 	omen_buf_puts(b, "prec, rec, f1, mcc at each method's threshold: the model's fires on the "
 		"riskiest share (omen.warnShare, default 10%) of its fold's validation slice, the "
 		"baselines' is their max F1 there\n");
@@ -508,14 +559,40 @@ int omen_eval_write_html(omen_buf *out, const omen_eval_result *r, const char *t
 	omen_buf_puts(b, "</h1>\n<p class=\"adv\">");
 	svg_text_esc(b, advisory);
 	omen_buf_printf(b, ".</p>\n<p>Walk-forward evaluation over %zu folds: each fold trains on "
-		"every labelled commit older than its test window minus a %lld-day gap, then scores the "
-		"%lld-day test window. %zu of %zu commits are labelled. AUC intervals: %d bootstrap "
+		"every labelled commit older than its test window minus a %lld-day gap, labelled as it "
+		"was known when that window opened, then scores the %lld-day test window, labelled as "
+		"known now. %zu of %zu commits are labelled. AUC intervals: %d bootstrap "
 		"resamples, seed %llu. Effort = lines added + deleted outside vendored and generated "
 		"paths.</p>\n", r->nfolds, (long long)r->gap_days, (long long)r->fold_days,
 		r->n_labelled, r->n_commits, r->bootstrap, (unsigned long long)r->seed);
 	omen_buf_printf(b, "<h2>Pooled test commits (%zu, %zu inducing)</h2>\n", p.n,
 		r->pooled[0].positives);
 	html_method_table(b, r->pooled);
+	if (r->seeds.n > 1) {
+		int m, q;
+		omen_buf_printf(b, "<h2>Pooled figures over %d seeds</h2>\n<p class=\"adv\">Training "
+			"and bootstrap seeds %llu to %llu on the same folds; the tables and plots are the "
+			"first seed's. Mean, sample standard deviation and range.</p>\n<table><tr>"
+			"<th>method</th>", r->seeds.n, (unsigned long long)r->seeds.first,
+			(unsigned long long)(r->seeds.first + (uint64_t)r->seeds.n - 1));
+		for (q = 0; q < OMEN_SPREAD_N; q++)
+			omen_buf_printf(b, "<th>%s</th>", omen_spread_names[q]);
+		omen_buf_puts(b, "</tr>\n");
+		for (m = 0; m < OMEN_EV_NMETHODS; m++) {
+			omen_buf_printf(b, "<tr><td><span class=\"sw\" style=\"background:%s\"></span>%s"
+				"</td>", method_colors[m], method_titles[m]);
+			for (q = 0; q < OMEN_SPREAD_N; q++) {
+				const omen_spread *x = &r->seeds.m[m][q];
+				if (!x->n)
+					omen_buf_puts(b, "<td class=\"na\">n/a</td>");
+				else
+					omen_buf_printf(b, "<td>%.3f &plusmn; %.3f<br><small>%.3f&ndash;%.3f"
+						"</small></td>", x->mean, isnan(x->sd) ? 0.0 : x->sd, x->min, x->max);
+			}
+			omen_buf_puts(b, "</tr>\n");
+		}
+		omen_buf_puts(b, "</table>\n");
+	}
 	omen_buf_puts(b, "<p class=\"adv\">Brier of the base rate on the same commits: ");
 	if (isnan(r->pooled[OMEN_EV_BASE].brier_base))
 		omen_buf_puts(b, "n/a");

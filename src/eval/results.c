@@ -52,6 +52,7 @@ static void fold_result_free(omen_fold_result *f)
 	free(f->fold.train_idx);
 	free(f->fold.valid_idx);
 	free(f->fold.test_idx);
+	free(f->fold.label_at_cut);
 	free(f->y);
 	free(f->effort);
 	free(f->time);
@@ -146,9 +147,9 @@ int omen_eval_finish(omen_eval_result *r)
 				"effort-aware figures of this fold lean on it\n",
 				k + 1, f->top_effort_id, 100 * f->top_effort_share);
 		if (f->fold.n_late)
-			omen_buf_printf(&r->notes, "fold %zu: %zu inducing commits fixed only after the "
-				"test window opened were left out of its training (their label was not "
-				"known yet)\n", k + 1, f->fold.n_late);
+			omen_buf_printf(&r->notes, "fold %zu: %zu training commits inducing now were "
+				"fixed only after the test window opened: trained on as clean, as they were "
+				"known then\n", k + 1, f->fold.n_late);
 		if (n && f->m[OMEN_EV_MODEL].positives == 0)
 			omen_buf_printf(&r->notes, "fold %zu: no inducing commit among its %zu test "
 				"commits, so its auc and recall are undefined\n", k + 1, n);
@@ -208,4 +209,55 @@ out:
 	for (m = 0; m < OMEN_EV_NMETHODS; m++)
 		free(ps[m]);
 	return rc;
+}
+
+const char *const omen_spread_names[OMEN_SPREAD_N] = {
+	"auc", "ap", "brier", "ece", "f1", "recall_at_20_effort", "popt"
+};
+
+static double spread_value(const omen_method_scores *m, int k)
+{
+	switch (k) {
+	case OMEN_SPREAD_AUC: return m->auc;
+	case OMEN_SPREAD_AP: return m->ap;
+	case OMEN_SPREAD_BRIER: return m->brier;
+	case OMEN_SPREAD_ECE: return m->ece;
+	case OMEN_SPREAD_F1: return m->has_cls ? m->cls.f1 : NAN;
+	case OMEN_SPREAD_R20: return m->eff.recall_at_20;
+	default: return m->eff.popt;
+	}
+}
+
+void omen_seed_summarize(omen_seed_summary *out, const omen_method_scores (*pooled)[OMEN_EV_NMETHODS],
+	int n)
+{
+	int s, meth, k;
+	out->n = n;
+	for (meth = 0; meth < OMEN_EV_NMETHODS; meth++)
+		for (k = 0; k < OMEN_SPREAD_N; k++) {
+			omen_spread *x = &out->m[meth][k];
+			double sum = 0, ss = 0;
+			memset(x, 0, sizeof(*x));
+			x->mean = x->sd = x->min = x->max = NAN;
+			for (s = 0; s < n; s++) {
+				double v = spread_value(&pooled[s][meth], k);
+				if (!isfinite(v))
+					continue;
+				if (!x->n || v < x->min) x->min = v;
+				if (!x->n || v > x->max) x->max = v;
+				x->n++;
+				sum += v;
+			}
+			if (!x->n)
+				continue;
+			x->mean = sum / (double)x->n;
+			for (s = 0; s < n; s++) {
+				double v = spread_value(&pooled[s][meth], k);
+				if (isfinite(v))
+					ss += (v - x->mean) * (v - x->mean);
+			}
+			x->sd = x->n > 1 ? sqrt(ss / (double)(x->n - 1)) : NAN;
+			if (x->n > 1 && x->min == x->max)
+				x->sd = 0;   /* not the rounding of the mean */
+		}
 }

@@ -19,6 +19,7 @@ void omen_eval_opts_init(omen_eval_opts *o)
 	o->bootstrap = 1000;
 	o->seed = OMEN_SEED_DEFAULT;
 	o->top_risky = 10;
+	o->seeds = 1;
 }
 
 /* Short explanation: the files with most attention and the metrics with
@@ -92,6 +93,7 @@ static int run_fold(omen_eval_result *r, size_t k, const omen_dataset *ds,
 {
 	omen_fold_result *f = &r->folds[k];
 	omen_model *m = NULL;
+	omen_train_opts to = o->train;
 	omen_explain ex;
 	double *vs = NULL, t0 = omen_now(), base;
 	float *logits = NULL;
@@ -101,8 +103,11 @@ static int run_fold(omen_eval_result *r, size_t k, const omen_dataset *ds,
 	memset(&ex, 0, sizeof(ex));
 	if (o->progress)
 		o->progress(o->payload, k, r->nfolds, 0, 0);
+	/* training, validation, calibration and thresholds: the labels as
+	 * known at the fold's cut; the test window below: as known now */
+	to.labels = f->fold.label_at_cut;
 	if ((rc = omen_model_train_subset(&m, ds, f->fold.train_idx, f->fold.n_train,
-		f->fold.valid_idx, f->fold.n_valid, &o->train)) < 0) {
+		f->fold.valid_idx, f->fold.n_valid, &to)) < 0) {
 		rc = omen_error_wrap(rc, "fold %zu (training on %zu commits)", k + 1, f->fold.n_train);
 		goto out;
 	}
@@ -120,7 +125,7 @@ static int run_fold(omen_eval_result *r, size_t k, const omen_dataset *ds,
 	}
 	for (i = 0; i < nv; i++) {
 		const omen_sample *s = omen_dataset_get(ds, f->fold.valid_idx[i]);
-		vy[i] = s->label > 0;
+		vy[i] = f->fold.label_at_cut[f->fold.valid_idx[i]] > 0;
 		vs[i] = omen_model_predict_lr(m, s);
 		if (isnan(vs[i]))
 			vs[i] = base;
@@ -214,42 +219,45 @@ out:
 	return rc;
 }
 
-int omen_eval_label_times(int64_t **out, const omen_dataset *ds, const char *labels_path)
+int omen_label_clock_load(omen_label_clock *out, const omen_dataset *ds, const char *labels_path)
 {
 	omen_labels *l = NULL;
 	size_t n = omen_dataset_size(ds), i;
-	int64_t *t;
 	int rc;
-	*out = NULL;
-	if ((rc = omen_labels_load(&l, labels_path)) < 0)
+	memset(out, 0, sizeof(*out));
+	if (labels_path && (rc = omen_labels_load(&l, labels_path)) < 0)
 		return rc;
-	t = malloc((n ? n : 1) * sizeof(*t));
-	if (!t) {
+	if ((rc = omen_label_clock_alloc(out, n)) < 0) {
 		omen_labels_free(l);
-		return omen_error_set(OMEN_ENOMEM, "cannot read label times: out of memory");
+		return rc;
 	}
+	if (l)
+		omen_labels_rule(l, &out->window_days, &out->horizon_days);
 	for (i = 0; i < n; i++) {
 		const omen_sample *s = omen_dataset_get(ds, i);
-		const omen_label_rec *rec = s->label > 0 ? omen_labels_get(l, s->id) : NULL;
+		const omen_label_rec *rec = l ? omen_labels_get(l, s->id) : NULL;
 		uint32_t j;
-		t[i] = INT64_MIN;
+		out->time[i] = s->time;
+		out->label[i] = (int8_t)(s->label < 0 ? -1 : s->label > 0);
+		out->first_fix[i] = !l && s->label > 0 ? INT64_MIN : INT64_MAX;
 		if (!rec)
 			continue;
+		/* the earliest listed fix (every fix that traced to the commit,
+		 * up to the 64 a record lists) */
 		for (j = 0; j < rec->nfixes; j++) {
 			const omen_label_rec *fx = omen_labels_get(l, rec->fixes[j]);
-			if (fx && (t[i] == INT64_MIN || fx->time < t[i]))
-				t[i] = fx->time;
+			if (fx && fx->time < out->first_fix[i])
+				out->first_fix[i] = fx->time;
 		}
 	}
 	omen_labels_free(l);
-	*out = t;
 	return 0;
 }
 
-int omen_eval_run(omen_eval_result *out, const omen_dataset *ds, const omen_eval_opts *o)
+static int run_one(omen_eval_result *out, const omen_dataset *ds, const omen_eval_opts *o)
 {
 	omen_fold_opts fo;
-	int64_t *known = NULL;
+	omen_label_clock clock;
 	omen_eval_opts def;
 	omen_fold *folds = NULL;
 	size_t nf = 0, n = omen_dataset_size(ds), i, k, npat = 0, risky_cap = 0;
@@ -259,6 +267,7 @@ int omen_eval_run(omen_eval_result *out, const omen_dataset *ds, const omen_eval
 	double t0 = omen_now();
 	int rc = 0;
 	memset(out, 0, sizeof(*out));
+	memset(&clock, 0, sizeof(clock));
 	if (!o) {
 		omen_eval_opts_init(&def);
 		o = &def;
@@ -281,10 +290,10 @@ int omen_eval_run(omen_eval_result *out, const omen_dataset *ds, const omen_eval
 		y[i] = s->label;
 	}
 	fo = o->folds;
-	if (o->labels_path && !fo.label_known) {
-		if ((rc = omen_eval_label_times(&known, ds, o->labels_path)) < 0)
+	if (!fo.clock) {
+		if ((rc = omen_label_clock_load(&clock, ds, o->labels_path)) < 0)
 			goto out;
-		fo.label_known = known;
+		fo.clock = &clock;
 	}
 	if ((rc = omen_folds_build(&folds, &nf, t, y, n, &fo)) < 0)
 		goto out;
@@ -292,7 +301,7 @@ int omen_eval_run(omen_eval_result *out, const omen_dataset *ds, const omen_eval
 		goto out;
 	out->bootstrap = o->bootstrap;
 	out->seed = o->seed;
-	out->gap_days = o->folds.gap_days;
+	out->gap_days = nf ? (folds[0].test_start - folds[0].train_end) / 86400 : o->folds.gap_days;
 	out->fold_days = nf ? (folds[0].test_end - folds[0].test_start) / 86400 : 0;
 	out->n_commits = n;
 	for (i = 0; i < n; i++)
@@ -314,8 +323,49 @@ int omen_eval_run(omen_eval_result *out, const omen_dataset *ds, const omen_eval
 	out->seconds = omen_now() - t0;
 out:
 	omen_folds_free(folds, nf);
-	free(known);
+	omen_label_clock_free(&clock);
 	free(t);
 	free(y);
+	return rc;
+}
+
+int omen_eval_run(omen_eval_result *out, const omen_dataset *ds, const omen_eval_opts *o)
+{
+	omen_eval_opts def, so;
+	omen_method_scores (*pooled)[OMEN_EV_NMETHODS] = NULL;
+	omen_eval_result extra;
+	int rc, k, n;
+	if (!o) {
+		omen_eval_opts_init(&def);
+		o = &def;
+	}
+	n = o->seeds > 1 ? o->seeds : 1;
+	if ((rc = run_one(out, ds, o)) < 0 || n == 1)
+		return rc;
+	pooled = calloc((size_t)n, sizeof(*pooled));
+	if (!pooled)
+		return omen_error_set(OMEN_ENOMEM, "cannot evaluate over %d seeds: out of memory", n);
+	memcpy(pooled[0], out->pooled, sizeof(pooled[0]));
+	/* the same folds and settings; only the training seed (weights,
+	 * dropout, batch order) and the bootstrap seed move */
+	for (k = 1; k < n; k++) {
+		so = *o;
+		so.seeds = 1;
+		so.seed = o->seed + (uint64_t)k;
+		so.train.seed = o->train.seed + (uint64_t)k;
+		so.top_risky = 0;
+		rc = run_one(&extra, ds, &so);
+		if (rc == 0)
+			memcpy(pooled[k], extra.pooled, sizeof(pooled[k]));
+		omen_eval_result_free(&extra);
+		if (rc < 0) {
+			rc = omen_error_wrap(rc, "seed %llu", (unsigned long long)so.train.seed);
+			goto out;
+		}
+	}
+	omen_seed_summarize(&out->seeds, (const omen_method_scores (*)[OMEN_EV_NMETHODS])pooled, n);
+	out->seeds.first = o->train.seed;
+out:
+	free(pooled);
 	return rc;
 }

@@ -249,7 +249,16 @@ static int run_fetch(const char *gitdir, const char *remote, const git_oid *ids,
 		char *argv[] = {"git", dirarg, "-c", "fetch.negotiationAlgorithm=noop", "fetch",
 			"--no-tags", "--no-write-fetch-head", "--recurse-submodules=no",
 			"--filter=blob:none", "--stdin", "--quiet", "--", (char *)remote, NULL};
-		int se = posix_spawnp(&pid, "git", &fa, NULL, argv, envp);
+		char git[4096];
+		int se;
+		/* never a "git" in the current directory (see hist_git_find) */
+		if (hist_git_find(git, sizeof(git)) < 0) {
+			omen_error_clear();
+			snprintf(err, errcap, "cannot run git: not found on PATH");
+			rc = 1;
+			goto out;
+		}
+		se = posix_spawn(&pid, git, &fa, NULL, argv, envp);
 		if (se) {
 			snprintf(err, errcap, "cannot run git: %s", strerror(se));
 			rc = 1;

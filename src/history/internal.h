@@ -66,6 +66,48 @@ int hist_resolve_opts(omen_walk_opts *dst, omen_repo *r, const omen_walk_opts *o
  * and returns it. */
 int hist_git_fail(const char *what, const char *subject);
 
+/* ---- settings and the git command (config.c, gitcmd.c, repo.c) ---------- */
+/* One entry of the settings snapshot, in git's order (the last one of a key
+ * wins); val NULL for a key given without '=' (git -c k). */
+typedef struct {
+	char *key, *val;
+} hist_setting_entry;
+
+typedef struct {
+	hist_setting_entry *v;
+	size_t n, cap;
+	int from_git;   /* 1: git config answered; 0: libgit2 and the environment */
+} hist_settings;
+
+#define HIST_SETTINGS_MAX_BYTES (4u << 20)  /* what git config may print for us */
+
+/* Reads the omen.* keys and core.hooksPath of repo once: `git --git-dir=<repo>
+ * config --null --get-regexp` when git runs, else libgit2's config stack
+ * with the environment's pairs on top. */
+int hist_settings_load(hist_settings *s, git_repository *repo);
+void hist_settings_free(hist_settings *s);
+hist_settings *hist_repo_settings(omen_repo *r);
+/* The pairs of GIT_CONFIG_COUNT/KEY_n/VALUE_n, then of GIT_CONFIG_PARAMETERS. */
+int hist_settings_from_env(int (*cb)(const char *key, const char *val, void *payload), void *payload);
+
+/* Runs git (the one in GIT_EXEC_PATH, else the first in an absolute PATH
+ * directory: never one in the current directory) with argv, standard input from /dev/null, and
+ * collects its standard output (at most max bytes: OMEN_ELIMIT beyond) and
+ * the start of its standard error. envp NULL: ours. *status is the exit
+ * status (128 + signal when killed). OMEN_ENOTFOUND when git cannot be
+ * started. timeout_ms > 0: the child is killed after that long
+ * (OMEN_ELIMIT). */
+int hist_git_run_env(int *status, omen_buf *out, omen_buf *err, const char *const *argv,
+	char *const *envp, size_t max, int timeout_ms);
+/* The git to run: $GIT_EXEC_PATH/git when set (the git that ran us), else
+ * the first "git" in an absolute PATH directory; empty and relative PATH
+ * entries (the current directory: a work tree someone else wrote) are
+ * skipped. 0 or OMEN_ENOTFOUND. */
+int hist_git_find(char *out, size_t cap);
+/* git's first message line, its "fatal: "/"error: " tag removed and
+ * control bytes shown as '?', cut to fit cap. */
+void hist_git_first_line(char *dst, size_t cap, const omen_buf *err);
+
 /* Normalised copy of an e-mail: lowercased, spaces and <> trimmed. */
 char *hist_norm_email(omen_arena *a, const char *email);
 

@@ -4,6 +4,7 @@
 #include <string.h>
 #include "omen/error.h"
 #include "omen/history.h"
+#include "internal.h"
 
 typedef struct {
 	git_repository *repo;
@@ -31,30 +32,148 @@ static int add_remote_ref(const char *name, void *payload)
 	return g->err ? -1 : 0;
 }
 
-int omen_history_remote_refs(git_oid **out, size_t *n, omen_repo *r, const char *remote)
+static int refs_glob(git_oid **out, size_t *n, omen_repo *r, const char *glob)
 {
-	omen_buf glob = OMEN_BUF_INIT;
 	remote_ctx g;
-	int e = 0;
-
 	*out = NULL;
 	*n = 0;
 	memset(&g, 0, sizeof(g));
 	g.repo = omen_repo_git(r);
-	if ((e = omen_buf_printf(&glob, "refs/remotes/%s/*", remote)))
-		goto out;
-	git_reference_foreach_glob(g.repo, glob.ptr, add_remote_ref, &g);
+	git_reference_foreach_glob(g.repo, glob, add_remote_ref, &g);
 	git_error_clear();
 	if (g.err) {
-		e = omen_error_set(OMEN_ENOMEM, "out of memory");
-		goto out;
+		free(g.ids);
+		return omen_error_set(OMEN_ENOMEM, "out of memory");
 	}
 	*out = g.ids;
 	*n = g.n;
-	g.ids = NULL;
-out:
-	free(g.ids);
+	return 0;
+}
+
+int omen_history_remote_refs(git_oid **out, size_t *n, omen_repo *r, const char *remote)
+{
+	omen_buf glob = OMEN_BUF_INIT;
+	int e;
+	*out = NULL;
+	*n = 0;
+	if (!(e = omen_buf_printf(&glob, "refs/remotes/%s/*", remote)))
+		e = refs_glob(out, n, r, glob.ptr);
 	omen_buf_free(&glob);
+	return e;
+}
+
+int omen_history_tracking_refs(git_oid **out, size_t *n, omen_repo *r)
+{
+	return refs_glob(out, n, r, "refs/remotes/*");
+}
+
+typedef struct {
+	remote_ctx g;
+	const char *const *except;
+	size_t nexcept;
+} other_ctx;
+
+static int add_other_ref(const char *name, void *payload)
+{
+	other_ctx *o = payload;
+	size_t i;
+	for (i = 0; i < o->nexcept; i++)
+		if (o->except[i] && !strcmp(name, o->except[i]))
+			return 0;
+	return add_remote_ref(name, &o->g);
+}
+
+int omen_history_other_refs(git_oid **out, size_t *n, omen_repo *r, const char *const *except,
+	size_t nexcept)
+{
+	other_ctx o;
+	*out = NULL;
+	*n = 0;
+	memset(&o, 0, sizeof(o));
+	o.g.repo = omen_repo_git(r);
+	o.except = except;
+	o.nexcept = nexcept;
+	git_reference_foreach_name(o.g.repo, add_other_ref, &o);
+	git_error_clear();
+	if (o.g.err) {
+		free(o.g.ids);
+		return omen_error_set(OMEN_ENOMEM, "out of memory");
+	}
+	*out = o.g.ids;
+	*n = o.g.n;
+	return 0;
+}
+
+/* `git ls-remote` lines: "<id> TAB <ref>", 40 hex digits (libgit2 1.5 reads
+ * SHA-1 repositories); through the cursor, one line at a time */
+int omen_history_ls_remote(git_oid **out, size_t *n, omen_repo *r, const char *url, int timeout_ms)
+{
+	static char no_prompt[] = "GIT_TERMINAL_PROMPT=0";
+	extern char **environ;
+	omen_buf o = OMEN_BUF_INIT, err = OMEN_BUF_INIT;
+	const char *argv[] = {"git", "ls-remote", "--", url, NULL};
+	char **envp = NULL, line[256];
+	git_oid *ids = NULL;
+	size_t nids = 0, cap = 0, k = 0, i;
+	omen_cursor c;
+	const char *l;
+	size_t len;
+	int e, st = -1;
+
+	*out = NULL;
+	*n = 0;
+	while (environ[k])
+		k++;
+	if (!(envp = calloc(k + 2, sizeof(*envp))))
+		return omen_error_set(OMEN_ENOMEM, "out of memory");
+	for (i = 0, k = 0; environ[i]; i++)
+		if (strncmp(environ[i], "GIT_TERMINAL_PROMPT=", 20))
+			envp[k++] = environ[i];
+	envp[k] = no_prompt;  /* never ask for a password in the push path */
+	e = hist_git_run_env(&st, &o, &err, argv, envp, 64u << 20, timeout_ms);
+	if (e)
+		goto out;
+	if (st != 0) {
+		hist_git_first_line(line, sizeof(line), &err);
+		e = omen_error_set(OMEN_ENOTFOUND, "cannot list the refs of '%s': %s", url,
+			*line ? line : "'git ls-remote' failed");
+		goto out;
+	}
+	omen_cursor_init(&c, o.ptr, o.len);
+	while ((e = omen_cursor_line(&c, &l, &len)) > 0) {
+		git_oid id;
+		git_object *obj = NULL, *commit = NULL;
+		if (len < GIT_OID_HEXSZ + 1 || l[GIT_OID_HEXSZ] != '\t' ||
+		    git_oid_fromstrn(&id, l, GIT_OID_HEXSZ)) {
+			git_error_clear();
+			continue;   /* not a ref line (or a hash libgit2 cannot read) */
+		}
+		/* only what we have locally can hide anything */
+		if (git_object_lookup(&obj, omen_repo_git(r), &id, GIT_OBJECT_ANY) == 0 &&
+		    git_object_peel(&commit, obj, GIT_OBJECT_COMMIT) == 0) {
+			if (OMEN_ARRAY_RESERVE(ids, cap, nids + 1)) {
+				git_object_free(commit);
+				git_object_free(obj);
+				e = omen_error_set(OMEN_ENOMEM, "out of memory");
+				goto out;
+			}
+			git_oid_cpy(&ids[nids++], git_object_id(commit));
+		}
+		git_object_free(commit);
+		git_object_free(obj);
+		git_error_clear();
+	}
+	if (e < 0)
+		goto out;
+	e = 0;
+	*out = ids;
+	*n = nids;
+	ids = NULL;
+out:
+	free(ids);
+	free(envp);
+	omen_buf_free(&o);
+	omen_buf_free(&err);
 	return e;
 }
 

@@ -535,23 +535,15 @@ int hist_resolve_opts(omen_walk_opts *dst, omen_repo *r, const omen_walk_opts *o
 	int rc;
 	*dst = o ? *o : defaults;
 	if (dst->missing_blobs <= 0 || dst->missing_blobs > OMEN_MISSING_FETCH) {
-		char *m = NULL;
-		if ((rc = omen_config_string(&m, r, "omen.missingBlobs")) < 0)
+		/* the words and the message come from the settings table */
+		int m = -1;
+		if ((rc = omen_config_choice(&m, r, "omen.missingBlobs")) < 0)
 			return rc;
-		if (!m)
+		if (m < 0)
 			dst->missing_blobs = hist_repo_partial(r) ? OMEN_MISSING_FETCH : OMEN_MISSING_ERROR;
-		else if (!strcasecmp(m, "error"))
-			dst->missing_blobs = OMEN_MISSING_ERROR;
-		else if (!strcasecmp(m, "skip"))
-			dst->missing_blobs = OMEN_MISSING_SKIP;
-		else if (!strcasecmp(m, "fetch"))
-			dst->missing_blobs = OMEN_MISSING_FETCH;
 		else
-			rc = omen_error_set(OMEN_EINVAL, "bad config value 'omen.missingBlobs': '%s' is not "
-				"error, skip or fetch", m);
-		free(m);
-		if (rc < 0)
-			return rc;
+			dst->missing_blobs = m == 0 ? OMEN_MISSING_ERROR :
+				m == 1 ? OMEN_MISSING_SKIP : OMEN_MISSING_FETCH;
 	}
 	if (dst->max_blob_bytes <= 0) {
 		v = 0;

@@ -4,6 +4,8 @@
  *   {"omen_labels":1,"head":"<id>","commits":N,...,"summary":{...}}
  *   {"id":"<id>","time":T,"label":"inducing","lines":3,"fixes":["<id>"],
  *    "fix":false,"fix_by":[],"merge":false,"boundary":false,"named":0}
+ * A fix record adds "fix_scope": "code" (traced), or why it was not traced:
+ * "cosmetic", "non-code" (only non-code paths), "large" (issue 10).
  * The reader needs id, time and label; other keys are optional and unknown
  * keys are ignored, so the format can grow. Reading goes through the bounded
  * cursor one line at a time; cJSON parses each line with its length. */
@@ -22,6 +24,7 @@ struct omen_labels {
 	omen_arena arena;
 	char head[OMEN_OID_HEX + 1];
 	char *header_json;   /* the header line as read */
+	int64_t window_days, horizon_days;   /* the header's "options" (90 and 0 when absent) */
 };
 
 const char *omen_label_name(int label)
@@ -30,6 +33,8 @@ const char *omen_label_name(int label)
 }
 
 static const char *const fixby_names[] = {"pattern", "list", "issue", "named"};
+/* fix_scope of a fix record (issue 10): traced, or why it was not */
+static const char *const scope_names[] = {"code", "cosmetic", "non-code", "large"};
 
 int lbl_write_record(omen_buf *b, const omen_label_rec *r)
 {
@@ -46,8 +51,11 @@ int lbl_write_record(omen_buf *b, const omen_label_rec *r)
 			first = 0;
 		}
 	}
-	return omen_buf_printf(b, "],\"merge\":%s,\"boundary\":%s,\"named\":%u}\n",
+	omen_buf_printf(b, "],\"merge\":%s,\"boundary\":%s,\"named\":%u",
 		r->merge ? "true" : "false", r->boundary ? "true" : "false", (unsigned)r->named);
+	if (r->is_fix && r->fix_scope >= 0 && r->fix_scope < 4)
+		omen_buf_printf(b, ",\"fix_scope\":\"%s\"", scope_names[r->fix_scope]);
+	return omen_buf_puts(b, "}\n");
 }
 
 static int is_hex40(const char *s)
@@ -81,6 +89,27 @@ static int parse_header(omen_labels *l, const char *name, const char *line, size
 		strcpy(l->head, v->valuestring);
 	else if (v && !cJSON_IsNull(v))
 		BAD("bad \"head\"");
+	/* the labelling rule the file was written with: verification window
+	 * and horizon (issue 10; 0 or absent = no horizon) */
+	l->window_days = OMEN_WINDOW_DAYS;
+	l->horizon_days = 0;
+	v = cJSON_GetObjectItemCaseSensitive(j, "options");
+	if (cJSON_IsObject(v)) {
+		cJSON *w = cJSON_GetObjectItemCaseSensitive(v, "window_days");
+		cJSON *h = cJSON_GetObjectItemCaseSensitive(v, "horizon_days");
+		if (w && (!cJSON_IsNumber(w) || !(w->valuedouble >= 0 && w->valuedouble <= 36500) ||
+		    w->valuedouble != (double)(int64_t)w->valuedouble))
+			BAD("bad \"window_days\" in \"options\"");
+		if (h && !cJSON_IsNull(h) && (!cJSON_IsNumber(h) || !(h->valuedouble >= 0 &&
+		    h->valuedouble <= 36500) || h->valuedouble != (double)(int64_t)h->valuedouble))
+			BAD("bad \"horizon_days\" in \"options\"");
+		if (w)
+			l->window_days = (int64_t)w->valuedouble;
+		if (cJSON_IsNumber(h))
+			l->horizon_days = (int64_t)h->valuedouble;
+	} else if (v && !cJSON_IsNull(v)) {
+		BAD("bad \"options\" (not an object)");
+	}
 	if (!(l->header_json = malloc(len + 1))) {
 		e = omen_error_set(OMEN_ENOMEM, "out of memory");
 		goto out;
@@ -137,6 +166,14 @@ static int parse_record(omen_labels *l, const char *name, size_t lineno, const c
 		r.merge = cJSON_IsTrue(v);
 	if ((v = cJSON_GetObjectItemCaseSensitive(j, "boundary")))
 		r.boundary = cJSON_IsTrue(v);
+	if ((v = cJSON_GetObjectItemCaseSensitive(j, "fix_scope"))) {
+		int k;
+		if (!cJSON_IsString(v) || !v->valuestring)
+			BAD("\"fix_scope\" is not a string");
+		for (k = 0; k < 4; k++)
+			if (!strcmp(v->valuestring, scope_names[k]))
+				r.fix_scope = k;
+	}
 	if ((v = cJSON_GetObjectItemCaseSensitive(j, "fix_by"))) {
 		if (!cJSON_IsArray(v))
 			BAD("\"fix_by\" is not an array");
@@ -261,6 +298,12 @@ const omen_label_rec *omen_labels_at(const omen_labels *l, size_t i) { return i 
 const char *omen_labels_head(const omen_labels *l) { return l->head; }
 const char *lbl_labels_header(const omen_labels *l) { return l->header_json; }
 
+void omen_labels_rule(const omen_labels *l, int64_t *out_window_days, int64_t *out_horizon_days)
+{
+	*out_window_days = l ? l->window_days : OMEN_WINDOW_DAYS;
+	*out_horizon_days = l ? l->horizon_days : 0;
+}
+
 /* ---- brief read (issue 12): header counts and the newest records --------
  * For `git omen health`: the header's summary and the labels of the newest
  * `tail` labelled records, reading the header line and then ever larger
@@ -379,4 +422,26 @@ out:
 	omen_buf_free(&b);
 	fclose(fp);
 	return e;
+}
+
+int64_t omen_labels_file_horizon(const char *path)
+{
+	char buf[65536];
+	size_t n;
+	FILE *fp = path ? fopen(path, "rb") : NULL;
+	cJSON *j, *v;
+	int64_t h = 0;
+	if (!fp)
+		return 0;
+	n = fread(buf, 1, sizeof(buf) - 1, fp);
+	fclose(fp);
+	buf[n] = '\0';
+	buf[strcspn(buf, "\n")] = '\0';
+	if ((j = cJSON_Parse(buf))) {
+		v = cJSON_GetObjectItemCaseSensitive(cJSON_GetObjectItemCaseSensitive(j, "options"), "horizon_days");
+		if (cJSON_IsNumber(v) && v->valuedouble > 0 && v->valuedouble < 1e7)
+			h = (int64_t)v->valuedouble;
+		cJSON_Delete(j);
+	}
+	return h;
 }

@@ -31,6 +31,7 @@ typedef struct {
 	int32_t parent1;       /* walk index of the first parent, -1 none */
 	unsigned fix_by;
 	uint8_t is_fix, merge, boundary, skipped, walked;
+	uint8_t scope;         /* OMEN_FIXSCOPE_* of a fix */
 	uint8_t is_merge_listed; /* > 1 parent in the history: handled by do_merge */
 	uint8_t absent;        /* a file change with an absent blob was skipped (issue 12) */
 } lbl_commit;
@@ -39,10 +40,22 @@ typedef struct {
 	uint32_t ind, fix, lines;
 } lbl_pair;
 
+/* One --dump-origins line of the fix being traced, written once the fix's
+ * candidates are final (a minor candidate's lines are marked). */
+typedef struct {
+	uint32_t origin;
+	int32_t lineno;
+	int skip;
+	const char *path;   /* the walk's change, alive until the fix is done */
+} lbl_dump_ent;
+
 typedef struct {
 	omen_repo *repo;
 	const omen_label_opts *o;
 	omen_fixrules *fr;
+	omen_pathset *nc;       /* non-code paths (issue 10) */
+	const omen_file *nc_file; /* line_cb's cache: the last file looked up */
+	int nc_hit;
 	lbl_tracer *tr;
 	git_oid *ids;
 	size_t n, done;
@@ -57,10 +70,15 @@ typedef struct {
 	size_t fix_lines_total;
 	size_t dropped_issue_date, dropped_noncand;
 	FILE *dump;
+	lbl_dump_ent *dent;
+	size_t ndent, dent_cap;
+	uint32_t *minor;        /* candidates the line share dropped, this fix */
+	size_t nminor, minor_cap;
 	omen_label_summary *sum;
 	omen_progress prog;
 	omen_buf path;          /* scratch for tree walks */
 	size_t next_merge;      /* walk index up to which merges are handled */
+	int8_t *lab;            /* omen_label_value per commit (count_labels) */
 	uint32_t *tips;         /* commits without children: held as if live */
 	size_t ntips;
 	char old_head[OMEN_OID_HEX + 1]; /* head of the previous labels */
@@ -77,6 +95,13 @@ void omen_label_opts_init(omen_label_opts *o)
 	o->follow_renames = 1;
 	o->use_issue_dates = 1;
 	o->incremental = 1;
+	o->closing_refs = -1;
+	o->whole_message = -1;
+	o->feature_subjects = -1;
+	o->named_decides = -1;
+	o->insertion_context = -1;
+	o->min_line_share = -1;
+	o->horizon_days = -1;
 }
 
 static long lookup(const lbl_run *R, const char *hex)
@@ -153,14 +178,22 @@ static int line_cb(const omen_change *c, const omen_file *f, const omen_line *l,
 {
 	lbl_run *R = payload;
 	lbl_commit *fx = &R->cs[R->cur_fix];
+	if (R->nc_file != f) {
+		R->nc_file = f;
+		R->nc_hit = omen_pathset_match(R->nc, f->old_path);
+	}
 	if (R->dump) {
-		char hex[OMEN_OID_HEX + 1] = "-";
-		if (origin != LBL_NONE)
-			git_oid_tostr(hex, sizeof(hex), &R->ids[origin]);
-		fprintf(R->dump, "%s %d %s %d %s\n", c->commit.hex, (int)l->old_lineno, hex, skip, f->old_path);
+		int ds = fx->skipped ? LBL_SKIP_FIX : skip == LBL_TRACED && R->nc_hit ? LBL_SKIP_NONCODE : skip;
+		if (OMEN_ARRAY_RESERVE(R->dent, R->dent_cap, R->ndent + 1))
+			return omen_error_set(OMEN_ENOMEM, "out of memory");
+		R->dent[R->ndent++] = (lbl_dump_ent){origin, l->old_lineno, ds, f->old_path};
 	}
 	if (fx->skipped)
 		return 0;
+	if (skip == LBL_TRACED && R->nc_hit) {
+		R->sum->noncode_lines++;
+		return 0;
+	}
 	if (skip == LBL_SKIP_NOSTATE)
 		R->sum->untraced_missing++;
 	if (skip != LBL_TRACED)
@@ -175,6 +208,114 @@ static int line_cb(const omen_change *c, const omen_file *f, const omen_line *l,
 		return 0;
 	}
 	return add_cand(R, origin);
+}
+
+/* A line with nothing but braces, parentheses and separators. */
+static int trivial_line(const char *s, size_t n)
+{
+	size_t i;
+	for (i = 0; i < n; i++)
+		if (!strchr(" \t\r{}();,", s[i]))
+			return 0;
+	return 1;
+}
+
+/* An add-only fix (a missing check, a missing call) deletes nothing for
+ * SZZ to trace. Its insertions sit where the old code was incomplete, so
+ * the code lines just above and below each insertion point (in the fix's
+ * parent; blank, comment-only and brace-only lines left out) are traced
+ * instead (issue 10, measured against developer-named links in README
+ * "Labels that mark real repairs"). Code files only. */
+static int trace_insertions(lbl_run *R, const omen_change *c)
+{
+	size_t fi;
+	int e = 0;
+	for (fi = 0; fi < c->nfiles && !e; fi++) {
+		const omen_file *f = &c->files[fi];
+		const uint32_t *orig;
+		git_blob *blob = NULL;
+		const char *data, *p, *end;
+		uint32_t n = 0, hi, ln, cur = 0;
+		int any = 0;
+		if (!f->old_path || f->status == OMEN_FILE_ADDED || !f->new_path ||
+		    (f->flags & (OMEN_FILE_BINARY | OMEN_FILE_TOO_LARGE | OMEN_FILE_SUBMODULE)) ||
+		    omen_pathset_match(R->nc, f->old_path))
+			continue;
+		for (hi = 0; hi < f->nhunks; hi++)
+			any |= c->hunks[f->hunk_off + hi].old_lines == 0 && c->hunks[f->hunk_off + hi].new_lines > 0;
+		if (!any || !(orig = lbl_tracer_get(R->tr, f->old_path, &f->old_blob, &n)) || !n)
+			continue;
+		if (git_blob_lookup(&blob, omen_repo_git(R->repo), &f->old_blob))
+			continue; /* unreadable: nothing to trace, as for a missing version */
+		data = git_blob_rawcontent(blob);
+		end = data + git_blob_rawsize(blob);
+		p = data;
+		cur = 1; /* p is at the start of line cur */
+		for (hi = 0; hi < f->nhunks && !e; hi++) {
+			const omen_hunk *h = &c->hunks[f->hunk_off + hi];
+			if (h->old_lines != 0 || h->new_lines <= 0)
+				continue;
+			/* -U0: an insertion after old line a shows "-a,0" */
+			for (ln = (uint32_t)(h->old_start > 0 ? h->old_start : 1); ln <= (uint32_t)h->old_start + 1; ln++) {
+				const char *eol;
+				uint32_t origin;
+				if (ln < 1 || ln > n)
+					continue;
+				if (ln < cur) { /* hunks ascend; a line may serve two */
+					p = data;
+					cur = 1;
+				}
+				while (cur < ln && p < end) {
+					const char *nl = memchr(p, '\n', (size_t)(end - p));
+					p = nl ? nl + 1 : end;
+					cur++;
+				}
+				if (p >= end)
+					break;
+				eol = memchr(p, '\n', (size_t)(end - p));
+				if (!eol)
+					eol = end;
+				if (omen_line_is_blank(p, (size_t)(eol - p)) || trivial_line(p, (size_t)(eol - p)) ||
+				    (R->o->skip_comments && omen_line_is_comment(p, (size_t)(eol - p))))
+					continue;
+				origin = orig[ln - 1];
+				if (R->dump) {
+					if (OMEN_ARRAY_RESERVE(R->dent, R->dent_cap, R->ndent + 1)) {
+						e = omen_error_set(OMEN_ENOMEM, "out of memory");
+						break;
+					}
+					R->dent[R->ndent++] = (lbl_dump_ent){origin, (int32_t)ln, LBL_TRACED, f->old_path};
+				}
+				if (origin == LBL_NONE || origin >= R->n || R->cs[origin].merge || R->cs[origin].boundary)
+					continue;
+				if (R->o->use_issue_dates && R->cs[R->cur_fix].issue_date &&
+				    R->cs[origin].time > R->cs[R->cur_fix].issue_date)
+					continue;
+				e = add_cand(R, origin);
+			}
+		}
+		git_blob_free(blob);
+	}
+	return e;
+}
+
+/* Writes the fix's --dump-origins lines; a line whose origin the line
+ * share dropped is marked LBL_SKIP_MINOR. */
+static void flush_dump(lbl_run *R, const char *fix_hex)
+{
+	size_t i, k;
+	for (i = 0; i < R->ndent; i++) {
+		const lbl_dump_ent *d = &R->dent[i];
+		char hex[OMEN_OID_HEX + 1] = "-";
+		int skip = d->skip;
+		if (d->origin != LBL_NONE && d->origin < R->n)
+			git_oid_tostr(hex, sizeof(hex), &R->ids[d->origin]);
+		for (k = 0; skip == LBL_TRACED && k < R->nminor; k++)
+			if (R->minor[k] == d->origin)
+				skip = LBL_SKIP_MINOR;
+		fprintf(R->dump, "%s %d %s %d %s\n", fix_hex, (int)d->lineno, hex, skip, d->path);
+	}
+	R->ndent = 0;
 }
 
 /* Resolves an abbreviated id named by a fix to an earlier walked commit. */
@@ -313,8 +454,10 @@ static int walk_cb(const omen_change *c, void *payload)
 	long ci = lookup(R, c->commit.hex);
 	lbl_commit *cm;
 	char named[MAX_NAMED][OMEN_OID_HEX + 1];
-	int nnamed = 0, e, i;
+	uint32_t named_at[MAX_NAMED];
+	int nnamed = 0, nat = 0, e, i;
 	unsigned by;
+	omen_fix_info info;
 	if (ci < 0)
 		return omen_error_set(OMEN_ERROR, "walk gave commit '%s' that the listing did not", c->commit.hex);
 	if ((e = catch_up(R, (size_t)ci)))
@@ -334,7 +477,8 @@ static int walk_cb(const omen_change *c, void *payload)
 			R->sum->files_absent++;
 		}
 	R->sum->file_changes += c->nfiles;
-	by = cm->merge ? 0 : omen_fix_classify(R->fr, &c->commit, named, MAX_NAMED, &nnamed);
+	memset(&info, 0, sizeof(info));
+	by = cm->merge ? 0 : omen_fix_classify_ex(R->fr, &c->commit, named, MAX_NAMED, &nnamed, &info);
 	if (by & OMEN_FIXBY_NAMED) {
 		int resolved = 0;
 		for (i = 0; i < nnamed; i++) {
@@ -343,6 +487,7 @@ static int walk_cb(const omen_change *c, void *payload)
 				R->cs[t].named++;
 				R->sum->named_links++;
 				resolved = 1;
+				named_at[nat++] = (uint32_t)t;
 				if (OMEN_ARRAY_RESERVE(R->pairs, R->pairs_cap, R->npairs + 1))
 					return omen_error_set(OMEN_ENOMEM, "out of memory");
 				R->pairs[R->npairs++] = (lbl_pair){(uint32_t)t, (uint32_t)ci, 0};
@@ -351,23 +496,92 @@ static int walk_cb(const omen_change *c, void *payload)
 		if (!resolved)
 			by &= ~(unsigned)OMEN_FIXBY_NAMED;
 	}
+	if (!by) {
+		R->sum->closing_only += info.closing_only;
+		R->sum->outside_only += info.outside_only;
+		R->sum->feature_only += info.feature_only;
+	}
 	if (by) {
 		size_t k, before = R->fix_lines_total;
 		cm->is_fix = 1;
 		cm->fix_by = by;
 		cm->issue_date = R->o->use_issue_dates ? omen_fix_issue_date(R->fr, &c->commit) : 0;
-		cm->skipped = R->o->max_fix_files > 0 && c->nfiles > (size_t)R->o->max_fix_files;
+		cm->scope = OMEN_FIXSCOPE_CODE;
+		if (R->o->max_fix_files > 0 && c->nfiles > (size_t)R->o->max_fix_files)
+			cm->scope = OMEN_FIXSCOPE_LARGE;
+		else if (info.cosmetic && !(by & OMEN_FIXBY_NAMED))
+			cm->scope = OMEN_FIXSCOPE_COSMETIC; /* a named commit overrules the subject */
+		else if (omen_pathset_count(R->nc)) {
+			size_t fi, code = 0;
+			for (fi = 0; fi < c->nfiles && !code; fi++) {
+				const omen_file *f = &c->files[fi];
+				code += !omen_pathset_match(R->nc, f->old_path ? f->old_path : f->new_path) ||
+					(f->new_path && !omen_pathset_match(R->nc, f->new_path));
+			}
+			if (!code)
+				cm->scope = OMEN_FIXSCOPE_NONCODE;
+		}
+		cm->skipped = cm->scope != OMEN_FIXSCOPE_CODE;
 		R->cur_fix = (uint32_t)ci;
 		R->ncand = 0;
+		R->nc_file = NULL;
+		R->ndent = R->nminor = 0;
 		if (!cm->skipped || R->dump)
 			if ((e = lbl_tracer_trace(R->tr, c, line_cb, R)))
 				return e;
-		if (cm->skipped)
-			R->sum->fixes_skipped_large++;
-		else if (R->fix_lines_total == before && cm->absent && !R->ncand)
+		R->sum->fixes_skipped_large += cm->scope == OMEN_FIXSCOPE_LARGE;
+		R->sum->fixes_cosmetic += cm->scope == OMEN_FIXSCOPE_COSMETIC;
+		R->sum->fixes_noncode += cm->scope == OMEN_FIXSCOPE_NONCODE;
+		if (!cm->skipped && R->fix_lines_total == before && cm->absent && !R->ncand) {
 			R->sum->fixes_absent++; /* its deleted lines cannot be read */
-		else if (R->fix_lines_total == before)
-			R->sum->fixes_add_only += !R->ncand;
+		} else if (!cm->skipped && R->fix_lines_total == before && !R->ncand) {
+			R->sum->fixes_add_only++;
+			if (R->o->insertion_context && (e = trace_insertions(R, c)))
+				return e;
+			R->sum->fixes_insertion += R->ncand > 0;
+		}
+		if (R->o->min_line_share > 0 && R->ncand > 1) {
+			/* minor candidates: a commit behind less than min_line_share
+			 * percent of the fix's traced lines is dropped (a neighbouring
+			 * line tidied on the way; README "Labels that mark real
+			 * repairs" measures the effect against developer-named links) */
+			size_t tot = 0, keep = 0;
+			uint32_t most = 0;
+			for (k = 0; k < R->ncand; k++) {
+				tot += R->cand_lines[k];
+				if (R->cand_lines[k] > most)
+					most = R->cand_lines[k];
+			}
+			for (k = 0; k < R->ncand; k++) {
+				/* the commit(s) behind the most lines always stay */
+				if ((uint64_t)R->cand_lines[k] * 100 >= (uint64_t)R->o->min_line_share * tot ||
+				    R->cand_lines[k] == most) {
+					R->cand[keep] = R->cand[k];
+					R->cand_lines[keep++] = R->cand_lines[k];
+				} else if (R->dump) {
+					if (OMEN_ARRAY_RESERVE(R->minor, R->minor_cap, R->nminor + 1))
+						return omen_error_set(OMEN_ENOMEM, "out of memory");
+					R->minor[R->nminor++] = R->cand[k];
+				}
+			}
+			R->sum->minor_dropped += R->ncand - keep;
+			R->ncand = keep;
+		}
+		if (nat && R->o->named_decides) {
+			/* the name decides (issue 10): drop the fix's other candidates */
+			size_t keep = 0;
+			for (k = 0; k < R->ncand; k++) {
+				int hit = 0;
+				for (i = 0; i < nat; i++)
+					hit |= R->cand[k] == named_at[i];
+				if (hit) {
+					R->cand[keep] = R->cand[k];
+					R->cand_lines[keep++] = R->cand_lines[k];
+				}
+			}
+			R->sum->named_dropped += R->ncand - keep;
+			R->ncand = keep;
+		}
 		if (R->ncand)
 			R->sum->fixes_traced++;
 		for (k = 0; k < R->ncand; k++) {
@@ -378,6 +592,8 @@ static int walk_cb(const omen_change *c, void *payload)
 				return omen_error_set(OMEN_ENOMEM, "out of memory");
 			R->pairs[R->npairs++] = (lbl_pair){t, (uint32_t)ci, R->cand_lines[k]};
 		}
+		if (R->dump)
+			flush_dump(R, c->commit.hex);
 	}
 	if (R->o->follow_renames && (e = lbl_rename_pairs(R->tr, R->repo, c, (uint32_t)ci)))
 		return e;
@@ -458,6 +674,14 @@ static double quantile(const double *v, size_t n, double q)
 }
 
 /* ---- options and the previous run ---------------------------------------- */
+static void json_str_or_null(omen_buf *b, const char *s)
+{
+	if (s)
+		omen_buf_put_json_string(b, s, strlen(s));
+	else
+		omen_buf_puts(b, "null");
+}
+
 static int opts_json(omen_buf *b, const omen_label_opts *o, const char *pattern, const char *list)
 {
 	omen_buf_printf(b, "{\"fix_pattern\":");
@@ -470,10 +694,18 @@ static int opts_json(omen_buf *b, const omen_label_opts *o, const char *pattern,
 		omen_buf_put_json_string(b, list, strlen(list));
 	else
 		omen_buf_puts(b, "null");
-	return omen_buf_printf(b, ",\"window_days\":%lld,\"max_fix_files\":%d,\"skip_blank\":%d,"
-		"\"skip_comments\":%d,\"ws_keeps_origin\":%d,\"follow_renames\":%d,\"use_issue_dates\":%d}",
+	omen_buf_printf(b, ",\"window_days\":%lld,\"max_fix_files\":%d,\"skip_blank\":%d,"
+		"\"skip_comments\":%d,\"ws_keeps_origin\":%d,\"follow_renames\":%d,\"use_issue_dates\":%d",
 		(long long)o->window_days, o->max_fix_files, o->skip_blank, o->skip_comments,
 		o->ws_keeps_origin, o->follow_renames, o->use_issue_dates);
+	omen_buf_puts(b, ",\"cosmetic_pattern\":");
+	json_str_or_null(b, o->cosmetic_pattern);
+	omen_buf_puts(b, ",\"non_code_paths\":");
+	json_str_or_null(b, o->noncode_paths);
+	return omen_buf_printf(b, ",\"closing_refs\":%d,\"whole_message\":%d,\"feature_subjects\":%d,"
+		"\"named_decides\":%d,\"insertion_context\":%d,\"min_line_share\":%d,\"horizon_days\":%lld}",
+		o->closing_refs, o->whole_message, o->feature_subjects, o->named_decides, o->insertion_context,
+		o->min_line_share, (long long)o->horizon_days);
 }
 
 static void summary_from_header(omen_label_summary *s, const char *json)
@@ -489,8 +721,15 @@ static void summary_from_header(omen_label_summary *s, const char *json)
 	GETN("fixes_by_named", fixes_by_named); GETN("fixes_add_only", fixes_add_only);
 	GETN("fixes_skipped_large", fixes_skipped_large); GETN("traced_lines", traced_lines);
 	GETN("merges", merges); GETN("boundary", boundary); GETN("named_links", named_links);
-	GETN("fixes_traced", fixes_traced);
+	GETN("fixes_traced", fixes_traced); GETN("closing_only", closing_only);
+	GETN("outside_only", outside_only); GETN("feature_only", feature_only); GETN("fixes_cosmetic", fixes_cosmetic);
+	GETN("fixes_non_code", fixes_noncode); GETN("non_code_lines", noncode_lines);
+	GETN("named_dropped", named_dropped); GETN("fixes_insertion", fixes_insertion);
+	GETN("minor_dropped", minor_dropped); GETN("beyond_horizon", beyond_horizon);
 #undef GETN
+	if ((v = cJSON_GetObjectItemCaseSensitive(j, "options")) &&
+	    (v = cJSON_GetObjectItemCaseSensitive(v, "horizon_days")) && cJSON_IsNumber(v))
+		s->horizon_days = (int64_t)v->valuedouble;
 	if ((v = cJSON_GetObjectItemCaseSensitive(m, "latency_days")) && cJSON_GetArraySize(v) == 3) {
 		int k;
 		for (k = 0; k < 3; k++)
@@ -554,9 +793,10 @@ static int previous_run(omen_label_summary *sum, lbl_run *R, const char *path, c
 
 
 /* ---- pass state, saved beside the labels for incremental runs ----------------
- * "OMENLBS1", u32 version, head hex[40], u32 len + options JSON, summary
- * counters (u64 x 8), u32 n + commits {oid[20], i64 time, i64 issue date,
- * u32 traced, u32 named, u32 fix_by, u8 flags}, u32 n + pairs {u32 x 3},
+ * "OMENLBS1", u32 version (2), head hex[40], u32 len + options JSON, summary
+ * counters (u64 x 17), u32 n + commits {oid[20], i64 time, i64 issue date,
+ * u32 traced, u32 named, u32 fix_by, u8 flags: fix, merge, boundary,
+ * untraced fix, 2 bits fix scope}, u32 n + pairs {u32 x 3},
  * u32 n + tips {u32}, u32 n + versions {u64 path key, oid[20], i32 ref,
  * u32 n, u32 origins[n]}, u32 CRC-32 of all before it. Little-endian. */
 /* The state being written; err sticks at the first failed append, so an
@@ -602,9 +842,11 @@ static int put_version(uint64_t pkey, const git_oid *blob, const uint32_t *orig,
 static size_t *counter(omen_label_summary *s, int k)
 {
 	size_t *c[] = {&s->fixes_add_only, &s->fixes_skipped_large, &s->traced_lines, &s->fixes_traced,
-		&s->named_links, &s->untraced_missing, &s->boundary, NULL};
+		&s->named_links, &s->untraced_missing, &s->boundary, &s->closing_only, &s->outside_only,
+		&s->fixes_cosmetic, &s->fixes_noncode, &s->noncode_lines, &s->named_dropped, &s->feature_only, &s->fixes_insertion, &s->minor_dropped, NULL};
 	return c[k];
 }
+#define STATE_COUNTERS 16
 
 static int save_state(lbl_run *R, const char *path, const char *opts, const char *head)
 {
@@ -612,17 +854,18 @@ static int save_state(lbl_run *R, const char *path, const char *opts, const char
 	size_t i;
 	int e, k;
 	wput(&w, "OMENLBS1", 8);
-	put32(&w, 1);
+	put32(&w, 2);
 	wput(&w, head, OMEN_OID_HEX);
 	put32(&w, (uint32_t)strlen(opts));
 	wput(&w, opts, strlen(opts));
-	for (k = 0; k < 7; k++)
+	for (k = 0; k < STATE_COUNTERS; k++)
 		put64(&w, *counter(R->sum, k));
 	put64(&w, (uint64_t)R->sum->shallow);
 	put32(&w, (uint32_t)R->n);
 	for (i = 0; i < R->n; i++) {
 		lbl_commit *c = &R->cs[i];
-		unsigned char fl = (unsigned char)(c->is_fix | c->merge << 1 | c->boundary << 2 | c->skipped << 3);
+		unsigned char fl = (unsigned char)(c->is_fix | c->merge << 1 | c->boundary << 2 | c->skipped << 3 |
+			(c->scope & 3) << 4);
 		wput(&w, R->ids[i].id, GIT_OID_RAWSZ);
 		put64(&w, (uint64_t)c->time);
 		put64(&w, (uint64_t)c->issue_date);
@@ -673,12 +916,12 @@ static int load_state(lbl_run *R, const char *path, const char *opts)
 	omen_cursor_init(&c, b.ptr, b.len);
 	if (b.len < 12 || omen_cursor_tail_u32le(&c, &crc) || omen_crc32(0, b.ptr, c.n) != crc)
 		goto out;
-	if (omen_cursor_bytes(&c, &p, 8) || memcmp(p, "OMENLBS1", 8) || omen_cursor_u32le(&c, &ver) || ver != 1 ||
+	if (omen_cursor_bytes(&c, &p, 8) || memcmp(p, "OMENLBS1", 8) || omen_cursor_u32le(&c, &ver) || ver != 2 ||
 	    omen_cursor_bytes(&c, &p, OMEN_OID_HEX) || memcmp(p, R->old_head, OMEN_OID_HEX) ||
 	    omen_cursor_u32le(&c, &len) || omen_cursor_bytes(&c, &p, len) || len != strlen(opts) ||
 	    memcmp(p, opts, len))
 		goto out;
-	for (k = 0; k < 7; k++) {
+	for (k = 0; k < STATE_COUNTERS; k++) {
 		if (omen_cursor_u64le(&c, &u))
 			goto out;
 		*counter(R->sum, (int)k) = (size_t)u;
@@ -715,6 +958,7 @@ static int load_state(lbl_run *R, const char *path, const char *opts)
 		cm->merge = (fl >> 1) & 1;
 		cm->boundary = (fl >> 2) & 1;
 		cm->skipped = (fl >> 3) & 1;
+		cm->scope = (fl >> 4) & 3;
 		cm->walked = 1;
 	}
 	if (omen_cursor_u32le(&c, &len))
@@ -811,12 +1055,16 @@ static int write_labels(lbl_run *R, const char *path, const char *opts, const ch
 		"\"fixes_by_pattern\":%zu,\"fixes_by_list\":%zu,\"fixes_by_issue\":%zu,"
 		"\"fixes_by_named\":%zu,\"fixes_traced\":%zu,\"fixes_add_only\":%zu,"
 		"\"fixes_skipped_large\":%zu,\"traced_lines\":%zu,\"named_links\":%zu,"
-		"\"latency_days\":[%.3f,%.3f,%.3f],\"shallow\":%s",
+		"\"latency_days\":[%.3f,%.3f,%.3f],\"shallow\":%s,\"closing_only\":%zu,"
+		"\"outside_only\":%zu,\"feature_only\":%zu,\"fixes_cosmetic\":%zu,\"fixes_non_code\":%zu,\"non_code_lines\":%zu,"
+		"\"named_dropped\":%zu,\"fixes_insertion\":%zu,\"minor_dropped\":%zu,\"beyond_horizon\":%zu",
 		head, R->n, (long long)s->newest_time, (long long)s->window_cut, opts, s->commits, s->fixes,
 		s->inducing, s->clean, s->unknown, s->merges, s->boundary, s->fixes_by_pattern,
 		s->fixes_by_list, s->fixes_by_issue, s->fixes_by_named, s->fixes_traced, s->fixes_add_only,
 		s->fixes_skipped_large, s->traced_lines, s->named_links, s->latency_days_q[0],
-		s->latency_days_q[1], s->latency_days_q[2], s->shallow ? "true" : "false");
+		s->latency_days_q[1], s->latency_days_q[2], s->shallow ? "true" : "false", s->closing_only,
+		s->outside_only, s->feature_only, s->fixes_cosmetic, s->fixes_noncode, s->noncode_lines, s->named_dropped,
+		s->fixes_insertion, s->minor_dropped, s->beyond_horizon);
 	/* only when blobs were skipped, so a complete history's file keeps its bytes */
 	if (s->files_absent)
 		omen_buf_printf(&b, ",\"missing_blob_files\":%zu", s->files_absent);
@@ -838,9 +1086,8 @@ static int write_labels(lbl_run *R, const char *path, const char *opts, const ch
 		rec.named = c->named;
 		rec.merge = c->merge;
 		rec.boundary = c->boundary;
-		rec.label = c->merge || c->boundary ? OMEN_LABEL_UNKNOWN :
-			(c->traced || c->named) ? OMEN_LABEL_INDUCING :
-			!c->absent && c->time < s->window_cut ? OMEN_LABEL_CLEAN : OMEN_LABEL_UNKNOWN;
+		rec.fix_scope = c->scope;
+		rec.label = R->lab[i];
 		nfixids = 0;
 		while (pi < R->npairs && R->pairs[pi].ind < i)
 			pi++;
@@ -878,18 +1125,29 @@ out:
 	return e;
 }
 
-static void count_labels(lbl_run *R)
+/* Labels (DESIGN.md "Labels" 4, issue 10): with a horizon of H days, a
+ * commit is inducing when a fix traced to it (or naming it) came within H
+ * days of it, author times; clean when it is older than H at the newest
+ * commit and no fix came within H; unknown otherwise. Without a horizon
+ * (0) any fix makes it inducing and the verification window is the cut.
+ * The latency a horizon bounds is the one da Costa et al. (TSE 2017, from
+ * memory) propose to judge SZZ output by. */
+static int count_labels(lbl_run *R)
 {
 	omen_label_summary *s = R->sum;
-	size_t i;
-	int64_t newest = 0;
+	size_t i, pi = 0;
+	int64_t newest = 0, h = R->o->horizon_days * 86400;
+	if (!(R->lab = malloc(R->n ? R->n : 1)))
+		return omen_error_set(OMEN_ENOMEM, "out of memory");
 	for (i = 0; i < R->n; i++)
 		if (R->cs[i].time > newest)
 			newest = R->cs[i].time;
 	s->newest_time = newest;
-	s->window_cut = newest - R->o->window_days * 86400;
+	s->window_cut = newest - (h > 0 ? h : R->o->window_days * 86400);
+	s->horizon_days = R->o->horizon_days;
 	for (i = 0; i < R->n; i++) {
 		lbl_commit *c = &R->cs[i];
+		int any = 0, within = 0;
 		s->commits++;
 		s->merges += c->merge;
 		s->boundary += c->boundary;
@@ -900,17 +1158,28 @@ static void count_labels(lbl_run *R)
 			s->fixes_by_issue += (c->fix_by & OMEN_FIXBY_ISSUE) != 0;
 			s->fixes_by_named += (c->fix_by & OMEN_FIXBY_NAMED) != 0;
 		}
+		while (pi < R->npairs && R->pairs[pi].ind < i)
+			pi++;
+		for (; pi < R->npairs && R->pairs[pi].ind == i; pi++) {
+			any = 1;
+			within |= h <= 0 || R->cs[R->pairs[pi].fix].time - c->time <= h;
+		}
 		if (c->merge || c->boundary)
-			s->unknown++;
-		else if (c->traced || c->named)
-			s->inducing++;
+			R->lab[i] = OMEN_LABEL_UNKNOWN;
+		else if (within)
+			R->lab[i] = OMEN_LABEL_INDUCING;
 		else if (c->absent)
-			s->unknown++; /* its own lines are unknown: never called clean */
+			R->lab[i] = OMEN_LABEL_UNKNOWN; /* its own lines are unknown: never called clean */
 		else if (c->time < s->window_cut)
-			s->clean++;
+			R->lab[i] = OMEN_LABEL_CLEAN;
 		else
-			s->unknown++;
+			R->lab[i] = OMEN_LABEL_UNKNOWN;
+		s->beyond_horizon += any && !within && !c->merge && !c->boundary;
+		s->inducing += R->lab[i] == OMEN_LABEL_INDUCING;
+		s->clean += R->lab[i] == OMEN_LABEL_CLEAN;
+		s->unknown += R->lab[i] == OMEN_LABEL_UNKNOWN;
 	}
+	return 0;
 }
 
 static int latency(lbl_run *R)
@@ -932,6 +1201,96 @@ static int latency(lbl_run *R)
 	return 0;
 }
 
+/* Settings of the issue 10 rules: an option overrides its config key. */
+static int read_rule_config(omen_label_opts *o, omen_repo *r, char **cos, char **nc)
+{
+	int e, b;
+	int64_t v;
+	if (!o->cosmetic_pattern) {
+		if ((e = omen_config_string(cos, r, "omen.cosmeticPattern")))
+			return e;
+		o->cosmetic_pattern = *cos ? *cos : omen_fix_default_cosmetic;
+	}
+	if (!o->noncode_paths) {
+		if ((e = omen_config_string(nc, r, "omen.nonCodePaths")))
+			return e;
+		o->noncode_paths = *nc ? *nc : omen_noncode_default;
+	}
+	if (o->closing_refs < 0) {
+		b = 0;
+		if ((e = omen_config_bool(&b, r, "omen.closingRefs")))
+			return e;
+		o->closing_refs = b;
+	}
+	if (o->whole_message < 0) {
+		b = 0;
+		if ((e = omen_config_bool(&b, r, "omen.wholeMessage")))
+			return e;
+		o->whole_message = b;
+	}
+	if (o->feature_subjects < 0) {
+		b = 0;
+		if ((e = omen_config_bool(&b, r, "omen.featureSubjects")))
+			return e;
+		o->feature_subjects = b;
+	}
+	if (o->insertion_context < 0) {
+		b = 1;
+		if ((e = omen_config_bool(&b, r, "omen.insertionContext")))
+			return e;
+		o->insertion_context = b;
+	}
+	if (o->min_line_share < 0) {
+		v = 25;
+		if ((e = omen_config_int(&v, r, "omen.minLineShare")))
+			return e;
+		if (v < 0 || v > 100)
+			return omen_error_set(OMEN_EINVAL, "bad config value 'omen.minLineShare': '%lld' is not a "
+				"percentage (0 to 100)", (long long)v);
+		o->min_line_share = (int)v;
+	}
+	if (o->named_decides < 0) {
+		b = 1;
+		if ((e = omen_config_bool(&b, r, "omen.namedDecides")))
+			return e;
+		o->named_decides = b;
+	}
+	if (o->horizon_days < 0) {
+		v = INT64_MIN; /* unset: the default, decided by the history's span */
+		if ((e = omen_config_int(&v, r, "omen.horizon")))
+			return e;
+		if (v < 0 && v != INT64_MIN)
+			return omen_error_set(OMEN_EINVAL, "bad config value 'omen.horizon': '%lld' is not a "
+				"number of days (0 = no horizon)", (long long)v);
+		o->horizon_days = v == INT64_MIN ? -1 : v;
+	}
+	return 0;
+}
+
+static int64_t author_time(omen_repo *r, const git_oid *id)
+{
+	git_commit *c = NULL;
+	int64_t t = 0;
+	if (git_commit_lookup(&c, omen_repo_git(r), id) == 0)
+		t = git_commit_author(c)->when.time;
+	git_commit_free(c);
+	return t;
+}
+
+/* The default horizon (README "Labels that mark real repairs"): one year
+ * when the history spans at least five of them (the oldest commit of the
+ * walk to its head, author times), else none: a younger history would lose
+ * too large a share of its known labels to the unknown newest year. */
+static int64_t default_horizon(const lbl_run *R)
+{
+	int64_t span;
+	if (!R->n)
+		return 0;
+	span = author_time(R->repo, &R->ids[R->n - 1]) - author_time(R->repo, &R->ids[0]);
+	return span >= (int64_t)OMEN_LABEL_HORIZON_MIN_SPANS * OMEN_LABEL_HORIZON_DEFAULT * 86400 ?
+		OMEN_LABEL_HORIZON_DEFAULT : 0;
+}
+
 int omen_label_run(omen_label_summary *sum, omen_repo *r, const omen_label_opts *opts,
 	const char *out_path)
 {
@@ -940,6 +1299,8 @@ int omen_label_run(omen_label_summary *sum, omen_repo *r, const omen_label_opts 
 	lbl_run R;
 	lbl_trace_opts to;
 	char *cfg_pattern = NULL, *cfg_list = NULL, *path = NULL;
+	char *cfg_cosmetic = NULL, *cfg_noncode = NULL;
+	omen_fixrule_opts fo = OMEN_FIXRULE_OPTS_INIT;
 	const char *pattern, *list;
 	omen_buf ob = OMEN_BUF_INIT, sp = OMEN_BUF_INIT;
 	char head[OMEN_OID_HEX + 1] = "", excl[OMEN_OID_HEX + 2];
@@ -976,10 +1337,19 @@ int omen_label_run(omen_label_summary *sum, omen_repo *r, const omen_label_opts 
 			goto out;
 		o.max_bytes = v;
 	}
+	if ((e = read_rule_config(&o, r, &cfg_cosmetic, &cfg_noncode)))
+		goto out;
 	pattern = o.fix_pattern ? o.fix_pattern : cfg_pattern;
 	list = o.fix_list ? o.fix_list : cfg_list;
-	if ((e = omen_fixrules_new(&R.fr, pattern)))
+	fo.pattern = pattern;
+	fo.cosmetic = o.cosmetic_pattern;
+	fo.closing_refs = o.closing_refs;
+	fo.whole_message = o.whole_message;
+	fo.feature_subjects = o.feature_subjects;
+	if ((e = omen_fixrules_new_opts(&R.fr, &fo)) ||
+	    (e = omen_pathset_new(&R.nc, o.noncode_paths)))
 		goto out;
+	sum->noncode_patterns = omen_pathset_count(R.nc);
 	if (list && (e = omen_fixrules_load_list(R.fr, list)))
 		goto out;
 	sum->list_entries = omen_fixrules_list_size(R.fr);
@@ -1006,6 +1376,8 @@ int omen_label_run(omen_label_summary *sum, omen_repo *r, const omen_label_opts 
 	strcpy(sum->head, head);
 	if ((e = load_graph(&R)))
 		goto out;
+	if (o.horizon_days < 0)
+		o.horizon_days = default_horizon(&R);
 	if ((e = opts_json(&ob, &o, pattern, list)))
 		goto out;
 	if (o.incremental && previous_run(sum, &R, path, ob.ptr, head)) {
@@ -1099,8 +1471,7 @@ int omen_label_run(omen_label_summary *sum, omen_repo *r, const omen_label_opts 
 		R.pairs_cap * sizeof(*R.pairs);
 	if (R.npairs)
 		qsort(R.pairs, R.npairs, sizeof(*R.pairs), pair_cmp);
-	count_labels(&R);
-	if ((e = latency(&R)))
+	if ((e = count_labels(&R)) || (e = latency(&R)))
 		goto out;
 	if ((e = write_labels(&R, path, ob.ptr, head)))
 		goto out;
@@ -1119,11 +1490,17 @@ out:
 	free(R.pairs);
 	free(R.cand);
 	free(R.cand_lines);
+	free(R.dent);
+	free(R.minor);
 	omen_buf_free(&R.path);
 	omen_buf_free(&ob);
 	omen_buf_free(&sp);
 	free(walk_revs);
 	free(R.tips);
+	free(R.lab);
+	omen_pathset_free(R.nc);
+	free(cfg_cosmetic);
+	free(cfg_noncode);
 	free(cfg_pattern);
 	free(cfg_list);
 	free(path);

@@ -25,7 +25,11 @@ enum {
 	LBL_SKIP_BLANK = 1,
 	LBL_SKIP_COMMENT = 2,
 	LBL_SKIP_WS = 3,      /* re-added with only whitespace changed */
-	LBL_SKIP_NOSTATE = 4  /* no origin state for the old version */
+	LBL_SKIP_NOSTATE = 4, /* no origin state for the old version */
+	/* set by run.c, seen in --dump-origins only (issue 10): */
+	LBL_SKIP_NONCODE = 5, /* a line of a non-code path */
+	LBL_SKIP_FIX = 6,     /* the fix is not traced (cosmetic, non-code only, too large) */
+	LBL_SKIP_MINOR = 7    /* its origin is under the fix's minimum line share */
 };
 
 typedef struct lbl_tracer lbl_tracer;

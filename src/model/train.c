@@ -22,6 +22,7 @@
 #define OMEN_TRAIN_CHUNKS 2
 #define MIN_LABELLED 50
 #define MIN_POSITIVES 10
+#define MIN_CHECK 5       /* inducing and clean commits the shipped model's calibration needs */
 
 void omen_train_opts_init(omen_train_opts *o)
 {
@@ -68,6 +69,7 @@ typedef struct {
 	const omen_model *m;
 	const omen_dataset *ds;
 	const size_t *idx;
+	const int8_t *lab;      /* labels per dataset commit (NULL: the samples') */
 	int nb, nthreads, train, part, parts;
 	float p, pw;
 	uint64_t seed, step;
@@ -77,7 +79,14 @@ typedef struct {
 	float *logits;          /* eval: out [nb] */
 	int err[OMEN_TRAIN_CHUNKS];
 	const omen_sample **sp[OMEN_TRAIN_CHUNKS];
+	float *yb[OMEN_TRAIN_CHUNKS];
 } step_ctx;
+
+/* Label of dataset commit i: lab when given, else the sample's own. */
+static int pos_of(const omen_dataset *ds, const int8_t *lab, size_t i)
+{
+	return lab ? lab[i] > 0 : omen_dataset_get(ds, i)->label > 0;
+}
 
 static void chunk_run(step_ctx *x, int c)
 {
@@ -88,9 +97,12 @@ static void chunk_run(step_ctx *x, int c)
 	x->loss[c] = 0;
 	if (n <= 0 || (x->train && x->parts > 1 && c % x->parts != x->part))
 		return;
-	for (i = 0; i < n; i++)
+	for (i = 0; i < n; i++) {
 		x->sp[c][i] = omen_dataset_get(x->ds, x->idx[lo + i]);
-	if (omen_ws_load(w, x->m, x->sp[c], NULL, n)) {
+		if (x->lab)
+			x->yb[c][i] = (float)(x->lab[x->idx[lo + i]] > 0);
+	}
+	if (omen_ws_load(w, x->m, x->sp[c], x->lab ? x->yb[c] : NULL, n)) {
 		x->err[c] = 1;
 		return;
 	}
@@ -130,7 +142,8 @@ static int ctx_init(step_ctx *x, const omen_model *m, const omen_dataset *ds, in
 	x->nthreads = threads < 1 ? 1 : threads > OMEN_TRAIN_CHUNKS ? OMEN_TRAIN_CHUNKS : threads;
 	for (c = 0; c < OMEN_TRAIN_CHUNKS; c++) {
 		x->sp[c] = malloc((size_t)(batch + 1) * sizeof(*x->sp[c]));
-		if (!x->sp[c])
+		x->yb[c] = malloc((size_t)(batch + 1) * sizeof(*x->yb[c]));
+		if (!x->sp[c] || !x->yb[c])
 			return omen_error_set(OMEN_ENOMEM, "out of memory");
 		if (need_grad) {
 			x->grad[c] = aligned_alloc(64, (m->nparams * sizeof(float) + 63) / 64 * 64);
@@ -150,6 +163,7 @@ static void ctx_free(step_ctx *x)
 		omen_ws_free(&x->ws[c]);
 		free(x->grad[c]);
 		free(x->sp[c]);
+		free(x->yb[c]);
 	}
 }
 
@@ -201,7 +215,8 @@ int omen_model_logits(float *out, const omen_model *m, const omen_dataset *ds, c
 	return eval_logits(out, m, ds, idx, n, resolve_threads(threads));
 }
 
-static double auc_of(const float *z, const omen_dataset *ds, const size_t *idx, size_t n)
+static double auc_of(const float *z, const omen_dataset *ds, const int8_t *lab,
+	const size_t *idx, size_t n)
 {
 	double *s = malloc((n + 1) * sizeof(double)), a;
 	int *y = malloc((n + 1) * sizeof(int));
@@ -212,7 +227,7 @@ static double auc_of(const float *z, const omen_dataset *ds, const size_t *idx, 
 	}
 	for (i = 0; i < n; i++) {
 		s[i] = z[i];
-		y[i] = omen_dataset_get(ds, idx[i])->label > 0;
+		y[i] = pos_of(ds, lab, idx[i]);
 	}
 	a = omen_auc(s, y, n);
 	free(s); free(y);
@@ -269,7 +284,8 @@ void omen_model_fit_standardization(omen_model *m, const omen_dataset *ds, const
 	fit_standardization(m, ds, idx, n);
 }
 
-static int fit_lr(omen_logreg *out, const omen_dataset *ds, const size_t *idx, size_t n)
+static int fit_lr(omen_logreg *out, const omen_dataset *ds, const int8_t *lab, const size_t *idx,
+	size_t n)
 {
 	double *X = malloc((n + 1) * OMEN_NMETRICS * sizeof(double)), *y = malloc((n + 1) * sizeof(double));
 	size_t i;
@@ -281,7 +297,7 @@ static int fit_lr(omen_logreg *out, const omen_dataset *ds, const size_t *idx, s
 	for (i = 0; i < n; i++) {
 		const omen_sample *s = omen_dataset_get(ds, idx[i]);
 		omen_metrics_transform(X + i * OMEN_NMETRICS, s->metrics);
-		y[i] = s->label > 0;
+		y[i] = pos_of(ds, lab, idx[i]);
 	}
 	e = omen_logreg_fit(out, X, y, (int)n, OMEN_NMETRICS, 1.0);
 	free(X); free(y);
@@ -382,7 +398,8 @@ typedef struct {
 /* Trains m (already standardized and initialised) on train_idx; with a
  * validation slice, early-stops on its AUC and restores the best epoch;
  * without one, runs exactly o->epochs epochs. */
-static int fit(omen_model *m, fit_info *fi, const omen_dataset *ds, const size_t *train_idx,
+static int fit(omen_model *m, fit_info *fi, const omen_dataset *ds, const int8_t *lab,
+	const size_t *train_idx,
 	size_t n_train, const size_t *valid_idx, size_t n_valid, const omen_train_opts *o,
 	int epochs, int report)
 {
@@ -425,16 +442,17 @@ static int fit(omen_model *m, fit_info *fi, const omen_dataset *ds, const size_t
 			memset(decay + m->t[t].off, 1, m->t[t].n);
 	for (i = 0; i < n_train; i++) {
 		order[i] = train_idx[i];
-		npos += omen_dataset_get(ds, train_idx[i])->label > 0;
+		npos += (size_t)pos_of(ds, lab, train_idx[i]);
 	}
 	if (n_valid) {
 		size_t vp = 0;
 		for (i = 0; i < n_valid; i++)
-			vp += omen_dataset_get(ds, valid_idx[i])->label > 0;
+			vp += (size_t)pos_of(ds, lab, valid_idx[i]);
 		use_valid = vp > 0 && vp < n_valid;
 	}
 	pw = npos ? (float)(n_train - npos) / (float)npos : 1.0f;
 	x.pw = pw;
+	x.lab = lab;
 	x.p = o->dropout;
 	x.train = 1;
 	x.seed = o->seed;
@@ -447,7 +465,7 @@ static int fit(omen_model *m, fit_info *fi, const omen_dataset *ds, const size_t
 		/* epoch 0 (the warm start) is a candidate too */
 		if ((e = ctx_logits(&x, vz, valid_idx, n_valid)))
 			goto out;
-		fi->best_auc = auc_of(vz, ds, valid_idx, n_valid);
+		fi->best_auc = auc_of(vz, ds, lab, valid_idx, n_valid);
 		fi->best_epoch = 0;
 	}
 	omen_rng_seed(&rng, o->seed ^ 0x5eedull);
@@ -494,7 +512,7 @@ static int fit(omen_model *m, fit_info *fi, const omen_dataset *ds, const size_t
 			double auc;
 			if ((e = ctx_logits(&x, vz, valid_idx, n_valid)))
 				goto out;
-			auc = auc_of(vz, ds, valid_idx, n_valid);
+			auc = auc_of(vz, ds, lab, valid_idx, n_valid);
 			if (auc > fi->best_auc + 1e-4) {
 				fi->best_auc = auc;
 				fi->best_epoch = ep;
@@ -527,9 +545,10 @@ out:
 	return e;
 }
 
-/* Platt scaling and the threshold (warning budget, calib.c) of m on idx. */
-static int calibrate(omen_model *m, const omen_dataset *ds, const size_t *idx, size_t n, int threads,
-	double share, const size_t *fire_idx, size_t nfire)
+/* Platt scaling and the threshold (warning budget, calib.c) of m on idx;
+ * labels from lab (NULL: the samples'). */
+static int calibrate(omen_model *m, const omen_dataset *ds, const int8_t *lab, const size_t *idx,
+	size_t n, int threads, double share, const size_t *fire_idx, size_t nfire)
 {
 	size_t nz = n > nfire ? n : nfire;
 	float *z = malloc((nz + 1) * sizeof(float));
@@ -548,7 +567,7 @@ static int calibrate(omen_model *m, const omen_dataset *ds, const size_t *idx, s
 		goto out;
 	for (i = 0; i < n; i++) {
 		f[i] = z[i];
-		y[i] = omen_dataset_get(ds, idx[i])->label > 0;
+		y[i] = pos_of(ds, lab, idx[i]);
 		pos += (size_t)y[i];
 	}
 	if (pos == 0 || pos == n)
@@ -577,13 +596,14 @@ out:
  * weighted loss, and the deep output layer starts at zero, so the deep part
  * learns what the metrics miss (zero-initialised last layer: Goyal et al.,
  * "Accurate, Large Minibatch SGD", 2017). */
-static void warm_start(omen_model *m, const omen_dataset *ds, const size_t *idx, size_t n)
+static void warm_start(omen_model *m, const omen_dataset *ds, const int8_t *lab, const size_t *idx,
+	size_t n)
 {
 	size_t i, pos = 0;
 	int j;
 	float *lin = m->params + m->t[P_LIN_W].off;
 	for (i = 0; i < n; i++)
-		pos += omen_dataset_get(ds, idx[i])->label > 0;
+		pos += (size_t)pos_of(ds, lab, idx[i]);
 	for (j = 0; j < OMEN_NMETRICS; j++)
 		lin[j] = (float)(m->lr.w[j] * m->metric_scale[j] / m->lr.scale[j]);
 	/* the model centres with its own mean: fold the difference into the bias */
@@ -598,7 +618,7 @@ static void warm_start(omen_model *m, const omen_dataset *ds, const size_t *idx,
 	memset(m->params + m->t[P_H2_W].off, 0, m->t[P_H2_W].n * sizeof(float));
 }
 
-static int train_core(omen_model **out, fit_info *fi, const omen_dataset *ds,
+static int train_core(omen_model **out, fit_info *fi, const omen_dataset *ds, const int8_t *lab,
 	const size_t *train_idx, size_t n_train, const size_t *valid_idx, size_t n_valid,
 	const omen_train_opts *o, int epochs, int report)
 {
@@ -609,17 +629,18 @@ static int train_core(omen_model **out, fit_info *fi, const omen_dataset *ds,
 		return e;
 	m->caps = o->caps;
 	fit_standardization(m, ds, train_idx, n_train);
-	if ((e = fit_lr(&m->lr, ds, train_idx, n_train)))
+	if ((e = fit_lr(&m->lr, ds, lab, train_idx, n_train)))
 		goto out;
 	if (o->init) {
 		if ((e = omen_model_copy_weights(m, o->init)))
 			goto out;
 	} else if (o->warm_start) {
-		warm_start(m, ds, train_idx, n_train);
+		warm_start(m, ds, lab, train_idx, n_train);
 	}
-	if ((e = fit(m, fi, ds, train_idx, n_train, valid_idx, n_valid, o, epochs, report)))
+	if ((e = fit(m, fi, ds, lab, train_idx, n_train, valid_idx, n_valid, o, epochs, report)))
 		goto out;
-	if (n_valid && (e = calibrate(m, ds, valid_idx, n_valid, train_threads(o), o->warn_share, NULL, 0)))
+	if (n_valid && (e = calibrate(m, ds, lab, valid_idx, n_valid, train_threads(o), o->warn_share,
+			NULL, 0)))
 		goto out;
 	*out = m;
 	m = NULL;
@@ -635,7 +656,8 @@ int omen_model_train_subset(omen_model **out, const omen_dataset *ds,
 	fit_info fi;
 	if (!n_train)
 		return omen_error_set(OMEN_EINVAL, "cannot train: no training commits");
-	return train_core(out, &fi, ds, train_idx, n_train, valid_idx, n_valid, o, o->epochs, 1);
+	return train_core(out, &fi, ds, o->labels, train_idx, n_train, valid_idx, n_valid, o,
+		o->epochs, 1);
 }
 
 /* ---- whole run ----------------------------------------------------------- */
@@ -675,11 +697,76 @@ static void iso_time(char *buf, size_t n, int64_t t)
 	strftime(buf, n, "%Y-%m-%dT%H:%M:%SZ", &tm);
 }
 
+typedef struct {
+	int64_t t;
+	size_t i;
+} tkey;
+
+static int cmp_tkey(const void *a, const void *b)
+{
+	const tkey *x = a, *y = b;
+	if (x->t != y->t)
+		return x->t < y->t ? -1 : 1;
+	return (x->i > y->i) - (x->i < y->i);
+}
+
+/* The shipped model's check on the tail of the test slice (see
+ * omen_ship_check): calibrated probabilities against the labels known now. */
+static int ship_check(omen_ship_check *c, const omen_model *m, const omen_dataset *ds,
+	const size_t *idx, size_t n, double base, int threads)
+{
+	float *z = malloc((n + 1) * sizeof(float));
+	double *p = malloc((n + 1) * sizeof(double));
+	int *y = malloc((n + 1) * sizeof(int)), e = 0;
+	size_t i;
+	omen_cls_scores cs;
+	double bb[1];
+	if (!z || !p || !y) {
+		e = omen_error_set(OMEN_ENOMEM, "out of memory");
+		goto out;
+	}
+	if ((e = eval_logits(z, m, ds, idx, n, threads)))
+		goto out;
+	c->n = n;
+	c->mean_prob = 0;
+	for (i = 0; i < n; i++) {
+		p[i] = omen_platt_apply(m->platt_a, m->platt_b, z[i]);
+		y[i] = omen_dataset_get(ds, idx[i])->label > 0;
+		c->positives += (size_t)y[i];
+		c->mean_prob += p[i] / (double)n;
+	}
+	c->start = n ? omen_dataset_get(ds, idx[0])->time : 0;
+	c->brier = omen_brier(p, y, n);
+	bb[0] = base;
+	c->brier_base = 0;
+	for (i = 0; i < n; i++)
+		c->brier_base += (bb[0] - y[i]) * (bb[0] - y[i]) / (double)n;
+	c->ece = omen_ece(p, y, n, 10, NULL, NULL, NULL);
+	c->threshold = m->threshold;
+	cs = omen_classify_at(p, y, n, m->threshold);
+	c->tp = cs.tp;
+	c->fp = cs.fp;
+	c->fn = cs.fn;
+	c->precision = cs.tp + cs.fp ? cs.precision : NAN;
+	c->recall = cs.tp + cs.fn ? cs.recall : NAN;
+	c->f1 = cs.tp + cs.fp && cs.tp + cs.fn ? cs.f1 : NAN;
+out:
+	free(z); free(p); free(y);
+	return e;
+}
+
 int omen_model_train(omen_model **out, omen_train_report *rep, const omen_dataset *ds,
 	const omen_train_opts *o)
 {
-	size_t n = omen_dataset_size(ds), nl = 0, pos = 0, i, n_test, n_valid, n_train;
+	size_t n = omen_dataset_size(ds), nl = 0, pos = 0, i, n_test, n_valid, n_train, ncand;
+	size_t npool = 0, n_calib;
+	int held;
 	size_t *idx = NULL;
+	tkey *ord = NULL;
+	int8_t *cut = NULL, *lnow = NULL;
+	int64_t *tm = NULL, t_s, gap, newest_clean = INT64_MIN;
+	omen_label_clock own;
+	const omen_label_clock *clk = o->clock;
 	omen_model *eval_m = NULL, *m = NULL;
 	float *z = NULL;
 	double *sc = NULL, *pr = NULL, *ef = NULL, *lrp = NULL, *la = NULL, t0 = omen_now();
@@ -690,15 +777,28 @@ int omen_model_train(omen_model **out, omen_train_report *rep, const omen_datase
 
 	*out = NULL;
 	memset(rep, 0, sizeof(*rep));
+	memset(&own, 0, sizeof(own));
+	memset(&fi, 0, sizeof(fi));
 	idx = malloc((n + 1) * sizeof(size_t));
-	if (!idx)
-		return omen_error_set(OMEN_ENOMEM, "out of memory");
+	ord = malloc((n + 1) * sizeof(*ord));
+	cut = malloc(n + 1);
+	lnow = malloc(n + 1);
+	tm = malloc((n + 1) * sizeof(*tm));
+	if (!idx || !ord || !cut || !lnow || !tm) {
+		e = omen_error_set(OMEN_ENOMEM, "out of memory");
+		goto out;
+	}
 	for (i = 0; i < n; i++) {
 		const omen_sample *s = omen_dataset_get(ds, i);
+		ord[i].t = tm[i] = s->time;
+		ord[i].i = i;
+		lnow[i] = (int8_t)(s->label < 0 ? -1 : s->label > 0);
 		if (s->label < 0)
 			continue;
-		idx[nl++] = i;
+		nl++;
 		pos += s->label > 0;
+		if (s->label == 0 && s->time > newest_clean)
+			newest_clean = s->time;
 	}
 	if (nl < MIN_LABELLED || pos < MIN_POSITIVES || nl - pos < MIN_POSITIVES) {
 		e = omen_error_set(OMEN_EINVAL, "too few labelled commits to train: %zu labelled "
@@ -706,32 +806,94 @@ int omen_model_train(omen_model **out, omen_train_report *rep, const omen_datase
 			nl, pos, nl - pos, MIN_LABELLED, MIN_POSITIVES, MIN_POSITIVES);
 		goto out;
 	}
-	n_test = (size_t)(nl * o->test_frac + 0.5);
-	n_valid = (size_t)(nl * o->valid_frac + 0.5);
-	if (n_test < 1) n_test = 1;
-	if (n_valid < 1) n_valid = 1;
-	n_train = nl - n_test - n_valid;
-	rep->n_train = n_train; rep->n_valid = n_valid; rep->n_test = n_test;
-	for (i = 0; i < nl; i++) {
-		int p = omen_dataset_get(ds, idx[i])->label > 0;
-		if (i < n_train) rep->pos_train += (size_t)p;
-		else if (i < n_train + n_valid) rep->pos_valid += (size_t)p;
-		else rep->pos_test += (size_t)p;
+	if (clk && clk->n != n) {
+		e = omen_error_set(OMEN_EINVAL, "cannot train: the label clock covers %zu commits, "
+			"not %zu", clk->n, n);
+		goto out;
 	}
+	if (!clk) {
+		if ((e = omen_label_clock_known(&own, tm, lnow, n)))
+			goto out;
+		clk = &own;
+	}
+	gap = omen_label_clock_window(clk) * 86400;
+	rep->gap_days = omen_label_clock_window(clk);
+	/* 1. the test slice: the newest test_frac of the commits labelled now,
+	 * up to the newest clean one (after it, inside the verification
+	 * window, only inducing commits have a label) */
+	qsort(ord, n, sizeof(*ord), cmp_tkey);
+	ncand = 0;
+	for (i = 0; i < n; i++) {
+		size_t j = ord[i].i;
+		if (lnow[j] < 0)
+			continue;
+		if (tm[j] > newest_clean) {
+			rep->n_window_left_out++;
+			continue;
+		}
+		idx[ncand++] = j;   /* candidates, oldest first */
+	}
+	if (o->test_start) {
+		t_s = o->test_start;
+	} else {
+		n_test = (size_t)(nl * o->test_frac + 0.5);
+		if (n_test < 1) n_test = 1;
+		if (n_test >= ncand) n_test = ncand ? ncand - 1 : 0;
+		t_s = ncand ? tm[idx[ncand - n_test]] : 0;
+	}
+	n_test = 0;
+	for (i = 0; i < ncand; i++)
+		if (tm[idx[i]] >= t_s)
+			idx[n_test++] = idx[i];   /* the test slice, oldest first */
+	memmove(idx + n - n_test, idx, n_test * sizeof(size_t));
+	rep->test_start = t_s;
+	rep->test_end = n_test ? tm[idx[n - 1]] : t_s;
+	rep->labels_known = t_s;
+	/* 2. training and validation: every commit older than the cut less the
+	 * window, labelled as known at the cut */
+	omen_label_clock_at(cut, clk, t_s);
+	for (i = 0; i < n; i++) {
+		size_t j = ord[i].i;
+		if (tm[j] >= t_s) {
+			break;
+		} else if (tm[j] >= t_s - gap) {
+			rep->n_gap += lnow[j] >= 0;
+		} else if (cut[j] >= 0) {
+			idx[npool++] = j;
+			rep->n_relabelled += lnow[j] > 0 && cut[j] == 0;
+		}
+	}
+	/* validation keeps the shares of the default split (valid : train) */
+	n_valid = (size_t)((double)npool * o->valid_frac / (1.0 - o->test_frac > 0 ?
+		1.0 - o->test_frac : 1.0) + 0.5);
+	if (n_valid < 1) n_valid = 1;
+	if (n_valid > npool / 2) n_valid = npool / 2;
+	n_train = npool - n_valid;
+	rep->n_train = n_train; rep->n_valid = n_valid; rep->n_test = n_test;
+	for (i = 0; i < npool; i++) {
+		int p = cut[idx[i]] > 0;
+		if (i < n_train) rep->pos_train += (size_t)p;
+		else rep->pos_valid += (size_t)p;
+	}
+	for (i = 0; i < n_test; i++)
+		rep->pos_test += lnow[idx[n - n_test + i]] > 0;
 	for (i = 0; i < n; i++)
 		rep->capped_commits += omen_dataset_get(ds, i)->capped != 0;
-	if (rep->pos_train < 5 || rep->pos_valid < 1 || rep->pos_test < 1) {
+	if (rep->pos_train < 5 || rep->pos_valid < 1 || rep->pos_test < 1 || n_test < 2) {
+		char d1[16];
+		omen_format_date(d1, t_s);
 		e = omen_error_set(OMEN_EINVAL, "too few inducing commits in the time-ordered split: "
-			"train %zu, validation %zu, test %zu; need at least 5, 1 and 1",
-			rep->pos_train, rep->pos_valid, rep->pos_test);
+			"train %zu, validation %zu (as known on %s), test %zu; need at least 5, 1 and 1",
+			rep->pos_train, rep->pos_valid, d1, rep->pos_test);
 		goto out;
 	}
 	/* 1. evaluation model: train on the oldest, early-stop on the next slice */
-	if ((e = train_core(&eval_m, &fi, ds, idx, n_train, idx + n_train, n_valid, o, o->epochs, 1)))
+	if ((e = train_core(&eval_m, &fi, ds, cut, idx, n_train, idx + n_train, n_valid, o,
+			o->epochs, 1)))
 		goto out;
 	rep->epochs_run = fi.epochs_run;
 	rep->best_epoch = fi.best_epoch;
-	/* 2. the three scorers on the newest slice */
+	/* 2. the three scorers on the test slice, with the labels known now */
 	z = malloc((n_test + 1) * sizeof(float));
 	sc = malloc((n_test + 1) * sizeof(double));
 	pr = malloc((n_test + 1) * sizeof(double));
@@ -743,10 +905,10 @@ int omen_model_train(omen_model **out, omen_train_report *rep, const omen_datase
 		e = omen_error_set(OMEN_ENOMEM, "out of memory");
 		goto out;
 	}
-	if ((e = eval_logits(z, eval_m, ds, idx + n_train + n_valid, n_test, threads)))
+	if ((e = eval_logits(z, eval_m, ds, idx + n - n_test, n_test, threads)))
 		goto out;
 	for (i = 0; i < n_test; i++) {
-		const omen_sample *s = omen_dataset_get(ds, idx[n_train + n_valid + i]);
+		const omen_sample *s = omen_dataset_get(ds, idx[n - n_test + i]);
 		sc[i] = z[i];
 		pr[i] = omen_platt_apply(eval_m->platt_a, eval_m->platt_b, z[i]);
 		y[i] = s->label > 0;
@@ -760,10 +922,20 @@ int omen_model_train(omen_model **out, omen_train_report *rep, const omen_datase
 	rep->threshold = eval_m->threshold;
 	rep->threshold_f1 = eval_m->threshold_f1;
 	rep->warn_share = o->warn_share;
-	/* 3. shipped model: refit on train+valid for the chosen epoch count,
-	 * calibrated on the test slice it has not seen */
+	/* 3. shipped model: refit on train+valid (as known at the cut) for the
+	 * chosen epoch count, calibrated and thresholded on the older half of
+	 * the test slice, checked on its newer half (never trained nor
+	 * calibrated on) */
+	n_calib = n_test / 2;
+	rep->refit = o->refit != 0;
+	for (i = 0; i < n_calib; i++)
+		rep->check.pos_calib += lnow[idx[n - n_test + i]] > 0;
+	for (i = n_calib; i < n_test; i++)
+		rep->check.positives += lnow[idx[n - n_test + i]] > 0;
+	held = rep->check.pos_calib >= MIN_CHECK && n_calib - rep->check.pos_calib >= MIN_CHECK &&
+		rep->check.positives >= 1;
 	if (o->refit) {
-		if ((e = train_core(&m, &fi2, ds, idx, n_train + n_valid, NULL, 0, o,
+		if ((e = train_core(&m, &fi2, ds, cut, idx, n_train + n_valid, NULL, 0, o,
 				fi.best_epoch > 0 ? fi.best_epoch : 1, 1)))
 			goto out;
 		/* the warning budget counts its share on every commit newer than
@@ -780,7 +952,16 @@ int omen_model_train(omen_model **out, omen_train_report *rep, const omen_datase
 		}
 		for (i = 0; i < nfire; i++)
 			fire[i] = first + i;
-		e = calibrate(m, ds, idx + n_train + n_valid, n_test, threads, o->warn_share, fire, nfire);
+		e = held ? calibrate(m, ds, NULL, idx + n - n_test, n_calib, threads, o->warn_share,
+			fire, nfire) : 0;
+		/* a slope <= 0 is a calibration part too small to trust */
+		if (!e && held && m->platt_a <= 0)
+			held = 0;
+		/* too few inducing or clean commits for a held-out check: calibrated
+		 * on the whole test slice, as before issue 16, and no check */
+		if (!e && !held)
+			e = calibrate(m, ds, NULL, idx + n - n_test, n_test, threads, o->warn_share, fire,
+				nfire);
 		free(fire);
 		if (e)
 			goto out;
@@ -789,6 +970,19 @@ int omen_model_train(omen_model **out, omen_train_report *rep, const omen_datase
 	} else {
 		m = eval_m;
 		eval_m = NULL;
+	}
+	rep->check.positives = 0;
+	if (held) {
+		rep->check.n_calib = n_calib;
+		if ((e = ship_check(&rep->check, m, ds, idx + n - n_test + n_calib, n_test - n_calib,
+				n_calib ? (double)rep->check.pos_calib / (double)n_calib : 0, threads)))
+			goto out;
+	} else {
+		memset(&rep->check, 0, sizeof(rep->check));
+		rep->check.n_calib = o->refit ? n_test : 0;
+		rep->check.threshold = m->threshold;
+		rep->check.brier = rep->check.brier_base = rep->check.ece = NAN;
+		rep->check.precision = rep->check.recall = rep->check.f1 = NAN;
 	}
 	/* metrics state and head: the whole dataset. The head is the commit
 	 * the history was read from (its state counts every non-merge
@@ -811,7 +1005,7 @@ int omen_model_train(omen_model **out, omen_train_report *rep, const omen_datase
 	tr = cJSON_CreateObject();
 	{
 		const omen_sample *first = omen_dataset_get(ds, idx[0]);
-		const omen_sample *lastl = omen_dataset_get(ds, idx[nl - 1]);
+		const omen_sample *lastl = omen_dataset_get(ds, idx[n - 1]);
 		time_t now = time(NULL);
 		iso_time(date, sizeof(date), (int64_t)now);
 		cJSON_AddStringToObject(tr, "date", date);
@@ -838,7 +1032,12 @@ int omen_model_train(omen_model **out, omen_train_report *rep, const omen_datase
 	cJSON_AddNumberToObject(tr, "batch", o->batch);
 	cJSON_AddNumberToObject(tr, "seconds", rep->seconds);
 	cJSON_AddBoolToObject(tr, "refit", o->refit != 0);
-	cJSON_AddStringToObject(tr, "calibrated_on", o->refit ? "test" : "validation");
+	cJSON_AddStringToObject(tr, "calibrated_on", !o->refit ? "validation" :
+		rep->check.n ? "test_older_half" : "test");
+	iso_time(date, sizeof(date), rep->labels_known);
+	cJSON_AddStringToObject(tr, "labels_known", date);
+	cJSON_AddNumberToObject(tr, "gap_days", (double)rep->gap_days);
+	cJSON_AddNumberToObject(tr, "relabelled_clean_at_cut", (double)rep->n_relabelled);
 	cJSON_AddItemToObject(meta, "training", tr);
 	if (o->init && o->init->meta) {   /* fine-tuned: say from which base (issue 11) */
 		const cJSON *b = cJSON_GetObjectItemCaseSensitive(o->init->meta, "base");
@@ -851,6 +1050,22 @@ int omen_model_train(omen_model **out, omen_train_report *rep, const omen_datase
 	cJSON_AddItemToObject(te, "lines_added", scores_json(&rep->lines_added));
 	cJSON_AddNumberToObject(te, "threshold", rep->threshold);
 	cJSON_AddItemToObject(meta, "test", te);
+	if (rep->check.n) {
+		cJSON *ck = cJSON_CreateObject();
+		const omen_ship_check *c = &rep->check;
+		iso_time(date, sizeof(date), c->start);
+		cJSON_AddStringToObject(ck, "start", date);
+		cJSON_AddNumberToObject(ck, "n", (double)c->n);
+		cJSON_AddNumberToObject(ck, "positives", (double)c->positives);
+		cJSON_AddNumberToObject(ck, "n_calib", (double)c->n_calib);
+		if (isfinite(c->brier)) cJSON_AddNumberToObject(ck, "brier", c->brier);
+		if (isfinite(c->brier_base)) cJSON_AddNumberToObject(ck, "brier_base", c->brier_base);
+		if (isfinite(c->ece)) cJSON_AddNumberToObject(ck, "ece", c->ece);
+		cJSON_AddNumberToObject(ck, "threshold", c->threshold);
+		if (isfinite(c->precision)) cJSON_AddNumberToObject(ck, "precision", c->precision);
+		if (isfinite(c->recall)) cJSON_AddNumberToObject(ck, "recall", c->recall);
+		cJSON_AddItemToObject(meta, "check", ck);
+	}
 	{
 		cJSON *dr = omen_drift_ref_json(ds, idx, n_train, OMEN_DRIFT_RECENT);
 		if (dr)
@@ -864,6 +1079,8 @@ out:
 	cJSON_Delete(meta);
 	omen_model_free(eval_m);
 	omen_model_free(m);
-	free(idx); free(z); free(sc); free(pr); free(ef); free(lrp); free(la); free(y);
+	omen_label_clock_free(&own);
+	free(idx); free(ord); free(cut); free(lnow); free(tm);
+	free(z); free(sc); free(pr); free(ef); free(lrp); free(la); free(y);
 	return e;
 }

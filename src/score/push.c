@@ -37,17 +37,84 @@ static void strvec_free(strvec *s)
 	s->n = s->cap = 0;
 }
 
-int omen_push_select(git_oid **out, size_t *n, omen_repo *r, const char *remote,
-	const omen_push_list *l)
+/* Appends "^<id>" for every id. */
+static int hide_ids(strvec *hide, const git_oid *ids, size_t n)
+{
+	char hex[GIT_OID_HEXSZ + 1];
+	size_t j;
+	int e = 0;
+	for (j = 0; j < n && !e; j++) {
+		omen_oid_hex(hex, sizeof(hex), &ids[j]);
+		e = strvec_push(hide, "^", hex);
+	}
+	return e;
+}
+
+/* The remote id is unknown (a new ref, or someone else pushed): find out
+ * what the remote has, best source first (issue 15). */
+static int hide_remote_side(strvec *hide, int *how, omen_repo *r, const char *remote,
+	const char *url, int ls_ms, const omen_push_list *l)
+{
+	git_oid *known = NULL;
+	size_t nknown = 0, i, k = 0;
+	const char **except = NULL;
+	int e;
+	/* 1. this remote's own remote-tracking refs */
+	if (remote && *remote) {
+		if ((e = omen_history_remote_refs(&known, &nknown, r, remote)))
+			return e;
+		if (nknown) {
+			*how = OMEN_PUSH_BY_TRACKING;
+			goto hide;
+		}
+	}
+	/* 2. the remote itself: a URL, or a remote without tracking refs */
+	if (url && *url && ls_ms > 0) {
+		if ((e = omen_history_ls_remote(&known, &nknown, r, url, ls_ms)) == 0) {
+			*how = OMEN_PUSH_BY_LS_REMOTE;
+			goto hide;
+		}
+		if (e == OMEN_ENOMEM)
+			return e;
+		omen_error_clear();   /* unreachable, too slow, no git: go on */
+	}
+	/* 3. what any remote-tracking ref holds */
+	if ((e = omen_history_tracking_refs(&known, &nknown, r)))
+		return e;
+	if (nknown) {
+		*how = OMEN_PUSH_BY_ANY_TRACKING;
+		goto hide;
+	}
+	/* 4. nothing known: only commits on no ref but the pushed ones */
+	if (!(except = calloc(l->n ? l->n : 1, sizeof(*except))))
+		return omen_error_set(OMEN_ENOMEM, "out of memory");
+	for (i = 0; i < l->n; i++)
+		except[k++] = l->v[i].local_ref;
+	e = omen_history_other_refs(&known, &nknown, r, except, k);
+	free(except);
+	if (e)
+		return e;
+	*how = OMEN_PUSH_BY_OTHER_REFS;
+hide:
+	e = hide_ids(hide, known, nknown);
+	free(known);
+	return e;
+}
+
+int omen_push_select(git_oid **out, size_t *n, int *how, omen_repo *r, const char *remote,
+	const char *url, int ls_ms, const omen_push_list *l)
 {
 	strvec revs = {0}, hide = {0};
 	omen_walk_opts wo = OMEN_WALK_OPTS_INIT;
-	int e = 0, need_glob = 0;
+	int e = 0, need_glob = 0, dummy;
 	size_t i;
 	git_oid tmp;
 
 	*out = NULL;
 	*n = 0;
+	if (!how)
+		how = &dummy;
+	*how = OMEN_PUSH_BY_ID;
 	for (i = 0; i < l->n; i++) {
 		const omen_push_update *u = &l->v[i];
 		if (u->is_delete)
@@ -69,22 +136,8 @@ int omen_push_select(git_oid **out, size_t *n, omen_repo *r, const char *remote,
 	}
 	if (!revs.n)
 		goto out;
-	if (need_glob && remote && *remote) {
-		/* the remote id is unknown here (new ref, or someone else pushed):
-		 * hide what we know the remote has, its remote-tracking refs */
-		git_oid *known = NULL;
-		size_t nknown = 0, j;
-		char hex[GIT_OID_HEXSZ + 1];
-		if ((e = omen_history_remote_refs(&known, &nknown, r, remote)))
-			goto out;
-		for (j = 0; j < nknown && !e; j++) {
-			omen_oid_hex(hex, sizeof(hex), &known[j]);
-			e = strvec_push(&hide, "^", hex);
-		}
-		free(known);
-		if (e)
-			goto out;
-	}
+	if (need_glob && (e = hide_remote_side(&hide, how, r, remote, url, ls_ms, l)))
+		goto out;
 	for (i = 0; i < hide.n; i++)
 		if ((e = strvec_push(&revs, hide.v[i], NULL)))
 			goto out;

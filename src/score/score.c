@@ -298,18 +298,22 @@ int omen_scorer_open(omen_scorer **out, omen_repo *r, const omen_score_opts *o)
 	if (o->threshold >= 0) {
 		s->threshold = (float)o->threshold;
 	} else {
+		/* bounds and the message with the value as written: the
+		 * settings table (omen_setting_parse) */
 		if ((e = omen_config_double(&thr, r, "omen.threshold")))
 			goto out;
 		if (thr >= 0)
 			s->threshold = (float)thr;
 	}
-	if (!(s->threshold >= 0 && s->threshold <= 1)) {
-		e = omen_error_set(OMEN_EINVAL, "bad config value 'omen.threshold': '%g' is not a probability",
-			(double)s->threshold);
+	if (!(s->threshold >= 0 && s->threshold <= 1)) {  /* only the model's own can be */
+		e = omen_error_set(OMEN_ECORRUPT, "bad model '%s': its threshold %g is not a probability",
+			s->model_path, (double)s->threshold);
 		goto out;
 	}
 	if ((e = warn_budget(s, r, o->threshold >= 0 || thr >= 0)))
 		goto out;
+	if (s->threshold == 0)
+		s->threshold = 0.0f;  /* -0 is shown as 0.00, never -0.00 */
 	*out = s;
 	s = NULL;
 out:

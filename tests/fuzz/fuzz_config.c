@@ -1,10 +1,14 @@
 /* Fuzz target: GIT_CONFIG_PARAMETERS parsing (omen_config_parse_params) and
- * the typed value readers (omen_config_int/bool/double) on arbitrary bytes.
+ * the typed value readers (omen_config_int/double/choice/string) on arbitrary
+ * bytes, and every row of the settings table on the bytes as one value: a
+ * value accepted is within the row's bounds (a probability in [0, 1] and
+ * never -0, a choice one of its words).
  * Oracle: every pair the parser returns, quoted again the way git's
  * sq_quote_buf() writes it ('k'='v', with ' and ! escaped as '\'' and '\!',
  * a value-less key as 'k'=), parses back to the same pairs (git's own
  * reader, config.c parse_config_env_list, accepts that text). Errors must
  * carry a message. Corpus: fixtures/corpora/config/. */
+#include <math.h>
 #include <stdint.h>
 #include <stdlib.h>
 #include <string.h>
@@ -133,18 +137,43 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
 	memcpy(envs, "GIT_CONFIG_PARAMETERS=", sizeof("GIT_CONFIG_PARAMETERS=") - 1);
 	memcpy(envs + sizeof("GIT_CONFIG_PARAMETERS=") - 1, text, size + 1);
 	putenv(envs);
-	if (omen_config_int(&iv, NULL, "omen.x") < 0 && iv != -7)
+	if (omen_config_int(&iv, NULL, "omen.window") < 0 && iv != -7)
 		abort();
-	if (omen_config_bool(&bv, NULL, "omen.x") < 0 && bv != -7)
+	if (iv != -7 && (iv < 0 || iv > OMEN_WINDOW_MAX_DAYS))
+		abort();
+	if (omen_config_choice(&bv, NULL, "omen.onRisk") < 0 && bv != -7)
 		abort();
 	if (bv != -7 && bv != 0 && bv != 1)
 		abort();
-	if (omen_config_double(&dv, NULL, "omen.x") < 0 && dv != -7)
+	if (omen_config_double(&dv, NULL, "omen.threshold") < 0 && dv != -7)
+		abort();
+	if (dv != -7 && (!(dv >= 0 && dv <= 1) || (dv == 0 && signbit(dv))))
 		abort();
 	{
 		char *s = NULL;
-		if (omen_config_string(&s, NULL, "omen.x") == 0)
+		if (omen_config_string(&s, NULL, "omen.model") == 0)
 			free(s);
+	}
+	{
+		size_t nrows, i;
+		const omen_setting *t = omen_settings_table(&nrows);
+		for (i = 0; i < nrows; i++) {
+			omen_setting_value v;
+			omen_error_clear();
+			if (omen_setting_parse(&v, &t[i], text) < 0) {
+				if (!omen_error_last()[0])
+					abort();
+				continue;
+			}
+			if (t[i].kind == OMEN_SETTING_INT && (v.i < t[i].min || v.i > t[i].max))
+				abort();
+			if (t[i].kind == OMEN_SETTING_PROB && (!(v.d >= 0 && v.d <= 1) || signbit(v.d)))
+				abort();
+			if (t[i].kind == OMEN_SETTING_SHARE && !(v.d > 0 && v.d < 1))
+				abort();
+			if (t[i].kind == OMEN_SETTING_CHOICE && strcmp(t[i].choices[v.choice], text))
+				abort();
+		}
 	}
 	unsetenv("GIT_CONFIG_PARAMETERS");
 	free(envs);

@@ -490,6 +490,29 @@ open(sys.argv[2], "wb").write(b"\n".join(lines))' "$demo/.git/omen/labels.jsonl"
 	fi
 }
 
+# a label header whose horizon is not a number of days (issue 16 reads the
+# window and horizon behind "labels as known at the cut" from the header)
+row_label_bad_horizon() {
+	have train || { report pending "label header: bad horizon" "train --labels"; return; }
+	[ -f "$demo/.git/omen/labels.jsonl" ] || { report skip "label header: bad horizon" "no labels"; return; }
+	"${PYTHON:-/usr/bin/python3}" -c '
+import json, sys
+lines = open(sys.argv[1], "rb").read().split(b"\n")
+h = json.loads(lines[0])
+h["options"]["horizon_days"] = "a year"
+lines[0] = json.dumps(h).encode()
+open(sys.argv[2], "wb").write(b"\n".join(lines))' "$demo/.git/omen/labels.jsonl" "$here/horizon.jsonl"
+	cd "$demo" || return
+	om hz train --labels "$here/horizon.jsonl" --model "$here/unused.omen"
+	if [ "$rc" -eq 128 ] &&
+	   one_line hz "bad label file '.*horizon.jsonl': line 1: bad \"horizon_days\" in \"options\"" &&
+	   [ ! -f "$here/unused.omen" ]; then
+		report ok "label header: bad horizon" "128: $(first_err hz | cut -c1-80)"
+	else
+		report FAIL "label header: bad horizon" "rc=$rc $(first_err hz)"
+	fi
+}
+
 # waits (up to ~20 s) until the train lock is held by someone else
 wait_locked() {
 	i=0
@@ -606,11 +629,76 @@ row_bad_config() {
 	have label || { report pending "bad config value" "label"; return; }
 	cd "$H" || return
 	git -c omen.window=abc omen label > /dev/null 2> "$here/bc.err"; rc=$?
-	if [ "$rc" -eq 128 ] && one_line bc "^git omen: error: bad config value 'omen.window': 'abc' is not an integer$"; then
+	if [ "$rc" -eq 128 ] && one_line bc "^git omen: error: bad config value 'omen.window': 'abc' is not a number of days from 0 to 100000$"; then
 		report ok "bad config value (git -c)" "128: $(first_err bc)"
 	else
 		report FAIL "bad config value (git -c)" "rc=$rc $(first_err bc)"
 	fi
+}
+
+# Issue 15, item 10: values that were accepted without a word; the message
+# says the value as written and what it must be (the settings table)
+row_setting_bounds() {
+	have label || { report pending "setting bounds" "label"; return; }
+	cd "$H" || return
+	for kv in "omen.window=-5=a number of days from 0 to 100000" \
+	          "omen.maxBlobBytes=-1=a size in bytes from 1 to 4096g" \
+	          "omen.memoryLimit=-200m=a size in bytes from 0 \(no limit\) to 4096g" \
+	          "omen.threads=-2=a count of threads from 1 to 64"; do
+		k=${kv%%=*}; rest=${kv#*=}; v=${rest%%=*}; what=${rest#*=}
+		# --full: a label run with nothing new walks nothing and reads no
+		# walk setting (a value is checked when a command reads it)
+		git -c "$k=$v" omen label --full > /dev/null 2> "$here/sb.err"; rc=$?
+		if [ "$rc" -eq 128 ] && one_line sb "^git omen: error: bad config value '$k': '$v' is not $what$"; then
+			report ok "setting bounds: $k" "128: '$v' refused"
+		else
+			report FAIL "setting bounds: $k" "rc=$rc $(first_err sb)"
+		fi
+	done
+	# a time budget of over three thousand years: the hook says so, and lets the push through
+	printf '' | git -c omen.hookTimeout=100000000000000 omen hook run origin x > /dev/null 2> "$here/sh.err"; rc=$?
+	if [ "$rc" -eq 0 ] && one_line sh "bad config value 'omen.hookTimeout': '100000000000000' is not a time in milliseconds from 1 to 3600000; push not checked"; then
+		report ok "setting bounds: omen.hookTimeout" "0: refused, push not checked"
+	else
+		report FAIL "setting bounds: omen.hookTimeout" "rc=$rc $(first_err sh)"
+	fi
+	[ -n "$model" ] || { report pending "setting bounds: omen.threshold" "no model"; return; }
+	git -c omen.threshold=1.0000001 omen score HEAD --model "$model" > /dev/null 2> "$here/st.err"; rc=$?
+	if [ "$rc" -eq 128 ] && one_line st "'1.0000001' is not a probability from 0 to 1$"; then
+		report ok "setting bounds: omen.threshold" "128: '1.0000001' said as written"
+	else
+		report FAIL "setting bounds: omen.threshold" "rc=$rc $(first_err st)"
+	fi
+	git -c omen.threshold=-0 omen score HEAD --model "$model" > "$here/s0.out" 2> "$here/s0.err"; rc=$?
+	if [ "$rc" -eq 0 ] && ! grep -q -- "-0\.00" "$here/s0.out" && grep -q "0\.00" "$here/s0.out"; then
+		report ok "setting bounds: omen.threshold=-0" "read as 0, shown as 0.00"
+	else
+		report FAIL "setting bounds: omen.threshold=-0" "rc=$rc $(grep -m1 -- '0\.00' "$here/s0.out")"
+	fi
+}
+
+# Issue 15, item 4: a repository owned by another user, as git treats it
+# (safe.directory from -c counts; the message is git's, not "not a repository")
+row_dubious_owner() {
+	if [ "$(id -u)" -ne 0 ] || ! id nobody > /dev/null 2>&1; then
+		report skip "repository of another user" "needs root and user nobody"; return
+	fi
+	rm -rf "$here/dub" && git init -q "$here/dub" && git -C "$here/dub" commit -q --allow-empty -m x &&
+		chown -R nobody "$here/dub" || { report skip "repository of another user" "chown failed"; return; }
+	cd "$here/dub" || return
+	git omen hook status > /dev/null 2> "$here/du.err"; rc=$?
+	if [ "$rc" -eq 128 ] && one_line du "^git omen: error: detected dubious ownership in repository at '"; then
+		report ok "repository of another user" "128: $(first_err du | cut -c1-60)"
+	else
+		report FAIL "repository of another user" "rc=$rc $(first_err du)"
+	fi
+	git -c 'safe.directory=*' omen hook status > /dev/null 2> "$here/du2.err"; rc=$?
+	if [ "$rc" -eq 0 ] && [ ! -s "$here/du2.err" ]; then
+		report ok "another user's, safe.directory=*" "0, as git -c safe.directory=* status"
+	else
+		report FAIL "another user's, safe.directory=*" "rc=$rc $(first_err du2)"
+	fi
+	cd "$here" && rm -rf "$here/dub"
 }
 
 # issue 12: a warning budget outside (0, 1) is one line; a refresh while a
@@ -679,8 +767,8 @@ row_shard_damaged() {
 t0=$(date +%s)
 for r in shallow empty unborn missing_objects missing_skip promisor_unreachable detached big_file binary_only invalid_utf8 crlf \
          submodule symlink mode_only many_files model_truncated model_flipped label_broken_line \
-         two_trains kill_train kill_label memory_limit bad_config warn_share refresh_while_train \
-         shard_damaged; do
+         label_bad_horizon two_trains kill_train kill_label memory_limit bad_config setting_bounds \
+         dubious_owner warn_share refresh_while_train shard_damaged; do
 	cd "$here" || exit 1
 	ts=$(date +%s)
 	row_$r

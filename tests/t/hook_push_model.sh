@@ -125,6 +125,20 @@ git init -q --bare "$top/empty2.git"
 set +e; git -c omen.onRisk=block -c omen.threshold=0 push -q "$top/empty2.git" main~20:refs/heads/old 2>err; rc=$?; set -e
 [ "$rc" -ne 0 ] || fail "old history with threshold 0 was not blocked"
 [ "$(grep -c 'risky commit' err)" -eq 200 ] || fail "old history: $(grep -c 'risky commit' err) warnings, want 200"
+# a new name for what the remote already has, pushed to its URL (no
+# remote-tracking refs for a URL): git ls-remote says the remote has it, so
+# nothing is new; before, the whole history was scored and blocked
+have=$(git -C "$top/remote.git" rev-parse main)
+git -c omen.onRisk=block -c omen.threshold=0 push -q "$top/remote.git" "$have:refs/heads/newmain" 2>err ||
+	fail "push of the remote's own main under a new name to its URL was blocked: $(head -3 err)"
+if grep -q "risky commit" err; then fail "commits the remote has were scored: $(head -3 err)"; fi
+# one commit on top of it: that one alone is scored
+git checkout -q -b on-top "$have"
+echo "on top" >>README.md && git commit -q -am "Change on top of the remote's main"
+set +e; git -c omen.onRisk=block -c omen.threshold=0 push -q "$top/remote.git" on-top 2>err; rc=$?; set -e
+[ "$rc" -ne 0 ] || fail "the new commit on top was not blocked with threshold 0"
+[ "$(grep -c 'risky commit' err)" -eq 1 ] || fail "on top: $(grep -c 'risky commit' err) warnings, want 1"
+git checkout -q main
 
 # 7. a push from a shallow clone (no model inside it; omen.model points at ours)
 git clone -q --depth 3 "file://$top/remote.git" "$top/shallow"

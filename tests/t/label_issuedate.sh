@@ -10,7 +10,10 @@ LF=.git/omen/labels.jsonl
 expect early inducing 1
 expect late clean
 grep -q '"issue":1' out.json || fail "fix not counted as identified by issue"
-rec fix | grep -q '"fix_by":\["pattern","issue"\]' || fail "identification methods not recorded"
+# "closes #7" alone is no fix sign (issue 10): only the list names it
+rec fix | grep -q '"fix_by":\["issue"\]' || fail "identification methods not recorded"
+"$OMEN" label --window 0 --fix-list fixlist.txt --closing-refs --full >/dev/null
+rec fix | grep -q '"fix_by":\["pattern","issue"\]' || fail "--closing-refs: closing word not a fix sign"
 "$OMEN" label --window 0 --fix-list fixlist.txt --no-issue-dates --full >/dev/null
 expect early inducing 1
 expect late inducing 1

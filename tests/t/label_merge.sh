@@ -1,6 +1,6 @@
 # Refinement: merge commits are never candidates. fixtures/label/merge.sh:
 # the merge resolves a conflict by writing a new line that the fix repairs
-# (traced to the merge, which is dropped), and brings in side.txt unchanged
+# (traced to the merge, which is dropped), and brings in side.c unchanged
 # from the topic branch (its line keeps the topic commit as origin).
 . "$ROOT/fixtures/label/check.sh"
 sh "$ROOT/fixtures/label/merge.sh" repo >/dev/null

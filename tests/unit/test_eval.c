@@ -439,46 +439,89 @@ static void test_folds_no_positive_fold(void **state)
 }
 
 /* A commit whose only fix came after the fold's test start looked clean to
- * anyone standing at that time: such labels stay out of that fold's
- * training (and counts as left out); a fix older than the test start keeps
- * the label in. */
+ * anyone standing at that time: it stays in that fold's training, labelled
+ * clean (and counted), so the training rows are those of the same folds
+ * without fix times; a fix older than the test start keeps it inducing. */
 static void test_folds_late_labels(void **state)
 {
 	enum { N = 1000 };
-	int64_t t[N], known[N];
+	int64_t t[N];
 	int8_t y[N];
+	omen_label_clock c;
 	omen_fold_opts o;
 	omen_fold *f, *g;
 	size_t nf, ng, i, k, late = 0;
 	(void)state;
 	synth_history(t, y, N, 1600000000, DAY, 0, 4);
-	for (i = 0; i < N; i++)
-		known[i] = y[i] == 1 ? t[i] + 30 * DAY : INT64_MIN;
+	assert_int_equal(omen_label_clock_alloc(&c, N), 0);
+	for (i = 0; i < N; i++) {
+		c.time[i] = t[i];
+		c.label[i] = y[i];
+		c.first_fix[i] = y[i] == 1 ? t[i] + 30 * DAY : INT64_MAX;
+	}
 	/* a few inducing commits fixed very late: at the newest commit */
 	for (i = 100; i < 600; i += 50)
 		if (y[i] == 1) {
-			known[i] = t[N - 1];
+			c.first_fix[i] = t[N - 1];
 			late++;
 		}
 	omen_fold_opts_init(&o);
 	o.folds = 3;
 	o.fold_days = 60;
 	assert_int_equal(omen_folds_build(&g, &ng, t, y, N, &o), 0);
-	o.label_known = known;
+	o.clock = &c;
 	assert_int_equal(omen_folds_build(&f, &nf, t, y, N, &o), 0);
 	assert_true(late > 0);
 	for (k = 0; k < nf; k++) {
-		/* 30-day fixes are older than the 90-day gap: only the late ones go */
+		/* nothing is dropped: the same rows, the late ones relabelled clean */
 		assert_int_equal(f[k].n_late, late);
-		assert_int_equal(f[k].n_train + f[k].n_valid + late, g[k].n_train + g[k].n_valid);
-		for (i = 0; i < f[k].n_train; i++)
-			assert_true(known[f[k].train_idx[i]] < f[k].test_start);
-		for (i = 0; i < f[k].n_valid; i++)
-			assert_true(known[f[k].valid_idx[i]] < f[k].test_start);
+		assert_int_equal(f[k].n_train, g[k].n_train);
+		assert_int_equal(f[k].n_valid, g[k].n_valid);
+		assert_memory_equal(f[k].train_idx, g[k].train_idx, f[k].n_train * sizeof(size_t));
+		assert_int_equal(f[k].pos_train + f[k].pos_valid + late, g[k].pos_train + g[k].pos_valid);
+		for (i = 100; i < 600; i += 50)
+			if (y[i] == 1)
+				assert_int_equal(f[k].label_at_cut[i], 0);
+		for (i = 0; i < f[k].n_train; i++) {
+			size_t j = f[k].train_idx[i];
+			int known = c.first_fix[j] < f[k].test_start;
+			assert_int_equal(f[k].label_at_cut[j], y[j] == 1 && known);
+		}
 		assert_int_equal(f[k].n_test, g[k].n_test);
+		assert_int_equal(f[k].labels_known, f[k].test_start);
 	}
 	omen_folds_free(f, nf);
 	omen_folds_free(g, ng);
+	omen_label_clock_free(&c);
+}
+
+/* The rule itself (issue 16): fixes before t, clean only when older than
+ * the window at t, the horizon in place of the window when set. */
+static void test_label_at(void **state)
+{
+	const int64_t d = DAY, t0 = 1600000000;
+	(void)state;
+	/* inducing now, fixed at day 200: unknown, then clean, then inducing */
+	assert_int_equal(omen_label_at(1, t0, t0 + 200 * d, t0 + 50 * d, 90, 0), -1);
+	assert_int_equal(omen_label_at(1, t0, t0 + 200 * d, t0 + 91 * d, 90, 0), 0);
+	assert_int_equal(omen_label_at(1, t0, t0 + 200 * d, t0 + 200 * d, 90, 0), 0);
+	assert_int_equal(omen_label_at(1, t0, t0 + 200 * d, t0 + 200 * d + 1, 90, 0), 1);
+	/* fixed early: inducing as soon as the fix is made, even inside the window */
+	assert_int_equal(omen_label_at(1, t0, t0 + 5 * d, t0 + 6 * d, 90, 0), 1);
+	/* clean now: unknown until the window has passed (strictly older) */
+	assert_int_equal(omen_label_at(0, t0, INT64_MAX, t0 + 90 * d, 90, 0), -1);
+	assert_int_equal(omen_label_at(0, t0, INT64_MAX, t0 + 90 * d + 1, 90, 0), 0);
+	/* unknown now is unknown at every time */
+	assert_int_equal(omen_label_at(-1, t0, t0 + 5 * d, t0 + 900 * d, 90, 0), -1);
+	/* no fix times: known throughout */
+	assert_int_equal(omen_label_at(1, t0, INT64_MIN, t0 + 1, 90, 0), 1);
+	/* a horizon of 365 days: the window is the horizon; a fix after it
+	 * does not make the commit inducing */
+	assert_int_equal(omen_label_at(0, t0, INT64_MAX, t0 + 200 * d, 90, 365), -1);
+	assert_int_equal(omen_label_at(0, t0, INT64_MAX, t0 + 366 * d, 90, 365), 0);
+	assert_int_equal(omen_label_at(1, t0, t0 + 300 * d, t0 + 301 * d, 90, 365), 1);
+	assert_int_equal(omen_label_at(0, t0, t0 + 400 * d, t0 + 500 * d, 90, 365), 0);
+	assert_int_equal(omen_label_at(0, t0, t0 + 400 * d, t0 + 300 * d, 90, 365), -1);
 }
 
 /* ---- results and writers ------------------------------------------------------ */
@@ -577,6 +620,7 @@ int main(void)
 		cmocka_unit_test(test_folds_too_short),
 		cmocka_unit_test(test_folds_no_positive_fold),
 		cmocka_unit_test(test_folds_late_labels),
+		cmocka_unit_test(test_label_at),
 		cmocka_unit_test(test_results_finish),
 	};
 	return cmocka_run_group_tests(tests, NULL, NULL);

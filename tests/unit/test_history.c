@@ -689,13 +689,18 @@ static void test_too_large(void **state)
 	assert_int_equal(omen_history_walk(r, &o, big_cb, &s), 0);
 	assert_int_equal(s.large, 1);
 	assert_int_equal(s.hunks_of_large, 0);
-	/* the same through omen.maxBlobBytes (git -c) */
+	/* the same through omen.maxBlobBytes (git -c); settings are read when
+	 * the repository is opened */
 	o.max_blob_bytes = 0;
 	s.large = 0;
 	setenv("GIT_CONFIG_PARAMETERS", "'omen.maxblobbytes'='1m'", 1);
+	omen_repo_free(r);
+	r = open_fx("big");
 	assert_int_equal(omen_history_walk(r, &o, big_cb, &s), 0);
 	assert_int_equal(s.large, 1);
 	setenv("GIT_CONFIG_PARAMETERS", "'omen.maxBlobBytes'='lots'", 1);
+	omen_repo_free(r);
+	r = open_fx("big");
 	assert_int_equal(omen_history_walk(r, &o, big_cb, &s), OMEN_EINVAL);
 	unsetenv("GIT_CONFIG_PARAMETERS");
 	omen_repo_free(r);

@@ -136,12 +136,81 @@ static void test_subject(void **st)
 	omen_error_clear();
 }
 
+/* git ls-remote through omen_history_ls_remote: what git lists, as local
+ * commits (reference: git ls-remote itself); a git that hangs is killed at
+ * the time limit, one that prints without end at the output cap, both
+ * OMEN_ELIMIT (no time is asserted: only that each comes back). */
+static void test_ls_remote(void **st)
+{
+	git_oid *ids = NULL;
+	size_t n = 0;
+	char url[400], fake[400], *path = getenv("PATH") ? strdup(getenv("PATH")) : NULL;
+	(void)st;
+	sh("cd '%s' && rm -rf lr.git && git init -q --bare lr.git && git push -q lr.git HEAD~1:refs/heads/x v1",
+		dir);
+	snprintf(url, sizeof(url), "%s/lr.git", dir);
+	assert_int_equal(omen_history_ls_remote(&ids, &n, repo, url, 60000), 0);
+	{   /* each listed id peeled to its commit, in git's order (v1 and
+	     * v1^{} both name the tagged commit) */
+		char got[4096] = "", hex[GIT_OID_HEXSZ + 2];
+		size_t i;
+		for (i = 0; i < n; i++) {
+			git_oid_tostr(hex, GIT_OID_HEXSZ + 1, &ids[i]);
+			strcat(hex, "\n");
+			strcat(got, hex);
+		}
+		assert_int_equal(n, 3);
+		assert_string_equal(got, sh_out("git ls-remote lr.git | while read id ref; do "
+			"git rev-parse \"$id^{commit}\"; done"));
+	}
+	free(ids);
+	assert_int_equal(omen_history_ls_remote(&ids, &n, repo, "/nonexistent-omen.git", 60000),
+		OMEN_ENOTFOUND);
+	assert_non_null(strstr(omen_error_last(), "cannot list the refs of '/nonexistent-omen.git'"));
+	/* a git that never answers, then one that never stops */
+	snprintf(fake, sizeof(fake), "%s/fakebin", dir);
+	sh("mkdir -p '%s' && printf '#!/bin/sh\\nexec sleep 600\\n' >'%s/git' && chmod 755 '%s/git'",
+		fake, fake, fake);
+	{
+		char np[2048];
+		snprintf(np, sizeof(np), "%s:%s", fake, path ? path : "/usr/bin:/bin");
+		setenv("PATH", np, 1);
+	}
+	assert_int_equal(omen_history_ls_remote(&ids, &n, repo, url, 300), OMEN_ELIMIT);
+	sh("printf '#!/bin/sh\\nexec yes 0000000000000000000000000000000000000000\\n' >'%s/git'", fake);
+	assert_int_equal(omen_history_ls_remote(&ids, &n, repo, url, 600000), OMEN_ELIMIT);
+	assert_non_null(strstr(omen_error_last(), "output of 'git' is over"));
+	/* a "git" in the current directory (a work tree someone else wrote)
+	 * never runs, whatever PATH says: "." and empty entries are skipped */
+	{
+		char np[2048], cwd[1024], marker[512];
+		assert_non_null(getcwd(cwd, sizeof(cwd)));
+		snprintf(marker, sizeof(marker), "%s/ran", fake);
+		sh("printf '#!/bin/sh\ntouch \"%s\"\nexit 0\n' >'%s/git'", marker, fake);
+		snprintf(np, sizeof(np), ".::fakebin:%s", path ? path : "/usr/bin:/bin");
+		setenv("PATH", np, 1);
+		assert_int_equal(chdir(dir), 0);   /* fakebin/ is here, relative */
+		assert_int_equal(chdir("fakebin"), 0);
+		assert_int_equal(omen_history_ls_remote(&ids, &n, repo, url, 60000), 0);
+		assert_int_equal(n, 3);            /* the real git answered */
+		free(ids);
+		ids = NULL;
+		assert_int_equal(access(marker, F_OK), -1);
+		assert_int_equal(chdir(cwd), 0);
+	}
+	if (path)
+		setenv("PATH", path, 1);
+	free(path);
+	assert_null(ids);
+}
+
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
 		cmocka_unit_test(test_remote_refs),
 		cmocka_unit_test(test_upstream),
 		cmocka_unit_test(test_subject),
+		cmocka_unit_test(test_ls_remote),
 	};
 	return cmocka_run_group_tests_name("history_refs", tests, setup, test_repo_drop);
 }

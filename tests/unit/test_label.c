@@ -36,11 +36,15 @@ static void test_default_pattern(void **state)
 	omen_fixrules *fr;
 	static const char *const yes[] = {"Fix crash on empty input", "fixes the parser", "FIXED: typo",
 		"bugfix: off by one", "Memory leak in reader", "a regression from 1.5", "segfault with -n",
-		"Hotfix for release", "broken link", "Closes #12", "resolves GH-4", "bug #3", "fix(core): x",
-		"Closes PROJ-77", NULL};
+		"Hotfix for release", "broken link", "fixes #12", "bug #3", "fix(core): x",
+		"Add fix for the crash", NULL};
+	/* issue 10: a closing word with a number alone, and a subject that
+	 * announces new work without "fix" or "bug", are no fix signs */
 	static const char *const no[] = {"Add prefix option", "debugging output", "Use default value",
 		"fixup! add thing", "Update docs (#123)", "utf-8 handling", "Prefixed names", "suffix", "",
-		"closesPROJ-77 and encloses #4", "Release SHA-1 notes", NULL};
+		"closesPROJ-77 and encloses #4", "Release SHA-1 notes", "Closes #12", "resolves GH-4",
+		"Closes PROJ-77", "Add crash recovery", "store: implement crash reports",
+		"tests: cover the leak in the reader", NULL};
 	int i;
 	(void)state;
 	assert_int_equal(omen_fixrules_new(&fr, NULL), 0);
@@ -53,6 +57,129 @@ static void test_default_pattern(void **state)
 			fail_msg("should not match: '%s'", no[i]);
 	}
 	omen_fixrules_free(fr);
+}
+
+static unsigned classify_ex(const omen_fixrules *fr, const char *msg, omen_fix_info *info)
+{
+	omen_commit c;
+	char named[4][OMEN_OID_HEX + 1];
+	int n = 0;
+	memset(&c, 0, sizeof(c));
+	strcpy(c.hex, "0123456789abcdef0123456789abcdef01234567");
+	c.message = msg;
+	c.nparents = 1;
+	return omen_fix_classify_ex(fr, &c, named, 4, &n, info);
+}
+
+/* Each rule of issue 10 on (the default) and off. */
+static void test_rules(void **state)
+{
+	omen_fixrules *on, *off;
+	omen_fixrule_opts o = OMEN_FIXRULE_OPTS_INIT;
+	omen_fix_info in;
+	static const char trailers[] = "Update the reader\n\nReported-by: Bug Hunter <b@h.example>\n"
+		"Signed-off-by: Robin Quill <r@q.example>\n";
+	static const char quoted[] = "Tune the cache\n\nThe report said:\n> it crashes on empty input\n";
+	static const char revert[] = "Revert \"Fix crash in parser\"\n\nThis reverts commit "
+		"0123456789abcdef0123456789abcdef01234567.\n";
+	(void)state;
+	assert_int_equal(omen_fixrules_new_opts(&on, &o), 0);
+	o.closing_refs = o.whole_message = o.feature_subjects = 1;
+	o.cosmetic = "";
+	assert_int_equal(omen_fixrules_new_opts(&off, &o), 0);
+	/* closing words */
+	assert_false(classify_ex(on, "Tidy the reader (closes #12)", &in) & OMEN_FIXBY_PATTERN);
+	assert_true(in.closing_only);
+	assert_true(classify_ex(off, "Tidy the reader (closes #12)", &in) & OMEN_FIXBY_PATTERN);
+	assert_true(classify_ex(off, "Closes PROJ-77", &in) & OMEN_FIXBY_PATTERN);
+	/* only the author's description */
+	assert_false(classify_ex(on, trailers, &in) & OMEN_FIXBY_PATTERN);
+	assert_true(in.outside_only);
+	assert_true(classify_ex(off, trailers, &in) & OMEN_FIXBY_PATTERN);
+	assert_false(classify_ex(on, quoted, &in) & OMEN_FIXBY_PATTERN);
+	assert_true(classify_ex(off, quoted, &in) & OMEN_FIXBY_PATTERN);
+	/* a revert's quoted subject is not a fix word; the named commit still is */
+	assert_int_equal(classify_ex(on, revert, &in), OMEN_FIXBY_NAMED);
+	assert_int_equal(classify_ex(off, revert, &in), OMEN_FIXBY_NAMED | OMEN_FIXBY_PATTERN);
+	/* a trailer that names the repaired commit counts */
+	assert_int_equal(classify_ex(on, "Adjust\n\nFixes: 89abcdef0123 (\"Add y\")\nSigned-off-by: R <r@q>\n", &in),
+		OMEN_FIXBY_NAMED);
+	/* a quoted Fixes: line is someone else's */
+	assert_int_equal(classify_ex(on, "Adjust\n\n> Fixes: 89abcdef0123\n", &in), 0);
+	/* a subject announcing new work */
+	assert_false(classify_ex(on, "Add crash recovery", &in) & OMEN_FIXBY_PATTERN);
+	assert_true(in.feature_only);
+	assert_true(classify_ex(off, "Add crash recovery", &in) & OMEN_FIXBY_PATTERN);
+	/* cosmetic: recorded as a fix, flagged */
+	assert_true(classify_ex(on, "Fix typo in parser.c", &in) & OMEN_FIXBY_PATTERN);
+	assert_true(in.cosmetic);
+	assert_true(classify_ex(on, "Fix compiler warnings in the reader", &in) && in.cosmetic);
+	assert_true(classify_ex(on, "docs: fix spelling", &in) && in.cosmetic);
+	assert_true(classify_ex(on, "Fix crash on a comment line", &in) && !in.cosmetic);
+	assert_true(classify_ex(on, "Fix leak in reader", &in) && !in.cosmetic);
+	assert_true(classify_ex(off, "Fix typo in parser.c", &in) && !in.cosmetic);
+	/* a fix that names its commit is never cosmetic */
+	assert_true(classify_ex(on, "Fix typo\n\nFixes: 89abcdef0123\n", &in) && !in.cosmetic);
+	omen_fixrules_free(on);
+	omen_fixrules_free(off);
+	/* a bad cosmetic pattern */
+	o.cosmetic = "typo(";
+	assert_int_equal(omen_fixrules_new_opts(&off, &o), OMEN_EINVAL);
+	assert_null(off);
+	assert_non_null(strstr(omen_error_last(), "bad cosmetic pattern 'typo('"));
+}
+
+static void test_description(void **state)
+{
+	omen_buf b = OMEN_BUF_INIT;
+	(void)state;
+	assert_int_equal(omen_fix_description(&b, "Subject\n\nBody line.\n\nFixes: abcdef1\nAcked-by: A <a@b>\n"
+		"  continued\n"), 0);
+	assert_string_equal(b.ptr, "Subject\n\nBody line.\n\n");
+	/* a last paragraph that is prose stays */
+	assert_int_equal(omen_fix_description(&b, "Subject\n\nNote: this is prose\nand more prose\n"), 0);
+	assert_string_equal(b.ptr, "Subject\n\nNote: this is prose\nand more prose\n");
+	/* the subject alone is never a trailer block */
+	assert_int_equal(omen_fix_description(&b, "Fixes: the parser"), 0);
+	assert_string_equal(b.ptr, "Fixes: the parser");
+	assert_int_equal(omen_fix_description(&b, "Revert \"Fix bug\"\n\n> quoted\nkept\n"), 0);
+	assert_string_equal(b.ptr, "Revert\n\nkept\n");
+	assert_int_equal(omen_fix_description(&b, "x\n\n(cherry picked from commit abcdef1)\n"), 0);
+	assert_string_equal(b.ptr, "x\n\n");
+	assert_int_equal(omen_fix_description(&b, NULL), 0);
+	assert_string_equal(b.ptr, "");
+	omen_buf_free(&b);
+}
+
+static void test_noncode_paths(void **state)
+{
+	omen_pathset *ps;
+	static const char *const yes[] = {"docs/api.c", "README", "README.md", "man/git-x.1", "src/tests/t.c",
+		"tests/unit/test_x.c", "Makefile", "src/Makefile.am", ".github/workflows/ci.yml", "vendor/lib/x.c",
+		"web/app.min.js", "pkg/x_test.go", "Dockerfile", "CMakeLists.txt", "ChangeLog", NULL};
+	static const char *const no[] = {"src/main.c", "lib/parse.py", "include/x.h", "src/testing.c",
+		"src/contest/x.c", "web/app.js", "docsgen.c", NULL};
+	int i;
+	(void)state;
+	assert_int_equal(omen_pathset_new(&ps, omen_noncode_default), 0);
+	for (i = 0; yes[i]; i++)
+		if (!omen_pathset_match(ps, yes[i]))
+			fail_msg("should be non-code: '%s'", yes[i]);
+	for (i = 0; no[i]; i++)
+		if (omen_pathset_match(ps, no[i]))
+			fail_msg("should be code: '%s'", no[i]);
+	omen_pathset_free(ps);
+	assert_int_equal(omen_pathset_new(&ps, " lib/*.py,  docs/ "), 0);
+	assert_int_equal(omen_pathset_count(ps), 2);
+	assert_true(omen_pathset_match(ps, "lib/parse.py"));
+	assert_false(omen_pathset_match(ps, "src/lib/parse.py")); /* a path pattern matches the whole path */
+	assert_true(omen_pathset_match(ps, "a/docs/x"));
+	omen_pathset_free(ps);
+	assert_int_equal(omen_pathset_new(&ps, ""), 0);
+	assert_int_equal(omen_pathset_count(ps), 0);
+	assert_false(omen_pathset_match(ps, "docs/x"));
+	omen_pathset_free(ps);
+	omen_pathset_free(NULL);
 }
 
 static void test_custom_and_bad_pattern(void **state)
@@ -430,6 +557,44 @@ static void expect_bad(const char *data, const char *msg)
 		fail_msg("got '%s', want '%s'", omen_error_last(), msg);
 }
 
+/* issue 10: "fix_scope" round trip, and the header's horizon read alone */
+static void test_labels_scope_horizon(void **state)
+{
+	static const char hdr[] = "{\"omen_labels\":1,\"head\":\"\",\"options\":{\"horizon_days\":365}}\n";
+	omen_label_rec rec;
+	omen_labels *l;
+	omen_buf b = OMEN_BUF_INIT;
+	char path[] = "/tmp/omen-test-label-XXXXXX";
+	FILE *fp;
+	int fd;
+	(void)state;
+	memset(&rec, 0, sizeof(rec));
+	strcpy(rec.id, "aaaaaaaaaaaaaaaaaaaaaaaaaaaaaaaaaaaaaaaa");
+	rec.is_fix = 1;
+	rec.fix_scope = OMEN_FIXSCOPE_NONCODE;
+	assert_int_equal(omen_buf_puts(&b, hdr), 0);
+	assert_int_equal(lbl_write_record(&b, &rec), 0);
+	assert_non_null(strstr(b.ptr, "\"fix_scope\":\"non-code\""));
+	assert_int_equal(omen_labels_parse(&l, "x.jsonl", b.ptr, b.len), 0);
+	assert_int_equal(omen_labels_get(l, rec.id)->fix_scope, OMEN_FIXSCOPE_NONCODE);
+	omen_labels_free(l);
+	/* not a fix: no scope written */
+	rec.is_fix = 0;
+	omen_buf_clear(&b);
+	assert_int_equal(lbl_write_record(&b, &rec), 0);
+	assert_null(strstr(b.ptr, "fix_scope"));
+	/* the horizon from the header line */
+	assert_true((fd = mkstemp(path)) >= 0);
+	assert_non_null(fp = fdopen(fd, "w"));
+	fputs(hdr, fp);
+	fclose(fp);
+	assert_int_equal(omen_labels_file_horizon(path), 365);
+	unlink(path);
+	assert_int_equal(omen_labels_file_horizon(path), 0);
+	assert_int_equal(omen_labels_file_horizon(NULL), 0);
+	omen_buf_free(&b);
+}
+
 static void test_labels_bad(void **state)
 {
 	(void)state;
@@ -451,18 +616,55 @@ static void test_labels_bad(void **state)
 		"line 2: \"fixes\" holds something other than a commit id");
 }
 
+/* The rule a label file was made with (issue 16): window and horizon from
+ * the header's "options", defaults when absent, bad values rejected. */
+static void test_labels_rule(void **state)
+{
+	static const char *const bad[] = {
+		"{\"omen_labels\":1,\"options\":{\"window_days\":-3}}\n",
+		"{\"omen_labels\":1,\"options\":{\"window_days\":\"90\"}}\n",
+		"{\"omen_labels\":1,\"options\":{\"horizon_days\":1.5}}\n",
+		"{\"omen_labels\":1,\"options\":[]}\n",
+	};
+	const char *h = "{\"omen_labels\":1,\"options\":{\"window_days\":60,\"horizon_days\":365}}\n";
+	const char *none = "{\"omen_labels\":1}\n";
+	omen_labels *l = NULL;
+	int64_t w, hz;
+	size_t i;
+	(void)state;
+	assert_int_equal(omen_labels_parse(&l, "h.jsonl", h, strlen(h)), 0);
+	omen_labels_rule(l, &w, &hz);
+	assert_true(w == 60 && hz == 365);
+	omen_labels_free(l);
+	assert_int_equal(omen_labels_parse(&l, "n.jsonl", none, strlen(none)), 0);
+	omen_labels_rule(l, &w, &hz);
+	assert_true(w == 90 && hz == 0);
+	omen_labels_free(l);
+	for (i = 0; i < sizeof(bad) / sizeof(bad[0]); i++) {
+		l = NULL;
+		assert_int_equal(omen_labels_parse(&l, "b.jsonl", bad[i], strlen(bad[i])), OMEN_ECORRUPT);
+		assert_non_null(strstr(omen_error_last(), "bad label file 'b.jsonl': line 1: bad \""));
+		omen_labels_free(l);
+	}
+}
+
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
 		cmocka_unit_test(test_default_pattern),
 		cmocka_unit_test(test_custom_and_bad_pattern),
+		cmocka_unit_test(test_rules),
+		cmocka_unit_test(test_description),
+		cmocka_unit_test(test_noncode_paths),
 		cmocka_unit_test(test_named),
 		cmocka_unit_test(test_fix_list),
 		cmocka_unit_test(test_tracer_origins),
 		cmocka_unit_test(test_tracer_skips_and_rename),
 		cmocka_unit_test(test_comment_lines),
 		cmocka_unit_test(test_labels_parse),
+		cmocka_unit_test(test_labels_scope_horizon),
 		cmocka_unit_test(test_labels_bad),
+		cmocka_unit_test(test_labels_rule),
 	};
 	return cmocka_run_group_tests(tests, NULL, NULL);
 }

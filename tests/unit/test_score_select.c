@@ -49,7 +49,7 @@ static void select_eq(const char *lines, const char *revlist)
 	size_t n = 0;
 	char want[65536];
 	assert_int_equal(omen_prepush_parse(&pl, lines, strlen(lines)), 0);
-	assert_int_equal(omen_push_select(&ids, &n, repo, "origin", &pl), 0);
+	assert_int_equal(omen_push_select(&ids, &n, NULL, repo, "origin", NULL, 0, &pl), 0);
 	snprintf(want, sizeof(want), "%s", revlist[0] ? sh_out(revlist) : "");
 	assert_string_equal(hexlist(ids, n), want);
 	free(ids);
@@ -115,6 +115,57 @@ static void test_delete_and_tags(void **st)
 	select_eq(in, "");
 }
 
+static void select_how(const char *lines, const char *remote, const char *url, int ls_ms,
+	int want_how, const char *revlist)
+{
+	omen_push_list pl;
+	git_oid *ids = NULL;
+	size_t n = 0;
+	int how = -1;
+	char want[65536];
+	assert_int_equal(omen_prepush_parse(&pl, lines, strlen(lines)), 0);
+	assert_int_equal(omen_push_select(&ids, &n, &how, repo, remote, url, ls_ms, &pl), 0);
+	assert_int_equal(how, want_how);
+	snprintf(want, sizeof(want), "%s", revlist[0] ? sh_out(revlist) : "");
+	assert_string_equal(hexlist(ids, n), want);
+	free(ids);
+	omen_prepush_free(&pl);
+}
+
+/* Issue 15, item 6: a new ref pushed to a URL, or to a remote without
+ * remote-tracking refs. Before, nothing was hidden and the whole history
+ * counted as new (the newest 200 scored), although the remote had main. */
+static void test_new_ref_sources(void **st)
+{
+	char in[512], url[400], feat[41], origin_main[41];
+	(void)st;
+	snprintf(origin_main, sizeof(origin_main), "%s", rev("refs/remotes/origin/main"));
+	sh("cd '%s' && git init -q --bare r.git && git push -q r.git main && "
+	   "c=$(git commit-tree -p main -m feat 'main^{tree}') && git update-ref refs/heads/feat $c", dir);
+	snprintf(url, sizeof(url), "%s/r.git", dir);
+	snprintf(feat, sizeof(feat), "%s", rev("feat"));
+	/* the remote has main: a new name for it sends nothing */
+	snprintf(in, sizeof(in), "refs/heads/main %s refs/heads/newmain " Z40 "\n", rev("main"));
+	select_how(in, url, url, 60000, OMEN_PUSH_BY_LS_REMOTE, "");
+	/* one commit on top of main: that one (git rev-list feat ^main) */
+	snprintf(in, sizeof(in), "refs/heads/feat %s refs/heads/feat " Z40 "\n", feat);
+	select_how(in, url, url, 60000, OMEN_PUSH_BY_LS_REMOTE,
+		"git rev-list --no-merges --reverse --topo-order feat ^main");
+	/* a remote that cannot be listed: what any remote-tracking ref holds */
+	select_how(in, "nowhere", "/nonexistent-omen-remote.git", 60000, OMEN_PUSH_BY_ANY_TRACKING,
+		"git rev-list --no-merges --reverse --topo-order feat --not --remotes");
+	/* not asked (no time left): the same */
+	select_how(in, url, url, 0, OMEN_PUSH_BY_ANY_TRACKING,
+		"git rev-list --no-merges --reverse --topo-order feat --not --remotes");
+	/* no remote-tracking ref at all: only commits on no ref but feat */
+	sh("cd '%s' && git update-ref -d refs/remotes/origin/main", dir);
+	select_how(in, "nowhere", "/nonexistent-omen-remote.git", 60000, OMEN_PUSH_BY_OTHER_REFS,
+		"git rev-list --no-merges --reverse --topo-order feat --not "
+		"$(git for-each-ref --format='%(refname)' | grep -v '^refs/heads/feat$')");
+	sh("cd '%s' && git update-ref refs/remotes/origin/main %s && git update-ref -d refs/heads/feat && "
+	   "rm -rf r.git", dir, origin_main);
+}
+
 static void test_resolve(void **st)
 {
 	git_oid *ids = NULL;
@@ -164,6 +215,7 @@ int main(void)
 		cmocka_unit_test(test_new_branch_hides_remote_tracking),
 		cmocka_unit_test(test_unknown_remote_id),
 		cmocka_unit_test(test_delete_and_tags),
+		cmocka_unit_test(test_new_ref_sources),
 		cmocka_unit_test(test_resolve),
 	};
 	return cmocka_run_group_tests_name("score_select", tests, setup, test_repo_drop);
