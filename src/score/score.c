@@ -161,9 +161,11 @@ static int base_fallback(omen_scorer *s, omen_repo *r, const omen_score_opts *o)
 		return e;
 	if (!s->base_path)
 		goto missing;
-	if ((e = omen_model_load(&base, s->base_path)))
-		return omen_error_set(e, "cannot use base model '%s': %s", s->base_path,
-			omen_error_last());
+	if ((e = omen_model_load(&base, s->base_path))) {
+		char why[512];   /* omen_error_set must not read its own buffer */
+		snprintf(why, sizeof(why), "%s", omen_error_last());
+		return omen_error_set(e, "cannot use base model '%s': %s", s->base_path, why);
+	}
 	memset(&dopt, 0, sizeof(dopt));
 	dopt.caps = omen_model_caps(base);
 	dopt.labels_optional = 1;

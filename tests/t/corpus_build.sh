@@ -182,11 +182,13 @@ git config omen.baseModel flipped.omen
 rc=0; "$OMEN" score HEAD >out 2>err || rc=$?
 [ "$rc" -eq 128 ] && [ "$(wc -l <err)" -eq 1 ] && grep -q "^git omen: error: cannot use base model 'flipped.omen': " err ||
 	fail "fresh, flipped base: exit $rc: $(cat err)"
+! grep -q "cannot use base model.*cannot use base model" err || fail "fresh, flipped base: message twice: $(cat err)"
 head -c 1000 ../b1.omen >cut.omen
 git config omen.baseModel cut.omen
 rc=0; "$OMEN" score HEAD >out 2>err || rc=$?
 [ "$rc" -eq 128 ] && [ "$(wc -l <err)" -eq 1 ] && grep -q "^git omen: error: cannot use base model 'cut.omen': " err ||
 	fail "fresh, cut base: exit $rc: $(cat err)"
+! grep -q "cannot use base model.*cannot use base model" err || fail "fresh, cut base: message twice: $(cat err)"
 # the hook: one notice, the push goes through
 git config omen.baseModel ../b1.omen
 git clone -q --bare . "$top/fresh-remote.git"
