@@ -153,6 +153,9 @@ void omen_metrics_transform(double out[OMEN_NMETRICS], const float raw[OMEN_NMET
  * aligned float32 tensors, CRC32 over all of it; written atomically. */
 int omen_model_save(const omen_model *m, const char *path);
 int omen_model_load(omen_model **out, const char *path);
+/* The same under a ceiling: max_bytes > 0 is omen.memoryLimit (named in the
+ * error); the file is never read past 2 GiB. Not a regular file: refused. */
+int omen_model_load_max(omen_model **out, const char *path, int64_t max_bytes);
 /* Parses model bytes without trusting any length (fuzz target entry). */
 int omen_model_parse(omen_model **out, const char *name, const void *data, size_t n);
 void omen_model_free(omen_model *m);

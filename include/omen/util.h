@@ -44,6 +44,18 @@ int omen_buf_put_json_number(omen_buf *b, double v, int digits);
  * omen writes, whatever the host's (read back with omen_cursor_u32le/u64le). */
 int omen_buf_put_u32le(omen_buf *b, uint32_t v);
 int omen_buf_put_u64le(omen_buf *b, uint64_t v);
+/* Appends s[0..n) as text safe to show a person on a terminal (every path,
+ * message, name and line from history goes through it; DEVELOPERS.md
+ * "Hardening"). Escaped the way git quotes paths (core.quotePath): a
+ * backslash as \\, BEL BS TAB LF VT FF CR as \a \b \t \n \v \f \r,
+ * every other C0 byte and DEL as \ooo (three octal digits), and so each byte
+ * of a C1 control (U+0080..U+009F), of U+2028/U+2029 and of a bidirectional
+ * formatting character (UAX #9), and each byte that is not part of valid
+ * UTF-8. Other text is copied. max > 0 caps the bytes appended: the text is
+ * cut between characters (never inside one or inside an escape) and ends
+ * in "..." (counted in max, when max >= 3). max = 0: no cap. s NULL: "". */
+int omen_buf_put_shown(omen_buf *b, const char *s, size_t n, size_t max);
+int omen_buf_puts_shown(omen_buf *b, const char *s, size_t max);  /* strlen(s) bytes */
 /* The encoder under them: the low n bytes of v (n <= 8), least significant
  * first, to out. Writers that stream to a file use it directly. */
 void omen_le_encode(unsigned char *out, uint64_t v, size_t n);
@@ -130,20 +142,39 @@ uint64_t omen_rng_next(omen_rng *r);
 double omen_rng_uniform(omen_rng *r);            /* [0,1) with 53 bits */
 float omen_rng_normal(omen_rng *r);              /* Box-Muller, N(0,1) */
 
-/* ---- files --------------------------------------------------------------- */
-/* Writes data to path atomically: path.tmp.<pid> in the same directory,
- * fsync, rename. On failure the old file is untouched. */
+/* ---- files (DEVELOPERS.md "Hardening": file rules) ----------------------- */
+/* Writes data to path atomically: <path>.tmp.<12 random hex digits> created
+ * exclusively (O_EXCL | O_NOFOLLOW) in the same directory, fsync, rename. On
+ * failure the old file is untouched. What is at path decides: absent or a
+ * regular file: by rename; a character device or a FIFO (or a symbolic
+ * link to one, like /dev/stdout): written in place, never replaced; any
+ * other symbolic link, a directory, a block device or a socket: refused
+ * (OMEN_EUSAGE, "cannot write 'x': it is a directory"). */
 int omen_file_write_atomic(const char *path, const void *data, size_t n);
-/* Open a temp file beside path for streaming writes; commit renames it. */
+/* Streaming form of the same. commit: fflush, fsync, close, rename (in
+ * place: fflush and close, where a full device reports ENOSPC). */
 typedef struct {
 	FILE *fp;
 	char *path;
-	char *tmp;
+	char *tmp;    /* NULL when written in place */
+	int direct;   /* 0 by rename, 1 in place (device, FIFO), 2 standard output */
 } omen_atomic_file;
 int omen_atomic_open(omen_atomic_file *f, const char *path);
-int omen_atomic_commit(omen_atomic_file *f);  /* fflush, fsync, close, rename */
+int omen_atomic_commit(omen_atomic_file *f);
 void omen_atomic_abort(omen_atomic_file *f);  /* close and unlink temp */
-/* Reads a whole file (max bytes limit, 0 = none). */
+/* What an `-o <file>` option opens: "-" is standard output (flushed, never
+ * closed), anything else as omen_atomic_open. */
+int omen_output_open(omen_atomic_file *f, const char *path);
+int omen_output_write(const char *path, const void *data, size_t n);
+/* The read ceiling when a caller gives none (4 GiB); omen.memoryLimit,
+ * where set, is the ceiling of the reads it covers. */
+#define OMEN_READ_MAX ((size_t)4 << 30)
+/* Opens a regular file for reading: anything else (a FIFO, a device, a
+ * directory) is refused without waiting or reading (OMEN_EINVAL), and so is
+ * a file over max bytes (OMEN_ELIMIT; max 0 = OMEN_READ_MAX). *size gets its
+ * size (may be NULL). */
+int omen_file_open_read(FILE **out, uint64_t *size, const char *path, size_t max);
+/* Reads a whole regular file through omen_file_open_read (max as there). */
 int omen_file_read(omen_buf *out, const char *path, size_t max);
 /* mkdir -p for the directory part of path (or path itself when is_dir). */
 int omen_mkdirs(const char *path, int is_dir);
@@ -194,5 +225,11 @@ void omen_progress_end(omen_progress *p);
 
 /* UTF-8 validity of n bytes. */
 int omen_utf8_valid(const char *s, size_t n);
+/* The longest prefix of s[0..n), at most max bytes, that does not end
+ * inside a valid UTF-8 sequence: where to cut text kept in a fixed size. */
+size_t omen_utf8_prefix(const char *s, size_t n, size_t max);
+/* n less a last character that the end cuts short (a lead byte followed by
+ * fewer continuation bytes than it announces): for text snprintf cut. */
+size_t omen_utf8_trim(const char *s, size_t n);
 
 #endif

@@ -89,28 +89,37 @@ static void write_json(omen_buf *b, const omen_explanation *x, float thr, size_t
 
 static void hunk_range(omen_buf *b, const omen_hunk_score *h)
 {
+	omen_buf_puts_shown(b, h->path, 0);
 	if (h->new_lines > 1)
-		omen_buf_printf(b, "%s:%d-%d", h->path, (int)h->new_start, (int)(h->new_start + h->new_lines - 1));
+		omen_buf_printf(b, ":%d-%d", (int)h->new_start, (int)(h->new_start + h->new_lines - 1));
 	else if (h->new_lines == 1)
-		omen_buf_printf(b, "%s:%d", h->path, (int)h->new_start);
+		omen_buf_printf(b, ":%d", (int)h->new_start);
 	else
-		omen_buf_printf(b, "%s:-%d,%d (deleted)", h->path, (int)h->old_start, (int)h->old_lines);
+		omen_buf_printf(b, ":-%d,%d (deleted)", (int)h->old_start, (int)h->old_lines);
 }
 
 static void write_text(omen_buf *b, const omen_explanation *x, float thr, size_t top)
 {
 	const omen_score_result *r = &x->result;
 	size_t i;
-	omen_buf_printf(b, "commit %s\n  %s\nrisk %.2f (%s; risky at %.2f or more); scores are advisory\n",
-		r->id, r->summary ? r->summary : "", (double)r->prob, omen_band_names[r->band], (double)thr);
-	for (i = 0; i < (size_t)r->nreasons; i++)
-		omen_buf_printf(b, "  reason: %s\n", r->reasons[i].text);
+	/* every path, line and message from history goes through the sanitiser */
+	omen_buf_printf(b, "commit %s\n  ", r->id);
+	omen_buf_puts_shown(b, r->summary, 0);
+	omen_buf_printf(b, "\nrisk %.2f (%s; risky at %.2f or more); scores are advisory\n",
+		(double)r->prob, omen_band_names[r->band], (double)thr);
+	for (i = 0; i < (size_t)r->nreasons; i++) {
+		omen_buf_puts(b, "  reason: ");
+		omen_buf_puts_shown(b, r->reasons[i].text, 0);
+		omen_buf_puts(b, "\n");
+	}
 	if (r->capped)
 		omen_buf_puts(b, "  (large commit: the model saw its largest files and hunks only)\n");
 	omen_buf_puts(b, "\nfiles (attention, gradient x input):\n");
-	for (i = 0; i < x->nfiles && i < top; i++)
-		omen_buf_printf(b, "  %4.0f%%  %+8.4f  %s (+%d -%d)\n", 100.0 * x->files[i].weight,
-			(double)x->files[i].contrib, x->files[i].path, (int)x->files[i].added, (int)x->files[i].deleted);
+	for (i = 0; i < x->nfiles && i < top; i++) {
+		omen_buf_printf(b, "  %4.0f%%  %+8.4f  ", 100.0 * x->files[i].weight, (double)x->files[i].contrib);
+		omen_buf_puts_shown(b, x->files[i].path, 0);
+		omen_buf_printf(b, " (+%d -%d)\n", (int)x->files[i].added, (int)x->files[i].deleted);
+	}
 	omen_buf_puts(b, "\nhunks:\n");
 	for (i = 0; i < x->nhunks && i < top; i++) {
 		omen_buf_printf(b, "  %4.0f%%  %+8.4f  ", 100.0 * x->hunks[i].weight, (double)x->hunks[i].contrib);
@@ -118,9 +127,13 @@ static void write_text(omen_buf *b, const omen_explanation *x, float thr, size_t
 		omen_buf_puts(b, "\n");
 	}
 	omen_buf_puts(b, "\nlines (gradient x input):\n");
-	for (i = 0; i < x->nlines; i++)
-		omen_buf_printf(b, "  %+8.4f  %s:%c%d  %.80s\n", (double)x->lines[i].contrib, x->lines[i].path,
-			x->lines[i].origin, (int)x->lines[i].line, x->lines[i].text ? x->lines[i].text : "");
+	for (i = 0; i < x->nlines; i++) {
+		omen_buf_printf(b, "  %+8.4f  ", (double)x->lines[i].contrib);
+		omen_buf_puts_shown(b, x->lines[i].path, 0);
+		omen_buf_printf(b, ":%c%d  ", x->lines[i].origin, (int)x->lines[i].line);
+		omen_buf_puts_shown(b, x->lines[i].text, 80);
+		omen_buf_puts(b, "\n");
+	}
 	omen_buf_puts(b, "\nmetrics (gradient x standardized input; typical of the training history):\n");
 	for (i = 0; i < OMEN_NMETRICS; i++) {
 		const omen_metric_score *m = &x->metrics[i];
@@ -132,10 +145,13 @@ static void write_text(omen_buf *b, const omen_explanation *x, float thr, size_t
 	omen_buf_puts(b, "\nclosest past commits that later needed fixes:\n");
 	if (!x->nneighbours)
 		omen_buf_puts(b, "  (none: no labelled inducing commits; run 'git omen label')\n");
-	for (i = 0; i < x->nneighbours; i++)
-		omen_buf_printf(b, "  %.10s  distance %5.2f  %d fix%s  %.60s\n", x->neighbours[i].id,
+	for (i = 0; i < x->nneighbours; i++) {
+		omen_buf_printf(b, "  %.10s  distance %5.2f  %d fix%s  ", x->neighbours[i].id,
 			(double)x->neighbours[i].distance, x->neighbours[i].nfixes,
-			x->neighbours[i].nfixes == 1 ? "" : "es", x->neighbours[i].summary);
+			x->neighbours[i].nfixes == 1 ? "" : "es");
+		omen_buf_puts_shown(b, x->neighbours[i].summary, 60);
+		omen_buf_puts(b, "\n");
+	}
 }
 
 static const cli_option opt_top = {

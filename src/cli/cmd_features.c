@@ -63,7 +63,7 @@ static int on_change(const omen_change *c, void *payload)
 		for (size_t i = 0; i < c->nfiles; i++)
 			if (c->files[i].flags & OMEN_FILE_TOO_LARGE) {
 				cli_notice("%s: '%s' is over omen.maxBlobBytes, its lines are not counted",
-					c->commit.hex,
+					c->commit.hex,   /* the path is escaped by cli_notice */
 					c->files[i].new_path ? c->files[i].new_path : c->files[i].old_path);
 				s->large++;
 			}
@@ -217,7 +217,7 @@ int cmd_features(int argc, char **argv)
 {
 	omen_walk_opts wo = OMEN_WALK_OPTS_INIT;
 	omen_repo *repo = NULL;
-	omen_atomic_file af = {NULL, NULL, NULL};
+	omen_atomic_file af = {NULL, NULL, NULL, 0};
 	fstate s;
 	features_args a;
 	omen_labels *labels = NULL;
@@ -251,7 +251,7 @@ int cmd_features(int argc, char **argv)
 		goto fatal;
 	wo.with_lines = 0;
 	if (a.out) {
-		if (omen_atomic_open(&af, a.out))
+		if (omen_output_open(&af, a.out))
 			goto fatal;
 		s.fp = af.fp;
 	} else {

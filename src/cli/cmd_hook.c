@@ -84,7 +84,7 @@ static void disarm_alarm(void)
  * to the push; exit status by omen.onError (allow: 0, block: 1). */
 static int hook_error(int block, const char *what)
 {
-	const char *msg = what ? what : omen_error_last();
+	const char *msg = what ? what : omen_error_last();   /* escaped by cli_error */
 	cli_error("%s; %s", *msg ? msg : "unknown error",
 		block ? "push stopped (omen.onError=block)" : "push not checked (scores are advisory)");
 	return block ? EXIT_RISK : EXIT_OK;
@@ -228,11 +228,22 @@ static int hook_run(int argc, char **argv)
 		if (r->prob < set.threshold)
 			continue;
 		risky++;
-		fprintf(stderr, "git omen: risky commit %.10s: %.2f (threshold %.2f)%s%s%s%s - %.60s\n",
-			r->id, (double)r->prob, (double)set.threshold,
-			r->nreasons ? ": " : "", r->nreasons ? r->reasons[0].text : "",
-			r->nreasons > 1 ? "; " : "", r->nreasons > 1 ? r->reasons[1].text : "",
-			r->summary ? r->summary : "");
+		{
+			/* reasons (paths) and summary through the sanitiser; the summary
+			 * cut at 60 bytes between characters (issue 15, items 1 and 8) */
+			omen_buf w = OMEN_BUF_INIT;
+			int j;
+			omen_buf_printf(&w, "git omen: risky commit %.10s: %.2f (threshold %.2f)", r->id,
+				(double)r->prob, (double)set.threshold);
+			for (j = 0; j < r->nreasons && j < 2; j++) {
+				omen_buf_puts(&w, j ? "; " : ": ");
+				omen_buf_puts_shown(&w, r->reasons[j].text, 0);
+			}
+			omen_buf_puts(&w, " - ");
+			omen_buf_puts_shown(&w, r->summary, 60);
+			fprintf(stderr, "%s\n", w.ptr ? w.ptr : "git omen: risky commit");
+			omen_buf_free(&w);
+		}
 	}
 	if (risky && block_risk) {
 		fprintf(stderr, "git omen: push blocked: %zu of %zu commits at or over %.2f (omen.onRisk=block); "

@@ -13,10 +13,15 @@ static void text_line(omen_buf *b, const omen_score_set *s, const omen_score_res
 	omen_buf_printf(b, "%-10.10s  %s%.2f %-6s%s  +%-5d -%-5d %3df  ", staged ? "(staged)" : r->id,
 		color ? col[r->band] : "", (double)r->prob, omen_band_names[r->band],
 		color && r->band ? "\033[0m" : "", (int)r->la, (int)r->ld, (int)r->nfiles);
-	for (i = 0; i < r->nreasons; i++)
-		omen_buf_printf(b, "%s%s", i ? "; " : "", r->reasons[i].text);
-	if (r->summary && *r->summary)
-		omen_buf_printf(b, "%s%.72s", r->nreasons ? "  | " : "", r->summary);
+	/* history text (paths in reasons, the summary) through the sanitiser */
+	for (i = 0; i < r->nreasons; i++) {
+		omen_buf_puts(b, i ? "; " : "");
+		omen_buf_puts_shown(b, r->reasons[i].text, 0);
+	}
+	if (r->summary && *r->summary) {
+		omen_buf_puts(b, r->nreasons ? "  | " : "");
+		omen_buf_puts_shown(b, r->summary, 72);
+	}
 	omen_buf_puts(b, "\n");
 }
 
@@ -112,7 +117,7 @@ static int render(omen_buf *out, const omen_score_set *set, omen_scorer *sc, con
 	for (i = 0; i < set->n; i++) {
 		const omen_score_result *r = &set->v[i];
 		int st = strspn(r->id, "0") == strlen(r->id);
-		if (r->nskipped)
+		if (r->nskipped)   /* the path is escaped by cli_notice */
 			cli_notice("%.10s: '%s'%s is over omen.maxBlobBytes; its lines were not read",
 				st ? "staged" : r->id, r->skipped_path ? r->skipped_path : "",
 				r->nskipped > 1 ? " (and others)" : "");
@@ -183,7 +188,7 @@ int cmd_score(int argc, char **argv)
 	if ((e = omen_score_set_sort(&set, sort)) || (e = render(&out, &set, sc, &a, horizon)))
 		goto fatal;
 	if (a.outpath) {
-		if ((e = omen_file_write_atomic(a.outpath, out.ptr ? out.ptr : "", out.len)))
+		if ((e = omen_output_write(a.outpath, out.ptr ? out.ptr : "", out.len)))
 			goto fatal;
 	} else if (out.len && fwrite(out.ptr, 1, out.len, stdout) != out.len) {
 		omen_error_set(OMEN_EIO, "cannot write standard output");

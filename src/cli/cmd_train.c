@@ -181,8 +181,16 @@ print:
 	omen_buf_free(&b);
 }
 
+/* A string of a model file (outside bytes) as shown text, in b. */
+static const char *shown_str(omen_buf *b, const char *s)
+{
+	omen_buf_clear(b);
+	return omen_buf_puts_shown(b, s, 0) || !b->ptr ? "" : b->ptr;
+}
+
 static void print_info_text(const cJSON *j, const char *path)
 {
+	omen_buf s1 = OMEN_BUF_INIT, s2 = OMEN_BUF_INIT;
 	const cJSON *tr = cJSON_GetObjectItemCaseSensitive(j, "training");
 	const cJSON *dims = cJSON_GetObjectItemCaseSensitive(j, "dims");
 	const cJSON *te = cJSON_GetObjectItemCaseSensitive(j, "test");
@@ -201,7 +209,7 @@ static void print_info_text(const cJSON *j, const char *path)
 			cJSON_IsString(dt) ? dt->valuestring : "?");
 	}
 	if ((v = cJSON_GetObjectItemCaseSensitive(j, "arch")) && cJSON_IsString(v))
-		printf("arch        %s, format version %d\n", v->valuestring,
+		printf("arch        %s, format version %d\n", shown_str(&s1, v->valuestring),
 			cJSON_GetObjectItemCaseSensitive(j, "version")
 			? cJSON_GetObjectItemCaseSensitive(j, "version")->valueint : 0);
 	if (dims)
@@ -212,15 +220,16 @@ static void print_info_text(const cJSON *j, const char *path)
 			cJSON_GetObjectItemCaseSensitive(dims, "VM")->valueint,
 			(int)cJSON_GetObjectItemCaseSensitive(dims, "nparams")->valuedouble);
 	if ((v = cJSON_GetObjectItemCaseSensitive(j, "head")) && cJSON_IsString(v) && v->valuestring[0])
-		printf("head        %s\n", v->valuestring);
+		printf("head        %s\n", shown_str(&s1, v->valuestring));
 	if (tr) {
 		const cJSON *a = cJSON_GetObjectItemCaseSensitive(tr, "date");
 		const cJSON *f = cJSON_GetObjectItemCaseSensitive(tr, "first_time");
 		const cJSON *l = cJSON_GetObjectItemCaseSensitive(tr, "last_labelled_time");
 		if (cJSON_IsString(a))
-			printf("trained     %s\n", a->valuestring);
+			printf("trained     %s\n", shown_str(&s1, a->valuestring));
 		if (cJSON_IsString(f) && cJSON_IsString(l))
-			printf("range       %s .. %s (labelled)\n", f->valuestring, l->valuestring);
+			printf("range       %s .. %s (labelled)\n", shown_str(&s1, f->valuestring),
+				shown_str(&s2, l->valuestring));
 		printf("split       train %.0f, validation %.0f, test %.0f commits\n",
 			cJSON_GetNumberValue(cJSON_GetObjectItemCaseSensitive(tr, "n_train")),
 			cJSON_GetNumberValue(cJSON_GetObjectItemCaseSensitive(tr, "n_valid")),
@@ -243,6 +252,8 @@ static void print_info_text(const cJSON *j, const char *path)
 				cJSON_GetNumberValue(cJSON_GetObjectItemCaseSensitive(s, "ap")));
 		}
 	}
+	omen_buf_free(&s1);
+	omen_buf_free(&s2);
 }
 
 static int default_model_path(char **out, omen_repo *repo)

@@ -38,15 +38,42 @@ static void usage(FILE *fp)
 		"'git omen <command> --help' shows a command's options; 'man git-omen' the manual.\n");
 }
 
+/* Every error, warning and notice line goes through the sanitiser: the
+ * messages quote paths, names and values that come from history or from
+ * files (DEVELOPERS.md "Hardening"). Our own wording is plain ASCII and
+ * shows unchanged. */
+/* "git omen: <tag>: <text>"; under mpirun (issue 13) every line names the
+ * rank that wrote it. */
+static void emit_line(const char *tag, const char *text)
+{
+	if (omen_mpi_size() > 1)
+		fprintf(stderr, "git omen: %s: rank %d of %d: %s\n", tag, omen_mpi_rank(), omen_mpi_size(), text);
+	else
+		fprintf(stderr, "git omen: %s: %s\n", tag, text);
+}
+
 static void tagged(const char *tag, const char *fmt, va_list ap)
 {
-	/* under mpirun (issue 13) every line names the rank that wrote it */
-	if (omen_mpi_size() > 1)
-		fprintf(stderr, "git omen: %s: rank %d of %d: ", tag, omen_mpi_rank(), omen_mpi_size());
-	else
-		fprintf(stderr, "git omen: %s: ", tag);
-	vfprintf(stderr, fmt, ap);
-	fputc('\n', stderr);
+	char stack[1024];
+	omen_buf m = OMEN_BUF_INIT;
+	va_list aq;
+	int n;
+	va_copy(aq, ap);
+	n = vsnprintf(stack, sizeof(stack), fmt, aq);
+	va_end(aq);
+	if (n >= (int)sizeof(stack)) {
+		char *big = malloc((size_t)n + 1);
+		if (big && vsnprintf(big, (size_t)n + 1, fmt, ap) == n && !omen_buf_put_shown(&m, big, (size_t)n, 0))
+			emit_line(tag, m.ptr);
+		else
+			fprintf(stderr, "git omen: %s: (message lost: out of memory)\n", tag);
+		free(big);
+	} else if (n >= 0 && !omen_buf_put_shown(&m, stack, (size_t)n, 0)) {
+		emit_line(tag, m.ptr ? m.ptr : "");
+	} else {
+		emit_line(tag, n >= 0 ? stack : "(bad message)");
+	}
+	omen_buf_free(&m);
 }
 
 int cli_error(const char *fmt, ...)
@@ -60,6 +87,7 @@ int cli_error(const char *fmt, ...)
 
 int cli_fatal(const char *what)
 {
+	/* the message may quote history: cli_error shows it escaped */
 	const char *msg = omen_error_last();
 	if (what && *what)
 		return cli_error("%s%s%s", what, *msg ? ": " : "", msg);
@@ -204,9 +232,10 @@ int main(int argc, char **argv)
 		if (!strcmp(argv[1], commands[i].name)) {
 			if (omen_mpi_init(&argc, &argv))
 				return cli_fatal(NULL);
-			if (omen_mpi_size() > 1 && commands[i].fn != cmd_train) {
+			if (omen_mpi_size() > 1 && commands[i].fn != cmd_train && commands[i].fn != cmd_label) {
 				rc = omen_mpi_rank() ? EXIT_USAGE : cli_usage(commands[i].name,
-					"runs as one process; under mpirun only 'git omen train' runs in parallel");
+					"runs as one process; under mpirun only 'git omen train' and 'git omen label' "
+					"run in parallel");
 				omen_mpi_finalize();
 				return rc;
 			}
@@ -214,8 +243,10 @@ int main(int argc, char **argv)
 			rc = commands[i].fn(argc - 1, argv + 1);
 			git_libgit2_shutdown();
 			/* a failed rank ends the whole run (the others may be waiting in
-			 * a collective); its error line is already written */
-			if (rc != EXIT_OK && omen_mpi_size() > 1)
+			 * a collective); its error line is already written. A usage error
+			 * comes from the command line, which every rank parses alike
+			 * before any collective: every rank returns it, none waits. */
+			if (rc != EXIT_OK && rc != EXIT_USAGE && omen_mpi_size() > 1)
 				omen_mpi_abort(rc);
 			omen_mpi_finalize();
 			return rc;

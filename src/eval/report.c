@@ -289,8 +289,10 @@ int omen_eval_write_text(omen_buf *out, const omen_eval_result *r)
 		for (i = 0; i < r->nrisky; i++) {
 			const omen_risky *x = &r->risky[i];
 			omen_format_date(d1, x->time);
-			omen_buf_printf(b, "  %.12s %s p=%.3f %-8s %s\n", x->id, d1, x->prob,
-				omen_label_name(x->label ? OMEN_LABEL_INDUCING : OMEN_LABEL_CLEAN), x->why);
+			omen_buf_printf(b, "  %.12s %s p=%.3f %-8s ", x->id, d1, x->prob,
+				omen_label_name(x->label ? OMEN_LABEL_INDUCING : OMEN_LABEL_CLEAN));
+			omen_buf_puts_shown(b, x->why, 0);   /* paths from history */
+			omen_buf_puts(b, "\n");
 		}
 	}
 	if (r->notes.len)

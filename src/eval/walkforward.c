@@ -65,6 +65,8 @@ static void explain_text(char *out, size_t cap, const omen_sample *s, const omen
 	}
 	if (len < cap)
 		snprintf(out + len, cap - len, "; message %+.2f", ex->message_contrib);
+	/* snprintf may have cut a path inside a character */
+	out[omen_utf8_trim(out, strlen(out))] = '\0';
 }
 
 static int cmp_risky(const void *a, const void *b)

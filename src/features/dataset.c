@@ -401,8 +401,12 @@ static int cache_read(omen_dataset **out, const char *path, const omen_buf *key,
 	int ok = 0, i;
 	*out = NULL;
 	memset(&s, 0, sizeof(s));
-	if (!(s.fp = fopen(path, "rb")) || fstat(fileno(s.fp), &st) || st.st_size < 12)
+	/* a regular file only (a FIFO planted there must not hang the read);
+	 * its size is bounded below by check_limit once it is decoded */
+	if (omen_file_open_read(&s.fp, NULL, path, SIZE_MAX) || fstat(fileno(s.fp), &st) || st.st_size < 12) {
+		omen_error_clear();
 		goto out;
+	}
 	s.left = (uint64_t)st.st_size - 4;
 	if (!match_len)
 		match_len = key->len;
@@ -572,13 +576,18 @@ int omen_dataset_build(omen_dataset **out, omen_repo *r, const omen_dataset_opts
 	} else if ((e = omen_labels_path(&labels_path, r, NULL))) {
 		goto out;
 	}
-	if ((e = omen_file_read(&lb, labels_path, 0))) {
+	/* omen.memoryLimit bounds the label file too (issue 15, item 7) */
+	if ((e = omen_file_read(&lb, labels_path, o->max_bytes > 0 && (uint64_t)o->max_bytes < OMEN_READ_MAX
+			? (size_t)o->max_bytes : 0))) {
 		if (e == OMEN_ENOTFOUND && o->labels_optional) {
 			omen_error_clear();
 			e = 0;
 		} else if (e == OMEN_ENOTFOUND)
 			e = omen_error_set(e, "cannot read labels '%s': no such file (run 'git omen label')",
 				labels_path);
+		else if (e == OMEN_ELIMIT && o->max_bytes > 0 && (uint64_t)o->max_bytes < OMEN_READ_MAX)
+			e = omen_error_set(e, "cannot read labels '%s': larger than the memory limit of %lld "
+				"bytes (omen.memoryLimit)", labels_path, (long long)o->max_bytes);
 		if (e)
 			goto out;
 	}

@@ -288,9 +288,15 @@ int omen_shard_open(omen_shard **out, const char *path)
 		e = omen_error_set(OMEN_EINVAL, "cannot read shard '%s': not a little-endian host", path);
 		goto fail;
 	}
-	if ((s->fd = open(path, O_RDONLY | O_CLOEXEC)) < 0 || fstat(s->fd, &st)) {
+	/* O_NONBLOCK: a FIFO must not hang the open (issue 15, item 7); a regular
+	 * file only, as for every other read (DEVELOPERS.md "Hardening") */
+	if ((s->fd = open(path, O_RDONLY | O_CLOEXEC | O_NOCTTY | O_NONBLOCK)) < 0 || fstat(s->fd, &st)) {
 		e = omen_error_set(errno == ENOENT ? OMEN_ENOTFOUND : OMEN_EIO,
 			"cannot read shard '%s': %s", path, strerror(errno));
+		goto fail;
+	}
+	if (!S_ISREG(st.st_mode)) {
+		e = omen_error_set(OMEN_EINVAL, "cannot read shard '%s': not a regular file", path);
 		goto fail;
 	}
 	if (st.st_size < SH_HDR + 4)

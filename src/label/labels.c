@@ -266,11 +266,22 @@ out:
 
 int omen_labels_load(omen_labels **out, const char *path)
 {
+	return omen_labels_load_max(out, path, 0);
+}
+
+int omen_labels_load_max(omen_labels **out, const char *path, int64_t max_bytes)
+{
 	omen_buf b = OMEN_BUF_INIT;
+	size_t max = max_bytes > 0 && (uint64_t)max_bytes < OMEN_READ_MAX ? (size_t)max_bytes : 0;
 	int e;
 	*out = NULL;
-	if ((e = omen_file_read(&b, path, 0)))
+	if ((e = omen_file_read(&b, path, max))) {
+		omen_buf_free(&b);
+		if (e == OMEN_ELIMIT && max)
+			return omen_error_set(e, "cannot read label file '%s': larger than the memory limit "
+				"of %zu bytes (omen.memoryLimit)", path, max);
 		return omen_error_wrap(e, "cannot read label file '%s'", path);
+	}
 	e = omen_labels_parse(out, path, b.ptr ? b.ptr : "", b.len);
 	omen_buf_free(&b);
 	return e;

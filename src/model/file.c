@@ -411,11 +411,24 @@ out:
 
 int omen_model_load(omen_model **out, const char *path)
 {
+	return omen_model_load_max(out, path, 0);
+}
+
+int omen_model_load_max(omen_model **out, const char *path, int64_t max_bytes)
+{
 	omen_buf b = OMEN_BUF_INIT;
-	int e;
+	size_t max = (size_t)1 << 31;
+	int e, by_limit = 0;
 	*out = NULL;
-	if ((e = omen_file_read(&b, path, (size_t)1 << 31))) {
+	if (max_bytes > 0 && (uint64_t)max_bytes < max) {
+		max = (size_t)max_bytes;
+		by_limit = 1;
+	}
+	if ((e = omen_file_read(&b, path, max))) {
 		omen_buf_free(&b);
+		if (e == OMEN_ELIMIT && by_limit)
+			return omen_error_set(e, "cannot read model '%s': larger than the memory limit "
+				"of %zu bytes (omen.memoryLimit)", path, max);
 		return e == OMEN_ENOTFOUND
 			? omen_error_set(e, "cannot read model '%s': no such file (run 'git omen train')", path)
 			: e;

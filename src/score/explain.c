@@ -207,7 +207,8 @@ static int neighbours(omen_explanation *x, omen_scorer *s, omen_repo *r, int top
 	memset(&dopt, 0, sizeof(dopt));
 	dopt.caps = caps;
 	dopt.use_cache = 1;
-	if ((e = omen_dataset_build(&ds, r, &dopt)))
+	if ((e = omen_config_int(&dopt.max_bytes, r, "omen.memoryLimit")) ||
+	    (e = omen_dataset_build(&ds, r, &dopt)))
 		goto out;
 	score_standardize(zt, s, x->result.metrics);
 	n = omen_dataset_size(ds);
@@ -250,7 +251,7 @@ static int neighbours(omen_explanation *x, omen_scorer *s, omen_repo *r, int top
 		nb->nfixes = lr ? (int)lr->nfixes : 0;
 		nb->summary = "";
 		if (omen_oid_parse(&oid, sm->id) == 0 && omen_history_subject(&sum, r, &oid) == 0) {
-			char *p = omen_arena_strndup(&x->arena, sum, strlen(sum) > 200 ? 200 : strlen(sum));
+			char *p = omen_arena_strndup(&x->arena, sum, omen_utf8_prefix(sum, strlen(sum), 200));
 			if (p)
 				nb->summary = p;
 			free(sum);

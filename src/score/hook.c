@@ -89,12 +89,15 @@ static int is_ours(int *out, const char *path, const char *mark)
 {
 	char buf[4097];
 	size_t n;
-	FILE *fp = fopen(path, "rb");
+	FILE *fp = NULL;
+	int e = omen_file_open_read(&fp, NULL, path, SIZE_MAX);
 	*out = 0;
-	if (!fp && errno == ENOENT)
-		return 0;   /* a dangling symlink: someone else's */
-	if (!fp)
-		return omen_error_set(OMEN_EIO, "cannot read hook '%s': %s", path, strerror(errno));
+	if (e == OMEN_ENOTFOUND || e == OMEN_EINVAL) {
+		omen_error_clear();
+		return 0;   /* a dangling symlink, a FIFO, a device: someone else's */
+	}
+	if (e)
+		return e;
 	n = fread(buf, 1, sizeof(buf) - 1, fp);
 	fclose(fp);
 	buf[n] = '\0';

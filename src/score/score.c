@@ -161,7 +161,9 @@ static int base_fallback(omen_scorer *s, omen_repo *r, const omen_score_opts *o)
 		return e;
 	if (!s->base_path)
 		goto missing;
-	if ((e = omen_model_load(&base, s->base_path))) {
+	if ((e = omen_config_int(&lim, r, "omen.memoryLimit")))
+		return e;
+	if ((e = omen_model_load_max(&base, s->base_path, lim))) {
 		char why[512];   /* omen_error_set must not read its own buffer */
 		snprintf(why, sizeof(why), "%s", omen_error_last());
 		return omen_error_set(e, "cannot use base model '%s': %s", s->base_path, why);
@@ -169,8 +171,6 @@ static int base_fallback(omen_scorer *s, omen_repo *r, const omen_score_opts *o)
 	memset(&dopt, 0, sizeof(dopt));
 	dopt.caps = omen_model_caps(base);
 	dopt.labels_optional = 1;
-	if ((e = omen_config_int(&lim, r, "omen.memoryLimit")))
-		goto out;
 	dopt.max_bytes = lim;
 	if ((e = omen_dataset_build(&ds, r, &dopt)))
 		goto out;
@@ -272,11 +272,16 @@ int omen_scorer_open(omen_scorer **out, omen_repo *r, const omen_score_opts *o)
 	s->lazy = o->lazy;
 	if ((e = omen_score_model_path(&s->model_path, r, o->model_path)))
 		goto out;
-	if (stat(s->model_path, &stt) != 0) {
-		if ((e = base_fallback(s, r, o)))
+	{
+		int64_t lim = 0;   /* omen.memoryLimit bounds the model read too */
+		if ((e = omen_config_int(&lim, r, "omen.memoryLimit")))
 			goto out;
-	} else if ((e = omen_model_load(&s->model, s->model_path))) {
-		goto out;
+		if (stat(s->model_path, &stt) != 0) {
+			if ((e = base_fallback(s, r, o)))
+				goto out;
+		} else if ((e = omen_model_load_max(&s->model, s->model_path, lim))) {
+			goto out;
+		}
 	}
 	read_meta(s);
 	if ((e = omen_config_string(&pat, r, "omen.fixPattern")) ||
@@ -378,14 +383,21 @@ static void add_reason(omen_score_result *r, omen_reason *cand, int *nc, int kin
 	va_end(ap);
 }
 
+/* "path:lines" in buf; a path too long for it is cut between characters
+ * (120 bytes and "...") so the line numbers stay. */
 static void range_text(char *buf, size_t n, const omen_hunk_score *h)
 {
+	size_t plen = strlen(h->path), cut = omen_utf8_prefix(h->path, plen, 120);
+	int pl = (int)cut;
+	const char *more = cut < plen ? "..." : "";
 	if (h->new_lines > 1)
-		snprintf(buf, n, "%s:%d-%d", h->path, (int)h->new_start, (int)(h->new_start + h->new_lines - 1));
+		snprintf(buf, n, "%.*s%s:%d-%d", pl, h->path, more, (int)h->new_start,
+			(int)(h->new_start + h->new_lines - 1));
 	else if (h->new_lines == 1)
-		snprintf(buf, n, "%s:%d", h->path, (int)h->new_start);
+		snprintf(buf, n, "%.*s%s:%d", pl, h->path, more, (int)h->new_start);
 	else
-		snprintf(buf, n, "%s:%d (deleted lines)", h->path, (int)(h->new_start > 0 ? h->new_start : 1));
+		snprintf(buf, n, "%.*s%s:%d (deleted lines)", pl, h->path, more,
+			(int)(h->new_start > 0 ? h->new_start : 1));
 }
 
 static const char *metric_phrase(int j)
@@ -514,8 +526,9 @@ static const char *summary_of(omen_arena *a, const char *msg)
 	char *p;
 	if (!msg)
 		msg = "";
-	while (msg[n] && msg[n] != '\n' && n < 200)
+	while (msg[n] && msg[n] != '\n')
 		n++;
+	n = omen_utf8_prefix(msg, n, 200);   /* never half a character */
 	if (!(p = omen_arena_strndup(a, msg, n)))
 		return "";
 	for (i = 0; i < n; i++)
@@ -732,7 +745,9 @@ void score_load_labels(omen_labels **out, omen_repo *r)
 {
 	char *path = NULL;
 	*out = NULL;
-	if (omen_labels_path(&path, r, NULL) || omen_labels_load(out, path))
+	int64_t lim = 0;
+	if (omen_config_int(&lim, r, "omen.memoryLimit") || omen_labels_path(&path, r, NULL) ||
+	    omen_labels_load_max(out, path, lim))
 		*out = NULL;
 	omen_error_clear();
 	free(path);

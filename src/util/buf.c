@@ -126,6 +126,36 @@ int omen_utf8_valid(const char *s, size_t n)
 	return 1;
 }
 
+size_t omen_utf8_prefix(const char *s, size_t n, size_t max)
+{
+	const unsigned char *p = (const unsigned char *)s;
+	size_t i = 0, k;
+	if (n <= max)
+		return n;
+	while (i < n) {
+		if (!(k = utf8_seq(p + i, n - i)))
+			k = 1;   /* an invalid byte stands alone */
+		if (i + k > max)
+			break;
+		i += k;
+	}
+	return i;
+}
+
+size_t omen_utf8_trim(const char *s, size_t n)
+{
+	const unsigned char *p = (const unsigned char *)s;
+	size_t j = n, need;
+	while (j > 0 && n - j < 3 && (p[j - 1] & 0xc0) == 0x80)
+		j--;
+	if (!j)
+		return n;
+	j--;   /* the byte before the continuation bytes */
+	need = p[j] >= 0xc2 && p[j] <= 0xdf ? 2 : p[j] >= 0xe0 && p[j] <= 0xef ? 3
+		: p[j] >= 0xf0 && p[j] <= 0xf4 ? 4 : 0;
+	return need && n - j < need ? j : n;
+}
+
 int omen_buf_put_json_cstr(omen_buf *b, const char *s)
 {
 	return omen_buf_put_json_string(b, s ? s : "", s ? strlen(s) : 0);
@@ -163,6 +193,108 @@ int omen_buf_put_json_string(omen_buf *b, const char *s, size_t n)
 		}
 	}
 	return e ? e : omen_buf_put(b, "\"", 1);
+}
+
+/* ---- text shown to a person (DEVELOPERS.md "Hardening") ----------------- */
+/* Whether the code point cp, valid UTF-8 of k bytes, is shown escaped: the
+ * C1 controls (U+0080..U+009F, which some terminals obey like ESC
+ * sequences), the line and paragraph separators U+2028/U+2029, and the
+ * bidirectional formatting characters of Unicode UAX #9 (ALM, LRM, RLM,
+ * LRE..RLO, LRI..PDI), which reorder what a reader sees. */
+static int shown_escaped_cp(unsigned cp)
+{
+	return (cp >= 0x80 && cp <= 0x9f) || cp == 0x061c || cp == 0x200e || cp == 0x200f ||
+		(cp >= 0x2028 && cp <= 0x202e) || (cp >= 0x2066 && cp <= 0x2069);
+}
+
+static size_t octal_esc(char *out, unsigned char c)
+{
+	out[0] = '\\';
+	out[1] = (char)('0' + (c >> 6));
+	out[2] = (char)('0' + ((c >> 3) & 7));
+	out[3] = (char)('0' + (c & 7));
+	return 4;
+}
+
+/* One unit of shown text at p (n > 0 bytes left): writes its shown form
+ * (at most 12 bytes) to out, its length to *olen; returns the bytes of p it
+ * stands for. A unit is never split by a cut. */
+static size_t shown_unit(const unsigned char *p, size_t n, char out[16], size_t *olen)
+{
+	static const char named[] = "abtnvfr";   /* \a (7) .. \r (13), as C and git write them */
+	unsigned c = p[0], cp;
+	size_t k, i, o = 0;
+	if (c < 0x80) {
+		if (c == '\\') {
+			out[0] = out[1] = '\\';
+			*olen = 2;
+		} else if (c >= 7 && c <= 13) {
+			out[0] = '\\';
+			out[1] = named[c - 7];
+			*olen = 2;
+		} else if (c < 0x20 || c == 0x7f) {
+			*olen = octal_esc(out, (unsigned char)c);
+		} else {
+			out[0] = (char)c;
+			*olen = 1;
+		}
+		return 1;
+	}
+	if (!(k = utf8_seq(p, n))) {
+		*olen = octal_esc(out, (unsigned char)c);
+		return 1;
+	}
+	cp = c & (k == 2 ? 0x1f : k == 3 ? 0x0f : 0x07);
+	for (i = 1; i < k; i++)
+		cp = (cp << 6) | (p[i] & 0x3f);
+	if (shown_escaped_cp(cp)) {
+		for (i = 0; i < k; i++)
+			o += octal_esc(out + o, p[i]);
+	} else {
+		memcpy(out, p, k);
+		o = k;
+	}
+	*olen = o;
+	return k;
+}
+
+int omen_buf_put_shown(omen_buf *b, const char *s, size_t n, size_t max)
+{
+	const unsigned char *p = (const unsigned char *)(s ? s : "");
+	char u[16];
+	size_t i, k, ulen, total = 0, budget, used = 0;
+	int e = 0;
+	if (!s)
+		n = 0;
+	for (i = 0; i < n; i += k) {
+		k = shown_unit(p + i, n - i, u, &ulen);
+		total += ulen;
+	}
+	if (max && total > max)
+		budget = max >= 3 ? max - 3 : max;
+	else
+		budget = total;
+	if ((e = omen_buf_grow(b, budget + 3)))
+		return e;
+	for (i = 0; i < n; i += k) {
+		k = shown_unit(p + i, n - i, u, &ulen);
+		if (used + ulen > budget)
+			break;
+		memcpy(b->ptr + b->len, u, ulen);
+		b->len += ulen;
+		used += ulen;
+	}
+	if (budget < total && max >= 3) {
+		memcpy(b->ptr + b->len, "...", 3);
+		b->len += 3;
+	}
+	b->ptr[b->len] = '\0';
+	return 0;
+}
+
+int omen_buf_puts_shown(omen_buf *b, const char *s, size_t max)
+{
+	return omen_buf_put_shown(b, s, s ? strlen(s) : 0, max);
 }
 
 void omen_buf_clear(omen_buf *b) { b->len = 0; b->err = 0; if (b->ptr) b->ptr[0] = '\0'; }

@@ -1,5 +1,6 @@
-/* Atomic writes (temporary file beside the target, fsync, rename), whole-file
- * reads, mkdir -p, advisory locks, and the bounded cursor. */
+/* Atomic writes (a temporary file created exclusively beside the target,
+ * fsync, rename; devices and FIFOs written in place), bounded reads of
+ * regular files, mkdir -p, advisory locks, and the bounded cursor. */
 #include <errno.h>
 #include <fcntl.h>
 #include <stdlib.h>
@@ -11,57 +12,158 @@
 #include "omen/error.h"
 #include "omen/util.h"
 
-int omen_atomic_open(omen_atomic_file *f, const char *path)
+/* ---- writes (DEVELOPERS.md "Hardening", file rules) --------------------- */
+/* 12 hex digits from the kernel's random source (getentropy), else from the
+ * seeded generator mixed with the time, pid and a counter: the name only
+ * has to be hard to guess, O_EXCL makes it safe. */
+static void random_suffix(char out[13])
+{
+	static const char hex[] = "0123456789abcdef";
+	static unsigned long counter;
+	unsigned char r[6];
+	int i;
+	if (getentropy(r, sizeof(r))) {
+		omen_rng g;
+		struct timespec ts;
+		uint64_t v;
+		clock_gettime(CLOCK_REALTIME, &ts);
+		omen_rng_seed(&g, (uint64_t)ts.tv_nsec ^ (uint64_t)ts.tv_sec << 20 ^
+			(uint64_t)getpid() << 40 ^ ++counter);
+		v = omen_rng_next(&g);
+		for (i = 0; i < 6; i++)
+			r[i] = (unsigned char)(v >> (8 * i));
+	}
+	for (i = 0; i < 6; i++) {
+		out[2 * i] = hex[r[i] >> 4];
+		out[2 * i + 1] = hex[r[i] & 15];
+	}
+	out[12] = '\0';
+}
+
+/* Creates <path>.tmp.<12 random hex digits> exclusively (O_EXCL: never an
+ * existing file, O_NOFOLLOW: never through a planted symlink), in the
+ * target's own directory so that rename() stays atomic. */
+static int tmp_create(int *out_fd, char **out_name, const char *path)
 {
 	omen_buf tmp = OMEN_BUF_INIT;
-	int fd;
-	memset(f, 0, sizeof(*f));
-	if (omen_buf_printf(&tmp, "%s.tmp.%ld", path, (long)getpid()))
-		return OMEN_ENOMEM;
-	fd = open(tmp.ptr, O_WRONLY | O_CREAT | O_TRUNC, 0644);
-	if (fd < 0 || !(f->fp = fdopen(fd, "wb"))) {
-		int e = errno;
-		if (fd >= 0) close(fd);
+	char sfx[13];
+	int tries, fd = -1, e = 0;
+	for (tries = 0; tries < 100; tries++) {
+		random_suffix(sfx);
+		omen_buf_clear(&tmp);
+		if (omen_buf_printf(&tmp, "%s.tmp.%s", path, sfx))
+			return OMEN_ENOMEM;
+		fd = open(tmp.ptr, O_WRONLY | O_CREAT | O_EXCL | O_NOFOLLOW | O_CLOEXEC | O_NOCTTY, 0644);
+		if (fd >= 0 || errno != EEXIST)
+			break;
+	}
+	if (fd < 0) {
+		e = errno;
 		omen_buf_free(&tmp);
 		return omen_error_set(OMEN_EIO, "cannot write '%s': %s", path, strerror(e));
 	}
-	f->tmp = omen_buf_detach(&tmp);
-	f->path = strdup(path);
-	if (!f->path) {
+	*out_fd = fd;
+	*out_name = omen_buf_detach(&tmp);
+	return 0;
+}
+
+static const char *kind_of(mode_t m)
+{
+	return S_ISDIR(m) ? "a directory" : S_ISBLK(m) ? "a block device" : S_ISSOCK(m) ? "a socket"
+		: S_ISLNK(m) ? "a symbolic link" : "not a regular file";
+}
+
+int omen_atomic_open(omen_atomic_file *f, const char *path)
+{
+	struct stat st, tst;
+	int fd = -1, e, link = 0;
+	memset(f, 0, sizeof(*f));
+	if (!path || !*path)
+		return omen_error_set(OMEN_EUSAGE, "cannot write '': empty file name");
+	if (lstat(path, &st)) {
+		if (errno != ENOENT)
+			return omen_error_set(OMEN_EIO, "cannot write '%s': %s", path, strerror(errno));
+		st.st_mode = S_IFREG;   /* absent: created by rename */
+	} else if (S_ISLNK(st.st_mode)) {
+		/* a link is written through only to a device or a FIFO (/dev/stdout
+		 * on a terminal or a pipe); renaming over it would replace the link,
+		 * writing to its file would write elsewhere than named */
+		if (stat(path, &tst) || !(S_ISCHR(tst.st_mode) || S_ISFIFO(tst.st_mode)))
+			return omen_error_set(OMEN_EUSAGE, "cannot write '%s': it is a symbolic link "
+				"(give the file it points to)", path);
+		st = tst;
+		link = 1;
+	}
+	if (S_ISCHR(st.st_mode) || S_ISFIFO(st.st_mode)) {
+		/* written in place, as a shell's '>' would; never replaced */
+		fd = open(path, O_WRONLY | O_NOCTTY | O_CLOEXEC | (link ? 0 : O_NOFOLLOW));
+		if (fd < 0)
+			return omen_error_set(OMEN_EIO, "cannot write '%s': %s", path, strerror(errno));
+		if (fstat(fd, &tst) || !(S_ISCHR(tst.st_mode) || S_ISFIFO(tst.st_mode))) {
+			close(fd);
+			return omen_error_set(OMEN_EIO, "cannot write '%s': it changed while being opened", path);
+		}
+		f->direct = 1;
+	} else if (!S_ISREG(st.st_mode)) {
+		return omen_error_set(OMEN_EUSAGE, "cannot write '%s': it is %s", path, kind_of(st.st_mode));
+	} else if ((e = tmp_create(&fd, &f->tmp, path))) {
+		return e;
+	}
+	if (!(f->fp = fdopen(fd, "wb"))) {
+		e = errno;
+		close(fd);
+		omen_atomic_abort(f);
+		return omen_error_set(OMEN_EIO, "cannot write '%s': %s", path, strerror(e));
+	}
+	if (!(f->path = strdup(path))) {
 		omen_atomic_abort(f);
 		return omen_error_set(OMEN_ENOMEM, "out of memory");
 	}
 	return 0;
 }
 
+int omen_output_open(omen_atomic_file *f, const char *path)
+{
+	if (path && !strcmp(path, "-")) {
+		memset(f, 0, sizeof(*f));
+		if (!(f->path = strdup("standard output")))
+			return omen_error_set(OMEN_ENOMEM, "out of memory");
+		f->fp = stdout;
+		f->direct = 2;
+		return 0;
+	}
+	return omen_atomic_open(f, path);
+}
+
 int omen_atomic_commit(omen_atomic_file *f)
 {
-	int bad = 0, e = 0;
+	int bad = 0, e = 0, rc;
 	if (!f->fp)
 		return omen_error_set(OMEN_EIO, "cannot write: file not open");
-	if (fflush(f->fp) || ferror(f->fp) || fsync(fileno(f->fp)))
+	if (fflush(f->fp) || ferror(f->fp))
 		bad = 1, e = errno;
-	if (fclose(f->fp) && !bad)
+	if (!bad && !f->direct && fsync(fileno(f->fp)))
+		bad = 1, e = errno;
+	if (f->direct != 2 && fclose(f->fp) && !bad)
 		bad = 1, e = errno;
 	f->fp = NULL;
-	if (!bad && rename(f->tmp, f->path))
+	if (!bad && f->tmp && rename(f->tmp, f->path))
 		bad = 1, e = errno;
-	if (bad) {
-		int rc = omen_error_set(OMEN_EIO, "cannot write '%s': %s", f->path, strerror(e ? e : EIO));
+	rc = bad ? omen_error_set(OMEN_EIO, "cannot write '%s': %s", f->path, strerror(e ? e : EIO)) : 0;
+	if (bad && f->tmp)
 		unlink(f->tmp);
-		free(f->tmp); free(f->path);
-		f->tmp = f->path = NULL;
-		return rc;
-	}
-	free(f->tmp); free(f->path);
-	f->tmp = f->path = NULL;
-	return 0;
+	free(f->tmp);
+	free(f->path);
+	memset(f, 0, sizeof(*f));
+	return rc;
 }
 
 void omen_atomic_abort(omen_atomic_file *f)
 {
-	if (f->fp)
+	if (f->fp && f->direct != 2)
 		fclose(f->fp);
+	else if (f->fp)
+		fflush(f->fp);
 	if (f->tmp)
 		unlink(f->tmp);
 	free(f->tmp);
@@ -69,31 +171,87 @@ void omen_atomic_abort(omen_atomic_file *f)
 	memset(f, 0, sizeof(*f));
 }
 
-int omen_file_write_atomic(const char *path, const void *data, size_t n)
+static int write_all(const char *path, const void *data, size_t n, int output)
 {
 	omen_atomic_file f;
-	int e = omen_atomic_open(&f, path);
+	int e = output ? omen_output_open(&f, path) : omen_atomic_open(&f, path);
 	if (e)
 		return e;
 	if (n && fwrite(data, 1, n, f.fp) != n) {
-		e = omen_error_set(OMEN_EIO, "cannot write '%s': %s", path, strerror(errno));
+		e = omen_error_set(OMEN_EIO, "cannot write '%s': %s", f.path, strerror(errno));
 		omen_atomic_abort(&f);
 		return e;
 	}
 	return omen_atomic_commit(&f);
 }
 
-int omen_file_read(omen_buf *out, const char *path, size_t max)
+int omen_file_write_atomic(const char *path, const void *data, size_t n)
 {
-	FILE *fp = fopen(path, "rb");
-	char chunk[65536];
-	size_t k;
-	int e = 0;
-	if (!fp)
+	return write_all(path, data, n, 0);
+}
+
+int omen_output_write(const char *path, const void *data, size_t n)
+{
+	return write_all(path, data, n, 1);
+}
+
+/* ---- reads ---------------------------------------------------------------- */
+int omen_file_open_read(FILE **out, uint64_t *size, const char *path, size_t max)
+{
+	struct stat st;
+	int fd, fl;
+	*out = NULL;
+	if (size)
+		*size = 0;
+	if (!max)
+		max = OMEN_READ_MAX;
+	/* O_NONBLOCK: opening a FIFO must not wait for a writer; cleared below */
+	fd = open(path, O_RDONLY | O_NOCTTY | O_CLOEXEC | O_NONBLOCK);
+	if (fd < 0)
 		return omen_error_set(errno == ENOENT ? OMEN_ENOTFOUND : OMEN_EIO,
 			"cannot read '%s': %s", path, strerror(errno));
+	if (fstat(fd, &st)) {
+		int e = errno;
+		close(fd);
+		return omen_error_set(OMEN_EIO, "cannot read '%s': %s", path, strerror(e));
+	}
+	if (!S_ISREG(st.st_mode)) {
+		close(fd);
+		return omen_error_set(OMEN_EINVAL, "cannot read '%s': %s", path,
+			S_ISDIR(st.st_mode) ? "it is a directory" : "not a regular file");
+	}
+	if ((uint64_t)st.st_size > (uint64_t)max) {
+		close(fd);
+		return omen_error_set(OMEN_ELIMIT, "cannot read '%s': %lld bytes, over the limit of %zu",
+			path, (long long)st.st_size, max);
+	}
+	if ((fl = fcntl(fd, F_GETFL)) < 0 || fcntl(fd, F_SETFL, fl & ~O_NONBLOCK) < 0 ||
+	    !(*out = fdopen(fd, "rb"))) {
+		int e = errno;
+		close(fd);
+		return omen_error_set(OMEN_EIO, "cannot read '%s': %s", path, strerror(e));
+	}
+	if (size)
+		*size = (uint64_t)st.st_size;
+	return 0;
+}
+
+int omen_file_read(omen_buf *out, const char *path, size_t max)
+{
+	FILE *fp;
+	char chunk[65536];
+	size_t k;
+	uint64_t size;
+	int e;
+	if (!max)
+		max = OMEN_READ_MAX;
+	if ((e = omen_file_open_read(&fp, &size, path, max)))
+		return e;
+	if (size && (e = omen_buf_grow(out, (size_t)size)))
+		goto out;
+	/* the size is checked again while reading: the file may grow */
 	while ((k = fread(chunk, 1, sizeof(chunk), fp)) > 0) {
-		if (max && out->len + k > max) {
+		if (out->len + k > max) {
 			e = omen_error_set(OMEN_ELIMIT, "cannot read '%s': larger than %zu bytes", path, max);
 			break;
 		}
@@ -102,6 +260,7 @@ int omen_file_read(omen_buf *out, const char *path, size_t max)
 	}
 	if (!e && ferror(fp))
 		e = omen_error_set(OMEN_EIO, "cannot read '%s': %s", path, strerror(errno));
+out:
 	fclose(fp);
 	if (!e && !out->ptr)
 		e = omen_buf_grow(out, 0);
@@ -139,7 +298,7 @@ int omen_mkdirs(const char *path, int is_dir)
 
 int omen_lock_acquire(int *out_fd, const char *path, int wait_ms)
 {
-	int fd = open(path, O_RDWR | O_CREAT, 0644);
+	int fd = open(path, O_RDWR | O_CREAT | O_NOFOLLOW | O_CLOEXEC | O_NOCTTY, 0644);
 	double until = omen_now() + wait_ms / 1000.0;
 	if (fd < 0)
 		return omen_error_set(OMEN_EIO, "cannot open lock '%s': %s", path, strerror(errno));

@@ -701,6 +701,207 @@ row_dubious_owner() {
 	cd "$here" && rm -rf "$here/dub"
 }
 
+# ---- hostile text and files (issue 15, items 1-3, 7, 8) ---------------------
+# No C0 control byte but newline, and no DEL, in file $1 (C locale classes).
+no_ctl() { ! LC_ALL=C tr -d '\n' < "$1" | LC_ALL=C grep -q '[[:cntrl:]]'; }
+utf8_ok() { iconv -f UTF-8 -t UTF-8 < "$1" > /dev/null 2>&1; }
+# a command that might hang on a FIFO, bounded so a hang fails the row
+# instead of the suite (a guard, not a timing assertion)
+guard() { timeout 120 "$@"; }
+# 2 GiB of address space for a row that a regression could make allocate
+# without end; not under AddressSanitizer, whose shadow memory needs more
+memcap() { [ -n "${ASAN_OPTIONS:-}" ] || ulimit -v 2097152; }
+
+row_hostile_text() {
+	have explain || { report pending "escape bytes in history text" "explain"; return; }
+	[ -n "$model" ] || { report skip "escape bytes in history text" "no model"; return; }
+	local r="$here/hostile" p q sum
+	rm -rf "$r" && cp -r "$demo" "$r" && cd "$r" || return
+	mkdir -p src
+	# a past commit with a terminal title and clear-screen in its message, then
+	# its fix: labelled inducing, so explain lists it among the closest
+	printf 'int esc_len(const char *s)\n{\n\tint n = 0;\n\twhile (s[n])\n\t\tn++;\n\treturn n - 1;\n}\n' > src/esc.c
+	git add -A && git commit -qm "$(printf 'esc: add esc_len \033]0;owned\007\033[2J')"
+	sed 's/return n - 1;/return n;/' src/esc.c > src/esc.c.new && mv src/esc.c.new src/esc.c
+	git commit -qam "esc: fix off-by-one crash in esc_len"
+	git omen label > /dev/null 2>&1
+	printf 'int esc_twice(const char *s) { return 2 * esc_len(s); }\n' >> src/esc.c
+	git commit -qam "esc: add esc_twice"
+	om htn explain HEAD --model "$model"
+	if [ "$rc" -eq 0 ] && no_ctl "$here/htn.out" &&
+	   grep -qF 'esc: add esc_len \033]0;owned\a\033[2J' "$here/htn.out"; then
+		report ok "escape bytes: explain, past commits" "a past commit's message escaped"
+	else
+		report FAIL "escape bytes: explain, past commits" "rc=$rc $(grep -a 'esc_len' "$here/htn.out" | head -1 | cat -v | cut -c1-80)"
+	fi
+	# the issue's path: colour, a window-title sequence and BEL
+	p=$(printf 'src/a\033[31mX\033]0;T\007.c')
+	printf 'int f(char *p)\n{\n\tfree(p);\n\treturn p[0];\n}\n' > "$p"
+	git add -A && git commit -qm "$(printf 'use f\033[8m hidden')"
+	# git's own quoting of that path (core.quotePath, without the quotes)
+	q=$(git -c core.quotePath=false ls-files -- src | grep '^"src/a' | sed 's/^"//; s/"$//')
+	om hts score HEAD --model "$model"
+	if [ "$rc" -eq 0 ] && no_ctl "$here/hts.out" && grep -qF "$q" "$here/hts.out"; then
+		report ok "escape bytes: score table" "path shown as git quotes it: $q"
+	else
+		report FAIL "escape bytes: score table" "rc=$rc; raw control bytes or no '$q' in: $(head -2 "$here/hts.out" | tail -1 | cat -v | cut -c1-80)"
+	fi
+	om htx explain HEAD --model "$model"
+	if [ "$rc" -eq 0 ] && no_ctl "$here/htx.out" && [ "$(grep -cF "$q" "$here/htx.out")" -ge 3 ]; then
+		report ok "escape bytes: explain" "files, hunks and lines escaped"
+	else
+		report FAIL "escape bytes: explain" "rc=$rc $(grep -a 'src/a' "$here/htx.out" | head -1 | cat -v | cut -c1-80)"
+	fi
+	# the hook's warning (every commit risky at threshold 0.001)
+	printf 'refs/heads/main %s refs/heads/main %s\n' "$(git rev-parse HEAD)" "$(git rev-parse HEAD~1)" |
+		git -c omen.threshold=0.001 omen hook run origin "$here/nowhere.git" > "$here/hth.out" 2> "$here/hth.err"; rc=$?
+	if [ "$rc" -eq 0 ] && grep -q "risky commit" "$here/hth.err" && no_ctl "$here/hth.err" &&
+	   grep -qF "$q" "$here/hth.err"; then
+		report ok "escape bytes: hook warning" "stderr escaped"
+	else
+		report FAIL "escape bytes: hook warning" "rc=$rc $(head -1 "$here/hth.err" | cat -v | cut -c1-80)"
+	fi
+	# issue 15, item 8: "x" and forty U+00E9, cut by the table (72 bytes) and
+	# the hook (60 bytes) between characters
+	sum=$("${PYTHON:-/usr/bin/python3}" -c 'print("x" + "\u00e9" * 40)')
+	git commit -q --allow-empty -m "$sum"
+	om htu score HEAD --model "$model"
+	printf 'refs/heads/main %s refs/heads/main %s\n' "$(git rev-parse HEAD)" "$(git rev-parse HEAD~1)" |
+		git -c omen.threshold=0.001 omen hook run origin "$here/nowhere.git" > "$here/htw.out" 2> "$here/htw.err"
+	if [ "$rc" -eq 0 ] && grep -q "x$(printf '\303\251\303\251')" "$here/htu.out" && utf8_ok "$here/htu.out" &&
+	   grep -q "risky commit" "$here/htw.err" && utf8_ok "$here/htw.err"; then
+		report ok "UTF-8 summary cut" "table (72 bytes) and hook (60) cut between characters"
+	else
+		report FAIL "UTF-8 summary cut" "rc=$rc; invalid UTF-8 in the table or the hook's warning"
+	fi
+}
+
+row_tmp_symlink() {
+	have score || { report pending "planted temporary symlink" "score"; return; }
+	[ -n "$model" ] || { report skip "planted temporary symlink" "no model"; return; }
+	cd "$demo" || return
+	echo precious > "$here/v"
+	# the old temporary was <target>.tmp.<pid>: plant it, then exec keeps the pid
+	sh -c 'ln -s "$1/v" "$1/o.json.tmp.$$"; exec "$2" score HEAD --format json --model "$3" -o "$1/o.json"' \
+		sh "$here" "$OMEN" "$model" 2> "$here/tl.err"; rc=$?
+	if [ "$rc" -eq 0 ] && [ "$(cat "$here/v")" = precious ] && grep -q '"probability"' "$here/o.json"; then
+		report ok "planted temporary symlink" "not written through; target written"
+	else
+		report FAIL "planted temporary symlink" "rc=$rc v=$(head -c 40 "$here/v") $(first_err tl)"
+	fi
+	rm -f "$here"/o.json.tmp.*
+}
+
+row_output_kinds() {
+	have score || { report pending "-o targets" "score"; return; }
+	[ -n "$model" ] || { report skip "-o targets" "no model"; return; }
+	cd "$demo" || return
+	mkdir -p "$here/odir"
+	om od score HEAD --model "$model" -o "$here/odir"
+	if [ "$rc" -eq 128 ] && one_line od "it is a directory$" && [ -d "$here/odir" ]; then
+		report ok "-o a directory" "128: $(first_err od)"
+	else
+		report FAIL "-o a directory" "rc=$rc $(first_err od)"
+	fi
+	echo keep > "$here/okeep"; ln -sf "$here/okeep" "$here/olink"
+	om ol score HEAD --model "$model" -o "$here/olink"
+	if [ "$rc" -eq 128 ] && one_line ol "is a symbolic link" && [ -L "$here/olink" ] &&
+	   [ "$(cat "$here/okeep")" = keep ]; then
+		report ok "-o a symlink to a file" "refused, link and file kept"
+	else
+		report FAIL "-o a symlink to a file" "rc=$rc $(first_err ol)"
+	fi
+	rm -f "$here/ofifo"; mkfifo "$here/ofifo"
+	guard cat "$here/ofifo" > "$here/ofifo.got" & cpid=$!
+	guard git omen score HEAD --model "$model" -o "$here/ofifo" > "$here/of.out" 2> "$here/of.err"; rc=$?
+	wait "$cpid"
+	if [ "$rc" -eq 0 ] && [ -p "$here/ofifo" ] && grep -q "scored" "$here/ofifo.got"; then
+		report ok "-o a FIFO" "written in place, still a FIFO"
+	else
+		report FAIL "-o a FIFO" "rc=$rc $(first_err of)"
+	fi
+	# a full device: as root a private node with /dev/full's numbers (Linux
+	# char 1, 7), so a regression cannot replace the real one
+	local full=/dev/full
+	if [ "$(id -u)" -eq 0 ]; then
+		rm -f "$here/full"; mknod "$here/full" c 1 7 2>/dev/null && full="$here/full"
+	fi
+	if [ -c "$full" ]; then
+		om ofl score HEAD --model "$model" -o "$full"
+		if [ "$rc" -eq 128 ] && one_line ofl "No space left on device" && [ -c "$full" ]; then
+			report ok "-o a full device" "128: $(first_err ofl | sed "s|$here/||")"
+		else
+			report FAIL "-o a full device" "rc=$rc, still a device: $([ -c "$full" ] && echo yes || echo no) $(first_err ofl)"
+		fi
+	else
+		report skip "-o a full device" "no /dev/full"
+	fi
+	om odash score HEAD --model "$model" -o -
+	if [ "$rc" -eq 0 ] && grep -q "scored" "$here/odash.out" && [ ! -e "$demo/-" ]; then
+		report ok "-o - (standard output)" "written to standard output"
+	else
+		report FAIL "-o - (standard output)" "rc=$rc $(first_err odash)"
+	fi
+}
+
+row_read_kinds() {
+	have train || { report pending "labels, model not regular files" "train"; return; }
+	[ -n "$model" ] || { report skip "labels, model not regular files" "no model"; return; }
+	cd "$demo" || return
+	# memory stays bounded whatever a regression does (memcap)
+	(memcap; guard git -c omen.memoryLimit=200m -c omen.labels=/dev/zero omen train \
+		--model "$here/z.omen") > "$here/rz.out" 2> "$here/rz.err"; rc=$?
+	if [ "$rc" -eq 128 ] && one_line rz "not a regular file$" && [ ! -e "$here/z.omen" ]; then
+		report ok "omen.labels=/dev/zero" "128: $(first_err rz | cut -c1-70)"
+	else
+		report FAIL "omen.labels=/dev/zero" "rc=$rc $(first_err rz)"
+	fi
+	(memcap; guard git omen score HEAD --model /dev/zero) > "$here/mz.out" 2> "$here/mz.err"; rc=$?
+	if [ "$rc" -eq 128 ] && one_line mz "not a regular file$"; then
+		report ok "model at /dev/zero" "128: $(first_err mz)"
+	else
+		report FAIL "model at /dev/zero" "rc=$rc $(first_err mz)"
+	fi
+	rm -f "$here/mfifo"; mkfifo "$here/mfifo"
+	guard git omen score HEAD --model "$here/mfifo" > "$here/mf.out" 2> "$here/mf.err"; rc=$?
+	if [ "$rc" -eq 128 ] && one_line mf "not a regular file$"; then
+		report ok "model is a FIFO" "128 without waiting: $(first_err mf | sed "s|$here/||")"
+	else
+		report FAIL "model is a FIFO" "rc=$rc (124: it waited) $(first_err mf)"
+	fi
+	(guard git -c omen.labels="$here/mfifo" omen train --model "$here/f.omen") > "$here/lf.out" 2> "$here/lf.err"; rc=$?
+	if [ "$rc" -eq 128 ] && one_line lf "not a regular file$"; then
+		report ok "labels are a FIFO" "128 without waiting"
+	else
+		report FAIL "labels are a FIFO" "rc=$rc (124: it waited) $(first_err lf)"
+	fi
+	# a (sparse) 300 MiB label file over omen.memoryLimit=200m: refused by its size
+	truncate -s 300M "$big/labels300.jsonl"
+	(memcap; guard git -c omen.memoryLimit=200m -c omen.labels="$big/labels300.jsonl" omen train \
+		--no-cache --model "$here/s.omen") > "$here/ls.out" 2> "$here/ls.err"; rc=$?
+	if [ "$rc" -eq 128 ] && one_line ls "memory limit"; then
+		report ok "labels over omen.memoryLimit" "128: $(first_err ls | sed "s|$big/||" | cut -c1-70)"
+	else
+		report FAIL "labels over omen.memoryLimit" "rc=$rc $(first_err ls)"
+	fi
+	rm -f "$big/labels300.jsonl"
+	# a corpus shard that is a FIFO (train --base lists the directory)
+	rm -rf "$here/fshards" && mkdir -p "$here/fshards" && mkfifo "$here/fshards/x+y.shard"
+	guard git omen train --base "$here/fshards" --model "$here/fs.omen" > "$here/fs.out" 2> "$here/fs.err"; rc=$?
+	if [ "$rc" -eq 128 ] && one_line fs "not a regular file$" && [ ! -e "$here/fs.omen" ]; then
+		report ok "corpus shard is a FIFO" "128 without waiting"
+	else
+		report FAIL "corpus shard is a FIFO" "rc=$rc (124: it waited) $(first_err fs)"
+	fi
+	# error lines quote names as they are: shown escaped too
+	om me score HEAD --model "$here/$(printf 'm\033[2J\033]0;t\007.omen')"
+	if [ "$rc" -eq 128 ] && one_line me 'm\\033\[2J\\033\]0;t\\a\.omen' && no_ctl "$here/me.err"; then
+		report ok "escape bytes in an error line" "$(first_err me | sed "s|$here/||")"
+	else
+		report FAIL "escape bytes in an error line" "rc=$rc $(first_err me | cat -v)"
+	fi
+}
+
 # issue 12: a warning budget outside (0, 1) is one line; a refresh while a
 # train holds the lock skips and says so (exit 0: safe from cron)
 row_warn_share() {
@@ -768,7 +969,8 @@ t0=$(date +%s)
 for r in shallow empty unborn missing_objects missing_skip promisor_unreachable detached big_file binary_only invalid_utf8 crlf \
          submodule symlink mode_only many_files model_truncated model_flipped label_broken_line \
          label_bad_horizon two_trains kill_train kill_label memory_limit bad_config setting_bounds \
-         dubious_owner warn_share refresh_while_train shard_damaged; do
+         dubious_owner hostile_text tmp_symlink output_kinds read_kinds warn_share \
+         refresh_while_train shard_damaged; do
 	cd "$here" || exit 1
 	ts=$(date +%s)
 	row_$r

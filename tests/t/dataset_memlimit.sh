@@ -2,7 +2,8 @@
 # omen.memoryLimit weighs a dataset the same whether train builds it from
 # history or loads it from $GIT_DIR/omen/dataset.cache: the load path's
 # message gives the weight N; a limit of N lets both paths through, N - 1
-# stops both with one line naming the limit and the key that sets it.
+# stops both with one line naming the limit and the key that sets it. The
+# label file is bounded by the same limit.
 set -eu
 fail() { echo "FAIL: $*" >&2; exit 1; }
 export HOME="$PWD/home" GIT_CONFIG_NOSYSTEM=1 GIT_CONFIG_GLOBAL=/dev/null
@@ -15,10 +16,18 @@ cd repo
 [ -f .git/omen/dataset.cache ] || fail "no dataset cache written"
 
 lim() { GIT_CONFIG_PARAMETERS="'omen.memoryLimit'='$1'"; export GIT_CONFIG_PARAMETERS; }
-lim 1
+# the label file is read under the limit too (issue 15, item 7): one byte
+# less than its size stops train before any dataset is weighed
+L=$(wc -c < .git/omen/labels.jsonl)
+lim $((L - 1))
 rc=0; "$OMEN" train HEAD~20 --model "$top/m1.omen" >/dev/null 2>err || rc=$?
-[ "$rc" -eq 128 ] || fail "cached, limit 1: exit $rc"
-n=$(sed -n 's/^git omen: error: cannot load dataset: \([0-9]*\) bytes after [0-9]* commits is over the memory limit of 1 bytes (omen\.memoryLimit)$/\1/p' err)
+[ "$rc" -eq 128 ] || fail "labels, limit L-1: exit $rc"
+grep -q "^git omen: error: cannot read labels '.*': larger than the memory limit of $((L - 1)) bytes (omen\.memoryLimit)$" err ||
+	fail "labels message: $(cat err)"
+lim "$L"
+rc=0; "$OMEN" train HEAD~20 --model "$top/m1.omen" >/dev/null 2>err || rc=$?
+[ "$rc" -eq 128 ] || fail "cached, limit L: exit $rc"
+n=$(sed -n "s/^git omen: error: cannot load dataset: \([0-9]*\) bytes after [0-9]* commits is over the memory limit of $L bytes (omen\.memoryLimit)\$/\1/p" err)
 [ -n "$n" ] || fail "load message: $(cat err)"
 [ "$n" -gt 1000 ] || fail "implausible dataset weight $n"
 

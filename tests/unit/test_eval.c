@@ -602,10 +602,45 @@ static void test_results_finish(void **state)
 	omen_eval_result_free(NULL);
 }
 
+/* Issue 15, item 1: the riskiest list quotes paths from history; the text
+ * report shows them through the sanitiser, the JSON keeps them raw
+ * (escaped as JSON). */
+static void test_riskiest_escaped(void **state)
+{
+	omen_eval_result r;
+	omen_buf b = OMEN_BUF_INIT;
+	omen_risky *saved, rk;
+	size_t nsaved;
+	(void)state;
+	synth_result(&r, 3, 1);
+	assert_int_equal(omen_eval_finish(&r), 0);
+	memset(&rk, 0, sizeof(rk));
+	memcpy(rk.id, "0123456789abcdef0123456789abcdef01234567", 41);
+	rk.prob = 0.9;
+	rk.label = 1;
+	snprintf(rk.why, sizeof(rk.why), "files: src/a\033[31mX\033]0;T\007.c 100%%");
+	saved = r.risky;
+	nsaved = r.nrisky;
+	r.risky = &rk;
+	r.nrisky = 1;
+	assert_int_equal(omen_eval_write_text(&b, &r), 0);
+	assert_null(strchr(b.ptr, '\033'));
+	assert_null(strchr(b.ptr, '\007'));
+	assert_non_null(strstr(b.ptr, "files: src/a\\033[31mX\\033]0;T\\a.c 100%"));
+	omen_buf_clear(&b);
+	assert_int_equal(omen_eval_write_json(&b, &r), 0);
+	assert_non_null(strstr(b.ptr, "src/a\\u001b[31mX\\u001b]0;T\\u0007.c"));
+	r.risky = saved;
+	r.nrisky = nsaved;
+	omen_buf_free(&b);
+	omen_eval_result_free(&r);
+}
+
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
 		cmocka_unit_test(test_effort_hand_example),
+		cmocka_unit_test(test_riskiest_escaped),
 		cmocka_unit_test(test_effort_ties_smaller_first),
 		cmocka_unit_test(test_effort_extremes),
 		cmocka_unit_test(test_effort_curve),

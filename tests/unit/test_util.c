@@ -1,6 +1,6 @@
 /* Unit tests of src/util/: buffers, JSON string escaping, arena, typed
- * arrays, string map, CRC-32, hashing, RNG, atomic files, locks, cursor,
- * error state. References are named beside each check. */
+ * arrays, string map, CRC-32, hashing, RNG, atomic files and their target
+ * kinds, bounded reads, the text sanitiser, locks, cursor, error state. References are named beside each check. */
 #include <fcntl.h>
 #include <limits.h>
 #include <setjmp.h>
@@ -10,7 +10,9 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <errno.h>
 #include <sys/stat.h>
+#include <sys/sysmacros.h>
 #include <sys/wait.h>
 #include <unistd.h>
 #include <cmocka.h>
@@ -465,42 +467,146 @@ static void read_back(const char *path, const char *want)
 	omen_buf_free(&b);
 }
 
+/* Names in tmpdir that start with prefix (the temporaries a write left). */
+static int count_prefixed(const char *prefix)
+{
+	char cmd[512], line[64];
+	FILE *fp;
+	int n = 0;
+	snprintf(cmd, sizeof(cmd), "ls -a '%s' | grep -c '^%s' || true", tmpdir, prefix);
+	if (!(fp = popen(cmd, "r")))
+		return -1;
+	if (fgets(line, sizeof(line), fp))
+		n = atoi(line);
+	pclose(fp);
+	return n;
+}
+
 static void test_atomic_write(void **st)
 {
-	char path[256], tmp[300];
+	char path[256];
 	omen_atomic_file f;
 	(void)st;
 	snprintf(path, sizeof(path), "%s", path_in("model.bin"));
 	assert_int_equal(omen_file_write_atomic(path, "old", 3), 0);
 	read_back(path, "old");
-	/* the temporary file cannot be created (a directory holds its name):
-	 * the write fails and the old file is intact */
-	snprintf(tmp, sizeof(tmp), "%s.tmp.%ld", path, (long)getpid());
-	assert_int_equal(mkdir(tmp, 0755), 0);
-	assert_int_equal(omen_file_write_atomic(path, "new", 3), OMEN_EIO);
-	assert_non_null(strstr(omen_error_last(), "cannot write '"));
-	read_back(path, "old");
-	assert_int_equal(rmdir(tmp), 0);
+	assert_int_equal(count_prefixed("model.bin.tmp"), 0);
 	/* an aborted streaming write leaves the old file and no temporary */
 	assert_int_equal(omen_atomic_open(&f, path), 0);
+	assert_non_null(f.tmp);
+	assert_non_null(strstr(f.tmp, "model.bin.tmp."));
+	assert_int_equal(strlen(strstr(f.tmp, "model.bin.tmp.")), strlen("model.bin.tmp.") + 12);
 	fputs("partial", f.fp);
 	omen_atomic_abort(&f);
 	read_back(path, "old");
-	assert_int_equal(access(tmp, F_OK), -1);
-	/* the rename fails (the target is a non-empty directory): old intact */
-	{
-		char dpath[256];
-		snprintf(dpath, sizeof(dpath), "%s", path_in("adir"));
-		assert_int_equal(omen_mkdirs(path_in("adir/inner/x"), 0), 0);
-		assert_int_equal(omen_file_write_atomic(dpath, "x", 1), OMEN_EIO);
-		snprintf(tmp, sizeof(tmp), "%s.tmp.%ld", dpath, (long)getpid());
-		assert_int_equal(access(tmp, F_OK), -1);  /* temporary removed */
-	}
+	assert_int_equal(count_prefixed("model.bin.tmp"), 0);
 	/* a committed streaming write replaces it */
 	assert_int_equal(omen_atomic_open(&f, path), 0);
 	fputs("new", f.fp);
 	assert_int_equal(omen_atomic_commit(&f), 0);
 	read_back(path, "new");
+	assert_int_equal(count_prefixed("model.bin.tmp"), 0);
+}
+
+/* Issue 15, item 2: the temporary used to be <target>.tmp.<pid>, opened
+ * with O_CREAT|O_TRUNC: a symlink planted under that name was written
+ * through. Now the name is random and the open exclusive. */
+static void test_atomic_write_planted_link(void **st)
+{
+	char path[256], victim[256], link[300];
+	(void)st;
+	snprintf(path, sizeof(path), "%s", path_in("out.json"));
+	snprintf(victim, sizeof(victim), "%s", path_in("precious"));
+	assert_int_equal(omen_file_write_atomic(victim, "precious\n", 9), 0);
+	snprintf(link, sizeof(link), "%s.tmp.%ld", path, (long)getpid());
+	assert_int_equal(symlink(victim, link), 0);
+	assert_int_equal(omen_file_write_atomic(path, "{}\n", 3), 0);
+	read_back(victim, "precious\n");
+	read_back(path, "{}\n");
+	assert_int_equal(unlink(link), 0);
+}
+
+/* Issue 15, item 3: what is at the target decides how it is written. */
+static void test_atomic_write_target_kinds(void **st)
+{
+	char p[256], q[256];
+	struct stat sb;
+	int rfd;
+	(void)st;
+	/* a directory (even an empty one, which rename() would replace) */
+	snprintf(p, sizeof(p), "%s", path_in("emptydir"));
+	assert_int_equal(mkdir(p, 0755), 0);
+	assert_int_equal(omen_file_write_atomic(p, "x", 1), OMEN_EUSAGE);
+	assert_string_equal(strstr(omen_error_last(), "': "), "': it is a directory");
+	assert_int_equal(lstat(p, &sb), 0);
+	assert_true(S_ISDIR(sb.st_mode));
+	assert_int_equal(count_prefixed("emptydir.tmp"), 0);
+	/* a symbolic link to a regular file: refused, the link and its file kept */
+	snprintf(p, sizeof(p), "%s", path_in("linked"));
+	snprintf(q, sizeof(q), "%s", path_in("real"));
+	assert_int_equal(omen_file_write_atomic(q, "real", 4), 0);
+	assert_int_equal(symlink(q, p), 0);
+	assert_int_equal(omen_file_write_atomic(p, "x", 1), OMEN_EUSAGE);
+	assert_non_null(strstr(omen_error_last(), "is a symbolic link"));
+	assert_int_equal(lstat(p, &sb), 0);
+	assert_true(S_ISLNK(sb.st_mode));
+	read_back(q, "real");
+	/* a dangling link: refused too (writing would create a file elsewhere) */
+	snprintf(p, sizeof(p), "%s", path_in("dangling"));
+	assert_int_equal(symlink(path_in("nowhere"), p), 0);
+	assert_int_equal(omen_file_write_atomic(p, "x", 1), OMEN_EUSAGE);
+	assert_int_equal(access(path_in("nowhere"), F_OK), -1);
+	/* a link to a character device is written through, and stays a link
+	 * (as root to a private node with /dev/null's numbers, Linux char 1, 3) */
+	snprintf(q, sizeof(q), "%s", "/dev/null");
+	if (geteuid() == 0) {
+		snprintf(q, sizeof(q), "%s", path_in("null"));
+		assert_int_equal(mknod(q, S_IFCHR | 0666, makedev(1, 3)), 0);
+	}
+	snprintf(p, sizeof(p), "%s", path_in("to-null"));
+	assert_int_equal(symlink(q, p), 0);
+	assert_int_equal(omen_file_write_atomic(p, "x", 1), 0);
+	assert_int_equal(lstat(p, &sb), 0);
+	assert_true(S_ISLNK(sb.st_mode));
+	/* a FIFO is written in place: the reader gets the bytes */
+	snprintf(p, sizeof(p), "%s", path_in("fifo"));
+	assert_int_equal(mkfifo(p, 0644), 0);
+	assert_true((rfd = open(p, O_RDONLY | O_NONBLOCK)) >= 0);
+	assert_int_equal(omen_file_write_atomic(p, "through", 7), 0);
+	{
+		char got[16] = {0};
+		assert_int_equal(read(rfd, got, sizeof(got) - 1), 7);
+		assert_string_equal(got, "through");
+	}
+	close(rfd);
+	assert_int_equal(lstat(p, &sb), 0);
+	assert_true(S_ISFIFO(sb.st_mode));
+	assert_int_equal(count_prefixed("fifo.tmp"), 0);
+	/* a full device: written in place, so the write fails with ENOSPC (as
+	 * git's own writes to /dev/full do) and the device stays a device. As
+	 * root a private node with /dev/full's numbers (Linux: char 1, 7) is
+	 * used, so that a regression could never replace the real one. */
+	if (geteuid() == 0) {
+		snprintf(p, sizeof(p), "%s", path_in("full"));
+		if (mknod(p, S_IFCHR | 0666, makedev(1, 7)))
+			snprintf(p, sizeof(p), "%s", "/dev/full");
+	} else {
+		snprintf(p, sizeof(p), "%s", "/dev/full");
+	}
+	if (stat(p, &sb) == 0 && S_ISCHR(sb.st_mode)) {
+		assert_int_equal(omen_file_write_atomic(p, "x", 1), OMEN_EIO);
+		assert_non_null(strstr(omen_error_last(), strerror(ENOSPC)));
+		assert_int_equal(lstat(p, &sb), 0);
+		assert_true(S_ISCHR(sb.st_mode));
+	}
+	/* "-" is standard output for -o, a file named "-" elsewhere */
+	{
+		omen_atomic_file f;
+		assert_int_equal(omen_output_open(&f, "-"), 0);
+		assert_ptr_equal(f.fp, stdout);
+		assert_null(f.tmp);
+		assert_int_equal(omen_atomic_commit(&f), 0);
+	}
 }
 
 static void test_file_read_limits(void **st)
@@ -521,6 +627,124 @@ static void test_file_read_limits(void **st)
 	assert_non_null(b.ptr);
 	assert_int_equal(b.len, 0);
 	omen_buf_free(&b);
+}
+
+/* Issue 15, item 7: reads open regular files only and check the size
+ * before reading: a FIFO used to hang, /dev/zero to fill memory. */
+static void test_file_read_kinds(void **st)
+{
+	omen_buf b = OMEN_BUF_INIT;
+	char p[256];
+	int fd;
+	(void)st;
+	snprintf(p, sizeof(p), "%s", path_in("rfifo"));
+	assert_int_equal(mkfifo(p, 0644), 0);
+	assert_int_equal(omen_file_read(&b, p, 0), OMEN_EINVAL);   /* no writer: no wait */
+	assert_string_equal(strstr(omen_error_last(), "': "), "': not a regular file");
+	assert_int_equal(omen_file_read(&b, "/dev/zero", 1024), OMEN_EINVAL);
+	assert_int_equal(b.len, 0);
+	assert_int_equal(omen_file_read(&b, tmpdir, 0), OMEN_EINVAL);
+	assert_string_equal(strstr(omen_error_last(), "': "), "': it is a directory");
+	/* a sparse 8 GiB file is refused by its size, before any byte is read */
+	snprintf(p, sizeof(p), "%s", path_in("sparse"));
+	assert_true((fd = open(p, O_WRONLY | O_CREAT | O_TRUNC, 0644)) >= 0);
+	assert_int_equal(ftruncate(fd, (off_t)8 << 30), 0);
+	close(fd);
+	assert_int_equal(omen_file_read(&b, p, (size_t)1 << 20), OMEN_ELIMIT);
+	assert_non_null(strstr(omen_error_last(), "8589934592 bytes, over the limit of 1048576"));
+	assert_int_equal(omen_file_read(&b, p, 0), OMEN_ELIMIT);   /* OMEN_READ_MAX, 4 GiB */
+	assert_null(b.ptr);
+	unlink(p);
+	omen_buf_free(&b);
+}
+
+/* ---- text shown to a person ---------------------------------------------- */
+static const char *shown(const char *s, size_t n, size_t max)
+{
+	static omen_buf b = OMEN_BUF_INIT;
+	omen_buf_free(&b);
+	assert_int_equal(omen_buf_put_shown(&b, s, n, max), 0);
+	return b.ptr;
+}
+#define SHOWN(lit, max) shown(lit, sizeof(lit) - 1, max)
+
+static void test_shown_escapes(void **st)
+{
+	(void)st;
+	/* the path of issue 15, item 1; git 2.39 quotes it the same way inside
+	 * its double quotes (git ls-files, core.quotePath; tests/t/score_cli.sh
+	 * compares the two) */
+	assert_string_equal(SHOWN("src/a\033[31mX\033]0;T\007.c", 0), "src/a\\033[31mX\\033]0;T\\a.c");
+	assert_string_equal(SHOWN("a\tb\nc\rd\be\vf\fg\\h", 0), "a\\tb\\nc\\rd\\be\\vf\\fg\\\\h");
+	assert_string_equal(SHOWN("\001\037\177 ", 0), "\\001\\037\\177 ");
+	assert_string_equal(shown("a\0b", 3, 0), "a\\000b");
+	/* C1: U+009B (CSI) and U+0085 (NEL), byte by byte */
+	assert_string_equal(SHOWN("\xc2\x9b" "1m\xc2\x85", 0), "\\302\\2331m\\302\\205");
+	/* bidirectional overrides and isolates, U+2028 (UAX #9 list) */
+	assert_string_equal(SHOWN("x\xe2\x80\xaey\xe2\x81\xa6z\xe2\x80\xa8", 0),
+		"x\\342\\200\\256y\\342\\201\\246z\\342\\200\\250");
+	/* invalid UTF-8: a stray continuation, an overlong '/', a surrogate,
+	 * a cut sequence: every byte escaped */
+	assert_string_equal(SHOWN("\x80" "\xc0\xaf" "\xed\xa0\x80" "\xe2\x82", 0),
+		"\\200\\300\\257\\355\\240\\200\\342\\202");
+	/* valid text is copied */
+	assert_string_equal(SHOWN("caf\xc3\xa9 \xe2\x82\xac \xf0\x9f\x98\x80", 0),
+		"caf\xc3\xa9 \xe2\x82\xac \xf0\x9f\x98\x80");
+	assert_string_equal(shown(NULL, 5, 0), "");
+}
+
+static void test_shown_cuts(void **st)
+{
+	char msg[128];
+	const char *o;
+	size_t i;
+	(void)st;
+	/* issue 15, item 8: "x" then forty U+00E9 (82 bytes) in 72 bytes: the old
+	 * %.72s cut the 36th character in half. Now: "x", 34 whole characters,
+	 * "..." = 72 bytes. */
+	msg[0] = 'x';
+	for (i = 0; i < 40; i++)
+		memcpy(msg + 1 + 2 * i, "\xc3\xa9", 2);
+	msg[81] = '\0';
+	o = shown(msg, 81, 72);
+	assert_int_equal(strlen(o), 72);
+	assert_true(omen_utf8_valid(o, strlen(o)));
+	assert_memory_equal(o, msg, 69);
+	assert_string_equal(o + 69, "...");
+	o = shown(msg, 81, 60);   /* the hook's width: 1 + 2*28 = 57, then "..." */
+	assert_int_equal(strlen(o), 60);
+	assert_true(omen_utf8_valid(o, 60));
+	o = shown(msg, 81, 59);   /* odd: one byte short of a character */
+	assert_int_equal(strlen(o), 58);
+	assert_true(omen_utf8_valid(o, 58));
+	/* an escape is never cut: "ab\033" in 6 bytes is "ab..." (the escape
+	 * takes 4) */
+	assert_string_equal(SHOWN("ab\033cd", 6), "ab...");
+	assert_string_equal(SHOWN("ab\033", 6), "ab\\033");  /* fits exactly */
+	/* fits: no marker; tiny caps: cut with no marker */
+	assert_string_equal(SHOWN("short", 5), "short");
+	assert_string_equal(SHOWN("\xc3\xa9\xc3\xa9", 3), "...");
+	assert_string_equal(SHOWN("\xc3\xa9\xc3\xa9", 2), "\xc3\xa9");
+	assert_string_equal(SHOWN("\xc3\xa9\xc3\xa9", 1), "");
+	/* the cut helpers for text kept in fixed sizes */
+	assert_int_equal(omen_utf8_prefix("a\xc3\xa9z", 4, 2), 1);
+	assert_int_equal(omen_utf8_prefix("a\xc3\xa9z", 4, 3), 3);
+	assert_int_equal(omen_utf8_prefix("a\xc3\xa9z", 4, 9), 4);
+	assert_int_equal(omen_utf8_prefix("\xff\xfe", 2, 1), 1);   /* invalid bytes stand alone */
+	assert_int_equal(omen_utf8_trim("a\xc3", 2), 1);
+	assert_int_equal(omen_utf8_trim("a\xe2\x82", 3), 1);
+	assert_int_equal(omen_utf8_trim("a\xe2\x82\xac", 4), 4);
+	assert_int_equal(omen_utf8_trim("a\xf0\x9f\x98", 4), 1);
+	assert_int_equal(omen_utf8_trim("\x80\x80", 2), 2);      /* stray bytes: not a cut */
+	assert_int_equal(omen_utf8_trim("", 0), 0);
+	/* appended to what the buffer holds, the cap counts only the new bytes */
+	{
+		omen_buf b = OMEN_BUF_INIT;
+		assert_int_equal(omen_buf_puts(&b, "head: "), 0);
+		assert_int_equal(omen_buf_puts_shown(&b, "abcdefgh", 6), 0);
+		assert_string_equal(b.ptr, "head: abc...");
+		omen_buf_free(&b);
+	}
 }
 
 static void test_lock_contention(void **st)
@@ -713,7 +937,12 @@ int main(void)
 		cmocka_unit_test(test_rng_reference),
 		cmocka_unit_test(test_rng_determinism),
 		cmocka_unit_test(test_atomic_write),
+		cmocka_unit_test(test_atomic_write_planted_link),
+		cmocka_unit_test(test_atomic_write_target_kinds),
 		cmocka_unit_test(test_file_read_limits),
+		cmocka_unit_test(test_file_read_kinds),
+		cmocka_unit_test(test_shown_escapes),
+		cmocka_unit_test(test_shown_cuts),
 		cmocka_unit_test(test_lock_contention),
 		cmocka_unit_test(test_mkdirs),
 		cmocka_unit_test(test_cursor_bounds),
