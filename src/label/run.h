@@ -10,6 +10,7 @@
 #include "omen/label.h"
 #include "omen/util.h"
 #include "label/trace.h"
+#include "label/shard.h"
 
 #define MAX_NAMED 8
 
@@ -24,11 +25,8 @@ typedef struct {
 	uint8_t scope;         /* OMEN_FIXSCOPE_* of a fix */
 	uint8_t is_merge_listed; /* > 1 parent in the history: handled by do_merge */
 	uint8_t absent;        /* a file change with an absent blob was skipped (issue 12) */
+	uint8_t sflags;        /* LBL_SF_* of this rank, combined in a sharded pass (issue 13) */
 } lbl_commit;
-
-typedef struct {
-	uint32_t ind, fix, lines;
-} lbl_pair;
 
 /* One --dump-origins line of the fix being traced, written once the fix's
  * candidates are final (a minor candidate's lines are marked). */
@@ -73,6 +71,7 @@ typedef struct {
 	uint32_t *tips;         /* commits without children: held as if live */
 	size_t ntips;
 	char old_head[OMEN_OID_HEX + 1]; /* head of the previous labels */
+	lbl_shard *sh;          /* a path-sharded pass (issue 13), NULL: every path */
 } lbl_run;
 
 /* The walk index of commit id, -1 when the pass does not hold it. */
