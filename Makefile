@@ -128,7 +128,7 @@ ref: $(OMEN) $(REF_BIN)
 # named before the archive, so the archive's no-op one is not linked): one
 # compile instead of the whole `make MPI=1` build.
 MPI_TEST_BIN := $(BUILD)/mpi-test/git-omen
-$(BUILD)/mpi-test/mpi.o: src/util/mpi.c include/omen/mpi.h
+$(BUILD)/mpi-test/mpi.o: src/util/mpi.c $(wildcard include/omen/*.h)
 	@mkdir -p $(dir $@)
 	mpicc $(ALL_CFLAGS) -DOMEN_MPI -c $< -o $@
 $(MPI_TEST_BIN): $(CLI_OBJ) $(BUILD)/mpi-test/mpi.o $(BUILD)/libomen.a
