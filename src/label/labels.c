@@ -322,7 +322,9 @@ void omen_labels_rule(const omen_labels *l, int64_t *out_window_days, int64_t *o
 static size_t count_of(const cJSON *o, const char *k)
 {
 	const cJSON *v = o ? cJSON_GetObjectItemCaseSensitive(o, k) : NULL;
-	return cJSON_IsNumber(v) && v->valuedouble >= 0 ? (size_t)v->valuedouble : 0;
+	/* 0 to 2^53 only: a conversion out of range is undefined (C11 6.3.1.4) */
+	return cJSON_IsNumber(v) && v->valuedouble >= 0 && v->valuedouble <= 9007199254740992.0 ?
+		(size_t)v->valuedouble : 0;
 }
 
 static int read_at(omen_buf *b, FILE *fp, long off, size_t n, const char *path)
