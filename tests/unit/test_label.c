@@ -11,6 +11,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/stat.h>
 #include <unistd.h>
 #include <cmocka.h>
 #include "omen/error.h"
@@ -618,6 +619,14 @@ static void test_labels_brief_counts(void **state)
 	assert_true(br.inducing == 0);
 	assert_true(br.clean == 0);
 	assert_true(br.unknown == 7);
+	/* a FIFO is no label file: refused, not waited on (the alarm turns a
+	 * wait into a failed test; nothing is timed) */
+	assert_int_equal(mkfifo(path, 0600), 0);
+	alarm(60);
+	assert_int_equal(omen_labels_brief_read(&br, path, 10), OMEN_EINVAL);
+	assert_int_equal(omen_labels_file_horizon(path), 0);
+	alarm(0);
+	unlink(path);
 }
 
 static void test_labels_bad(void **state)
