@@ -106,8 +106,10 @@ enum {
 	OMEN_FILE_TOO_LARGE = 1 << 2, /* over max_blob_bytes: no hunks read */
 	OMEN_FILE_SYMLINK = 1 << 3,
 	OMEN_FILE_MODE_ONLY = 1 << 4,
-	OMEN_FILE_MISSING = 1 << 5    /* a side's blob is not in the repository and was
+	OMEN_FILE_MISSING = 1 << 5,   /* a side's blob is not in the repository and was
 	                                 skipped (omen.missingBlobs): 0 0, no hunks */
+	OMEN_FILE_FILTERED = 1 << 6   /* left out by walk_opts.path_filter: paths, blob ids
+	                                 and status only; no blob read, 0 0, no hunks */
 };
 
 typedef struct {
@@ -192,9 +194,18 @@ typedef struct {
 	int with_lines;           /* 0 = hunks and counts only, no line text */
 	int missing_blobs;        /* OMEN_MISSING_*; 0 = omen.missingBlobs, else by clone kind */
 	int no_prefetch;          /* 1: the caller ran omen_history_prefetch over these commits */
+	/* Path filter (issue 13, a sharded label pass): called for every changed
+	 * file after exact renames are paired (old_path NULL: added, new_path
+	 * NULL: deleted; pairing 1 when the change still has both an added and a
+	 * deleted file, the case where renames with edits are looked for); 0
+	 * lists the file with OMEN_FILE_FILTERED and reads none of its blobs. It
+	 * is called in walk order, file by file, so a walk with a filter diffs in
+	 * the calling thread (threads is ignored). */
+	int (*path_filter)(const char *old_path, const char *new_path, int pairing, void *ctx);
+	void *path_filter_ctx;
 } omen_walk_opts;
 
-#define OMEN_WALK_OPTS_INIT {NULL, 0, 0, 0, 0, 0, 0, 0, 0, 0, 1, 0, 0}
+#define OMEN_WALK_OPTS_INIT {NULL, 0, 0, 0, 0, 0, 0, 0, 0, 0, 1, 0, 0, NULL, NULL}
 
 /* ---- partial and incomplete clones (issue 12) ------------------------------
  * What a walk does with a blob that is not in the object database.

@@ -205,6 +205,16 @@ typedef struct {
 	int insertion_context;     /* -1 (init): omen.insertionContext, else 1 (rule on) */
 	int min_line_share;        /* -1 (init): omen.minLineShare, else 25 (percent); 0 = off */
 	int64_t horizon_days;      /* -1 (init): omen.horizon, else the default (below); 0 = none */
+	/* A path-sharded pass (issue 13, DEVELOPERS.md "MPI"): this is part
+	 * `part` of `parts` (parts <= 1: one process, every path). Each part
+	 * walks every commit but diffs and traces only the paths it owns; then
+	 * gather brings every part's bytes to part 0 (*all malloc'd there, the
+	 * parts' bytes in part order, counts[p] each; NULL elsewhere), and only
+	 * part 0 writes the labels. A sharded pass never reads or writes the
+	 * incremental state (<labels>.state): it is always a full pass. */
+	int part, parts;
+	int (*gather)(void *ctx, const void *send, size_t n, void **all, size_t *counts);
+	void *gather_ctx;
 } omen_label_opts;
 /* Default horizon in days (README "Labels that mark real repairs"): 365
  * when the labelled history spans at least 5 times that, else none. */
@@ -242,6 +252,7 @@ typedef struct {
 	size_t named_dropped;      /* candidates dropped because their fix named its commit */
 	size_t fixes_insertion;    /* add-only fixes traced through the lines around their insertions */
 	size_t minor_dropped;      /* candidates under min_line_share of their fix's traced lines */
+	int unsharded;             /* under mpirun, rank 0 labelled alone (issue 13: fix-wide rules on) */
 	size_t beyond_horizon;     /* commits traced only by fixes later than the horizon */
 	int64_t horizon_days;      /* the horizon used, 0 = none */
 	size_t noncode_patterns;   /* globs in the non-code list */

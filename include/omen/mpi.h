@@ -5,6 +5,7 @@
 #ifndef OMEN_MPI_H
 #define OMEN_MPI_H
 
+#include "omen/label.h"
 #include "omen/model.h"
 
 /* Starts MPI when mpirun (or a PMIx launcher) started this process; else
@@ -33,5 +34,11 @@ void omen_mpi_train_setup(omen_train_opts *o);
 /* The exchange itself (exposed for the unit test). */
 int omen_mpi_grad_exchange(void *ctx, float *const *grad, float *loss, int nchunks,
 	const omen_span *spans, size_t nspans);
+
+/* Path-sharded labelling: sets o's part, parts and gather for this rank
+ * (nothing for one process). The gather is MPI_Gather of the byte counts,
+ * then MPI_Gatherv of the bytes to rank 0. */
+void omen_mpi_label_setup(omen_label_opts *o);
+int omen_mpi_gather_bytes(void *ctx, const void *send, size_t n, void **all, size_t *counts);
 
 #endif

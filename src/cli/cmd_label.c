@@ -5,6 +5,7 @@
 #include "cli/cli.h"
 #include "cli/options.h"
 #include "omen/label.h"
+#include "omen/mpi.h"
 
 static const char *mode_name(int m)
 {
@@ -285,10 +286,24 @@ int cmd_label(int argc, char **argv)
 	if ((rc = parse_args(&o, &a, &revs, argc, argv)) >= 0)
 		return rc;
 	rc = EXIT_OK;
+	/* under mpirun each rank labels its shard of the paths, rank 0 writes
+	 * (issue 13, DEVELOPERS.md "MPI") */
+	omen_mpi_label_setup(&o);
+	if (o.parts > 1 && o.dump_origins) {
+		rc = omen_mpi_rank() ? EXIT_USAGE :
+			cli_usage("label", "--dump-origins runs as one process, not under mpirun");
+		goto done;
+	}
 	if (omen_repo_open(&repo, NULL) || omen_label_run(&s, repo, &o, a.labels)) {
 		rc = cli_fatal(NULL);
 		goto done;
 	}
+	if (omen_mpi_rank())
+		goto done; /* rank 0 speaks for the run */
+	if (s.unsharded)
+		cli_notice("rank 0 labelled alone: --min-line-share and the insertion context decide on "
+			"all of a fix's files at once (with --min-line-share 0 --no-insertion-context the "
+			"ranks share the paths)");
 	if (s.list_unmatched)
 		cli_warning("%zu of %zu fix list entries matched no commit", s.list_unmatched,
 			s.list_entries);

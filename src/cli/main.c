@@ -156,6 +156,7 @@ int cmd_version(int argc, char **argv)
 		return cli_usage("version", "'%s': version takes no arguments", argv[1]);
 	git_libgit2_version(&maj, &min, &rev);
 	printf("git-omen %s (libgit2 %d.%d.%d)\n", OMEN_VERSION, maj, min, rev);
+	cli_print_base_model();
 	return EXIT_OK;
 }
 
@@ -231,9 +232,10 @@ int main(int argc, char **argv)
 		if (!strcmp(argv[1], commands[i].name)) {
 			if (omen_mpi_init(&argc, &argv))
 				return cli_fatal(NULL);
-			if (omen_mpi_size() > 1 && commands[i].fn != cmd_train) {
+			if (omen_mpi_size() > 1 && commands[i].fn != cmd_train && commands[i].fn != cmd_label) {
 				rc = omen_mpi_rank() ? EXIT_USAGE : cli_usage(commands[i].name,
-					"runs as one process; under mpirun only 'git omen train' runs in parallel");
+					"runs as one process; under mpirun only 'git omen train' and 'git omen label' "
+					"run in parallel");
 				omen_mpi_finalize();
 				return rc;
 			}
@@ -241,8 +243,10 @@ int main(int argc, char **argv)
 			rc = commands[i].fn(argc - 1, argv + 1);
 			git_libgit2_shutdown();
 			/* a failed rank ends the whole run (the others may be waiting in
-			 * a collective); its error line is already written */
-			if (rc != EXIT_OK && omen_mpi_size() > 1)
+			 * a collective); its error line is already written. A usage error
+			 * comes from the command line, which every rank parses alike
+			 * before any collective: every rank returns it, none waits. */
+			if (rc != EXIT_OK && rc != EXIT_USAGE && omen_mpi_size() > 1)
 				omen_mpi_abort(rc);
 			omen_mpi_finalize();
 			return rc;

@@ -83,6 +83,8 @@ int hist_differ_init(hist_differ *d, git_repository *repo, const omen_walk_opts 
 	d->detect_renames = o ? o->detect_renames >= 0 : 1;
 	d->with_lines = o ? o->with_lines : 1;
 	d->missing = o && o->missing_blobs ? o->missing_blobs : OMEN_MISSING_ERROR;
+	d->filter = o ? o->path_filter : NULL;
+	d->filter_ctx = o ? o->path_filter_ctx : NULL;
 	if (git_repository_odb(&d->odb, repo) < 0)
 		return hist_git_fail("cannot open object database of", git_repository_path(repo));
 	git_diff_options_init(&d->dopts, GIT_DIFF_OPTIONS_VERSION);
@@ -455,6 +457,10 @@ static int diff_entry(hist_differ *d, omen_change *c, uint32_t fi, const hist_en
 		f->status = OMEN_FILE_MODIFIED;
 	if (ta == MODE_LINK || tb == MODE_LINK)
 		f->flags |= OMEN_FILE_SYMLINK;
+	if (d->filter && !d->filter(f->old_path, f->new_path, d->pairing, d->filter_ctx)) {
+		f->flags |= OMEN_FILE_FILTERED; /* another shard's file (issue 13) */
+		goto out;
+	}
 	if (ta == MODE_GITLINK || tb == MODE_GITLINK) {
 		/* git prints "Subproject commit <id>" lines: numstat counts one
 		 * line per gitlink side; no hunks are produced here. */
@@ -559,6 +565,14 @@ int hist_diff_entries(hist_differ *d, omen_change *c)
 		pair_renames(d);
 	for (size_t i = 0; i < d->nents; i++)
 		n += !d->ents[i].dropped;
+	if (d->filter) {
+		int add = 0, del = 0;
+		for (size_t i = 0; i < d->nents; i++) {
+			add |= !d->ents[i].dropped && !d->ents[i].old_mode;
+			del |= !d->ents[i].dropped && !d->ents[i].new_mode;
+		}
+		d->pairing = add && del;
+	}
 	if (OMEN_ARRAY_RESERVE(c->files, c->files_cap, n ? n : 1) < 0)
 		return OMEN_ENOMEM;
 	c->nfiles = 0;

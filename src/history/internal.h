@@ -27,6 +27,9 @@ typedef struct {
 	git_oid empty_blob;
 	int missing;            /* OMEN_MISSING_*: what an absent blob does */
 	size_t *skipped;        /* counter of skipped file changes (atomic), may be NULL */
+	int (*filter)(const char *old_path, const char *new_path, int pairing, void *ctx);
+	void *filter_ctx;       /* walk_opts.path_filter and its ctx */
+	int pairing;            /* the change has an added and a deleted file (for filter) */
 } hist_differ;
 
 int hist_differ_init(hist_differ *d, git_repository *repo, const omen_walk_opts *o);

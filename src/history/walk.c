@@ -700,6 +700,8 @@ int omen_history_walk_ids(omen_repo *r, const omen_walk_opts *o, const git_oid *
 		nth = 16;
 	if ((size_t)nth > n)
 		nth = (int)n;
+	if (o->path_filter)
+		nth = 1; /* the filter is called in walk order */
 	if (nth <= 1) {
 		hist_differ d;
 		omen_change c;

@@ -11,6 +11,7 @@
 #include <string.h>
 #include "omen/error.h"
 #include "label/trace.h"
+#include "label/shard.h"
 
 static uint64_t line_hash(const char *s, size_t n)
 {
@@ -119,7 +120,8 @@ static int apply_pair(lbl_tracer *t, omen_repo *r, const omen_file *df, const om
 	return lbl_apply_blobs(t, r, &f, ci);
 }
 
-int lbl_rename_pairs(lbl_tracer *t, omen_repo *r, const omen_change *c, uint32_t ci)
+int lbl_rename_pairs(lbl_tracer *t, omen_repo *r, const omen_change *c, uint32_t ci,
+	lbl_shard *sh)
 {
 	size_t i, j, nd = 0;
 	const unsigned skip = OMEN_FILE_BINARY | OMEN_FILE_TOO_LARGE | OMEN_FILE_SUBMODULE |
@@ -143,7 +145,7 @@ int lbl_rename_pairs(lbl_tracer *t, omen_repo *r, const omen_change *c, uint32_t
 		size_t an, best = 0;
 		long bj = -1;
 		if (af->status != OMEN_FILE_ADDED || (af->flags & skip) || !af->added ||
-		    lbl_tracer_get(t, af->new_path, &af->new_blob, NULL))
+		    (!sh && lbl_tracer_get(t, af->new_path, &af->new_blob, NULL)))
 			continue;
 		if (!(ah = file_hashes(c, af, '+', &an))) {
 			e = omen_error_set(OMEN_ENOMEM, "out of memory");
@@ -153,7 +155,7 @@ int lbl_rename_pairs(lbl_tracer *t, omen_repo *r, const omen_change *c, uint32_t
 			const omen_file *df = &c->files[j];
 			size_t k, big;
 			if (df->status != OMEN_FILE_DELETED || (df->flags & skip) || used[j] || !df->deleted ||
-			    !lbl_tracer_get(t, df->old_path, &df->old_blob, NULL))
+			    (!sh && !lbl_tracer_get(t, df->old_path, &df->old_blob, NULL)))
 				continue;
 			if (!dh[j] && !(dh[j] = file_hashes(c, df, '-', &dn[j]))) {
 				free(ah);
@@ -169,8 +171,11 @@ int lbl_rename_pairs(lbl_tracer *t, omen_repo *r, const omen_change *c, uint32_t
 		}
 		free(ah);
 		if (bj >= 0) {
+			int own = sh ? lbl_shard_owner(sh, c->files[bj].old_path) : 0;
 			used[bj] = 1;
-			if ((e = apply_pair(t, r, &c->files[bj], af, ci)))
+			if (sh && (e = lbl_shard_set(sh, af->new_path, own)))
+				goto out;
+			if ((!sh || own == sh->part) && (e = apply_pair(t, r, &c->files[bj], af, ci)))
 				goto out;
 		}
 	}

@@ -20,6 +20,7 @@
 #include "omen/label.h"
 #include "label/internal.h"
 #include "label/trace.h"
+#include "label/shard.h"
 
 #define MAX_NAMED 8
 
@@ -34,11 +35,8 @@ typedef struct {
 	uint8_t scope;         /* OMEN_FIXSCOPE_* of a fix */
 	uint8_t is_merge_listed; /* > 1 parent in the history: handled by do_merge */
 	uint8_t absent;        /* a file change with an absent blob was skipped (issue 12) */
+	uint8_t sflags;        /* LBL_SF_* of this rank, combined in a sharded pass (issue 13) */
 } lbl_commit;
-
-typedef struct {
-	uint32_t ind, fix, lines;
-} lbl_pair;
 
 /* One --dump-origins line of the fix being traced, written once the fix's
  * candidates are final (a minor candidate's lines are marked). */
@@ -83,6 +81,7 @@ typedef struct {
 	uint32_t *tips;         /* commits without children: held as if live */
 	size_t ntips;
 	char old_head[OMEN_OID_HEX + 1]; /* head of the previous labels */
+	lbl_shard *sh;          /* a path-sharded pass (issue 13), NULL: every path */
 } lbl_run;
 
 void omen_label_opts_init(omen_label_opts *o)
@@ -414,7 +413,8 @@ static int do_merge(lbl_run *R, uint32_t mi)
 		goto out;
 	for (i = 0; i < files.nfiles; i++) {
 		omen_file *f = &files.files[i];
-		if (f->new_path && !lbl_tracer_get(R->tr, f->new_path, &f->new_blob, NULL)) {
+		if (f->new_path && (!R->sh || lbl_shard_mine(R->sh, f)) &&
+		    !lbl_tracer_get(R->tr, f->new_path, &f->new_blob, NULL)) {
 			uint32_t nold = 0;
 			if (f->old_path && lbl_tracer_get(R->tr, f->old_path, &f->old_blob, &nold))
 				f->old_nlines = nold;
@@ -458,9 +458,14 @@ static int walk_cb(const omen_change *c, void *payload)
 	uint32_t named_at[MAX_NAMED];
 	int nnamed = 0, nat = 0, e, i;
 	unsigned by;
+	const omen_change *v = c; /* this rank's files (every file without sharding) */
 	omen_fix_info info;
 	if (ci < 0)
 		return omen_error_set(OMEN_ERROR, "walk gave commit '%s' that the listing did not", c->commit.hex);
+	if (R->sh && R->sh->err)
+		return omen_error_set(OMEN_ENOMEM, "out of memory");
+	if (R->sh && !(v = lbl_shard_view(R->sh, c)))
+		return OMEN_ENOMEM;
 	if ((e = catch_up(R, (size_t)ci)))
 		return e;
 	cm = &R->cs[ci];
@@ -472,12 +477,12 @@ static int walk_cb(const omen_change *c, void *payload)
 	cm->walked = 1;
 	if (cm->boundary)
 		R->sum->shallow = 1;
-	for (i = 0; i < (int)c->nfiles; i++)
-		if (c->files[i].flags & OMEN_FILE_MISSING) {
+	for (i = 0; i < (int)v->nfiles; i++)
+		if (v->files[i].flags & OMEN_FILE_MISSING) {
 			cm->absent = 1;
 			R->sum->files_absent++;
 		}
-	R->sum->file_changes += c->nfiles;
+	R->sum->file_changes += v->nfiles;
 	memset(&info, 0, sizeof(info));
 	by = cm->merge ? 0 : omen_fix_classify_ex(R->fr, &c->commit, named, MAX_NAMED, &nnamed, &info);
 	if (by & OMEN_FIXBY_NAMED) {
@@ -528,7 +533,7 @@ static int walk_cb(const omen_change *c, void *payload)
 		R->nc_file = NULL;
 		R->ndent = R->nminor = 0;
 		if (!cm->skipped || R->dump)
-			if ((e = lbl_tracer_trace(R->tr, c, line_cb, R)))
+			if ((e = lbl_tracer_trace(R->tr, v, line_cb, R)))
 				return e;
 		R->sum->fixes_skipped_large += cm->scope == OMEN_FIXSCOPE_LARGE;
 		R->sum->fixes_cosmetic += cm->scope == OMEN_FIXSCOPE_COSMETIC;
@@ -578,6 +583,10 @@ static int walk_cb(const omen_change *c, void *payload)
 				if (hit) {
 					R->cand[keep] = R->cand[k];
 					R->cand_lines[keep++] = R->cand_lines[k];
+				} else if (R->sh) { /* counted once on rank 0 (gather_shards) */
+					if (OMEN_ARRAY_RESERVE(R->pairs, R->pairs_cap, R->npairs + 1))
+						return omen_error_set(OMEN_ENOMEM, "out of memory");
+					R->pairs[R->npairs++] = (lbl_pair){R->cand[k], (uint32_t)ci, LBL_PAIR_DROPPED};
 				}
 			}
 			R->sum->named_dropped += R->ncand - keep;
@@ -585,6 +594,8 @@ static int walk_cb(const omen_change *c, void *payload)
 		}
 		if (R->ncand)
 			R->sum->fixes_traced++;
+		cm->sflags |= (R->ncand ? LBL_SF_CAND : 0) |
+			(R->fix_lines_total != before ? LBL_SF_LINES : 0);
 		for (k = 0; k < R->ncand; k++) {
 			uint32_t t = R->cand[k];
 			R->cs[t].traced += R->cand_lines[k];
@@ -596,9 +607,11 @@ static int walk_cb(const omen_change *c, void *payload)
 		if (R->dump)
 			flush_dump(R, c->commit.hex);
 	}
-	if (R->o->follow_renames && (e = lbl_rename_pairs(R->tr, R->repo, c, (uint32_t)ci)))
+	if (R->o->follow_renames && (e = lbl_rename_pairs(R->tr, R->repo, c, (uint32_t)ci, R->sh)))
 		return e;
-	if ((e = lbl_tracer_apply(R->tr, c, (uint32_t)ci)))
+	if (R->sh && !(v = lbl_shard_view(R->sh, c))) /* renames with edits moved owners */
+		return OMEN_ENOMEM;
+	if ((e = lbl_tracer_apply(R->tr, v, (uint32_t)ci)))
 		return e;
 	return ref_step(R, c, ci, cm);
 }
@@ -1204,6 +1217,65 @@ static int latency(lbl_run *R)
 	return 0;
 }
 
+/* ---- a path-sharded pass (issue 13) -------------------------------------------
+ * Every rank has the same commits, fixes, named links and skipped fixes;
+ * what depends on the files is this rank's share: traced lines per commit,
+ * the absent-blob and per-fix flags, the traced pairs and five counters.
+ * Rank 0 adds the other ranks' shares to its own (label/shard.c) and counts
+ * the per-fix outcomes again from the combined flags, as walk_cb does. */
+static int gather_shards(lbl_run *R)
+{
+	omen_label_summary *s = R->sum;
+	uint64_t cnt[5] = {s->traced_lines, s->untraced_missing, s->files_absent, s->file_changes,
+		s->noncode_lines};
+	uint32_t *traced = malloc((R->n ? R->n : 1) * sizeof(*traced));
+	uint8_t *flags = malloc(R->n ? R->n : 1);
+	size_t i, k;
+	int e;
+	if (!traced || !flags) {
+		free(traced);
+		free(flags);
+		return omen_error_set(OMEN_ENOMEM, "out of memory");
+	}
+	for (i = 0; i < R->n; i++) {
+		traced[i] = R->cs[i].traced;
+		flags[i] = (uint8_t)(R->cs[i].sflags | (R->cs[i].absent ? LBL_SF_ABSENT : 0));
+	}
+	e = lbl_shard_gather(R->sh, R->o, traced, flags, R->n, &R->pairs, &R->npairs, &R->pairs_cap,
+		cnt, 5);
+	if (!e && R->sh->part == 0) {
+		s->traced_lines = (size_t)cnt[0];
+		s->untraced_missing = (size_t)cnt[1];
+		s->files_absent = (size_t)cnt[2];
+		s->file_changes = (size_t)cnt[3];
+		s->noncode_lines = (size_t)cnt[4];
+		s->fixes_traced = s->fixes_add_only = s->fixes_absent = s->named_dropped = 0;
+		for (i = 0, k = 0; i < R->npairs; i++) {
+			if (R->pairs[i].lines == LBL_PAIR_DROPPED)
+				s->named_dropped++;
+			else
+				R->pairs[k++] = R->pairs[i];
+		}
+		R->npairs = k;
+		for (i = 0; i < R->n; i++) {
+			lbl_commit *c = &R->cs[i];
+			unsigned f = flags[i];
+			c->traced = traced[i];
+			c->absent = (f & LBL_SF_ABSENT) != 0;
+			if (!c->is_fix || c->skipped)
+				continue;
+			s->fixes_traced += (f & LBL_SF_CAND) != 0;
+			if (!(f & LBL_SF_LINES) && (f & LBL_SF_ABSENT) && !(f & LBL_SF_CAND))
+				s->fixes_absent++;
+			else if (!(f & LBL_SF_LINES))
+				s->fixes_add_only += !(f & LBL_SF_CAND);
+		}
+	}
+	free(traced);
+	free(flags);
+	return e;
+}
+
 /* Settings of the issue 10 rules: an option overrides its config key. */
 static int read_rule_config(omen_label_opts *o, omen_repo *r, char **cos, char **nc)
 {
@@ -1300,6 +1372,7 @@ int omen_label_run(omen_label_summary *sum, omen_repo *r, const omen_label_opts 
 	omen_label_opts o = *opts;
 	omen_walk_opts wo = OMEN_WALK_OPTS_INIT;
 	lbl_run R;
+	lbl_shard shard;
 	lbl_trace_opts to;
 	char *cfg_pattern = NULL, *cfg_list = NULL, *path = NULL;
 	char *cfg_cosmetic = NULL, *cfg_noncode = NULL;
@@ -1315,9 +1388,19 @@ int omen_label_run(omen_label_summary *sum, omen_repo *r, const omen_label_opts 
 
 	memset(sum, 0, sizeof(*sum));
 	memset(&R, 0, sizeof(R));
+	memset(&shard, 0, sizeof(shard));
 	R.repo = r;
 	R.o = &o;
 	R.sum = sum;
+	if (o.parts > 1) {
+		if (o.part < 0 || o.part >= o.parts || o.dump_origins) {
+			e = omen_error_set(OMEN_EUSAGE, "a sharded label pass takes a part below its parts "
+				"and no origin dump");
+			goto out;
+		}
+		lbl_shard_init(&shard, o.part, o.parts, o.follow_renames);
+		R.sh = &shard;
+	}
 	if (!o.fix_pattern && (e = omen_config_string(&cfg_pattern, r, "omen.fixPattern")))
 		goto out;
 	if (!o.fix_list && (e = omen_config_string(&cfg_list, r, "omen.fixList")))
@@ -1342,6 +1425,16 @@ int omen_label_run(omen_label_summary *sum, omen_repo *r, const omen_label_opts 
 	}
 	if ((e = read_rule_config(&o, r, &cfg_cosmetic, &cfg_noncode)))
 		goto out;
+	if (R.sh && (o.min_line_share > 0 || o.insertion_context)) {
+		/* these issue 10 rules decide on all of a fix's files at once (the
+		 * share of its traced lines; insertions when no file had a deleted
+		 * line), which no rank sees alone: rank 0 labels as one process */
+		sum->unsharded = 1;
+		lbl_shard_free(&shard);
+		R.sh = NULL;
+		if (o.part != 0)
+			goto out;
+	}
 	pattern = o.fix_pattern ? o.fix_pattern : cfg_pattern;
 	list = o.fix_list ? o.fix_list : cfg_list;
 	fo.pattern = pattern;
@@ -1399,7 +1492,7 @@ int omen_label_run(omen_label_summary *sum, omen_repo *r, const omen_label_opts 
 	}
 	/* with a fix list the old commits would need classifying again (the
 	 * list may have changed): no state reuse then */
-	if (o.incremental && sum->mode == OMEN_LABEL_MODE_GREW && !list) {
+	if (o.incremental && sum->mode == OMEN_LABEL_MODE_GREW && !list && !R.sh) {
 		if ((e = omen_buf_printf(&sp, "%s.state", path)))
 			goto out;
 		if ((e = load_state(&R, sp.ptr, ob.ptr)) < 0)
@@ -1463,13 +1556,19 @@ int omen_label_run(omen_label_summary *sum, omen_repo *r, const omen_label_opts 
 	}
 	omen_progress_start(&R.prog, "label", R.n);
 	wo.include_merges = 0; /* merges: do_merge */
+	if (R.sh) {
+		wo.path_filter = lbl_shard_filter;
+		wo.path_filter_ctx = R.sh;
+	}
 	e = omen_history_walk(r, &wo, walk_cb, &R);
 	sum->blobs = *omen_repo_blob_stats(r);
 	if (!e)
 		e = catch_up(&R, R.n);
 	omen_progress_end(&R.prog);
-	if (e)
-		goto out;
+	if (!e && R.sh)
+		e = gather_shards(&R);
+	if (e || (R.sh && R.sh->part))
+		goto out; /* only rank 0 writes */
 	sum->list_unmatched = omen_fixrules_unmatched(R.fr);
 	sum->state_peak_bytes = lbl_tracer_peak_bytes(R.tr) + R.n * (sizeof(*R.cs) + sizeof(*R.ids)) +
 		R.pairs_cap * sizeof(*R.pairs);
@@ -1480,7 +1579,8 @@ int omen_label_run(omen_label_summary *sum, omen_repo *r, const omen_label_opts 
 	if ((e = write_labels(&R, path, ob.ptr, head)))
 		goto out;
 	omen_buf_clear(&sp);
-	if ((e = omen_buf_printf(&sp, "%s.state", path)) || (e = save_state(&R, sp.ptr, ob.ptr, head)))
+	if (!R.sh && ((e = omen_buf_printf(&sp, "%s.state", path)) ||
+	    (e = save_state(&R, sp.ptr, ob.ptr, head))))
 		goto out;
 out:
 	if (R.dump && !e)
@@ -1490,6 +1590,7 @@ out:
 	sum->seconds = omen_now() - t0;
 	omen_fixrules_free(R.fr);
 	lbl_tracer_free(R.tr);
+	lbl_shard_free(&shard);
 	omen_strmap_free(&R.index, NULL);
 	free(R.ids);
 	free(R.cs);

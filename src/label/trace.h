@@ -59,8 +59,14 @@ int lbl_tracer_trace(lbl_tracer *t, const omen_change *c, lbl_line_cb cb, void *
 int lbl_tracer_apply(lbl_tracer *t, const omen_change *c, uint32_t ci);
 /* Renames with edits (rename.c): pairs added files without state with
  * deleted files of c at >= 50% line similarity and gives the new versions
- * the old origins through a -U0 diff of the two blobs. Before apply. */
-int lbl_rename_pairs(lbl_tracer *t, omen_repo *r, const omen_change *c, uint32_t ci);
+ * the old origins through a -U0 diff of the two blobs. Before apply.
+ * sh (NULL: one process) is a sharded pass (label/shard.h): every rank
+ * makes the same pairs (an added file counts as without state, a deleted
+ * one as with state), the added path takes the deleted path's owner, and
+ * only that owner builds the new version. */
+typedef struct lbl_shard lbl_shard;
+int lbl_rename_pairs(lbl_tracer *t, omen_repo *r, const omen_change *c, uint32_t ci,
+	lbl_shard *sh);
 
 /* Diffs f's two blobs -U0 with omen_history_diff_blobs (old side may be
  * absent) and builds f's new version from it; binary blobs, blobs over

@@ -8,6 +8,7 @@
 #include <signal.h>
 #include <stdio.h>
 #include <unistd.h>
+#include <sys/resource.h>
 #include "omen/error.h"
 #include "omen/mpi.h"
 
@@ -19,8 +20,8 @@ static float *g_buf;
 static size_t g_cap;
 /* OMEN_MPI_LOG=1: each rank writes one line at the end (exchanges, bytes,
  * time in them), the figures of tests/bench/bench_mpi.sh */
-static size_t g_nx, g_xfloats;
-static double g_xsec, g_t0;
+static size_t g_nx, g_xfloats, g_ngather, g_gbytes;
+static double g_xsec, g_gsec, g_t0;
 
 /* Set by mpirun in every process it starts; a plain run has neither. */
 static int launched_by_mpirun(void)
@@ -80,10 +81,19 @@ void omen_mpi_finalize(void)
 	const char *lg = getenv("OMEN_MPI_LOG");
 	if (!g_on)
 		return;
-	if (lg && *lg && strcmp(lg, "0"))
-		fprintf(stderr, "git omen: notice: rank %d of %d: %zu gradient exchanges of %.1f MiB in "
-			"all, %.3f s in MPI_Allreduce of %.3f s since MPI_Init\n", g_rank, g_size, g_nx,
-			(double)g_xfloats * sizeof(float) / 1048576.0, g_xsec, MPI_Wtime() - g_t0);
+	if (lg && *lg && strcmp(lg, "0")) {
+		struct rusage ru;
+		long rss = getrusage(RUSAGE_SELF, &ru) ? 0 : ru.ru_maxrss; /* kB on Linux */
+		if (g_ngather)
+			fprintf(stderr, "git omen: notice: rank %d of %d: label results of %.2f MiB gathered, "
+				"%.3f s in MPI_Gather(v) of %.3f s since MPI_Init, peak RSS %.1f MB\n", g_rank,
+				g_size, (double)g_gbytes / 1048576.0, g_gsec, MPI_Wtime() - g_t0, rss / 1024.0);
+		else
+			fprintf(stderr, "git omen: notice: rank %d of %d: %zu gradient exchanges of %.1f MiB in "
+				"all, %.3f s in MPI_Allreduce of %.3f s since MPI_Init, peak RSS %.1f MB\n", g_rank,
+				g_size, g_nx, (double)g_xfloats * sizeof(float) / 1048576.0, g_xsec,
+				MPI_Wtime() - g_t0, rss / 1024.0);
+	}
 	free(g_buf);
 	g_buf = NULL;
 	g_cap = 0;
@@ -116,8 +126,9 @@ int omen_mpi_bcast_int(int *v)
 }
 
 /* A test hook, documented in DEVELOPERS.md "MPI": OMEN_MPI_KILL_RANK=<r>
- * makes rank r die (SIGKILL) at its first gradient exchange, as a node
- * lost in the middle of a run. */
+ * makes rank r die (SIGKILL) at its first gradient exchange (train) or at
+ * the gather of its label results (label), as a node lost in the middle of
+ * a run. */
 static void maybe_die(void)
 {
 	const char *k = getenv("OMEN_MPI_KILL_RANK");
@@ -181,6 +192,71 @@ int omen_mpi_grad_exchange(void *ctx, float *const *grad, float *loss, int nchun
 	return 0;
 }
 
+int omen_mpi_gather_bytes(void *ctx, const void *send, size_t n, void **all, size_t *counts)
+{
+	int *cnt = NULL, *disp = NULL, me, r, rc = 0;
+	char *buf = NULL;
+	long long tot = 0;
+	double t;
+	(void)ctx;
+	*all = NULL;
+	maybe_die();
+	if (n > (size_t)2147483647)
+		return omen_error_set(OMEN_ELIMIT, "rank %d: %zu bytes of label results are over MPI's "
+			"count limit", g_rank, n);
+	me = (int)n;
+	if (!(cnt = calloc((size_t)g_size, sizeof(*cnt))) || !(disp = calloc((size_t)g_size, sizeof(*disp)))) {
+		rc = omen_error_set(OMEN_ENOMEM, "out of memory");
+		goto out;
+	}
+	t = MPI_Wtime();
+	if (MPI_Gather(&me, 1, MPI_INT, cnt, 1, MPI_INT, 0, MPI_COMM_WORLD) != MPI_SUCCESS) {
+		rc = omen_error_set(OMEN_ERROR, "rank %d: MPI_Gather of the label result sizes failed", g_rank);
+		goto out;
+	}
+	if (g_rank == 0) {
+		for (r = 0; r < g_size; r++) {
+			disp[r] = (int)tot;
+			tot += cnt[r];
+			counts[r] = (size_t)cnt[r];
+		}
+		if (tot > 2147483647LL) {
+			/* the error line, then main()'s MPI_Abort ends the others */
+			rc = omen_error_set(OMEN_ELIMIT, "rank 0: %lld bytes of label results are over MPI's "
+				"count limit", tot);
+			goto out;
+		}
+		if (!(buf = malloc(tot ? (size_t)tot : 1))) {
+			rc = omen_error_set(OMEN_ENOMEM, "out of memory");
+			goto out;
+		}
+	}
+	if (MPI_Gatherv(send, me, MPI_BYTE, buf, cnt, disp, MPI_BYTE, 0, MPI_COMM_WORLD) != MPI_SUCCESS) {
+		rc = omen_error_set(OMEN_ERROR, "rank %d: MPI_Gatherv of the label results failed", g_rank);
+		goto out;
+	}
+	g_gsec += MPI_Wtime() - t;
+	g_ngather++;
+	g_gbytes += n;
+	*all = buf;
+	buf = NULL;
+out:
+	free(buf);
+	free(cnt);
+	free(disp);
+	return rc;
+}
+
+void omen_mpi_label_setup(omen_label_opts *o)
+{
+	if (!g_on || g_size < 2)
+		return;
+	o->part = g_rank;
+	o->parts = g_size;
+	o->gather = omen_mpi_gather_bytes;
+	o->gather_ctx = NULL;
+}
+
 void omen_mpi_train_setup(omen_train_opts *o)
 {
 	if (!g_on || g_size < 2)
@@ -207,6 +283,18 @@ void omen_mpi_abort(int code) { (void)code; }
 int omen_mpi_barrier(void) { return 0; }
 int omen_mpi_bcast_int(int *v) { (void)v; return 0; }
 void omen_mpi_train_setup(omen_train_opts *o) { (void)o; }
+void omen_mpi_label_setup(omen_label_opts *o) { (void)o; }
+int omen_mpi_gather_bytes(void *ctx, const void *send, size_t n, void **all, size_t *counts)
+{
+	(void)ctx;
+	*all = NULL;
+	if (n && !(*all = malloc(n)))
+		return omen_error_set(OMEN_ENOMEM, "out of memory");
+	if (n)
+		memcpy(*all, send, n);
+	counts[0] = n;
+	return 0;
+}
 int omen_mpi_grad_exchange(void *ctx, float *const *grad, float *loss, int nchunks,
 	const omen_span *spans, size_t nspans)
 {

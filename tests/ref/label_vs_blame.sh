@@ -15,7 +15,9 @@ for b in "$ROOT"/fixtures/label/*.sh; do
 	n=$(basename "$b" .sh)
 	case "$n" in lib|check) continue;; esac
 	sh "$b" "fx-$n" >/dev/null 2>&1
-	(cd "fx-$n" && "$OMEN" label --window 0 --dump-origins ../"$n".dump >/dev/null)
+	# --closing-refs: this compares tracing, not fix detection, and the
+	# issuedate fixture's fix is a "closes #7" message (issue 10's rule)
+	(cd "fx-$n" && "$OMEN" label --window 0 --closing-refs --dump-origins ../"$n".dump >/dev/null)
 	echo "fixture $n:"
 	"$py" "$lib/blame_compare.py" "fx-$n" "$n".dump --strict
 done

@@ -341,6 +341,75 @@ static void test_file_records(void **state)
 	omen_repo_free(r);
 }
 
+/* ---- the path filter (issue 13, a sharded label pass) --------------------- */
+typedef struct {
+	char rows[2][64][160];   /* [0] unfiltered, [1] filtered: one row per file */
+	size_t n[2];
+	int pass;
+	int saw_rename, saw_pairing, calls;
+} filt_state;
+
+static int keep_not_lib(const char *old_path, const char *new_path, int pairing, void *ctx)
+{
+	filt_state *s = ctx;
+	const char *p = new_path ? new_path : old_path;
+	s->calls++;
+	if (old_path && new_path && !strcmp(old_path, "lib/util.py") && !strcmp(new_path, "lib/helpers.py"))
+		s->saw_rename = 1;
+	if (pairing && !old_path && new_path && !strcmp(new_path, "lib/mathx.py"))
+		s->saw_pairing = 1;
+	return strncmp(p, "lib/", 4) != 0;
+}
+
+static int filt_cb(const omen_change *c, void *payload)
+{
+	filt_state *s = payload;
+	for (size_t i = 0; i < c->nfiles; i++) {
+		const omen_file *f = &c->files[i];
+		assert_true(s->n[s->pass] < 64);
+		snprintf(s->rows[s->pass][s->n[s->pass]++], 160, "%.8s %s %c %u %u %u", c->commit.hex,
+			omen_file_path(f), (char)f->status, f->added, f->deleted, f->nhunks);
+		if (s->pass && (f->flags & OMEN_FILE_FILTERED)) {
+			assert_int_equal(strncmp(omen_file_path(f), "lib/", 4), 0);
+			assert_int_equal(f->added + f->deleted + f->nhunks, 0);
+		} else if (s->pass) {
+			assert_int_not_equal(strncmp(omen_file_path(f), "lib/", 4), 0);
+		}
+	}
+	return 0;
+}
+
+static void test_path_filter(void **state)
+{
+	omen_repo *r = open_fx("history");
+	omen_walk_opts o = OMEN_WALK_OPTS_INIT;
+	filt_state *s = calloc(1, sizeof(*s));
+	size_t i, lib = 0;
+	(void)state;
+	assert_non_null(s);
+	assert_int_equal(omen_history_walk(r, &o, filt_cb, s), 0);
+	s->pass = 1;
+	o.path_filter = keep_not_lib;
+	o.path_filter_ctx = s;
+	o.threads = 2; /* ignored with a filter: the calls come in walk order */
+	assert_int_equal(omen_history_walk(r, &o, filt_cb, s), 0);
+	/* every file is still listed, in the same order; lib/ files without counts */
+	assert_int_equal(s->n[0], s->n[1]);
+	assert_int_equal((size_t)s->calls, s->n[1]);
+	for (i = 0; i < s->n[0]; i++) {
+		if (strstr(s->rows[0][i], " lib/")) {
+			lib++;
+			continue;
+		}
+		assert_string_equal(s->rows[0][i], s->rows[1][i]);
+	}
+	assert_true(lib >= 3);
+	assert_true(s->saw_rename);  /* exact renames are paired before the filter */
+	assert_true(s->saw_pairing); /* a change with both an added and a deleted file */
+	free(s);
+	omen_repo_free(r);
+}
+
 /* ---- order, ranges, single commits --------------------------------------- */
 static void test_order_and_ranges(void **state)
 {
@@ -905,6 +974,7 @@ int main(void)
 	const struct CMUnitTest tests[] = {
 		cmocka_unit_test(test_fixtures_vs_git),
 		cmocka_unit_test(test_file_records),
+		cmocka_unit_test(test_path_filter),
 		cmocka_unit_test(test_order_and_ranges),
 		cmocka_unit_test(test_threads_and_stop),
 		cmocka_unit_test(test_shallow),
