@@ -46,6 +46,7 @@ FUZZ_REPLAY := $(FUZZ_SRC:tests/fuzz/%.c=$(BUILD)/fuzz/%-replay)
 FUZZ_LF  := $(FUZZ_SRC:tests/fuzz/%.c=$(BUILD)/fuzz/%-libfuzzer)
 MANS     := $(sort $(wildcard man/*.1))
 OMEN     := $(BUILD)/git-omen
+BASE_MODEL ?= fixtures/base-model/base.omen
 
 .PHONY: all deps deps-test check unit shell layers mpi-check ref fuzz-replay manlint asan valgrind \
 	bench base-model fuzz demo install uninstall clean
@@ -66,6 +67,9 @@ $(BUILD)/%.o: %.c
 # at run time inside the code, so the objects still run on any x86-64);
 # -fno-math-errno lets sqrtf vectorise (no value changes: errno only).
 $(BUILD)/src/nn/%.o: ALL_CFLAGS += -O3 -fno-math-errno
+# where `make install` puts the base model (issue 11); the binary also looks
+# beside itself (<bindir>/../share/git-omen), so a DESTDIR install finds it.
+$(BUILD)/src/model/base.o: ALL_CFLAGS += -DOMEN_DATADIR='"$(PREFIX)/share/git-omen"'
 
 # The shims that `hook install` writes are hooks/pre-push and hooks/post-merge
 # themselves (the files `make install` copies too), turned into the C strings
@@ -238,6 +242,7 @@ install: all
 	install -m 755 $(OMEN) $(DESTDIR)$(PREFIX)/bin/git-omen
 	install -m 644 $(MANS) $(DESTDIR)$(PREFIX)/share/man/man1/
 	install -m 755 hooks/pre-push $(DESTDIR)$(PREFIX)/share/git-omen/hooks/pre-push
+	install -m 644 $(BASE_MODEL) $(DESTDIR)$(PREFIX)/share/git-omen/base.omen
 	install -m 755 hooks/post-merge $(DESTDIR)$(PREFIX)/share/git-omen/hooks/post-merge
 	@if [ -f hooks/git-omen.bash ]; then install -m 644 hooks/git-omen.bash \
 		$(DESTDIR)$(PREFIX)/share/bash-completion/completions/git-omen; fi

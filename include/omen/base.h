@@ -16,7 +16,20 @@
  * population standard deviation of those earlier commits only (Welford's
  * running update), clipped to [-OMEN_REL_CLIP, OMEN_REL_CLIP]; 0 while
  * fewer than 2 earlier commits are known or they do not vary. So a commit
- * is described against its own history's past, never its future. */
+ * is described against its own history's past, never its future.
+ *
+ * The one rule for every model (DEVELOPERS.md, "Base model"): a commit's
+ * metrics are z-scores against the commits of its own repository that come
+ * before it, clipped to +-OMEN_REL_CLIP. Training the base model uses the
+ * running form above, because its training commits are spread over each
+ * history's whole life; a model applied to one repository (per-repository,
+ * fine-tuned, a young repository kept on the base, score's fallback to the
+ * base) uses the frozen form, the mean and scale of the repository's commits
+ * before the ones it scores: its training split, or every commit up to the
+ * tip when nothing is trained. The running statistics at a history's last
+ * commit are exactly the frozen ones over all its earlier commits, so the
+ * base model meets the same scale it learned; the frozen form needs no
+ * replay of the history at score time. */
 #define OMEN_REL_CLIP 8.0
 typedef struct {
 	double n;
@@ -90,5 +103,17 @@ int omen_base_logits(float *out, const omen_model *m, const omen_corpus *c, size
  * state and head, so that scoring resumes from it like from a trained
  * model. The metadata says so ("young") and names the base ("from_base"). */
 int omen_model_adopt_base(omen_model **out, const omen_model *base, const omen_dataset *ds);
+
+/* ---- the installed base model -----------------------------------------------
+ * `make install` puts the committed base model (fixtures/base-model/) at
+ * $PREFIX/share/git-omen/base.omen. The base model of a repository r: the
+ * file omen.baseModel names, else the installed one, looked for beside the
+ * running binary (<bindir>/../share/git-omen/, so a DESTDIR or relocated
+ * install finds its own) and then under the compiled-in OMEN_DATADIR. *out
+ * is malloc'd, or NULL when there is none (not an error). *configured is
+ * set when the path came from omen.baseModel. */
+int omen_base_model_path(char **out, int *configured, omen_repo *r);
+/* The caps the model's dataset was built with. */
+omen_caps omen_model_caps(const omen_model *m);
 
 #endif

@@ -111,6 +111,8 @@ typedef struct {
 	int use_cache;            /* read/write $GIT_DIR/omen/dataset.cache */
 	int cache_only;           /* with use_cache: OMEN_ENOTFOUND on a miss instead of a build */
 	int64_t max_bytes;        /* memory ceiling (0 = none) */
+	int labels_optional;      /* a missing labels file: every commit unlabelled (-1);
+	                           * the base-model fallback of score (issue 11) */
 } omen_dataset_opts;
 int omen_dataset_build(omen_dataset **out, omen_repo *r, const omen_dataset_opts *o);
 void omen_dataset_free(omen_dataset *d);

@@ -168,6 +168,9 @@ int omen_warn_config(double *share, double *precision, omen_repo *r);
 /* "1 in 10" style rate of a share (buf of at least 32 bytes). */
 const char *omen_warn_rate_text(char *buf, size_t n, double share);
 const char *omen_scorer_model_path(const omen_scorer *s);
+/* The base model scored with when the repository has no model of its own
+ * (issue 11; NULL otherwise), and the commits it was standardized on. */
+const char *omen_scorer_base_fallback(const omen_scorer *s, size_t *commits);
 /* Scores ids (results come oldest first). The metrics state is the
  * model's, then fed every commit between the model's head and each scored
  * commit, oldest first, so each commit's metrics use only commits before

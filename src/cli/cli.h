@@ -23,6 +23,7 @@ int cmd_train_base(const char *dir, const char *out_path, omen_train_opts *o, co
 /* One notice when the scorer's model is a base model kept for a young
  * repository (issue 11); score and the hook call it after opening. */
 void cli_note_base_model(const omen_scorer *sc);
+void cli_print_base_model(void);
 
 /* Message tags, one set (DEVELOPERS.md, "The option table"):
  *   git omen: error: <what failed>     the command stops, exit 128 (cli_fatal)

@@ -508,10 +508,12 @@ int cmd_train(int argc, char **argv)
 			goto fatal;
 		o.clock = &clock;
 	}
-	/* fine-tuning: the base model named, else omen.baseModel; one that
-	 * cannot be used is a notice, and training starts from scratch */
+	/* fine-tuning: the base model named, else omen.baseModel, else the
+	 * installed one (omen_base_model_path); one that cannot be used is a
+	 * notice, and training starts from scratch */
 	if (!a.scratch && !a.from) {
-		if (omen_config_string(&from_cfg, repo, "omen.baseModel"))
+		int configured;
+		if (omen_base_model_path(&from_cfg, &configured, repo))
 			goto fatal;
 		if (from_cfg && *from_cfg)
 			a.from = from_cfg;

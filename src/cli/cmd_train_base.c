@@ -9,18 +9,66 @@
 #include <string.h>
 #include <time.h>
 #include <unistd.h>
+#include <sys/stat.h>
 #include "cli/cli.h"
 #include "omen/base.h"
 #include "omen/mpi.h"
 
 void cli_note_base_model(const omen_scorer *sc)
 {
-	const cJSON *y = cJSON_GetObjectItemCaseSensitive(omen_model_meta(omen_scorer_model(sc)),
+	size_t n = 0;
+	const char *fb = omen_scorer_base_fallback(sc, &n);
+	const cJSON *y;
+	if (fb) {
+		cli_notice("no model of this repository's own: scored with the base model '%s', "
+			"standardized on this repository's %zu commits; scores are advisory", fb, n);
+		return;
+	}
+	y = cJSON_GetObjectItemCaseSensitive(omen_model_meta(omen_scorer_model(sc)),
 		"young");
 	if (cJSON_IsObject(y))
 		cli_notice("scored with a base model: this repository had %.0f labelled commits, too "
 			"few to train its own model; scores are advisory",
 			cJSON_GetNumberValue(cJSON_GetObjectItemCaseSensitive(y, "labelled")));
+}
+
+/* `git omen version`'s line on the installed base model (issue 11): its
+ * path, corpus (histories and their commits), file size and build date;
+ * one that does not load is said so, and version still succeeds. */
+void cli_print_base_model(void)
+{
+	omen_model *m = NULL;
+	char *path = NULL;
+	const cJSON *b, *list, *dt, *one;
+	struct stat st;
+	double commits = 0;
+	int configured;
+	if (omen_base_model_path(&path, &configured, NULL) || !path) {
+		omen_error_clear();
+		printf("base model  none installed\n");
+		free(path);
+		return;
+	}
+	if (omen_model_load(&m, path)) {
+		printf("base model  %s: cannot load: %s\n", path, omen_error_last());
+		omen_error_clear();
+		free(path);
+		return;
+	}
+	b = cJSON_GetObjectItemCaseSensitive(omen_model_meta(m), "base");
+	list = cJSON_GetObjectItemCaseSensitive(b, "corpus");
+	dt = cJSON_GetObjectItemCaseSensitive(b, "date");
+	cJSON_ArrayForEach(one, list)
+		commits += cJSON_GetNumberValue(cJSON_GetObjectItemCaseSensitive(one, "commits"));
+	if (!cJSON_IsObject(b))
+		printf("base model  %s: not a base model (no corpus in its metadata)\n", path);
+	else
+		printf("base model  %s: %.0f histories, %.0f commits, %.1f MB, built %s\n", path,
+			cJSON_GetNumberValue(cJSON_GetObjectItemCaseSensitive(b, "histories")), commits,
+			stat(path, &st) == 0 ? (double)st.st_size / 1e6 : 0.0,
+			cJSON_IsString(dt) ? dt->valuestring : "?");
+	omen_model_free(m);
+	free(path);
 }
 
 static int name_cmp(const void *a, const void *b)

@@ -156,6 +156,7 @@ int cmd_version(int argc, char **argv)
 		return cli_usage("version", "'%s': version takes no arguments", argv[1]);
 	git_libgit2_version(&maj, &min, &rev);
 	printf("git-omen %s (libgit2 %d.%d.%d)\n", OMEN_VERSION, maj, min, rev);
+	cli_print_base_model();
 	return EXIT_OK;
 }
 

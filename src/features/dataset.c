@@ -541,7 +541,7 @@ static int ds_extend(build_ctx *x, omen_repo *r, const omen_walk_opts *wo, const
 		omen_oid_hex(hex, sizeof(hex), &ids[i]);
 		if (memcmp(q->id, hex, OMEN_OID_HEX + 1))
 			return 0;
-		lr = omen_labels_get(x->labels, hex);
+		lr = x->labels ? omen_labels_get(x->labels, hex) : NULL;
 		if ((lr ? lr->is_fix != 0 : 0) != q->is_fix)
 			return 0;
 		q->label = (int8_t)(lr ? lr->label : -1);
@@ -579,13 +579,17 @@ int omen_dataset_build(omen_dataset **out, omen_repo *r, const omen_dataset_opts
 	/* omen.memoryLimit bounds the label file too (issue 15, item 7) */
 	if ((e = omen_file_read(&lb, labels_path, o->max_bytes > 0 && (uint64_t)o->max_bytes < OMEN_READ_MAX
 			? (size_t)o->max_bytes : 0))) {
-		if (e == OMEN_ENOTFOUND)
+		if (e == OMEN_ENOTFOUND && o->labels_optional) {
+			omen_error_clear();
+			e = 0;
+		} else if (e == OMEN_ENOTFOUND)
 			e = omen_error_set(e, "cannot read labels '%s': no such file (run 'git omen label')",
 				labels_path);
 		else if (e == OMEN_ELIMIT && o->max_bytes > 0 && (uint64_t)o->max_bytes < OMEN_READ_MAX)
 			e = omen_error_set(e, "cannot read labels '%s': larger than the memory limit of %lld "
 				"bytes (omen.memoryLimit)", labels_path, (long long)o->max_bytes);
-		goto out;
+		if (e)
+			goto out;
 	}
 	wo.revs = o->revs;
 	wo.with_lines = 1;
@@ -609,7 +613,7 @@ int omen_dataset_build(omen_dataset **out, omen_repo *r, const omen_dataset_opts
 			goto out;
 		}
 	}
-	if ((e = omen_labels_parse(&x.labels, labels_path, lb.ptr, lb.len)))
+	if ((lb.len || !o->labels_optional) && (e = omen_labels_parse(&x.labels, labels_path, lb.ptr, lb.len)))
 		goto out;
 	omen_buf_free(&lb);
 	if ((e = omen_sample_buf_new(&x.sb)))

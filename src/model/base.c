@@ -15,8 +15,10 @@
 #include <stdlib.h>
 #include <string.h>
 #include <time.h>
+#include <sys/stat.h>
 #include <unistd.h>
 #include "omen/base.h"
+#include "omen/history.h"
 #include "omen/error.h"
 #include "omen/rank.h"
 #include "model/internal.h"
@@ -642,4 +644,66 @@ out:
 	free(tr); free(ntr); free(vref); free(bref); free(vz);
 	free(g); free(mom); free(vel); free(best); free(decay);
 	return e;
+}
+
+#ifndef OMEN_DATADIR
+#define OMEN_DATADIR "/usr/local/share/git-omen"
+#endif
+
+/* path/base.omen when it is a regular file: *out malloc'd, else NULL. */
+static int base_candidate(char **out, const char *dir, size_t dlen)
+{
+	static const char name[] = "/base.omen";
+	struct stat st;
+	char *p = malloc(dlen + sizeof(name));
+	if (!p)
+		return omen_error_set(OMEN_ENOMEM, "out of memory");
+	memcpy(p, dir, dlen);
+	memcpy(p + dlen, name, sizeof(name));
+	if (stat(p, &st) == 0 && S_ISREG(st.st_mode)) {
+		char *rp = realpath(p, NULL);   /* <bindir>/.. said plainly */
+		if (rp) {
+			free(p);
+			p = rp;
+		}
+		*out = p;
+		return 0;
+	}
+	free(p);
+	return 0;
+}
+
+int omen_base_model_path(char **out, int *configured, omen_repo *r)
+{
+	char *cfg = NULL, exe[4096];
+	ssize_t n;
+	int e;
+	*out = NULL;
+	*configured = 0;
+	if (r && (e = omen_config_string(&cfg, r, "omen.baseModel")))
+		return e;
+	if (cfg && *cfg) {
+		*out = cfg;
+		*configured = 1;
+		return 0;
+	}
+	free(cfg);
+	/* beside the binary: <bindir>/../share/git-omen */
+	n = readlink("/proc/self/exe", exe, sizeof(exe) - 1);
+	if (n > 0 && (size_t)n < sizeof(exe) - 32) {
+		static const char rel[] = "/../share/git-omen";
+		char *slash;
+		exe[n] = '\0';
+		if ((slash = strrchr(exe, '/'))) {
+			memcpy(slash, rel, sizeof(rel));
+			if ((e = base_candidate(out, exe, strlen(exe))) || *out)
+				return e;
+		}
+	}
+	return base_candidate(out, OMEN_DATADIR, strlen(OMEN_DATADIR));
+}
+
+omen_caps omen_model_caps(const omen_model *m)
+{
+	return m->caps;
 }

@@ -15,6 +15,7 @@
 #include <stdlib.h>
 #include <string.h>
 #include "omen/error.h"
+#include "omen/base.h"
 #include "model/internal.h"
 
 static const char *const tensor_names[P_COUNT] = {
@@ -271,8 +272,14 @@ int omen_ws_load(omen_ws *w, const omen_model *m, const omen_sample *const *s, c
 			w->msg[M + j] = t < (uint32_t)m->VM ? t : t % (uint32_t)m->VM;
 		}
 		omen_metrics_transform(tm, x->metrics);
-		for (j = 0; j < m->NM; j++)
-			w->xm[(size_t)i * m->NM + j] = (float)((tm[j] - m->metric_mean[j]) / m->metric_scale[j]);
+		/* one rule for every model (issue 11, omen/base.h): a metric
+		 * as a z-score against its repository's past, clipped like the
+		 * base model's comparable metrics */
+		for (j = 0; j < m->NM; j++) {
+			double z = (tm[j] - m->metric_mean[j]) / m->metric_scale[j];
+			z = z > OMEN_REL_CLIP ? OMEN_REL_CLIP : z < -OMEN_REL_CLIP ? -OMEN_REL_CLIP : z;
+			w->xm[(size_t)i * m->NM + j] = (float)z;
+		}
 		F += x->nfiles;
 		H += x->nhunks;
 		T += x->ntok;

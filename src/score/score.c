@@ -9,6 +9,7 @@
 #include <string.h>
 #include <sys/stat.h>
 #include <cjson/cJSON.h>
+#include "omen/base.h"
 #include "omen/error.h"
 #include "omen/label.h"
 #include "omen/score.h"
@@ -34,13 +35,24 @@ struct omen_scorer {
 	int lazy;
 	int approx;              /* scoring against a state that already counts the commit */
 	char *model_path;
+	char *base_path;         /* no model of the repository's own: the base model used */
+	size_t base_commits;     /* the commits its standardization was fitted on */
 };
 
 const omen_model *omen_scorer_model(const omen_scorer *s) { return s->model; }
 float omen_scorer_threshold(const omen_scorer *s) { return s->threshold; }
 double omen_scorer_fires(const omen_scorer *s) { return s->fires; }
 const char *omen_scorer_notices(const omen_scorer *s) { return s->notices.len ? s->notices.ptr : NULL; }
-const char *omen_scorer_model_path(const omen_scorer *s) { return s->model_path; }
+const char *omen_scorer_model_path(const omen_scorer *s)
+{
+	return s->base_path ? s->base_path : s->model_path;
+}
+const char *omen_scorer_base_fallback(const omen_scorer *s, size_t *commits)
+{
+	if (commits)
+		*commits = s->base_commits;
+	return s->base_path;
+}
 omen_repo *score_repo(const omen_scorer *s) { return s->repo; }
 void score_set_detail(omen_scorer *s, int detail) { s->detail = detail; }
 
@@ -120,6 +132,58 @@ static void read_meta(omen_scorer *s)
 		CAP(max_msg_tokens)
 #undef CAP
 	}
+}
+
+/* No model of the repository's own at the default path (issue 11): the base
+ * model (omen.baseModel, else the installed one), standardized on this
+ * repository's commits as train does for a young repository, with the
+ * metrics state at its tip. A model path named by --model or omen.model
+ * that is missing stays an error, and so does a base model that does not
+ * load (checked as strictly as any model file). */
+static int base_fallback(omen_scorer *s, omen_repo *r, const omen_score_opts *o)
+{
+	omen_dataset_opts dopt;
+	omen_dataset *ds = NULL;
+	omen_model *base = NULL;
+	char *cfg = NULL;
+	int64_t lim = 0;
+	int e, configured;
+	if (o->model_path && *o->model_path)
+		goto missing;
+	if ((e = omen_config_string(&cfg, r, "omen.model")))
+		return e;
+	if (cfg && *cfg) {
+		free(cfg);
+		goto missing;
+	}
+	free(cfg);
+	if ((e = omen_base_model_path(&s->base_path, &configured, r)))
+		return e;
+	if (!s->base_path)
+		goto missing;
+	if ((e = omen_config_int(&lim, r, "omen.memoryLimit")))
+		return e;
+	if ((e = omen_model_load_max(&base, s->base_path, lim))) {
+		char why[512];   /* omen_error_set must not read its own buffer */
+		snprintf(why, sizeof(why), "%s", omen_error_last());
+		return omen_error_set(e, "cannot use base model '%s': %s", s->base_path, why);
+	}
+	memset(&dopt, 0, sizeof(dopt));
+	dopt.caps = omen_model_caps(base);
+	dopt.labels_optional = 1;
+	dopt.max_bytes = lim;
+	if ((e = omen_dataset_build(&ds, r, &dopt)))
+		goto out;
+	if ((e = omen_model_adopt_base(&s->model, base, ds)))
+		goto out;
+	s->base_commits = omen_dataset_size(ds);
+out:
+	omen_dataset_free(ds);
+	omen_model_free(base);
+	return e;
+missing:
+	return omen_error_set(OMEN_ENOTFOUND, "no model at '%s': run 'git omen train' first",
+		s->model_path);
 }
 
 int omen_warn_config(double *share, double *precision, omen_repo *r)
@@ -208,16 +272,16 @@ int omen_scorer_open(omen_scorer **out, omen_repo *r, const omen_score_opts *o)
 	s->lazy = o->lazy;
 	if ((e = omen_score_model_path(&s->model_path, r, o->model_path)))
 		goto out;
-	if (stat(s->model_path, &stt) != 0) {
-		e = omen_error_set(OMEN_ENOTFOUND, "no model at '%s': run 'git omen train' first",
-			s->model_path);
-		goto out;
-	}
 	{
 		int64_t lim = 0;   /* omen.memoryLimit bounds the model read too */
-		if ((e = omen_config_int(&lim, r, "omen.memoryLimit")) ||
-		    (e = omen_model_load_max(&s->model, s->model_path, lim)))
+		if ((e = omen_config_int(&lim, r, "omen.memoryLimit")))
 			goto out;
+		if (stat(s->model_path, &stt) != 0) {
+			if ((e = base_fallback(s, r, o)))
+				goto out;
+		} else if ((e = omen_model_load_max(&s->model, s->model_path, lim))) {
+			goto out;
+		}
 	}
 	read_meta(s);
 	if ((e = omen_config_string(&pat, r, "omen.fixPattern")) ||
@@ -275,6 +339,7 @@ void omen_scorer_free(omen_scorer *s)
 	omen_buf_free(&s->state);
 	omen_buf_free(&s->notices);
 	free(s->model_path);
+	free(s->base_path);
 	free(s);
 }
 

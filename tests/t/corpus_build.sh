@@ -154,4 +154,51 @@ grep -q "advisory" out || fail "young: score output: $(cat out)"
 cd "$top/r1"
 "$OMEN" score --model ft3.omen HEAD >out 2>err || fail "r1: score: $(cat err)"
 ! grep -q "base model" err || fail "r1: base-model notice on its own model: $(cat err)"
+
+# no model of its own, no labels: score and the hook fall back to the base
+# model (omen.baseModel here; the installed one in install_layout.sh), one
+# notice each; a damaged base is a one-line error; --model or omen.model
+# naming a missing file stays an error
+cd "$top"
+/usr/bin/python3 "$ROOT/fixtures/demo/gen.py" --seed 11 --commits 30 --out "$top/fresh" --quiet
+cd fresh
+rc=0; "$OMEN" score HEAD >out 2>err || rc=$?
+[ "$rc" -eq 128 ] && grep -q "^git omen: error: no model at '.*model.omen': run 'git omen train' first$" err ||
+	fail "fresh, no base: exit $rc: $(cat err)"
+git config omen.baseModel ../b1.omen
+n=$(git rev-list --count HEAD)   # git's own count of the commits standardized on
+"$OMEN" score HEAD~3..HEAD >out 2>err || fail "fresh: score: $(cat err)"
+[ "$(grep -c . out)" -ge 4 ] && grep -q "3 scored; .*advisory" out || fail "fresh: score output: $(cat out)"
+[ "$(wc -l <err)" -eq 1 ] &&
+	grep -q "^git omen: notice: no model of this repository's own: scored with the base model '../b1.omen', standardized on this repository's $n commits; scores are advisory$" err ||
+	fail "fresh: score notice: $(cat err)"
+[ ! -e .git/omen/model.omen ] || fail "fresh: score wrote a model"
+"$OMEN" score --format json HEAD >out 2>/dev/null && grep -q '"probability":.*"model":"../b1.omen"' out || fail "fresh: json: $(cat out)"
+rc=0; "$OMEN" score --model none.omen HEAD >out 2>err || rc=$?
+[ "$rc" -eq 128 ] && grep -q "^git omen: error: no model at 'none.omen'" err || fail "fresh, --model: exit $rc: $(cat err)"
+cp ../b1.omen flipped.omen
+printf 'X' | dd of=flipped.omen bs=1 seek=300 conv=notrunc 2>/dev/null
+git config omen.baseModel flipped.omen
+rc=0; "$OMEN" score HEAD >out 2>err || rc=$?
+[ "$rc" -eq 128 ] && [ "$(wc -l <err)" -eq 1 ] && grep -q "^git omen: error: cannot use base model 'flipped.omen': " err ||
+	fail "fresh, flipped base: exit $rc: $(cat err)"
+! grep -q "cannot use base model.*cannot use base model" err || fail "fresh, flipped base: message twice: $(cat err)"
+head -c 1000 ../b1.omen >cut.omen
+git config omen.baseModel cut.omen
+rc=0; "$OMEN" score HEAD >out 2>err || rc=$?
+[ "$rc" -eq 128 ] && [ "$(wc -l <err)" -eq 1 ] && grep -q "^git omen: error: cannot use base model 'cut.omen': " err ||
+	fail "fresh, cut base: exit $rc: $(cat err)"
+! grep -q "cannot use base model.*cannot use base model" err || fail "fresh, cut base: message twice: $(cat err)"
+# the hook: one notice, the push goes through
+git config omen.baseModel ../b1.omen
+git clone -q --bare . "$top/fresh-remote.git"
+git -C "$top/fresh-remote.git" update-ref refs/heads/main "$(git rev-parse HEAD~4)" 2>/dev/null ||
+	git -C "$top/fresh-remote.git" update-ref "$(git symbolic-ref HEAD)" "$(git rev-parse HEAD~4)"
+git remote add origin "$top/fresh-remote.git"
+git fetch -q origin
+"$OMEN" hook install >/dev/null
+git config omen.hookTimeout 600000
+PATH="$(dirname "$OMEN"):$PATH" git push -q origin HEAD 2>err || fail "fresh: push: $(cat err)"
+[ "$(grep -c "^git omen: notice: no model of this repository's own: scored with the base model" err)" -eq 1 ] ||
+	fail "fresh: hook notice: $(cat err)"
 exit 0

@@ -24,6 +24,11 @@ done
 [ -f "$dest/share/man/man1/git-omen.1" ] || fail "no git-omen.1"
 [ -f "$dest/share/bash-completion/completions/git-omen" ] || fail "no bash completion"
 [ -x "$dest/share/git-omen/hooks/pre-push" ] || fail "no pre-push shim copy"
+# the base model (issue 11), found beside the installed binary
+cmp -s "$dest/share/git-omen/base.omen" "$ROOT/fixtures/base-model/base.omen" || fail "no base model under $prefix/share/git-omen"
+PATH="$dest/bin:$PATH" GIT_CONFIG_NOSYSTEM=1 GIT_CONFIG_GLOBAL=/dev/null git omen version >version.out 2>&1
+grep -q "^base model  /.*/opt/omen-test/share/git-omen/base.omen: [0-9]* histories, [0-9]* commits, [0-9.]* MB, built [0-9T:-]*Z$" version.out ||
+	fail "version does not show the installed base model: $(cat version.out)"
 
 # git finds the extension on PATH, and `git omen --help` shows its man page.
 export GIT_CONFIG_NOSYSTEM=1 GIT_CONFIG_GLOBAL=/dev/null

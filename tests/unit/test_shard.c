@@ -27,6 +27,7 @@
 #include "omen/model.h"
 #include "omen/shard.h"
 #include "omen/util.h"
+#include "model/internal.h"
 
 #include "git_repo.h"
 
@@ -203,6 +204,47 @@ static void test_relative_metrics_from_own_past(void **st)
 	}
 	assert_true(nonzero > 100);
 	assert_null(omen_corpus_relative(c, 2, 0));
+	omen_corpus_free(c);
+}
+
+/* The one standardization rule (omen/base.h): the frozen standardization a
+ * model applied to one repository uses, fitted on a history's commits
+ * before its last one, gives that last commit the same z-scores as the base
+ * model's running ones. */
+static void test_one_standardization_rule(void **st)
+{
+	const char *paths[1] = {shard_a};
+	omen_corpus *c;
+	omen_dataset *d;
+	omen_model *m;
+	size_t n, i, *idx;
+	double t[OMEN_NMETRICS];
+	const float *rel;
+	int j, checked = 0;
+	(void)st;
+	assert_int_equal(omen_corpus_open(&c, paths, NULL, 1), 0);
+	build_ds(&d, repo);
+	n = omen_dataset_size(d);
+	assert_int_equal(n, omen_shard_size(omen_corpus_shard(c, 0)));
+	assert_non_null(idx = malloc(n * sizeof(*idx)));
+	for (i = 0; i < n; i++)
+		idx[i] = i;
+	assert_int_equal(omen_model_alloc(&m, 8, 8), 0);
+	omen_model_fit_standardization(m, d, idx, n - 1);
+	omen_metrics_transform(t, omen_dataset_get(d, n - 1)->metrics);
+	rel = omen_corpus_relative(c, 0, n - 1);
+	for (j = 0; j < OMEN_NMETRICS; j++) {
+		double z = (t[j] - m->metric_mean[j]) / m->metric_scale[j];
+		if (m->metric_scale[j] == 1.0f && m->metric_mean[j] == (float)t[j])
+			continue;   /* no spread: both give 0 (the frozen form divides by 1) */
+		z = fmax(-OMEN_REL_CLIP, fmin(OMEN_REL_CLIP, z));
+		assert_true(fabs(rel[j] - z) <= 1e-3 * (1 + fabs(z)));
+		checked++;
+	}
+	assert_true(checked >= OMEN_NMETRICS / 2);
+	free(idx);
+	omen_model_free(m);
+	omen_dataset_free(d);
 	omen_corpus_free(c);
 }
 
@@ -427,6 +469,7 @@ int main(void)
 	const struct CMUnitTest tests[] = {
 		cmocka_unit_test(test_corpus_equals_single_builds),
 		cmocka_unit_test(test_relative_metrics_from_own_past),
+		cmocka_unit_test(test_one_standardization_rule),
 		cmocka_unit_test(test_damaged_shard_refused),
 		cmocka_unit_test(test_balancer),
 		cmocka_unit_test(test_base_train_reproducible),
