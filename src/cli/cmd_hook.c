@@ -219,11 +219,13 @@ static int hook_run(int argc, char **argv)
 		rc = hook_error(block_error, NULL);
 		goto done;
 	}
-	disarm_alarm();
+	/* the freshness check walks the commits since the model's head: still
+	 * inside the time budget */
 	if (omen_scorer_check_fresh(sc)) {
 		rc = hook_error(block_error, NULL);
 		goto done;
 	}
+	disarm_alarm();
 	cli_notices(omen_scorer_notices(sc));
 	for (i = 0; i < set.n; i++) {
 		const omen_score_result *r = &set.v[i];

@@ -265,6 +265,8 @@ static int parse_args(omen_label_opts *o, label_args *a, const char ***revs, int
 		if (end == a->horizon || *end || h < 0 || h > 1000000) {
 			omen_error_set(OMEN_EINVAL, "bad horizon '%s': not a number of days (0 = no horizon)",
 				a->horizon);
+			free(*revs);   /* cli_parse's list of positional arguments */
+			*revs = NULL;
 			return cli_fatal(NULL);
 		}
 		o->horizon_days = h;

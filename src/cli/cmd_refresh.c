@@ -239,7 +239,12 @@ int cmd_refresh(int argc, char **argv)
 		}
 		printf("git omen refresh: waiting for a running 'git omen train' (lock '%s')\n", lock_path);
 		fflush(stdout);
-		e = omen_lock_acquire(&lock_fd, lock_path, (int)((deadline - omen_now()) * 1000));
+		{
+			/* a negative wait would block without end (omen_lock_acquire):
+			 * a budget already spent tries once */
+			double left_ms = (deadline - omen_now()) * 1000;
+			e = omen_lock_acquire(&lock_fd, lock_path, left_ms > 0 ? (int)left_ms : 0);
+		}
 		waited = omen_now() - t0;
 		if (e == OMEN_ELOCKED) {
 			omen_error_clear();

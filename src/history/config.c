@@ -249,6 +249,11 @@ int omen_setting_parse(omen_setting_value *out, const omen_setting *s, const cha
 		for (i = 0; i < sizeof(no) / sizeof(*no); i++)
 			if (!strcasecmp(text, no[i]))
 				return 0;
+		/* else an integer, true unless 0, as git_config_bool reads it */
+		if (!parse_int(&out->i, text)) {
+			out->i = out->i != 0;
+			return 0;
+		}
 		return bad_value(s, text);
 	}
 	return omen_error_set(OMEN_EUSAGE, "setting '%s' has no kind", s->key);

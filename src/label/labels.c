@@ -322,7 +322,9 @@ void omen_labels_rule(const omen_labels *l, int64_t *out_window_days, int64_t *o
 static size_t count_of(const cJSON *o, const char *k)
 {
 	const cJSON *v = o ? cJSON_GetObjectItemCaseSensitive(o, k) : NULL;
-	return cJSON_IsNumber(v) && v->valuedouble >= 0 ? (size_t)v->valuedouble : 0;
+	/* 0 to 2^53 only: a conversion out of range is undefined (C11 6.3.1.4) */
+	return cJSON_IsNumber(v) && v->valuedouble >= 0 && v->valuedouble <= 9007199254740992.0 ?
+		(size_t)v->valuedouble : 0;
 }
 
 static int read_at(omen_buf *b, FILE *fp, long off, size_t n, const char *path)
@@ -339,7 +341,7 @@ static int read_at(omen_buf *b, FILE *fp, long off, size_t n, const char *path)
 
 int omen_labels_brief_read(omen_labels_brief *out, const char *path, size_t tail)
 {
-	FILE *fp = fopen(path, "rb");
+	FILE *fp = NULL;
 	omen_buf b = OMEN_BUF_INIT;
 	omen_cursor cur;
 	const char *line;
@@ -348,8 +350,10 @@ int omen_labels_brief_read(omen_labels_brief *out, const char *path, size_t tail
 	cJSON *j = NULL;
 	int e = 0;
 	memset(out, 0, sizeof(*out));
-	if (!fp)
-		return omen_error_set(OMEN_ENOTFOUND, "cannot read label file '%s'", path);
+	/* a regular file only (a FIFO would wait for a writer); the size is no
+	 * limit here, only its first line and its end are read */
+	if ((e = omen_file_open_read(&fp, NULL, path, SIZE_MAX)))
+		return e;
 	if (fseek(fp, 0, SEEK_END) || (size = ftell(fp)) < 0) {
 		e = omen_error_set(OMEN_EIO, "cannot read label file '%s'", path);
 		goto out;
@@ -439,11 +443,14 @@ int64_t omen_labels_file_horizon(const char *path)
 {
 	char buf[65536];
 	size_t n;
-	FILE *fp = path ? fopen(path, "rb") : NULL;
+	FILE *fp = NULL;
 	cJSON *j, *v;
 	int64_t h = 0;
-	if (!fp)
+	/* a regular file only, as omen_labels_brief_read */
+	if (!path || omen_file_open_read(&fp, NULL, path, SIZE_MAX)) {
+		omen_error_clear();
 		return 0;
+	}
 	n = fread(buf, 1, sizeof(buf) - 1, fp);
 	fclose(fp);
 	buf[n] = '\0';

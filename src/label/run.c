@@ -667,7 +667,8 @@ static void summary_from_header(omen_label_summary *s, const char *json)
 	if (!j)
 		return;
 	m = cJSON_GetObjectItemCaseSensitive(j, "summary");
-#define GETN(k, f) if ((v = cJSON_GetObjectItemCaseSensitive(m, k)) && cJSON_IsNumber(v)) s->f = (size_t)v->valuedouble
+#define GETN(k, f) if ((v = cJSON_GetObjectItemCaseSensitive(m, k)) && cJSON_IsNumber(v) && \
+	v->valuedouble >= 0 && v->valuedouble <= 9007199254740992.0) s->f = (size_t)v->valuedouble
 	GETN("commits", commits); GETN("fixes", fixes); GETN("inducing", inducing);
 	GETN("clean", clean); GETN("unknown", unknown); GETN("fixes_by_pattern", fixes_by_pattern);
 	GETN("fixes_by_list", fixes_by_list); GETN("fixes_by_issue", fixes_by_issue);
@@ -681,7 +682,8 @@ static void summary_from_header(omen_label_summary *s, const char *json)
 	GETN("minor_dropped", minor_dropped); GETN("beyond_horizon", beyond_horizon);
 #undef GETN
 	if ((v = cJSON_GetObjectItemCaseSensitive(j, "options")) &&
-	    (v = cJSON_GetObjectItemCaseSensitive(v, "horizon_days")) && cJSON_IsNumber(v))
+	    (v = cJSON_GetObjectItemCaseSensitive(v, "horizon_days")) && cJSON_IsNumber(v) &&
+	    v->valuedouble >= 0 && v->valuedouble <= OMEN_WINDOW_MAX_DAYS)
 		s->horizon_days = (int64_t)v->valuedouble;
 	if ((v = cJSON_GetObjectItemCaseSensitive(m, "latency_days")) && cJSON_GetArraySize(v) == 3) {
 		int k;

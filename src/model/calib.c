@@ -265,11 +265,14 @@ int omen_warn_curve_parse(omen_warn_curve *out, const cJSON *j)
 		memset(out, 0, sizeof(*out));
 		return omen_error_set(OMEN_ECORRUPT, "bad warning curve in the model metadata");
 	}
-	if ((v = cJSON_GetObjectItemCaseSensitive(j, "n")) && cJSON_IsNumber(v) && v->valuedouble >= 0)
+	if ((v = cJSON_GetObjectItemCaseSensitive(j, "n")) && cJSON_IsNumber(v) && v->valuedouble >= 0 &&
+	    v->valuedouble <= 9007199254740992.0)
 		out->n_slice = (size_t)v->valuedouble;
-	if ((v = cJSON_GetObjectItemCaseSensitive(j, "positives")) && cJSON_IsNumber(v) && v->valuedouble >= 0)
+	if ((v = cJSON_GetObjectItemCaseSensitive(j, "positives")) && cJSON_IsNumber(v) && v->valuedouble >= 0 &&
+	    v->valuedouble <= 9007199254740992.0)
 		out->positives = (size_t)v->valuedouble;
-	if ((v = cJSON_GetObjectItemCaseSensitive(j, "n_fire")) && cJSON_IsNumber(v) && v->valuedouble >= 0)
+	if ((v = cJSON_GetObjectItemCaseSensitive(j, "n_fire")) && cJSON_IsNumber(v) && v->valuedouble >= 0 &&
+	    v->valuedouble <= 9007199254740992.0)
 		out->n_fire = (size_t)v->valuedouble;
 	out->npoints = OMEN_WARN_POINTS;
 	return 0;

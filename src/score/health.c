@@ -219,7 +219,8 @@ static int read_ref(ref_metric *rm, double *base, size_t *ntrain, size_t *nrecen
 	const cJSON *ms, *v;
 	int j;
 	v = cJSON_GetObjectItemCaseSensitive(dr, "n_train");
-	*ntrain = cJSON_IsNumber(v) && v->valuedouble >= 0 ? (size_t)v->valuedouble : 0;
+	*ntrain = cJSON_IsNumber(v) && v->valuedouble >= 0 && v->valuedouble <= 9007199254740992.0 ?
+		(size_t)v->valuedouble : 0;
 	v = cJSON_GetObjectItemCaseSensitive(dr, "base_rate");
 	*base = cJSON_IsNumber(v) ? v->valuedouble : NAN;
 	ms = cJSON_GetObjectItemCaseSensitive(dr, "metrics");

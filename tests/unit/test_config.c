@@ -314,6 +314,16 @@ static void test_bool_values(void **st)
 	/* `git -c omen.x` (no '='): true, as git config --bool says */
 	assert_int_equal(omen_setting_parse(&v, &b, NULL), 0);
 	assert_true(v.i == 1);
+	/* any other integer is a boolean to git too, true unless 0
+	 * (git_config_bool; checked with `git -c a.b=2 config --bool a.b`:
+	 * true, -1: true, 0k: false, 1x: fatal) */
+	assert_int_equal(omen_setting_parse(&v, &b, "2"), 0);
+	assert_true(v.i == 1);
+	assert_int_equal(omen_setting_parse(&v, &b, "-1"), 0);
+	assert_true(v.i == 1);
+	assert_int_equal(omen_setting_parse(&v, &b, "0k"), 0);
+	assert_true(v.i == 0);
+	assert_int_equal(omen_setting_parse(&v, &b, "1x"), OMEN_EINVAL);
 	assert_int_equal(omen_setting_parse(&v, &b, "maybe"), OMEN_EINVAL);
 	assert_string_equal(omen_error_last(), "bad config value 'omen.test': 'maybe' is not a boolean");
 }

@@ -11,6 +11,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/stat.h>
 #include <unistd.h>
 #include <cmocka.h>
 #include "omen/error.h"
@@ -595,6 +596,39 @@ static void test_labels_scope_horizon(void **state)
 	omen_buf_free(&b);
 }
 
+/* Counts in a label header are outside bytes: one outside 0 to 2^53 (the
+ * integers a double holds exactly) is ignored, never converted
+ * (a conversion out of range is undefined behaviour in C11 6.3.1.4). */
+static void test_labels_brief_counts(void **state)
+{
+	static const char data[] =
+		"{\"omen_labels\":1,\"summary\":{\"commits\":1e19,\"inducing\":-3,"
+		"\"clean\":1e300,\"unknown\":7}}\n";
+	char path[] = "/tmp/omen-test-brief-XXXXXX";
+	omen_labels_brief br;
+	FILE *fp;
+	int fd;
+	(void)state;
+	assert_true((fd = mkstemp(path)) >= 0);
+	assert_non_null(fp = fdopen(fd, "w"));
+	fputs(data, fp);
+	fclose(fp);
+	assert_int_equal(omen_labels_brief_read(&br, path, 10), 0);
+	unlink(path);
+	assert_true(br.commits == 0);
+	assert_true(br.inducing == 0);
+	assert_true(br.clean == 0);
+	assert_true(br.unknown == 7);
+	/* a FIFO is no label file: refused, not waited on (the alarm turns a
+	 * wait into a failed test; nothing is timed) */
+	assert_int_equal(mkfifo(path, 0600), 0);
+	alarm(60);
+	assert_int_equal(omen_labels_brief_read(&br, path, 10), OMEN_EINVAL);
+	assert_int_equal(omen_labels_file_horizon(path), 0);
+	alarm(0);
+	unlink(path);
+}
+
 static void test_labels_bad(void **state)
 {
 	(void)state;
@@ -664,6 +698,7 @@ int main(void)
 		cmocka_unit_test(test_labels_parse),
 		cmocka_unit_test(test_labels_scope_horizon),
 		cmocka_unit_test(test_labels_bad),
+		cmocka_unit_test(test_labels_brief_counts),
 		cmocka_unit_test(test_labels_rule),
 	};
 	return cmocka_run_group_tests(tests, NULL, NULL);
