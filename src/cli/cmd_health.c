@@ -190,11 +190,6 @@ int cmd_health(int argc, char **argv)
 		rc = cli_fatal(NULL);
 		goto done;
 	}
-	if (window < 1 || window > 100000) {
-		rc = cli_error("bad config value 'omen.driftCommits': '%lld' is not a count from 1 "
-			"to 100000", (long long)window);
-		goto done;
-	}
 	if (omen_config_string(&base_path, repo, "omen.baseModel")) {
 		rc = cli_fatal(NULL);
 		goto done;

@@ -218,12 +218,6 @@ int cmd_refresh(int argc, char **argv)
 		rc = cli_fatal(NULL);
 		goto done;
 	}
-	if (budget < 1 || min_new < 1) {
-		rc = cli_error("bad config value '%s': '%lld' is not a positive number",
-			budget < 1 ? "omen.refreshBudget" : "omen.refreshMinLabels",
-			(long long)(budget < 1 ? budget : min_new));
-		goto done;
-	}
 	deadline = t0 + (double)budget;
 	if (omen_repo_omen_path(&lock_path, repo, "train.lock")) {
 		rc = cli_fatal(NULL);
