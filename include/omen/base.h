@@ -104,6 +104,13 @@ int omen_base_logits(float *out, const omen_model *m, const omen_corpus *c, size
  * model. The metadata says so ("young") and names the base ("from_base"). */
 int omen_model_adopt_base(omen_model **out, const omen_model *base, const omen_dataset *ds);
 
+/* The base model as it comes, for samples idx[0..n) of ds as its past:
+ * its weights, calibration and threshold, with the metrics and file facts
+ * standardized on those samples only (eval's base_model column, fitted on
+ * a fold's training split). No metadata, head nor metrics state. */
+int omen_model_base_on(omen_model **out, const omen_model *base, const omen_dataset *ds,
+	const size_t *idx, size_t n);
+
 /* ---- the installed base model -----------------------------------------------
  * `make install` puts the committed base model (fixtures/base-model/) at
  * $PREFIX/share/git-omen/base.omen. The base model of a repository r: the

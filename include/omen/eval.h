@@ -72,9 +72,14 @@ enum {
 	OMEN_EV_DENSITY,       /* the model's probability per changed line (effort-aware) */
 	OMEN_EV_SMALL,         /* reference: smallest change first */
 	OMEN_EV_BASE,          /* reference: base rate (training positive rate) */
+	OMEN_EV_PRETRAINED,    /* the base model alone, never trained on the repository
+	                          (issue 11); NaN columns without one */
+	OMEN_EV_TUNED,         /* the model fine-tuned from the base model (issue 11) */
 	OMEN_EV_NMETHODS
 };
 extern const char *const omen_eval_method_names[OMEN_EV_NMETHODS];
+/* The methods that need a base model (OMEN_EV_PRETRAINED, OMEN_EV_TUNED). */
+int omen_eval_needs_base(int method);
 
 typedef struct {
 	size_t n, positives;
@@ -107,6 +112,11 @@ typedef struct {
 	int *y;
 	double *effort;
 	double *score[OMEN_EV_NMETHODS];
+	/* per test commit, NULL or the probability that Brier and ECE read for
+	 * a method whose score is a ranking of another calibration: the base
+	 * model's logit through a Platt scaling fitted on the fold's own
+	 * validation slice (score[OMEN_EV_PRETRAINED] keeps the base's own) */
+	double *calib[OMEN_EV_NMETHODS];
 	int64_t *time;
 	char (*ids)[41];
 	omen_method_scores m[OMEN_EV_NMETHODS];
@@ -147,6 +157,8 @@ typedef struct {
 	omen_buf notes;               /* warnings, one per line */
 	omen_seed_summary seeds;      /* eval --seeds N > 1: pooled figures over N seeds
 	                                 (the rest of the result is the first seed's) */
+	int has_base;                 /* 0: the base-model columns are "no base model" */
+	char base_path[512];          /* the base model's file, as given (display only) */
 } omen_eval_result;
 
 /* Allocates the per-commit arrays of fold k for n test commits. */
@@ -176,6 +188,13 @@ typedef struct {
 	const char *const *effort_exclude;   /* NULL = omen_effort_exclude_default */
 	size_t n_effort_exclude;
 	int top_risky;                /* riskiest test commits kept (default 10) */
+	/* the base model (issue 11), or NULL: then the columns base_model and
+	 * fine_tuned say "no base model". Per fold, base_model is its weights
+	 * and calibration with the standardization fitted on the fold's
+	 * training split (the one rule, DEVELOPERS.md "Base model"), and
+	 * fine_tuned is train.init = base on the fold's training split */
+	const omen_model *base;
+	const char *base_path;        /* shown beside the columns */
 	/* called before (done 0) and after (done 1) each fold's training */
 	void (*progress)(void *payload, size_t fold, size_t nfolds, int done, double seconds);
 	void *payload;

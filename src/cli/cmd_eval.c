@@ -5,6 +5,7 @@
 #include <unistd.h>
 #include "cli/cli.h"
 #include "cli/options.h"
+#include "omen/base.h"
 
 typedef struct {
 	int tty;
@@ -53,12 +54,16 @@ static const cli_option opt_seeds = {
 	"--seeds", CLI_INT, "<n>", 1, 100, "a count from 1 to 100",
 	"run the folds over n seeds (--seed, then one more each run) and report the mean and "
 	"spread of the pooled figures (default 1)"};
+static const cli_option opt_from = {
+	"--from", CLI_STRING, "<file>", 0, 0, NULL,
+	"the base model of the base_model and fine_tuned columns (default omen.baseModel, else "
+	"the installed one)"};
 static const cli_option opt_bootstrap = {
 	"--bootstrap", CLI_INT, "<n>", 0, 1000000, "a count from 0 to 1000000",
 	"resamples for the AUC intervals (default 1000)"};
 
 typedef struct {
-	const char *format, *html, *labels, *rev;
+	const char *format, *html, *labels, *rev, *from;
 	long long folds, fold_days, window, seed, seeds, bootstrap, epochs, threads;
 	int folds_set, fold_days_set, window_set, seed_set, seeds_set, bootstrap_set, epochs_set;
 	int threads_set;
@@ -85,6 +90,7 @@ static int parse_args(omen_eval_opts *o, eval_args *a, int argc, char **argv)
 		{&cli_opt_threads, &a->threads, NULL, NULL, &a->threads_set},
 		{&cli_opt_labels, &a->labels, NULL, NULL, NULL},
 		{&cli_opt_no_cache, &a->no_cache, NULL, NULL, NULL},
+		{&opt_from, &a->from, NULL, NULL, NULL},
 	};
 	const cli_command cmd = {"eval", "usage: git omen eval [<rev>] [<options>]\n",
 		"Scores are advisory: the evaluation shows how far to trust them on this history.\n",
@@ -163,6 +169,36 @@ static int read_config(omen_eval_opts *o, omen_dataset_opts *dso, char ***excl,
 	return 0;
 }
 
+/* The base model as `train` finds it (issue 11): --from, else omen.baseModel,
+ * else the installed one. None: NULL, silently; one that cannot be used
+ * (unreadable, damaged, other dimensions): a notice and NULL. *path is the
+ * caller's to free. */
+static omen_model *find_base(char **path, omen_repo *repo, const eval_args *a,
+	const omen_eval_opts *o)
+{
+	omen_model *base = NULL, *probe = NULL;
+	int configured;
+	*path = NULL;
+	if (a->from) {
+		if (!(*path = strdup(a->from)))
+			return NULL;
+	} else if (omen_base_model_path(path, &configured, repo) < 0 || !*path || !**path) {
+		omen_error_clear();
+		return NULL;
+	}
+	if (omen_model_load(&base, *path) < 0 ||
+	    omen_model_new(&probe, o->train.dim, o->train.channels, 0) < 0 ||
+	    omen_model_copy_weights(probe, base) < 0) {
+		cli_notice("cannot use base model '%s': %s; its columns say \"no base model\"", *path,
+			omen_error_last());
+		omen_error_clear();
+		omen_model_free(base);
+		base = NULL;
+	}
+	omen_model_free(probe);
+	return base;
+}
+
 /* The last figures, for 'git omen health' (issue 12): the JSON report as
  * $GIT_DIR/omen/eval.json, written atomically; a failure is a notice. */
 static void save_summary(const omen_eval_result *res, omen_repo *repo)
@@ -214,10 +250,11 @@ int cmd_eval(int argc, char **argv)
 	omen_caps caps = OMEN_CAPS_DEFAULT;
 	omen_repo *repo = NULL;
 	omen_dataset *ds = NULL;
+	omen_model *base = NULL;
 	progress_state ps = {0, 0};
 	eval_args a;
 	const char *revs[2] = {NULL, NULL};
-	char *default_labels = NULL, *excl_text = NULL;
+	char *default_labels = NULL, *excl_text = NULL, *base_path = NULL;
 	char **excl = NULL;
 	int rc;
 
@@ -247,6 +284,9 @@ int cmd_eval(int argc, char **argv)
 	dso.use_cache = !a.no_cache;
 	if (omen_dataset_build(&ds, repo, &dso) < 0)
 		goto fatal;
+	base = find_base(&base_path, repo, &a, &o);
+	o.base = base;
+	o.base_path = base_path;
 	ps.tty = isatty(2);
 	o.progress = on_progress;
 	o.payload = &ps;
@@ -264,6 +304,8 @@ fatal:
 done:
 	omen_eval_result_free(&res);
 	omen_dataset_free(ds);
+	omen_model_free(base);
+	free(base_path);
 	omen_repo_free(repo);
 	free(default_labels);
 	free(excl);

@@ -14,12 +14,25 @@
 #include "eval/svg.h"
 
 static const char *const method_titles[OMEN_EV_NMETHODS] = {
-	"model", "logistic regression on metrics", "rank by lines added",
-	"model per changed line", "smallest change first", "base rate"
+	"model (this repository, from scratch)", "logistic regression on metrics",
+	"rank by lines added", "model per changed line", "smallest change first", "base rate",
+	"base model alone", "fine-tuned from the base model"
 };
 static const char *const method_colors[OMEN_EV_NMETHODS] = {
-	"#d62728", "#1f77b4", "#2ca02c", "#ff7f0e", "#9467bd", "#7f7f7f"
+	"#d62728", "#1f77b4", "#2ca02c", "#ff7f0e", "#9467bd", "#7f7f7f", "#8c564b", "#e377c2"
 };
+/* Tables list the five side by side first (issue 11), then the references. */
+static const int method_order[OMEN_EV_NMETHODS] = {
+	OMEN_EV_PRETRAINED, OMEN_EV_TUNED, OMEN_EV_MODEL, OMEN_EV_LR, OMEN_EV_LA,
+	OMEN_EV_DENSITY, OMEN_EV_SMALL, OMEN_EV_BASE
+};
+static const char no_base[] = "no base model";
+
+/* A method without figures in r: one that needs a base model, run without. */
+static int absent(const omen_eval_result *r, int m)
+{
+	return omen_eval_needs_base(m) && !r->has_base;
+}
 
 static const char advisory[] = "scores are advisory: a probability learned from this "
 	"repository's own fixes, not a verdict";
@@ -69,13 +82,17 @@ static void json_method(omen_buf *b, const omen_method_scores *m)
 	omen_buf_puts(b, "}");
 }
 
-static void json_methods(omen_buf *b, const omen_method_scores *ms)
+/* Every method; null for one that needs the base model when there is none. */
+static void json_methods(omen_buf *b, const omen_eval_result *r, const omen_method_scores *ms)
 {
 	int m;
 	omen_buf_puts(b, "{");
 	for (m = 0; m < OMEN_EV_NMETHODS; m++) {
 		omen_buf_printf(b, "%s\"%s\":", m ? "," : "", omen_eval_method_names[m]);
-		json_method(b, &ms[m]);
+		if (absent(r, m))
+			omen_buf_puts(b, "null");
+		else
+			json_method(b, &ms[m]);
 	}
 	omen_buf_puts(b, "}");
 }
@@ -93,7 +110,12 @@ int omen_eval_write_json(omen_buf *out, const omen_eval_result *r)
 		r->n_commits, r->n_labelled, r->nfolds, (long long)r->gap_days,
 		(long long)r->fold_days, r->bootstrap, (unsigned long long)r->seed);
 	jnum(b, "seconds", r->seconds, 1);
-	omen_buf_puts(b, "\"folds\":[");
+	omen_buf_puts(b, "\"base_model_file\":");
+	if (r->has_base)
+		omen_buf_put_json_string(b, r->base_path, strlen(r->base_path));
+	else
+		omen_buf_puts(b, "null");
+	omen_buf_puts(b, ",\"folds\":[");
 	for (k = 0; k < r->nfolds; k++) {
 		const omen_fold_result *f = &r->folds[k];
 		omen_format_date(d1, f->fold.train_end);
@@ -110,12 +132,12 @@ int omen_eval_write_json(omen_buf *out, const omen_eval_result *r)
 		jnum(b, "seconds", f->seconds, 1);
 		jnum(b, "top_effort_share", f->top_effort_share, 1);
 		omen_buf_printf(b, "\"top_effort_commit\":\"%s\",\"methods\":", f->top_effort_id);
-		json_methods(b, f->m);
+		json_methods(b, r, f->m);
 		omen_buf_puts(b, "}");
 	}
 	omen_buf_printf(b, "],\"pooled\":{\"n\":%zu,\"positives\":%zu,\"methods\":",
 		r->pooled[0].n, r->pooled[0].positives);
-	json_methods(b, r->pooled);
+	json_methods(b, r, r->pooled);
 	if (r->seeds.n > 1) {
 		int m, q;
 		omen_buf_printf(b, "},\"seeds\":{\"n\":%d,\"first\":%llu,\"methods\":{", r->seeds.n,
@@ -198,14 +220,19 @@ static void text_method_row(omen_buf *b, const char *name, const omen_method_sco
 		omen_buf_printf(b, "%7s\n", "n/a");
 }
 
-static void text_method_table(omen_buf *b, const omen_method_scores *ms)
+static void text_method_table(omen_buf *b, const omen_eval_result *r, const omen_method_scores *ms)
 {
-	int m;
+	int i;
 	omen_buf_printf(b, "%-16s%6s %-13s%7s%8s%7s%7s%7s%7s%7s%8s%8s%7s%8s%7s\n", "method", "auc",
 		"[95% ci]", "ap", "brier", "ece", "prec", "rec", "f1", "mcc", "r@20%e", "e@20%r", "popt",
 		"c@20%e", "fa1st");
-	for (m = 0; m < OMEN_EV_NMETHODS; m++)
-		text_method_row(b, omen_eval_method_names[m], &ms[m]);
+	for (i = 0; i < OMEN_EV_NMETHODS; i++) {
+		int m = method_order[i];
+		if (absent(r, m))
+			omen_buf_printf(b, "%-16s%6s\n", omen_eval_method_names[m], no_base);
+		else
+			text_method_row(b, omen_eval_method_names[m], &ms[m]);
+	}
 	omen_buf_printf(b, "(brier of the base rate on these commits: ");
 	tnum(b, ms[OMEN_EV_BASE].brier_base, "%*.4f", 1);
 	omen_buf_puts(b, ")\n");
@@ -220,9 +247,19 @@ int omen_eval_write_text(omen_buf *out, const omen_eval_result *r)
 		"before each; %zu of %zu commits labelled; training labels as known when each test "
 		"window opens\n", r->nfolds, (long long)r->fold_days, (long long)r->gap_days,
 		r->n_labelled, r->n_commits);
-	omen_buf_printf(b, "%s\n\n", advisory);
-	omen_buf_printf(b, "%-5s%-23s%7s%7s%6s%7s %-13s%8s%8s%8s\n", "fold", "test window", "train",
-		"test", "pos", "auc", "[95% ci]", "auc-lr", "auc-la", "seconds");
+	omen_buf_printf(b, "%s\n", advisory);
+	if (r->has_base) {
+		omen_buf_puts(b, "base model: ");
+		omen_buf_puts_shown(b, r->base_path, 0);
+		omen_buf_puts(b, " (base_model: alone, standardized on each fold's training split; "
+			"fine_tuned: from it; model: from scratch)\n\n");
+	} else {
+		omen_buf_puts(b, "base model: none found (omen.baseModel, the installed one or --from "
+			"<file>): the base_model and fine_tuned columns say \"no base model\"\n\n");
+	}
+	omen_buf_printf(b, "%-5s%-23s%7s%7s%6s%7s %-13s%8s%8s%8s%8s%8s\n", "fold", "test window",
+		"train", "test", "pos", "auc", "[95% ci]", "auc-bm", "auc-ft", "auc-lr", "auc-la",
+		"seconds");
 	for (k = 0; k < r->nfolds; k++) {
 		const omen_fold_result *f = &r->folds[k];
 		const omen_method_scores *m = &f->m[OMEN_EV_MODEL];
@@ -235,6 +272,8 @@ int omen_eval_write_text(omen_buf *out, const omen_eval_result *r)
 			omen_buf_printf(b, " %-13s", "");
 		else
 			omen_buf_printf(b, " [%.3f-%.3f]", m->auc_lo, m->auc_hi);
+		tnum(b, absent(r, OMEN_EV_PRETRAINED) ? NAN : f->m[OMEN_EV_PRETRAINED].auc, "%*.3f", 8);
+		tnum(b, absent(r, OMEN_EV_TUNED) ? NAN : f->m[OMEN_EV_TUNED].auc, "%*.3f", 8);
 		tnum(b, f->m[OMEN_EV_LR].auc, "%*.3f", 8);
 		tnum(b, f->m[OMEN_EV_LA].auc, "%*.3f", 8);
 		tnum(b, f->seconds, "%*.1f", 8);
@@ -243,9 +282,9 @@ int omen_eval_write_text(omen_buf *out, const omen_eval_result *r)
 	}
 	omen_buf_printf(b, "\npooled over the folds: %zu test commits, %zu inducing\n",
 		r->pooled[0].n, r->pooled[0].positives);
-	text_method_table(b, r->pooled);
+	text_method_table(b, r, r->pooled);
 	if (r->seeds.n > 1) {
-		int m, q;
+		int m, q, mi;
 		static const int cols[] = {OMEN_SPREAD_AUC, OMEN_SPREAD_AP, OMEN_SPREAD_BRIER,
 			OMEN_SPREAD_POPT, OMEN_SPREAD_R20};
 		static const char *const heads[] = {"auc", "ap", "brier", "popt", "r@20%e"};
@@ -257,8 +296,13 @@ int omen_eval_write_text(omen_buf *out, const omen_eval_result *r)
 		for (q = 0; q < 5; q++)
 			omen_buf_printf(b, "  %-27s", heads[q]);
 		omen_buf_puts(b, "\n");
-		for (m = 0; m < OMEN_EV_NMETHODS; m++) {
+		for (mi = 0; mi < OMEN_EV_NMETHODS; mi++) {
+			m = method_order[mi];
 			omen_buf_printf(b, "%-16s", omen_eval_method_names[m]);
+			if (absent(r, m)) {
+				omen_buf_printf(b, "  %s\n", no_base);
+				continue;
+			}
 			for (q = 0; q < 5; q++) {
 				const omen_spread *x = &r->seeds.m[m][cols[q]];
 				char cell[64];
@@ -280,6 +324,9 @@ int omen_eval_write_text(omen_buf *out, const omen_eval_result *r)
 	omen_buf_puts(b, "r@20%e recall at 20% effort, e@20%r effort at 20% recall, c@20%e share "
 		"of commits inspected at 20% effort, fa1st false alarms before the first hit; "
 		"effort = lines added + deleted\n");
+	omen_buf_puts(b, "base_model scores as the base model comes (auc, ap, threshold at max F1 "
+		"on the validation slice); its brier and ece after a Platt scaling fitted on each "
+		"fold's validation slice; auc-bm, auc-ft per fold: base_model, fine_tuned\n");
 	omen_buf_puts(b, "base_rate is one constant per fold (its training share of inducing "
 		"commits): within a fold it ties every commit, so its AUC is 0.5 and its ranking, ties "
 		"broken smaller change first, is that of smallest_first; pooled, it ranks the folds by "
@@ -303,6 +350,7 @@ int omen_eval_write_text(omen_buf *out, const omen_eval_result *r)
 /* ---- HTML -------------------------------------------------------------------------- */
 typedef struct {
 	size_t n;
+	int has_base;
 	int *y;
 	double *effort;
 	double *score[OMEN_EV_NMETHODS];
@@ -322,6 +370,7 @@ static int pooled_collect(pooled_arrays *p, const omen_eval_result *r)
 	size_t k, n = 0, off = 0;
 	int m;
 	memset(p, 0, sizeof(*p));
+	p->has_base = r->has_base;
 	for (k = 0; k < r->nfolds; k++)
 		n += r->folds[k].fold.n_test;
 	p->n = n;
@@ -355,17 +404,21 @@ static void html_num(omen_buf *b, double v, const char *fmt)
 	}
 }
 
-static void html_method_table(omen_buf *b, const omen_method_scores *ms)
+static void html_method_table(omen_buf *b, const omen_eval_result *r, const omen_method_scores *ms)
 {
-	int m;
+	int m, i;
 	omen_buf_puts(b, "<table><tr><th>method</th><th>AUC</th><th>95% CI</th><th>AP</th>"
 		"<th>Brier</th><th>ECE</th><th>F1</th><th>MCC</th><th>Recall@20%Effort</th>"
 		"<th>Effort@20%Recall</th><th>Popt</th><th>commits at 20% effort</th>"
 		"<th>false alarms before first hit</th></tr>\n");
-	for (m = 0; m < OMEN_EV_NMETHODS; m++) {
-		const omen_method_scores *x = &ms[m];
+	for (i = 0; i < OMEN_EV_NMETHODS; i++) {
+		const omen_method_scores *x = &ms[m = method_order[i]];
 		omen_buf_printf(b, "<tr><td><span class=\"sw\" style=\"background:%s\"></span>%s</td>",
 			method_colors[m], method_titles[m]);
+		if (absent(r, m)) {
+			omen_buf_printf(b, "<td class=\"na\" colspan=\"12\">%s</td></tr>\n", no_base);
+			continue;
+		}
 		html_num(b, x->auc, "%.3f");
 		if (isnan(x->auc_lo))
 			omen_buf_puts(b, "<td class=\"na\">n/a</td>");
@@ -408,6 +461,8 @@ static int plot_roc(omen_buf *b, const pooled_arrays *p)
 		size_t k;
 		if (m == OMEN_EV_BASE || m == OMEN_EV_DENSITY)
 			continue;   /* a single point on the diagonal; an effort ordering, not a classifier */
+		if (omen_eval_needs_base(m) && !p->has_base)
+			continue;
 		k = omen_roc_curve(x, y, p->score[m], p->y, p->n);
 		svg_line(&sp, x, y, k, method_colors[m], NULL, m == OMEN_EV_MODEL ? 2.5 : 1.5,
 			method_titles[m]);
@@ -421,7 +476,7 @@ static int plot_roc(omen_buf *b, const pooled_arrays *p)
 static void plot_reliability(omen_buf *b, const pooled_arrays *p)
 {
 	svg_plot sp;
-	int ms[3] = {OMEN_EV_MODEL, OMEN_EV_LR, OMEN_EV_BASE}, i, j;
+	int ms[4] = {OMEN_EV_MODEL, OMEN_EV_LR, OMEN_EV_BASE, OMEN_EV_TUNED}, i, j;
 	svg_begin(&sp, b, "reliability", "Reliability diagram (10 bins)", "mean predicted probability",
 		"observed share inducing", 520, 420, 0, 1, 0, 1);
 	svg_axes(&sp, 5, 5, 0);
@@ -429,7 +484,7 @@ static void plot_reliability(omen_buf *b, const pooled_arrays *p)
 		double dx[2] = {0, 1}, dy[2] = {0, 1};
 		svg_line(&sp, dx, dy, 2, "#bbb", "4 3", 1, "perfect calibration");
 	}
-	for (i = 0; i < 3; i++) {
+	for (i = 0; i < (p->has_base ? 4 : 3); i++) {
 		size_t bn[10];
 		double bp[10], bt[10], r[10];
 		omen_ece(p->score[ms[i]], p->y, p->n, 10, bn, bp, bt);
@@ -474,6 +529,8 @@ static int plot_effort(omen_buf *b, const pooled_arrays *p)
 	for (m = 0; m < OMEN_EV_NMETHODS; m++) {
 		if (m == OMEN_EV_BASE)
 			continue;   /* all ties: the same order as smallest first */
+		if (omen_eval_needs_base(m) && !p->has_base)
+			continue;
 		k = omen_effort_curve(x, y, p->score[m], p->y, p->effort, p->n, 0);
 		svg_line(&sp, x, y, k, method_colors[m], NULL, m == OMEN_EV_MODEL ? 2.5 : 1.5,
 			method_titles[m]);
@@ -495,7 +552,7 @@ static int plot_folds(omen_buf *b, const omen_eval_result *r)
 	double *x = calloc(n ? n : 1, sizeof(double)), *y = calloc(n ? n : 1, sizeof(double));
 	double *lo = calloc(n ? n : 1, sizeof(double)), *hi = calloc(n ? n : 1, sizeof(double));
 	double xmin = 0, xmax = 1;
-	int m, ms[3] = {OMEN_EV_MODEL, OMEN_EV_LR, OMEN_EV_LA}, i;
+	int m, ms[5] = {OMEN_EV_MODEL, OMEN_EV_LR, OMEN_EV_LA, OMEN_EV_PRETRAINED, OMEN_EV_TUNED}, i;
 	if (!x || !y || !lo || !hi) {
 		free(x); free(y); free(lo); free(hi);
 		return OMEN_ENOMEM;
@@ -512,7 +569,7 @@ static int plot_folds(omen_buf *b, const omen_eval_result *r)
 		double dx[2] = {xmin, xmax}, dy[2] = {0.5, 0.5};
 		svg_line(&sp, dx, dy, 2, "#bbb", "4 3", 1, "chance (0.5)");
 	}
-	for (i = 0; i < 3; i++) {
+	for (i = 0; i < (r->has_base ? 5 : 3); i++) {
 		m = ms[i];
 		for (k = 0; k < n; k++) {
 			const omen_fold_result *f = &r->folds[k];
@@ -535,7 +592,7 @@ static int plot_folds(omen_buf *b, const omen_eval_result *r)
 /* The pooled figures over several seeds: mean, sd and range per method. */
 static void html_seeds(omen_buf *b, const omen_eval_result *r)
 {
-	int m, q;
+	int m, q, mi;
 	omen_buf_printf(b, "<h2>Pooled figures over %d seeds</h2>\n<p class=\"adv\">Training "
 		"and bootstrap seeds %llu to %llu on the same folds; the tables and plots are the "
 		"first seed's. Mean, sample standard deviation and range.</p>\n<table><tr>"
@@ -544,9 +601,15 @@ static void html_seeds(omen_buf *b, const omen_eval_result *r)
 	for (q = 0; q < OMEN_SPREAD_N; q++)
 		omen_buf_printf(b, "<th>%s</th>", omen_spread_names[q]);
 	omen_buf_puts(b, "</tr>\n");
-	for (m = 0; m < OMEN_EV_NMETHODS; m++) {
+	for (mi = 0; mi < OMEN_EV_NMETHODS; mi++) {
+		m = method_order[mi];
 		omen_buf_printf(b, "<tr><td><span class=\"sw\" style=\"background:%s\"></span>%s"
 			"</td>", method_colors[m], method_titles[m]);
+		if (absent(r, m)) {
+			omen_buf_printf(b, "<td class=\"na\" colspan=\"%d\">%s</td></tr>\n",
+				OMEN_SPREAD_N, no_base);
+			continue;
+		}
 		for (q = 0; q < OMEN_SPREAD_N; q++) {
 			const omen_spread *x = &r->seeds.m[m][q];
 			if (!x->n)
@@ -589,7 +652,8 @@ static void html_folds(omen_buf *b, const omen_eval_result *r)
 	size_t k;
 	omen_buf_puts(b, "<h2>Folds</h2>\n<table><tr><th>fold</th><th>trained before</th>"
 		"<th>test window</th><th>train</th><th>test</th><th>inducing</th><th>AUC model</th>"
-		"<th>95% CI</th><th>AUC LR</th><th>AUC lines added</th><th>largest commit's effort"
+		"<th>95% CI</th><th>AUC base model alone</th><th>AUC fine-tuned</th>"
+		"<th>AUC LR</th><th>AUC lines added</th><th>largest commit's effort"
 		"</th><th>seconds</th></tr>\n");
 	for (k = 0; k < r->nfolds; k++) {
 		const omen_fold_result *f = &r->folds[k];
@@ -605,6 +669,13 @@ static void html_folds(omen_buf *b, const omen_eval_result *r)
 			omen_buf_puts(b, "<td class=\"na\">n/a</td>");
 		else
 			omen_buf_printf(b, "<td>%.3f&ndash;%.3f</td>", m->auc_lo, m->auc_hi);
+		if (r->has_base) {
+			html_num(b, f->m[OMEN_EV_PRETRAINED].auc, "%.3f");
+			html_num(b, f->m[OMEN_EV_TUNED].auc, "%.3f");
+		} else {
+			omen_buf_printf(b, "<td class=\"na\">%s</td><td class=\"na\">%s</td>", no_base,
+				no_base);
+		}
 		html_num(b, f->m[OMEN_EV_LR].auc, "%.3f");
 		html_num(b, f->m[OMEN_EV_LA].auc, "%.3f");
 		html_num(b, 100 * f->top_effort_share, "%.0f%%");
@@ -648,9 +719,19 @@ int omen_eval_write_html(omen_buf *out, const omen_eval_result *r, const char *t
 		"resamples, seed %llu. Effort = lines added + deleted outside vendored and generated "
 		"paths.</p>\n", r->nfolds, (long long)r->gap_days, (long long)r->fold_days,
 		r->n_labelled, r->n_commits, r->bootstrap, (unsigned long long)r->seed);
+	omen_buf_puts(b, "<p>Base model: ");
+	if (r->has_base) {
+		svg_text_esc(b, r->base_path);
+		omen_buf_puts(b, ". <i>Base model alone</i> is its weights and calibration as they come, "
+			"standardized on each fold's training split, never trained on this repository "
+			"(Brier and ECE after a Platt scaling on the fold's validation slice); "
+			"<i>fine-tuned</i> starts from it on the fold's training split.</p>\n");
+	} else {
+		omen_buf_printf(b, "none found; its two columns say \"%s\".</p>\n", no_base);
+	}
 	omen_buf_printf(b, "<h2>Pooled test commits (%zu, %zu inducing)</h2>\n", p.n,
 		r->pooled[0].positives);
-	html_method_table(b, r->pooled);
+	html_method_table(b, r, r->pooled);
 	if (r->seeds.n > 1)
 		html_seeds(b, r);
 	omen_buf_puts(b, "<p class=\"adv\">Brier of the base rate on the same commits: ");

@@ -8,13 +8,31 @@
 #include "omen/error.h"
 
 const char *const omen_eval_method_names[OMEN_EV_NMETHODS] = {
-	"model", "lr_metrics", "lines_added", "model_per_line", "smallest_first", "base_rate"
+	"model", "lr_metrics", "lines_added", "model_per_line", "smallest_first", "base_rate",
+	"base_model", "fine_tuned"
 };
+
+int omen_eval_needs_base(int m)
+{
+	return m == OMEN_EV_PRETRAINED || m == OMEN_EV_TUNED;
+}
 
 /* Which methods output probabilities (Brier and ECE make sense). */
 static int is_prob(int m)
 {
-	return m == OMEN_EV_MODEL || m == OMEN_EV_LR || m == OMEN_EV_BASE;
+	return m == OMEN_EV_MODEL || m == OMEN_EV_LR || m == OMEN_EV_BASE ||
+		m == OMEN_EV_PRETRAINED || m == OMEN_EV_TUNED;
+}
+
+/* Every figure undefined: a method that needs a base model, run without. */
+static void method_undefined(omen_method_scores *ms, size_t n, size_t positives)
+{
+	memset(ms, 0, sizeof(*ms));
+	ms->n = n;
+	ms->positives = positives;
+	ms->auc = ms->auc_lo = ms->auc_hi = ms->ap = NAN;
+	ms->brier = ms->brier_base = ms->ece = ms->threshold = NAN;
+	ms->eff.recall_at_20 = ms->eff.effort_at_20 = ms->eff.popt = ms->eff.commits_at_20 = NAN;
 }
 
 int omen_eval_result_init(omen_eval_result *r, size_t nfolds)
@@ -57,8 +75,10 @@ static void fold_result_free(omen_fold_result *f)
 	free(f->effort);
 	free(f->time);
 	free(f->ids);
-	for (m = 0; m < OMEN_EV_NMETHODS; m++)
+	for (m = 0; m < OMEN_EV_NMETHODS; m++) {
 		free(f->score[m]);
+		free(f->calib[m]);
+	}
 }
 
 void omen_eval_result_free(omen_eval_result *r)
@@ -74,9 +94,11 @@ void omen_eval_result_free(omen_eval_result *r)
 	memset(r, 0, sizeof(*r));
 }
 
-/* Scores of one method on n commits; the classification is left alone. */
-static int score_method(omen_method_scores *ms, int m, const double *s, const int *y,
-	const double *effort, const double *base, size_t n, int resamples, uint64_t seed)
+/* Scores of one method on n commits; the classification is left alone.
+ * Brier and ECE read cal when given (else s). */
+static int score_method(omen_method_scores *ms, int m, const double *s, const double *cal,
+	const int *y, const double *effort, const double *base, size_t n, int resamples,
+	uint64_t seed)
 {
 	size_t i;
 	int rc;
@@ -90,8 +112,8 @@ static int score_method(omen_method_scores *ms, int m, const double *s, const in
 	ms->ap = omen_average_precision(s, y, n);
 	ms->brier_base = n ? omen_brier(base, y, n) : NAN;
 	if (is_prob(m) && n) {
-		ms->brier = omen_brier(s, y, n);
-		ms->ece = omen_ece(s, y, n, 10, NULL, NULL, NULL);
+		ms->brier = omen_brier(cal ? cal : s, y, n);
+		ms->ece = omen_ece(cal ? cal : s, y, n, 10, NULL, NULL, NULL);
 	} else {
 		ms->brier = NAN;
 		ms->ece = NAN;
@@ -105,7 +127,7 @@ int omen_eval_finish(omen_eval_result *r)
 	size_t k, i, total = 0, off;
 	int m, rc = 0;
 	int *py = NULL;
-	double *pe = NULL, *ps[OMEN_EV_NMETHODS] = {0};
+	double *pe = NULL, *ps[OMEN_EV_NMETHODS] = {0}, *pc[OMEN_EV_NMETHODS] = {0};
 	size_t cnt[OMEN_EV_NMETHODS][4];
 	int any_cls[OMEN_EV_NMETHODS];
 
@@ -119,8 +141,15 @@ int omen_eval_finish(omen_eval_result *r)
 		for (m = 0; m < OMEN_EV_NMETHODS; m++) {
 			omen_method_scores *ms = &f->m[m];
 			uint64_t seed = r->seed * 1000003u + k * 101u + (uint64_t)m;
-			if ((rc = score_method(ms, m, f->score[m], f->y, f->effort, f->score[OMEN_EV_BASE],
-				n, r->bootstrap, seed)) < 0)
+			if (omen_eval_needs_base(m) && !r->has_base) {
+				size_t i2, p2 = 0;
+				for (i2 = 0; i2 < n; i2++)
+					p2 += f->y[i2] != 0;
+				method_undefined(ms, n, p2);
+				continue;
+			}
+			if ((rc = score_method(ms, m, f->score[m], f->calib[m], f->y, f->effort,
+				f->score[OMEN_EV_BASE], n, r->bootstrap, seed)) < 0)
 				goto out;
 			if (ms->has_cls) {
 				ms->cls = omen_classify_at(f->score[m], f->y, n, ms->threshold);
@@ -166,8 +195,13 @@ int omen_eval_finish(omen_eval_result *r)
 		goto out;
 	}
 	for (m = 0; m < OMEN_EV_NMETHODS; m++) {
+		int any = 0;
+		for (k = 0; k < r->nfolds; k++)
+			any |= r->folds[k].calib[m] != NULL;
 		ps[m] = malloc((total ? total : 1) * sizeof(double));
-		if (!ps[m]) {
+		if (any)
+			pc[m] = malloc((total ? total : 1) * sizeof(double));
+		if (!ps[m] || (any && !pc[m])) {
 			rc = omen_error_set(OMEN_ENOMEM, "cannot pool %zu test commits: out of memory", total);
 			goto out;
 		}
@@ -178,14 +212,25 @@ int omen_eval_finish(omen_eval_result *r)
 		size_t n = f->fold.n_test;
 		memcpy(py + off, f->y, n * sizeof(*py));
 		memcpy(pe + off, f->effort, n * sizeof(*pe));
-		for (m = 0; m < OMEN_EV_NMETHODS; m++)
+		for (m = 0; m < OMEN_EV_NMETHODS; m++) {
 			memcpy(ps[m] + off, f->score[m], n * sizeof(double));
+			if (pc[m])   /* a fold without its own calibration: its scores */
+				memcpy(pc[m] + off, f->calib[m] ? f->calib[m] : f->score[m],
+					n * sizeof(double));
+		}
 		off += n;
 	}
 	for (m = 0; m < OMEN_EV_NMETHODS; m++) {
 		omen_method_scores *ms = &r->pooled[m];
-		if ((rc = score_method(ms, m, ps[m], py, pe, ps[OMEN_EV_BASE], total, r->bootstrap,
-			r->seed * 1000003u + 99991u + (uint64_t)m)) < 0)
+		if (omen_eval_needs_base(m) && !r->has_base) {
+			size_t i2, p2 = 0;
+			for (i2 = 0; i2 < total; i2++)
+				p2 += py[i2] != 0;
+			method_undefined(ms, total, p2);
+			continue;
+		}
+		if ((rc = score_method(ms, m, ps[m], pc[m], py, pe, ps[OMEN_EV_BASE], total,
+			r->bootstrap, r->seed * 1000003u + 99991u + (uint64_t)m)) < 0)
 			goto out;
 		ms->has_cls = any_cls[m];
 		ms->threshold = NAN;   /* one per fold */
@@ -206,8 +251,10 @@ int omen_eval_finish(omen_eval_result *r)
 out:
 	free(py);
 	free(pe);
-	for (m = 0; m < OMEN_EV_NMETHODS; m++)
+	for (m = 0; m < OMEN_EV_NMETHODS; m++) {
 		free(ps[m]);
+		free(pc[m]);
+	}
 	return rc;
 }
 

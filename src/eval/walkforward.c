@@ -8,6 +8,7 @@
 #include <stdlib.h>
 #include <string.h>
 #include "omen/eval.h"
+#include "omen/base.h"
 #include "omen/error.h"
 #include "omen/label.h"
 
@@ -132,6 +133,105 @@ out:
 	return rc;
 }
 
+/* Logits of model m on samples idx[0..n) into lg, then each through the
+ * model's own calibration into p (when p). */
+static int fold_logits(float *lg, double *p, const omen_model *m, const omen_dataset *ds,
+	const size_t *idx, size_t n, int threads)
+{
+	size_t i;
+	int rc;
+	if (n && (rc = omen_model_logits(lg, m, ds, idx, n, threads)) < 0)
+		return rc;
+	for (i = 0; p && i < n; i++)
+		p[i] = omen_model_calibrated(m, lg[i]);
+	return 0;
+}
+
+/* The base model alone on fold k (issue 11): its weights and calibration
+ * as they come, with the standardization fitted on the fold's training
+ * split (the one rule, DEVELOPERS.md "Base model"). AUC and AP read its
+ * own probabilities; Brier and ECE read them recalibrated by a Platt
+ * scaling fitted on the fold's validation slice (labels as known at the
+ * cut), as a team would calibrate it before use. Threshold: max F1 on
+ * that slice, as for the baselines. */
+static int run_pretrained(omen_eval_result *r, size_t k, const omen_dataset *ds,
+	const omen_eval_opts *o)
+{
+	omen_fold_result *f = &r->folds[k];
+	omen_model *m = NULL;
+	size_t i, nv = f->fold.n_valid, nt = f->fold.n_test, c = (nv > nt ? nv : nt) + 1;
+	float *lg = malloc(c * sizeof(*lg));
+	double *vs = malloc(c * sizeof(*vs)), *vl = malloc(c * sizeof(*vl)), a = 1, b = 0;
+	int *vy = malloc(c * sizeof(*vy)), rc, own = 0;
+	f->calib[OMEN_EV_PRETRAINED] = malloc(c * sizeof(double));
+	if (!lg || !vs || !vl || !vy || !f->calib[OMEN_EV_PRETRAINED]) {
+		rc = omen_error_set(OMEN_ENOMEM, "cannot evaluate fold %zu: out of memory", k + 1);
+		goto out;
+	}
+	if ((rc = omen_model_base_on(&m, o->base, ds, f->fold.train_idx, f->fold.n_train)) < 0 ||
+	    (rc = fold_logits(lg, vs, m, ds, f->fold.valid_idx, nv, o->train.threads)) < 0)
+		goto out;
+	for (i = 0; i < nv; i++) {
+		vy[i] = f->fold.label_at_cut[f->fold.valid_idx[i]] > 0;
+		vl[i] = lg[i];
+	}
+	if (omen_platt_fit(&a, &b, vl, vy, nv) < 0 || a <= 0) {
+		own = 1;
+		omen_error_clear();
+		omen_buf_printf(&r->notes, "fold %zu: the base model could not be calibrated on the "
+			"validation slice (%zu commits), so its Brier and ECE read its own calibration\n",
+			k + 1, nv);
+	}
+	f->m[OMEN_EV_PRETRAINED].threshold = omen_best_f1_threshold(vs, vy, nv);
+	f->m[OMEN_EV_PRETRAINED].has_cls = 1;
+	if ((rc = fold_logits(lg, f->score[OMEN_EV_PRETRAINED], m, ds, f->fold.test_idx, nt,
+		o->train.threads)) < 0)
+		goto out;
+	for (i = 0; i < nt; i++)
+		f->calib[OMEN_EV_PRETRAINED][i] = own ? f->score[OMEN_EV_PRETRAINED][i] :
+			omen_platt_apply(a, b, lg[i]);
+out:
+	if (rc < 0)
+		rc = omen_error_wrap(rc, "fold %zu (the base model)", k + 1);
+	omen_model_free(m);
+	free(lg);
+	free(vs);
+	free(vl);
+	free(vy);
+	return rc;
+}
+
+/* Fine-tuned from the base model on fold k, as `train` does by default
+ * (train.init): the same training split, validation and calibration as
+ * the model from scratch. */
+static int run_tuned(omen_eval_result *r, size_t k, const omen_dataset *ds,
+	const omen_eval_opts *o)
+{
+	omen_fold_result *f = &r->folds[k];
+	omen_model *m = NULL;
+	omen_train_opts to = o->train;
+	float *lg = malloc((f->fold.n_test + 1) * sizeof(*lg));
+	int rc;
+	if (!lg)
+		return omen_error_set(OMEN_ENOMEM, "cannot evaluate fold %zu: out of memory", k + 1);
+	to.labels = f->fold.label_at_cut;
+	to.init = o->base;
+	if ((rc = omen_model_train_subset(&m, ds, f->fold.train_idx, f->fold.n_train,
+		f->fold.valid_idx, f->fold.n_valid, &to)) < 0) {
+		rc = omen_error_wrap(rc, "fold %zu (fine-tuning on %zu commits)", k + 1, f->fold.n_train);
+		goto out;
+	}
+	f->m[OMEN_EV_TUNED].threshold = omen_model_threshold(m);
+	f->m[OMEN_EV_TUNED].has_cls = 1;
+	if ((rc = fold_logits(lg, f->score[OMEN_EV_TUNED], m, ds, f->fold.test_idx,
+		f->fold.n_test, o->train.threads)) < 0)
+		rc = omen_error_wrap(rc, "fold %zu: cannot score the test commits", k + 1);
+out:
+	omen_model_free(m);
+	free(lg);
+	return rc;
+}
+
 static int run_fold(omen_eval_result *r, size_t k, const omen_dataset *ds,
 	const omen_eval_opts *o, const char *const *pat, size_t npat, size_t *risky_cap)
 {
@@ -214,6 +314,8 @@ static int run_fold(omen_eval_result *r, size_t k, const omen_dataset *ds,
 		f->n_excluded_effort += excl != 0;
 		partial += part != 0;
 	}
+	if (o->base && ((rc = run_pretrained(r, k, ds, o)) < 0 || (rc = run_tuned(r, k, ds, o)) < 0))
+		goto out;
 	if (partial)
 		omen_buf_printf(&r->notes, "fold %zu: %zu test commits were capped and touch excluded "
 			"paths, so their effort may include some excluded lines\n", k + 1, partial);
@@ -316,6 +418,9 @@ static int run_one(omen_eval_result *out, const omen_dataset *ds, const omen_eva
 	out->gap_days = nf ? (folds[0].test_start - folds[0].train_end) / 86400 : o->folds.gap_days;
 	out->fold_days = nf ? (folds[0].test_end - folds[0].test_start) / 86400 : 0;
 	out->n_commits = n;
+	out->has_base = o->base != NULL;
+	if (o->base_path)
+		snprintf(out->base_path, sizeof(out->base_path), "%s", o->base_path);
 	for (i = 0; i < n; i++)
 		out->n_labelled += y[i] >= 0;
 	for (k = 0; k < nf; k++) {

@@ -295,6 +295,27 @@ int omen_model_copy_weights(omen_model *dst, const omen_model *src)
 	return 0;
 }
 
+int omen_model_base_on(omen_model **out, const omen_model *base, const omen_dataset *ds,
+	const size_t *idx, size_t n)
+{
+	omen_model *m = NULL;
+	int e;
+	*out = NULL;
+	if ((e = omen_model_alloc(&m, base->D, base->C)))
+		return e;
+	if ((e = omen_model_copy_weights(m, base))) {
+		omen_model_free(m);
+		return e;
+	}
+	omen_model_fit_standardization(m, ds, idx, n);
+	m->caps = base->caps;
+	m->platt_a = base->platt_a;
+	m->platt_b = base->platt_b;
+	m->threshold = base->threshold;
+	*out = m;
+	return 0;
+}
+
 int omen_model_adopt_base(omen_model **out, const omen_model *base, const omen_dataset *ds)
 {
 	size_t n = omen_dataset_size(ds), i, nl = 0, pos = 0, *idx = NULL;
@@ -304,25 +325,16 @@ int omen_model_adopt_base(omen_model **out, const omen_model *base, const omen_d
 	*out = NULL;
 	if (!n)
 		return omen_error_set(OMEN_EINVAL, "cannot adopt the base model: no commits");
-	if ((e = omen_model_alloc(&m, base->D, base->C)))
-		return e;
-	if ((e = omen_model_copy_weights(m, base)))
-		goto out;
-	if (!(idx = malloc(n * sizeof(*idx)))) {
-		e = omen_error_set(OMEN_ENOMEM, "out of memory");
-		goto out;
-	}
+	if (!(idx = malloc(n * sizeof(*idx))))
+		return omen_error_set(OMEN_ENOMEM, "out of memory");
 	for (i = 0; i < n; i++) {
 		const omen_sample *s = omen_dataset_get(ds, i);
 		idx[i] = i;
 		nl += s->label >= 0;
 		pos += s->label > 0;
 	}
-	omen_model_fit_standardization(m, ds, idx, n);
-	m->caps = base->caps;
-	m->platt_a = base->platt_a;
-	m->platt_b = base->platt_b;
-	m->threshold = base->threshold;
+	if ((e = omen_model_base_on(&m, base, ds, idx, n)))
+		goto out;
 	if (omen_dataset_tip(ds))
 		memcpy(m->head, omen_dataset_tip(ds), sizeof(m->head));
 	else
