@@ -2,7 +2,12 @@
  * on stdin and prints omen's AUC, average precision, Brier, ECE and the 10
  * calibration bins (count, mean prediction, positive rate) one per line.
  * "eval_driver html FILE" writes the HTML report of a synthetic walk-forward
- * result (invented commits; for looking at the report without a model). */
+ * result (invented commits; for looking at the report without a model).
+ * "eval_driver pooled" reads "K" then per fold "n" and n lines "label s0 ..
+ * s7 cal" (one score per method, OMEN_EV_* order, then the base model's
+ * recalibrated probability), runs omen_eval_finish with a base model
+ * present and prints "pooled <method> auc ap brier ece" per method, the
+ * side-by-side figures eval reports (issue 11). */
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -93,6 +98,46 @@ static int synth_html(const char *path)
 	return rc ? 2 : 0;
 }
 
+static int pooled(void)
+{
+	omen_eval_result r;
+	size_t nf, k, i;
+	int m;
+	if (scanf("%zu", &nf) != 1 || !nf || omen_eval_result_init(&r, nf) < 0)
+		return 2;
+	r.bootstrap = 200;
+	r.has_base = 1;
+	snprintf(r.base_path, sizeof(r.base_path), "base.omen");
+	for (k = 0; k < nf; k++) {
+		omen_fold_result *f = &r.folds[k];
+		size_t n;
+		if (scanf("%zu", &n) != 1 || omen_eval_fold_alloc(f, n) < 0)
+			return 2;
+		f->fold.n_test = n;
+		if (!(f->calib[OMEN_EV_PRETRAINED] = malloc((n ? n : 1) * sizeof(double))))
+			return 2;
+		for (i = 0; i < n; i++) {
+			if (scanf("%d", &f->y[i]) != 1)
+				return 2;
+			for (m = 0; m < OMEN_EV_NMETHODS; m++)
+				if (scanf("%lf", &f->score[m][i]) != 1)
+					return 2;
+			if (scanf("%lf", &f->calib[OMEN_EV_PRETRAINED][i]) != 1)
+				return 2;
+			f->effort[i] = 1 + (double)(i % 7);
+		}
+	}
+	if (omen_eval_finish(&r) < 0)
+		return 2;
+	for (m = 0; m < OMEN_EV_NMETHODS; m++) {
+		const omen_method_scores *x = &r.pooled[m];
+		printf("pooled %s %.17g %.17g %.17g %.17g %.17g %.17g\n", omen_eval_method_names[m],
+			x->auc, x->ap, x->brier, x->ece, x->auc_lo, x->auc_hi);
+	}
+	omen_eval_result_free(&r);
+	return 0;
+}
+
 int main(int argc, char **argv)
 {
 	size_t n, i, bn[10];
@@ -100,6 +145,8 @@ int main(int argc, char **argv)
 	int *y, b;
 	if (argc == 3 && !strcmp(argv[1], "html"))
 		return synth_html(argv[2]);
+	if (argc == 2 && !strcmp(argv[1], "pooled"))
+		return pooled();
 	if (scanf("%zu", &n) != 1)
 		return 2;
 	p = malloc((n ? n : 1) * sizeof(*p));
