@@ -122,6 +122,39 @@ static int score_method(omen_method_scores *ms, int m, const double *s, const do
 	return 0;
 }
 
+/* Fold k's largest commit by effort, and its notes. */
+static void fold_notes(omen_eval_result *r, size_t k)
+{
+	omen_fold_result *f = &r->folds[k];
+	size_t n = f->fold.n_test, i, imax = 0;
+	double etot = 0, emax = 0;
+	for (i = 0; i < n; i++) {
+		etot += f->effort[i];
+		if (f->effort[i] > emax) {
+			emax = f->effort[i];
+			imax = i;
+		}
+	}
+	f->top_effort_share = etot > 0 ? emax / etot : 0;
+	if (n)
+		memcpy(f->top_effort_id, f->ids[imax], sizeof(f->top_effort_id));
+	if (f->top_effort_share > 0.10)
+		omen_buf_printf(&r->notes, "fold %zu: commit %.12s holds %.0f%% of the test "
+			"slice's effort (lines added + deleted outside excluded paths); "
+			"effort-aware figures of this fold lean on it\n",
+			k + 1, f->top_effort_id, 100 * f->top_effort_share);
+	if (f->fold.n_late)
+		omen_buf_printf(&r->notes, "fold %zu: %zu training commits inducing now were "
+			"fixed only after the test window opened: trained on as clean, as they were "
+			"known then\n", k + 1, f->fold.n_late);
+	if (n && f->m[OMEN_EV_MODEL].positives == 0)
+		omen_buf_printf(&r->notes, "fold %zu: no inducing commit among its %zu test "
+			"commits, so its auc and recall are undefined\n", k + 1, n);
+	else if (!n)
+		omen_buf_printf(&r->notes, "fold %zu: no labelled commit in its test window\n",
+			k + 1);
+}
+
 int omen_eval_finish(omen_eval_result *r)
 {
 	size_t k, i, total = 0, off;
@@ -136,8 +169,6 @@ int omen_eval_finish(omen_eval_result *r)
 	for (k = 0; k < r->nfolds; k++) {
 		omen_fold_result *f = &r->folds[k];
 		size_t n = f->fold.n_test;
-		double etot = 0, emax = 0;
-		size_t imax = 0;
 		for (m = 0; m < OMEN_EV_NMETHODS; m++) {
 			omen_method_scores *ms = &f->m[m];
 			uint64_t seed = r->seed * 1000003u + k * 101u + (uint64_t)m;
@@ -160,31 +191,7 @@ int omen_eval_finish(omen_eval_result *r)
 				any_cls[m] = 1;
 			}
 		}
-		for (i = 0; i < n; i++) {
-			etot += f->effort[i];
-			if (f->effort[i] > emax) {
-				emax = f->effort[i];
-				imax = i;
-			}
-		}
-		f->top_effort_share = etot > 0 ? emax / etot : 0;
-		if (n)
-			memcpy(f->top_effort_id, f->ids[imax], sizeof(f->top_effort_id));
-		if (f->top_effort_share > 0.10)
-			omen_buf_printf(&r->notes, "fold %zu: commit %.12s holds %.0f%% of the test "
-				"slice's effort (lines added + deleted outside excluded paths); "
-				"effort-aware figures of this fold lean on it\n",
-				k + 1, f->top_effort_id, 100 * f->top_effort_share);
-		if (f->fold.n_late)
-			omen_buf_printf(&r->notes, "fold %zu: %zu training commits inducing now were "
-				"fixed only after the test window opened: trained on as clean, as they were "
-				"known then\n", k + 1, f->fold.n_late);
-		if (n && f->m[OMEN_EV_MODEL].positives == 0)
-			omen_buf_printf(&r->notes, "fold %zu: no inducing commit among its %zu test "
-				"commits, so its auc and recall are undefined\n", k + 1, n);
-		else if (!n)
-			omen_buf_printf(&r->notes, "fold %zu: no labelled commit in its test window\n",
-				k + 1);
+		fold_notes(r, k);
 		total += n;
 	}
 	/* pooled: every fold's test commits scored by that fold's models */
