@@ -125,6 +125,25 @@ printf 'X' | dd of=flipped.omen bs=1 seek=300 conv=notrunc 2>/dev/null
 [ "$(wc -l <err)" -eq 1 ] && grep -q "^git omen: notice: cannot use base model 'flipped.omen': .*; training from scratch$" err ||
 	fail "flipped base notice: $(cat err)"
 ! grep -q "fine-tuned" out || fail "flipped base was used"
+# eval side by side (issue 11): the base model alone and fine-tuned from it
+# with a base; "no base model" without one; a damaged one is a notice
+ev="--folds 2 --fold-days 60 --epochs 2 --bootstrap 20"
+if "$OMEN" eval $ev --format json >ev0 2>everr; then
+	grep -q '"base_model_file":null' ev0 && grep -q '"base_model":null,"fine_tuned":null' ev0 ||
+		fail "eval without a base: $(head -c 300 ev0)"
+	"$OMEN" eval $ev >ev0.txt 2>/dev/null || fail "eval text without a base"
+	grep -q "^base_model *no base model$" ev0.txt && grep -q "^fine_tuned *no base model$" ev0.txt ||
+		fail "eval text without a base: $(cat ev0.txt)"
+	"$OMEN" eval $ev --from ../b1.omen --format json >ev1 2>everr || fail "eval --from: $(cat everr)"
+	grep -q '"base_model_file":"../b1.omen"' ev1 || fail "eval --from: no base file"
+	grep -q '"fine_tuned":null' ev1 && fail "eval --from: fine_tuned is null"
+	grep -q '"base_model":{"n":' ev1 || fail "eval --from: no base_model figures"
+	"$OMEN" eval $ev --from flipped.omen >ev2.txt 2>everr || fail "eval flipped base: $(cat everr)"
+	grep -q "^git omen: notice: cannot use base model 'flipped.omen': .*no base model" everr &&
+		grep -q "^base_model *no base model$" ev2.txt || fail "eval flipped base: $(cat everr)"
+else
+	fail "eval on r1: $(cat everr)"
+fi
 git config omen.baseModel ../b1.omen
 "$OMEN" train --scratch --epochs 2 --model ft3.omen >out 2>err || fail "--scratch: $(cat err)"
 ! grep -q "fine-tuned" out || fail "--scratch used the base model"
