@@ -252,7 +252,6 @@ typedef struct {
 	size_t named_dropped;      /* candidates dropped because their fix named its commit */
 	size_t fixes_insertion;    /* add-only fixes traced through the lines around their insertions */
 	size_t minor_dropped;      /* candidates under min_line_share of their fix's traced lines */
-	int unsharded;             /* under mpirun, rank 0 labelled alone (issue 13: fix-wide rules on) */
 	size_t beyond_horizon;     /* commits traced only by fixes later than the horizon */
 	int64_t horizon_days;      /* the horizon used, 0 = none */
 	size_t noncode_patterns;   /* globs in the non-code list */

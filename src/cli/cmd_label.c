@@ -302,10 +302,6 @@ int cmd_label(int argc, char **argv)
 	}
 	if (omen_mpi_rank())
 		goto done; /* rank 0 speaks for the run */
-	if (s.unsharded)
-		cli_notice("rank 0 labelled alone: --min-line-share and the insertion context decide on "
-			"all of a fix's files at once (with --min-line-share 0 --no-insertion-context the "
-			"ranks share the paths)");
 	if (s.list_unmatched)
 		cli_warning("%zu of %zu fix list entries matched no commit", s.list_unmatched,
 			s.list_entries);

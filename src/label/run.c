@@ -94,12 +94,13 @@ static int tree_ref(lbl_run *R, uint32_t ci, int delta)
 }
 
 /* ---- tracing callback ------------------------------------------------------ */
-static int add_cand(lbl_run *R, uint32_t origin)
+/* origin is behind lines more of the fix's lines. */
+static int add_cand_n(lbl_run *R, uint32_t origin, uint32_t lines)
 {
 	size_t i;
 	for (i = 0; i < R->ncand; i++) {
 		if (R->cand[i] == origin) {
-			R->cand_lines[i]++;
+			R->cand_lines[i] += lines;
 			return 0;
 		}
 	}
@@ -107,8 +108,13 @@ static int add_cand(lbl_run *R, uint32_t origin)
 	    OMEN_ARRAY_RESERVE(R->cand_lines, R->cand_lines_cap, R->ncand + 1))
 		return omen_error_set(OMEN_ENOMEM, "out of memory");
 	R->cand[R->ncand] = origin;
-	R->cand_lines[R->ncand++] = 1;
+	R->cand_lines[R->ncand++] = lines;
 	return 0;
+}
+
+static int add_cand(lbl_run *R, uint32_t origin)
+{
+	return add_cand_n(R, origin, 1);
 }
 
 static int line_cb(const omen_change *c, const omen_file *f, const omen_line *l,
@@ -458,6 +464,86 @@ static int link_named(lbl_run *R, long ci, char named[][OMEN_OID_HEX + 1], int n
 	return 0;
 }
 
+/* The decisions over all of fix ci's files, on R->cand (its traced
+ * candidates): an add-only fix (no traced line, lines = 0, and no absent
+ * file) takes the insertion context (issue 10), traced now from change c in
+ * one process, or, in a sharded pass on rank 0, given as the ranks' ins[0..
+ * nins) (lbl_shard_part); then the line share, the named commits' say, and
+ * the fix's pairs and counts. 0 or < 0. */
+static int decide_fix(lbl_run *R, uint32_t ci, int lines, int absent, const uint32_t *named_at,
+	int nat, const omen_change *c, const lbl_pair *ins, size_t nins)
+{
+	lbl_commit *cm = &R->cs[ci];
+	size_t k;
+	int e, i;
+	if (!cm->skipped && !lines && absent && !R->ncand) {
+		R->sum->fixes_absent++; /* its deleted lines cannot be read */
+	} else if (!cm->skipped && !lines && !R->ncand) {
+		R->sum->fixes_add_only++;
+		if (R->o->insertion_context && c && (e = trace_insertions(R, c)))
+			return e;
+		for (k = 0; R->o->insertion_context && k < nins; k++)
+			if ((e = add_cand_n(R, ins[k].ind, ins[k].lines)))
+				return e;
+		R->sum->fixes_insertion += R->ncand > 0;
+	}
+	if (R->o->min_line_share > 0 && R->ncand > 1 && (e = drop_minor(R)))
+		return e;
+	if (nat && R->o->named_decides) {
+		/* the name decides (issue 10): drop the fix's other candidates */
+		size_t keep = 0;
+		for (k = 0; k < R->ncand; k++) {
+			int hit = 0;
+			for (i = 0; i < nat; i++)
+				hit |= R->cand[k] == named_at[i];
+			if (hit) {
+				R->cand[keep] = R->cand[k];
+				R->cand_lines[keep++] = R->cand_lines[k];
+			}
+		}
+		R->sum->named_dropped += R->ncand - keep;
+		R->ncand = keep;
+	}
+	if (R->ncand)
+		R->sum->fixes_traced++;
+	for (k = 0; k < R->ncand; k++) {
+		uint32_t t = R->cand[k];
+		R->cs[t].traced += R->cand_lines[k];
+		R->sum->traced_lines += R->cand_lines[k];
+		if (OMEN_ARRAY_RESERVE(R->pairs, R->pairs_cap, R->npairs + 1))
+			return omen_error_set(OMEN_ENOMEM, "out of memory");
+		R->pairs[R->npairs++] = (lbl_pair){t, ci, R->cand_lines[k]};
+	}
+	return 0;
+}
+
+/* A sharded pass: keeps this rank's raw candidates of fix ci for rank 0
+ * (decide_shards). When this rank traced no line of the fix (lines = 0)
+ * and none of its files was absent, the insertion candidates of its files
+ * (view v) are kept too: rank 0 takes them if no other rank traced a line
+ * of the fix either. 0 or < 0. */
+static int keep_raw(lbl_run *R, const omen_change *v, uint32_t ci, int lines)
+{
+	size_t k;
+	int e;
+	for (k = 0; k < R->ncand; k++) {
+		if (OMEN_ARRAY_RESERVE(R->pairs, R->pairs_cap, R->npairs + 1))
+			return omen_error_set(OMEN_ENOMEM, "out of memory");
+		R->pairs[R->npairs++] = (lbl_pair){R->cand[k], ci, R->cand_lines[k]};
+	}
+	if (lines || R->ncand || R->cs[ci].skipped || R->cs[ci].absent || !R->o->insertion_context)
+		return 0;
+	if ((e = trace_insertions(R, v)))
+		return e;
+	for (k = 0; k < R->ncand; k++) {
+		if (OMEN_ARRAY_RESERVE(R->ins, R->ins_cap, R->nins + 1))
+			return omen_error_set(OMEN_ENOMEM, "out of memory");
+		R->ins[R->nins++] = (lbl_pair){R->cand[k], ci, R->cand_lines[k]};
+	}
+	R->ncand = 0;
+	return 0;
+}
+
 static int walk_cb(const omen_change *c, void *payload)
 {
 	lbl_run *R = payload;
@@ -504,7 +590,7 @@ static int walk_cb(const omen_change *c, void *payload)
 		R->sum->feature_only += info.feature_only;
 	}
 	if (by) {
-		size_t k, before = R->fix_lines_total;
+		size_t before = R->fix_lines_total;
 		cm->is_fix = 1;
 		cm->fix_by = by;
 		cm->issue_date = R->o->use_issue_dates ? omen_fix_issue_date(R->fr, &c->commit) : 0;
@@ -520,46 +606,15 @@ static int walk_cb(const omen_change *c, void *payload)
 		R->sum->fixes_skipped_large += cm->scope == OMEN_FIXSCOPE_LARGE;
 		R->sum->fixes_cosmetic += cm->scope == OMEN_FIXSCOPE_COSMETIC;
 		R->sum->fixes_noncode += cm->scope == OMEN_FIXSCOPE_NONCODE;
-		if (!cm->skipped && R->fix_lines_total == before && cm->absent && !R->ncand) {
-			R->sum->fixes_absent++; /* its deleted lines cannot be read */
-		} else if (!cm->skipped && R->fix_lines_total == before && !R->ncand) {
-			R->sum->fixes_add_only++;
-			if (R->o->insertion_context && (e = trace_insertions(R, c)))
+		if (R->sh) {
+			/* a sharded pass: this rank's raw candidates go to rank 0, which
+			 * decides the fix-wide rules over all of them (decide_shards) */
+			cm->sflags |= R->fix_lines_total != before ? LBL_SF_LINES : 0;
+			if ((e = keep_raw(R, v, (uint32_t)ci, R->fix_lines_total != before)))
 				return e;
-			R->sum->fixes_insertion += R->ncand > 0;
-		}
-		if (R->o->min_line_share > 0 && R->ncand > 1 && (e = drop_minor(R)))
+		} else if ((e = decide_fix(R, (uint32_t)ci, R->fix_lines_total != before, cm->absent,
+				named_at, nat, c, NULL, 0))) {
 			return e;
-		if (nat && R->o->named_decides) {
-			/* the name decides (issue 10): drop the fix's other candidates */
-			size_t keep = 0;
-			for (k = 0; k < R->ncand; k++) {
-				int hit = 0;
-				for (i = 0; i < nat; i++)
-					hit |= R->cand[k] == named_at[i];
-				if (hit) {
-					R->cand[keep] = R->cand[k];
-					R->cand_lines[keep++] = R->cand_lines[k];
-				} else if (R->sh) { /* counted once on rank 0 (gather_shards) */
-					if (OMEN_ARRAY_RESERVE(R->pairs, R->pairs_cap, R->npairs + 1))
-						return omen_error_set(OMEN_ENOMEM, "out of memory");
-					R->pairs[R->npairs++] = (lbl_pair){R->cand[k], (uint32_t)ci, LBL_PAIR_DROPPED};
-				}
-			}
-			R->sum->named_dropped += R->ncand - keep;
-			R->ncand = keep;
-		}
-		if (R->ncand)
-			R->sum->fixes_traced++;
-		cm->sflags |= (R->ncand ? LBL_SF_CAND : 0) |
-			(R->fix_lines_total != before ? LBL_SF_LINES : 0);
-		for (k = 0; k < R->ncand; k++) {
-			uint32_t t = R->cand[k];
-			R->cs[t].traced += R->cand_lines[k];
-			R->sum->traced_lines += R->cand_lines[k];
-			if (OMEN_ARRAY_RESERVE(R->pairs, R->pairs_cap, R->npairs + 1))
-				return omen_error_set(OMEN_ENOMEM, "out of memory");
-			R->pairs[R->npairs++] = (lbl_pair){t, (uint32_t)ci, R->cand_lines[k]};
 		}
 		if (R->dump)
 			flush_dump(R, c->commit.hex);
@@ -843,59 +898,88 @@ out:
  * memory) propose to judge SZZ output by. */
 /* ---- a path-sharded pass (issue 13) -------------------------------------------
  * Every rank has the same commits, fixes, named links and skipped fixes;
- * what depends on the files is this rank's share: traced lines per commit,
- * the absent-blob and per-fix flags, the traced pairs and five counters.
- * Rank 0 adds the other ranks' shares to its own (label/shard.c) and counts
- * the per-fix outcomes again from the combined flags, as walk_cb does. */
+ * what depends on the files is this rank's share: the absent-blob and
+ * traced-lines flags per commit, each fix's raw candidates (and insertion
+ * candidates) and four counters. Rank 0 adds the other ranks' shares to its
+ * own (label/shard.c) and then decides every fix as walk_cb does in one
+ * process (decide_shards), so the rules that look at all of a fix's files
+ * (the line share, the insertion context, the named commits' say) see the
+ * same candidates as there. */
+static int fix_cmp(const void *a, const void *b)
+{
+	const lbl_pair *x = a, *y = b;
+	if (x->fix != y->fix)
+		return x->fix < y->fix ? -1 : 1;
+	if (x->ind != y->ind)
+		return x->ind < y->ind ? -1 : 1;
+	return (x->lines != 0) - (y->lines != 0);
+}
+
+/* Rank 0, after the gather: R->pairs holds every fix's named pairs and
+ * summed raw candidates, R->ins the insertion candidates, flags[] the
+ * combined LBL_SF_*; replaces R->pairs with the decided pairs. */
+static int decide_shards(lbl_run *R, const uint8_t *flags)
+{
+	lbl_pair *raw = R->pairs;
+	size_t nraw = R->npairs, pi = 0, ii = 0, i;
+	int e = 0;
+	R->pairs = NULL;
+	R->npairs = R->pairs_cap = 0;
+	if (nraw)
+		qsort(raw, nraw, sizeof(*raw), fix_cmp);
+	if (R->nins)
+		qsort(R->ins, R->nins, sizeof(*R->ins), fix_cmp);
+	for (i = 0; i < R->n && !e; i++) {
+		uint32_t named_at[MAX_NAMED];
+		size_t i0;
+		int nat = 0;
+		R->cs[i].absent = (flags[i] & LBL_SF_ABSENT) != 0;
+		if (!R->cs[i].is_fix)
+			continue;
+		R->ncand = 0;
+		for (; pi < nraw && raw[pi].fix == i; pi++) {
+			if (raw[pi].lines) {
+				e = add_cand_n(R, raw[pi].ind, raw[pi].lines);
+			} else if (OMEN_ARRAY_RESERVE(R->pairs, R->pairs_cap, R->npairs + 1)) {
+				e = omen_error_set(OMEN_ENOMEM, "out of memory");
+			} else {
+				R->pairs[R->npairs++] = raw[pi]; /* a named pair, as link_named made it */
+				if (nat < MAX_NAMED)
+					named_at[nat++] = raw[pi].ind;
+			}
+			if (e)
+				break;
+		}
+		for (i0 = ii; ii < R->nins && R->ins[ii].fix == i; ii++)
+			;
+		if (!e)
+			e = decide_fix(R, (uint32_t)i, (flags[i] & LBL_SF_LINES) != 0, R->cs[i].absent,
+				named_at, nat, NULL, R->ins + i0, ii - i0);
+	}
+	free(raw);
+	return e;
+}
+
 static int gather_shards(lbl_run *R)
 {
 	omen_label_summary *s = R->sum;
-	uint64_t cnt[5] = {s->traced_lines, s->untraced_missing, s->files_absent, s->file_changes,
-		s->noncode_lines};
-	uint32_t *traced = malloc((R->n ? R->n : 1) * sizeof(*traced));
 	uint8_t *flags = malloc(R->n ? R->n : 1);
-	size_t i, k;
+	lbl_shard_part io = {flags, R->n, &R->pairs, &R->npairs, &R->pairs_cap, &R->ins, &R->nins,
+		&R->ins_cap, {s->untraced_missing, s->files_absent, s->file_changes, s->noncode_lines}};
+	size_t i;
 	int e;
-	if (!traced || !flags) {
-		free(traced);
-		free(flags);
+	if (!flags)
 		return omen_error_set(OMEN_ENOMEM, "out of memory");
-	}
-	for (i = 0; i < R->n; i++) {
-		traced[i] = R->cs[i].traced;
+	for (i = 0; i < R->n; i++)
 		flags[i] = (uint8_t)(R->cs[i].sflags | (R->cs[i].absent ? LBL_SF_ABSENT : 0));
-	}
-	e = lbl_shard_gather(R->sh, R->o, traced, flags, R->n, &R->pairs, &R->npairs, &R->pairs_cap,
-		cnt, 5);
+	e = lbl_shard_gather(R->sh, R->o, &io);
 	if (!e && R->sh->part == 0) {
-		s->traced_lines = (size_t)cnt[0];
-		s->untraced_missing = (size_t)cnt[1];
-		s->files_absent = (size_t)cnt[2];
-		s->file_changes = (size_t)cnt[3];
-		s->noncode_lines = (size_t)cnt[4];
-		s->fixes_traced = s->fixes_add_only = s->fixes_absent = s->named_dropped = 0;
-		for (i = 0, k = 0; i < R->npairs; i++) {
-			if (R->pairs[i].lines == LBL_PAIR_DROPPED)
-				s->named_dropped++;
-			else
-				R->pairs[k++] = R->pairs[i];
-		}
-		R->npairs = k;
-		for (i = 0; i < R->n; i++) {
-			lbl_commit *c = &R->cs[i];
-			unsigned f = flags[i];
-			c->traced = traced[i];
-			c->absent = (f & LBL_SF_ABSENT) != 0;
-			if (!c->is_fix || c->skipped)
-				continue;
-			s->fixes_traced += (f & LBL_SF_CAND) != 0;
-			if (!(f & LBL_SF_LINES) && (f & LBL_SF_ABSENT) && !(f & LBL_SF_CAND))
-				s->fixes_absent++;
-			else if (!(f & LBL_SF_LINES))
-				s->fixes_add_only += !(f & LBL_SF_CAND);
-		}
+		s->untraced_missing = (size_t)io.counters[0];
+		s->files_absent = (size_t)io.counters[1];
+		s->file_changes = (size_t)io.counters[2];
+		s->noncode_lines = (size_t)io.counters[3];
+		e = decide_shards(R, flags);
 	}
-	free(traced);
 	free(flags);
 	return e;
 }
@@ -1114,6 +1198,7 @@ static void free_run(lbl_run *R)
 	free(R->pairs);
 	free(R->cand);
 	free(R->cand_lines);
+	free(R->ins);
 	free(R->dent);
 	free(R->minor);
 	omen_buf_free(&R->path);
@@ -1161,18 +1246,6 @@ static int start_shard(lbl_run *R, lbl_shard *shard)
 	lbl_shard_init(shard, o->part, o->parts, o->follow_renames);
 	R->sh = shard;
 	return 0;
-}
-
-/* The issue 10 rules that decide on all of a fix's files at once (the share
- * of its traced lines; insertions when no file had a deleted line) are on:
- * no rank sees those alone, so rank 0 labels as one process. Returns 1 on
- * the other ranks (they have nothing to do). */
-static int unshard(lbl_run *R)
-{
-	R->sum->unsharded = 1;
-	lbl_shard_free(R->sh);
-	R->sh = NULL;
-	return R->o->part != 0;
 }
 
 /* The history only grew: restores the saved state (sp gets its path) into
@@ -1223,8 +1296,6 @@ int omen_label_run(omen_label_summary *sum, omen_repo *r, const omen_label_opts 
 		goto out;
 	if ((e = read_limits(&o, r)) || (e = read_rule_config(&o, r, &cfg_cosmetic, &cfg_noncode)))
 		goto out;
-	if (R.sh && (o.min_line_share > 0 || o.insertion_context) && unshard(&R))
-		goto out; /* e is 0: not rank 0, nothing to do */
 	pattern = o.fix_pattern ? o.fix_pattern : cfg_pattern;
 	list = o.fix_list ? o.fix_list : cfg_list;
 	if ((e = make_rules(&R, pattern, list)))

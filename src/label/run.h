@@ -72,6 +72,8 @@ typedef struct {
 	size_t ntips;
 	char old_head[OMEN_OID_HEX + 1]; /* head of the previous labels */
 	lbl_shard *sh;          /* a path-sharded pass (issue 13), NULL: every path */
+	lbl_pair *ins;          /* a sharded pass: insertion candidates (lbl_shard_part) */
+	size_t nins, ins_cap;
 } lbl_run;
 
 /* The walk index of commit id, -1 when the pass does not hold it. */

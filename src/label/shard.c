@@ -95,72 +95,85 @@ static int pair_key_cmp(const void *a, const void *b)
 		return x->ind < y->ind ? -1 : 1;
 	if (x->fix != y->fix)
 		return x->fix < y->fix ? -1 : 1;
-	/* named pairs (0 lines) first, then traced ones, then dropped ones */
-	int cx = !x->lines ? 0 : x->lines == LBL_PAIR_DROPPED ? 2 : 1;
-	int cy = !y->lines ? 0 : y->lines == LBL_PAIR_DROPPED ? 2 : 1;
-	return cx - cy;
+	/* named pairs (0 lines) before traced ones */
+	return (x->lines != 0) - (y->lines != 0);
 }
 
-/* This rank's results: counters, n, traced[n], flags[n], the pairs with lines. */
-static int pack(omen_buf *b, const uint32_t *traced, const uint8_t *flags, size_t n,
-	const lbl_pair *pairs, size_t npairs, const uint64_t *counters, int ncounters)
+/* Appends the pairs with lines of p[0..np) to b: u64 count, then u32
+ * inducing, fix, lines each. */
+static int pack_pairs(omen_buf *b, const lbl_pair *p, size_t np)
 {
-	size_t i, np = 0;
+	size_t i, m = 0;
+	int e;
+	for (i = 0; i < np; i++)
+		m += p[i].lines != 0;
+	e = omen_buf_put_u64le(b, m);
+	for (i = 0; i < np && !e; i++)
+		if (p[i].lines)
+			e = omen_buf_put_u32le(b, p[i].ind) || omen_buf_put_u32le(b, p[i].fix) ||
+				omen_buf_put_u32le(b, p[i].lines) ? OMEN_ENOMEM : 0;
+	return e;
+}
+
+/* This rank's results: counters, n, flags[n], the traced candidates, the
+ * insertion candidates. */
+static int pack(omen_buf *b, const lbl_shard_part *in)
+{
+	size_t i;
 	int e = 0;
-	for (i = 0; i < (size_t)ncounters && !e; i++)
-		e = omen_buf_put_u64le(b, counters[i]);
-	e = e ? e : omen_buf_put_u64le(b, n);
-	for (i = 0; i < n && !e; i++)
-		e = omen_buf_put_u32le(b, traced[i]);
-	e = e ? e : omen_buf_put(b, flags, n);
-	for (i = 0; i < npairs; i++)
-		np += pairs[i].lines != 0;
-	e = e ? e : omen_buf_put_u64le(b, np);
-	for (i = 0; i < npairs && !e; i++)
-		if (pairs[i].lines)
-			e = omen_buf_put_u32le(b, pairs[i].ind) || omen_buf_put_u32le(b, pairs[i].fix) ||
-				omen_buf_put_u32le(b, pairs[i].lines) ? OMEN_ENOMEM : 0;
+	for (i = 0; i < LBL_SHARD_COUNTERS && !e; i++)
+		e = omen_buf_put_u64le(b, in->counters[i]);
+	e = e ? e : omen_buf_put_u64le(b, in->n);
+	e = e ? e : omen_buf_put(b, in->flags, in->n);
+	e = e ? e : pack_pairs(b, *in->pairs, *in->npairs);
+	e = e ? e : pack_pairs(b, *in->ins, *in->nins);
 	return e ? omen_error_set(OMEN_ENOMEM, "out of memory") : 0;
 }
 
+/* Reads one packed pair list (indices below n, lines > 0) onto *p. 0, 1
+ * when malformed, or OMEN_ENOMEM. */
+static int unpack_pairs(omen_cursor *c, size_t n, lbl_pair **p, size_t *np, size_t *cap)
+{
+	uint64_t m;
+	uint32_t a, f, l;
+	size_t i;
+	if (omen_cursor_u64le(c, &m) || m > c->n / 12)
+		return 1;
+	if (OMEN_ARRAY_RESERVE(*p, *cap, *np + (size_t)m))
+		return omen_error_set(OMEN_ENOMEM, "out of memory");
+	for (i = 0; i < (size_t)m; i++) {
+		if (omen_cursor_u32le(c, &a) || omen_cursor_u32le(c, &f) || omen_cursor_u32le(c, &l) ||
+		    a >= n || f >= n || !l)
+			return 1;
+		(*p)[(*np)++] = (lbl_pair){a, f, l};
+	}
+	return 0;
+}
+
 /* Adds one other rank's packed results into rank 0's. */
-static int unpack_add(const void *data, size_t len, int rank, uint32_t *traced, uint8_t *flags,
-	size_t n, lbl_pair **pairs, size_t *npairs, size_t *pairs_cap, uint64_t *counters,
-	int ncounters)
+static int unpack_add(const void *data, size_t len, int rank, lbl_shard_part *io)
 {
 	omen_cursor c;
-	uint64_t u, m, np;
-	uint32_t t, a, f, l;
+	uint64_t u, m;
 	uint8_t fl;
 	size_t i;
+	int e;
 	omen_cursor_init(&c, data, len);
-	for (i = 0; i < (size_t)ncounters; i++) {
+	for (i = 0; i < LBL_SHARD_COUNTERS; i++) {
 		if (omen_cursor_u64le(&c, &u))
 			goto bad;
-		counters[i] += u;
+		io->counters[i] += u;
 	}
-	if (omen_cursor_u64le(&c, &m) || m != n)
+	if (omen_cursor_u64le(&c, &m) || m != io->n)
 		goto bad;
-	for (i = 0; i < n; i++) {
-		if (omen_cursor_u32le(&c, &t))
-			goto bad;
-		traced[i] += t;
-	}
-	for (i = 0; i < n; i++) {
+	for (i = 0; i < io->n; i++) {
 		if (omen_cursor_u8(&c, &fl))
 			goto bad;
-		flags[i] |= fl;
+		io->flags[i] |= fl;
 	}
-	if (omen_cursor_u64le(&c, &np) || np > c.n / 12)
-		goto bad;
-	if (OMEN_ARRAY_RESERVE(*pairs, *pairs_cap, *npairs + (size_t)np))
-		return omen_error_set(OMEN_ENOMEM, "out of memory");
-	for (i = 0; i < (size_t)np; i++) {
-		if (omen_cursor_u32le(&c, &a) || omen_cursor_u32le(&c, &f) || omen_cursor_u32le(&c, &l) ||
-		    a >= n || f >= n || !l)
-			goto bad;
-		(*pairs)[(*npairs)++] = (lbl_pair){a, f, l};
-	}
+	if ((e = unpack_pairs(&c, io->n, io->pairs, io->npairs, io->pairs_cap)) ||
+	    (e = unpack_pairs(&c, io->n, io->ins, io->nins, io->ins_cap)))
+		return e < 0 ? e : omen_error_set(OMEN_ECORRUPT, "rank %d's label results are malformed", rank);
 	if (c.err || c.n)
 		goto bad;
 	return 0;
@@ -168,17 +181,32 @@ bad:
 	return omen_error_set(OMEN_ECORRUPT, "rank %d's label results are malformed", rank);
 }
 
-int lbl_shard_gather(const lbl_shard *s, const omen_label_opts *o, uint32_t *traced,
-	uint8_t *flags, size_t n, lbl_pair **pairs, size_t *npairs, size_t *pairs_cap,
-	uint64_t *counters, int ncounters)
+/* Sorts p by (inducing, fix), named pairs first, and sums the lines of the
+ * traced pairs of one (inducing, fix): one pair, as one process makes it. */
+static void merge_pairs(lbl_pair *p, size_t *np)
+{
+	size_t i, k;
+	if (!*np)
+		return;
+	qsort(p, *np, sizeof(*p), pair_key_cmp);
+	for (i = 1, k = 0; i < *np; i++) {
+		if (p[k].ind == p[i].ind && p[k].fix == p[i].fix && p[k].lines && p[i].lines)
+			p[k].lines += p[i].lines;
+		else
+			p[++k] = p[i];
+	}
+	*np = k + 1;
+}
+
+int lbl_shard_gather(const lbl_shard *s, const omen_label_opts *o, lbl_shard_part *io)
 {
 	omen_buf b = OMEN_BUF_INIT;
 	void *all = NULL;
-	size_t *counts = NULL, off = 0, i, k;
+	size_t *counts = NULL, off = 0;
 	int e, r;
 	if (!o->gather)
 		return omen_error_set(OMEN_ERROR, "a sharded label pass needs a gather step");
-	if ((e = pack(&b, traced, flags, n, *pairs, *npairs, counters, ncounters)))
+	if ((e = pack(&b, io)))
 		goto out;
 	if (!(counts = calloc((size_t)s->parts, sizeof(*counts)))) {
 		e = omen_error_set(OMEN_ENOMEM, "out of memory");
@@ -190,24 +218,12 @@ int lbl_shard_gather(const lbl_shard *s, const omen_label_opts *o, uint32_t *tra
 		goto out;
 	off = counts[0]; /* rank 0's own bytes come first */
 	for (r = 1; r < s->parts; r++) {
-		if ((e = unpack_add((const char *)all + off, counts[r], r, traced, flags, n, pairs,
-				npairs, pairs_cap, counters, ncounters)))
+		if ((e = unpack_add((const char *)all + off, counts[r], r, io)))
 			goto out;
 		off += counts[r];
 	}
-	/* one traced pair per (inducing, fix), as one process makes it */
-	if (*npairs) {
-		qsort(*pairs, *npairs, sizeof(**pairs), pair_key_cmp);
-		for (i = 1, k = 0; i < *npairs; i++) {
-			lbl_pair *p = &(*pairs)[k], *q = &(*pairs)[i];
-			int pd = p->lines == LBL_PAIR_DROPPED, qd = q->lines == LBL_PAIR_DROPPED;
-			if (p->ind == q->ind && p->fix == q->fix && p->lines && q->lines && pd == qd)
-				p->lines = pd ? p->lines : p->lines + q->lines;
-			else
-				(*pairs)[++k] = *q;
-		}
-		*npairs = k + 1;
-	}
+	merge_pairs(*io->pairs, io->npairs);
+	merge_pairs(*io->ins, io->nins);
 out:
 	free(all);
 	free(counts);

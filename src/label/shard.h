@@ -6,8 +6,8 @@
  * with edits paired by rename.c) takes its old path's owner. Every rank sees
  * every tree diff and makes the same pairing decisions, so every rank keeps
  * the same owner map without talking to the others. At the end rank 0
- * gathers the other ranks' per-commit counts and (inducing, fix, lines)
- * pairs and combines them. */
+ * gathers the other ranks' per-commit flags and raw per-fix candidates and
+ * decides every fix over all of them (run.c, decide_shards). */
 #ifndef OMEN_LABEL_SHARD_H
 #define OMEN_LABEL_SHARD_H
 
@@ -18,10 +18,6 @@
 typedef struct {
 	uint32_t ind, fix, lines;
 } lbl_pair;
-
-/* lines of a sharded pass's placeholder pair: a candidate the fix's named
- * commits dropped (issue 10), counted once per (candidate, fix) on rank 0 */
-#define LBL_PAIR_DROPPED UINT32_MAX
 
 typedef struct lbl_shard {
 	int part, parts;      /* this rank, the number of ranks (parts > 1) */
@@ -51,17 +47,35 @@ const omen_change *lbl_shard_view(lbl_shard *s, const omen_change *c);
 /* Per-commit flags combined over the ranks (OR). */
 enum {
 	LBL_SF_ABSENT = 1,   /* a file change of this rank had an absent blob */
-	LBL_SF_CAND = 2,     /* a fix: this rank found candidates */
 	LBL_SF_LINES = 4     /* a fix: this rank traced lines */
 };
 
-/* Combines every rank's results on rank 0 through opts->gather: traced[i]
- * summed, flags[i] OR-ed, the pairs with lines (traced pairs; named pairs,
- * the same on every rank, are rank 0's own) appended and the pairs of one
- * (inducing, fix) summed, counters summed. Other ranks' arrays are left as
- * they are. Returns 0 or negative OMEN_E*. */
-int lbl_shard_gather(const lbl_shard *s, const omen_label_opts *o, uint32_t *traced,
-	uint8_t *flags, size_t n, lbl_pair **pairs, size_t *npairs, size_t *pairs_cap,
-	uint64_t *counters, int ncounters);
+/* The counters summed over the ranks: untraced_missing, files_absent,
+ * file_changes, noncode_lines. */
+#define LBL_SHARD_COUNTERS 4
+
+/* One rank's results of a sharded pass, and on rank 0 everyone's. The
+ * pairs are the fix's raw traced candidates (inducing, fix, lines; no rule
+ * that decides over a whole fix applied yet) and its named pairs (0 lines,
+ * the same on every rank: rank 0's own are kept, the others not sent); ins
+ * holds the insertion candidates a rank found for a fix of which it traced
+ * no line (issue 10's insertion context, used on rank 0 only when no rank
+ * traced a line of that fix). */
+typedef struct {
+	uint8_t *flags;             /* LBL_SF_* per commit */
+	size_t n;
+	lbl_pair **pairs;
+	size_t *npairs, *pairs_cap;
+	lbl_pair **ins;
+	size_t *nins, *ins_cap;
+	uint64_t counters[LBL_SHARD_COUNTERS];
+} lbl_shard_part;
+
+/* Combines every rank's results on rank 0 through opts->gather: flags
+ * OR-ed, the pairs and insertion candidates of the other ranks appended,
+ * sorted by (inducing, fix) and the lines of one (inducing, fix) summed,
+ * the counters summed. Other ranks' results are left as they are. Returns
+ * 0 or negative OMEN_E*. */
+int lbl_shard_gather(const lbl_shard *s, const omen_label_opts *o, lbl_shard_part *io);
 
 #endif

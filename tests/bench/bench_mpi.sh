@@ -21,15 +21,13 @@ EPOCHS=${EPOCHS:-4}
 # example of redis): one process with one diff thread (the reference), one
 # process with the default diff threads, and `mpirun -np 2` (one diff thread
 # per rank: the path filter walks in the calling thread); every run is a
-# full pass (--min-line-share 0 --no-insertion-context) and all three label
-# files must be byte-identical. Prints wall
+# full pass with the default rules (OMEN_BENCH_LABEL_OPTS adds options) and
+# all three label files must be byte-identical. Prints wall
 # and CPU seconds, the throughput ratio against the reference, and the peak
 # RSS of each rank (getrusage, OMEN_MPI_LOG) against the reference's. The
 # clone's omen.threads is set for the reference run and unset after it.
 if [ -n "$OMEN_BENCH_LABEL_REPO" ]; then
-	# the two issue 10 rules that decide on a whole fix are off: with them
-	# on, rank 0 labels alone (README "Beyond one machine")
-	LSH="--min-line-share 0 --no-insertion-context"
+	LSH=${OMEN_BENCH_LABEL_OPTS:-}
 	cd "$OMEN_BENCH_LABEL_REPO"
 	lrun() { # name, command...
 		name=$1; shift
