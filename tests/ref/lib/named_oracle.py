@@ -80,4 +80,5 @@ def main():
               % (" code" if only_code else "", p, r))
     return 0
 
-sys.exit(main())
+if __name__ == "__main__":
+    sys.exit(main())
