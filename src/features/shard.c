@@ -261,10 +261,113 @@ static int pread_all(int fd, void *p, size_t n, uint64_t off)
 	return 0;
 }
 
+/* The shard's header, read from hi[SH_HDR]: the caps and the tip into s,
+ * the sample count and the index offset out; NULL, or why it is unusable. */
+#define HBAD(why) return why
+static const char *parse_header(omen_shard *s, uint64_t *n_out, uint64_t *xoff_out,
+	const unsigned char *hi, uint64_t size)
+{
+	omen_cursor c;
+	const void *p;
+	uint64_t n, xoff;
+	uint32_t v, want[8] = {0}, got[8];
+	int j;
+
+	omen_cursor_init(&c, hi, SH_HDR);
+	if (omen_cursor_bytes(&c, &p, 8) || memcmp(p, SH_MAGIC, 8))
+		HBAD("not a shard");
+	if (omen_cursor_u32le(&c, &v) || v != OMEN_SHARD_VERSION)
+		HBAD("unsupported version");
+	omen_cursor_u32le(&c, &v);
+	omen_cursor_u64le(&c, &n);
+	omen_cursor_u64le(&c, &xoff);
+	if (xoff < SH_HDR || xoff % 8 || xoff > size ||
+		n > (size - xoff) / SH_IDX ||
+		xoff + n * SH_IDX + 4 != size)
+		HBAD("index out of bounds");
+	for (j = 0; j < 8; j++)
+		omen_cursor_u32le(&c, &got[j]);
+	want[4] = OMEN_NMETRICS; want[5] = OMEN_NFACTS; want[6] = OMEN_VOCAB; want[7] = OMEN_MSG_VOCAB;
+	for (j = 0; j < 4; j++)
+		if (got[j] == 0 || got[j] > INT32_MAX)
+			HBAD("bad caps");
+	for (j = 4; j < 8; j++)
+		if (got[j] != want[j])
+			HBAD("written with other metrics, file facts or vocabularies");
+	s->caps.max_files = (int32_t)got[0];
+	s->caps.max_hunks_per_file = (int32_t)got[1];
+	s->caps.max_tokens_per_hunk = (int32_t)got[2];
+	s->caps.max_msg_tokens = (int32_t)got[3];
+	if (omen_cursor_bytes(&c, &p, OMEN_OID_HEX))
+		HBAD("too short");
+	if (*(const unsigned char *)p) {
+		if (!is_hex40(p))
+			HBAD("bad tip");
+		memcpy(s->tip, p, OMEN_OID_HEX);
+	}
+	*n_out = n;
+	*xoff_out = xoff;
+	return NULL;
+}
+#undef HBAD
+
+/* The index of n samples (ix, n * SH_IDX bytes, checksum already checked)
+ * into s; the samples end at xoff. 0, 1 with *reason set when an entry is
+ * out of bounds, or OMEN_ENOMEM. */
+#define IBAD(why) do { *reason = why; return 1; } while (0)
+static int parse_index(omen_shard *s, const char **reason, const unsigned char *ix,
+	uint64_t n, uint64_t xoff)
+{
+	omen_cursor c;
+	uint64_t v64, prev_end = SH_HDR;
+	uint32_t v;
+	size_t i;
+	int j;
+
+	s->n = (size_t)n;
+	s->e = calloc(s->n ? s->n : 1, sizeof(*s->e));
+	s->off = calloc(s->n ? s->n : 1, sizeof(*s->off));
+	s->len = calloc(s->n ? s->n : 1, sizeof(*s->len));
+	s->crc = calloc(s->n ? s->n : 1, sizeof(*s->crc));
+	if (!s->e || !s->off || !s->len || !s->crc)
+		return omen_error_set(OMEN_ENOMEM, "out of memory");
+	omen_cursor_init(&c, ix, (size_t)(n * SH_IDX));
+	for (i = 0; i < s->n; i++) {
+		omen_shard_entry *en = &s->e[i];
+		uint32_t flags, pad;
+		int8_t lab;
+		omen_cursor_u64le(&c, &s->off[i]);
+		omen_cursor_u32le(&c, &s->len[i]);
+		omen_cursor_u32le(&c, &s->crc[i]);
+		omen_cursor_u64le(&c, &v64);
+		omen_cursor_u32le(&c, &flags);
+		omen_cursor_u32le(&c, &pad);
+		for (j = 0; j < OMEN_NMETRICS; j++) {
+			omen_cursor_u32le(&c, &v);
+			en->metrics[j] = u2f(v);
+		}
+		if (c.err)
+			IBAD("index out of bounds");
+		lab = (int8_t)(uint8_t)(flags & 0xff);
+		if (s->off[i] != prev_end || s->len[i] % 4 || s->len[i] < SH_FIXED * 4 ||
+			s->len[i] > xoff - s->off[i] || pad || (flags >> 24) ||
+			lab < -1 || lab > 1 || ((flags >> 8) & 0xff) > 1 || ((flags >> 16) & 0xff) > 1)
+			IBAD("bad index entry");
+		prev_end = s->off[i] + (s->len[i] + 7u) / 8u * 8u;
+		en->time = (int64_t)v64;
+		en->label = lab;
+		en->is_fix = (int8_t)((flags >> 8) & 0xff);
+		en->capped = (uint8_t)((flags >> 16) & 0xff);
+	}
+	if (prev_end != xoff)
+		IBAD("samples and index disagree");
+	return 0;
+}
+#undef IBAD
+
 #define BAD(why) do { reason = why; goto bad; } while (0)
 
-/* Over 120 lines: not split yet (issue 14, item 4, left for the next pass);
- *   one bounded read of a shard, check after check, each with its message. */
+/* One bounded read of a shard, check after check, each with its message. */
 int omen_shard_open(omen_shard **out, const char *path)
 {
 	omen_shard *s = calloc(1, sizeof(*s));
@@ -272,11 +375,10 @@ int omen_shard_open(omen_shard **out, const char *path)
 	const char *reason = NULL;
 	struct stat st;
 	omen_cursor c;
-	const void *p;
-	uint64_t n, xoff, v64, prev_end = SH_HDR;
-	uint32_t v, crc, want[8] = {0}, got[8];
-	size_t hilen, i;
-	int e, j;
+	uint64_t n, xoff;
+	uint32_t crc;
+	size_t hilen;
+	int e;
 
 	*out = NULL;
 	if (!s)
@@ -310,38 +412,8 @@ int omen_shard_open(omen_shard **out, const char *path)
 	}
 	if (pread_all(s->fd, hi, SH_HDR, 0))
 		BAD("cannot read the header");
-	omen_cursor_init(&c, hi, SH_HDR);
-	if (omen_cursor_bytes(&c, &p, 8) || memcmp(p, SH_MAGIC, 8))
-		BAD("not a shard");
-	if (omen_cursor_u32le(&c, &v) || v != OMEN_SHARD_VERSION)
-		BAD("unsupported version");
-	omen_cursor_u32le(&c, &v);
-	omen_cursor_u64le(&c, &n);
-	omen_cursor_u64le(&c, &xoff);
-	if (xoff < SH_HDR || xoff % 8 || xoff > (uint64_t)st.st_size ||
-		n > ((uint64_t)st.st_size - xoff) / SH_IDX ||
-		xoff + n * SH_IDX + 4 != (uint64_t)st.st_size)
-		BAD("index out of bounds");
-	for (j = 0; j < 8; j++)
-		omen_cursor_u32le(&c, &got[j]);
-	want[4] = OMEN_NMETRICS; want[5] = OMEN_NFACTS; want[6] = OMEN_VOCAB; want[7] = OMEN_MSG_VOCAB;
-	for (j = 0; j < 4; j++)
-		if (got[j] == 0 || got[j] > INT32_MAX)
-			BAD("bad caps");
-	for (j = 4; j < 8; j++)
-		if (got[j] != want[j])
-			BAD("written with other metrics, file facts or vocabularies");
-	s->caps.max_files = (int32_t)got[0];
-	s->caps.max_hunks_per_file = (int32_t)got[1];
-	s->caps.max_tokens_per_hunk = (int32_t)got[2];
-	s->caps.max_msg_tokens = (int32_t)got[3];
-	if (omen_cursor_bytes(&c, &p, OMEN_OID_HEX))
-		BAD("too short");
-	if (*(const unsigned char *)p) {
-		if (!is_hex40(p))
-			BAD("bad tip");
-		memcpy(s->tip, p, OMEN_OID_HEX);
-	}
+	if ((reason = parse_header(s, &n, &xoff, hi, (uint64_t)st.st_size)))
+		goto bad;
 	/* then the index and the trailer, checked together with the header */
 	hilen = (size_t)(n * SH_IDX + 4);
 	{
@@ -357,45 +429,10 @@ int omen_shard_open(omen_shard **out, const char *path)
 	omen_cursor_init(&c, hi, SH_HDR + hilen);
 	if (omen_cursor_tail_u32le(&c, &crc) || crc != omen_crc32(0, hi, SH_HDR + hilen - 4))
 		BAD("bad checksum");
-	s->n = (size_t)n;
-	s->e = calloc(s->n ? s->n : 1, sizeof(*s->e));
-	s->off = calloc(s->n ? s->n : 1, sizeof(*s->off));
-	s->len = calloc(s->n ? s->n : 1, sizeof(*s->len));
-	s->crc = calloc(s->n ? s->n : 1, sizeof(*s->crc));
-	if (!s->e || !s->off || !s->len || !s->crc) {
-		e = omen_error_set(OMEN_ENOMEM, "out of memory");
+	if ((e = parse_index(s, &reason, hi + SH_HDR, n, xoff)) < 0)
 		goto fail;
-	}
-	omen_cursor_init(&c, hi + SH_HDR, hilen - 4);
-	for (i = 0; i < s->n; i++) {
-		omen_shard_entry *en = &s->e[i];
-		uint32_t flags, pad;
-		int8_t lab;
-		omen_cursor_u64le(&c, &s->off[i]);
-		omen_cursor_u32le(&c, &s->len[i]);
-		omen_cursor_u32le(&c, &s->crc[i]);
-		omen_cursor_u64le(&c, &v64);
-		omen_cursor_u32le(&c, &flags);
-		omen_cursor_u32le(&c, &pad);
-		for (j = 0; j < OMEN_NMETRICS; j++) {
-			omen_cursor_u32le(&c, &v);
-			en->metrics[j] = u2f(v);
-		}
-		if (c.err)
-			BAD("index out of bounds");
-		lab = (int8_t)(uint8_t)(flags & 0xff);
-		if (s->off[i] != prev_end || s->len[i] % 4 || s->len[i] < SH_FIXED * 4 ||
-			s->len[i] > xoff - s->off[i] || pad || (flags >> 24) ||
-			lab < -1 || lab > 1 || ((flags >> 8) & 0xff) > 1 || ((flags >> 16) & 0xff) > 1)
-			BAD("bad index entry");
-		prev_end = s->off[i] + (s->len[i] + 7u) / 8u * 8u;
-		en->time = (int64_t)v64;
-		en->label = lab;
-		en->is_fix = (int8_t)((flags >> 8) & 0xff);
-		en->capped = (uint8_t)((flags >> 16) & 0xff);
-	}
-	if (prev_end != xoff)
-		BAD("samples and index disagree");
+	if (e)
+		goto bad;
 	free(hi);
 	*out = s;
 	return 0;
